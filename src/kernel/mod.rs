@@ -1,0 +1,3 @@
+//! One trajectory at a time: exact and approximate stochastic kernels.
+
+pub mod select;

@@ -1,0 +1,7 @@
+//! copyloop: stochastic molecular-level simulation of feedback loops, reconciled with the
+//! deterministic organ-level description.
+//!
+//! Data flows one way: text → [`network`] → kernels → ensemble → reconcile → report.
+
+pub mod kernel;
+pub mod stats;

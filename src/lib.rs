@@ -3,5 +3,10 @@
 //!
 //! Data flows one way: text → [`network`] → kernels → ensemble → reconcile → report.
 
+pub mod error;
 pub mod kernel;
+pub mod network;
 pub mod stats;
+
+pub use error::{Error, Result};
+pub use network::Network;

@@ -1,0 +1,938 @@
+//! Text → syntax tree for the `.crn` network language (CONTRACT §1).
+//!
+//! ```text
+//! volume   <number> <volume-unit>
+//! species  <name> = <amount> [clamped]
+//! param    <name> = <number> [<unit>]
+//! step <label> <side> -> <side>  @ <rate>
+//! step <label> <side> <-> <side> @ <rate>, <rate>
+//! ```
+//!
+//! Every node keeps its [`Span`] so the compiler can point at it. Numbers with units are turned
+//! into canonical [`Quantity`] values here; what they mean (and whether their dimension fits) is
+//! the compiler's business. Each line is parsed on its own and all errors are collected, so one
+//! run of `check` shows every broken line.
+
+use super::lexer::{lex_line, Tok, Token};
+use super::units::{self, Dim, Quantity};
+use crate::error::{Diagnostic, Span};
+
+/// A parsed network file.
+#[derive(Clone, Debug)]
+pub struct Ast {
+    pub file: String,
+    pub source: String,
+    pub items: Vec<Item>,
+}
+
+#[derive(Clone, Debug, PartialEq)]
+pub struct Name {
+    pub text: String,
+    pub span: Span,
+}
+
+/// A number with its unit, already in canonical units.
+#[derive(Clone, Debug, PartialEq)]
+pub struct Literal {
+    pub quantity: Quantity,
+    /// True when no unit was written.
+    pub bare: bool,
+    /// Factor from the written unit to canonical units (1 when bare), so that a value given
+    /// later without a unit (a sweep point) can be read in the unit the file used.
+    pub unit_factor: f64,
+    pub span: Span,
+}
+
+#[derive(Clone, Debug, PartialEq)]
+pub enum Item {
+    Volume(Literal),
+    Species {
+        name: Name,
+        amount: Literal,
+        clamped: bool,
+    },
+    Param {
+        name: Name,
+        value: Literal,
+    },
+    Step(Step),
+}
+
+#[derive(Clone, Debug, PartialEq)]
+pub struct Step {
+    pub label: Name,
+    pub reactants: Vec<Term>,
+    pub products: Vec<Term>,
+    pub reversible: bool,
+    pub forward: Rate,
+    pub reverse: Option<Rate>,
+    pub span: Span,
+}
+
+/// `[<integer>] <name>` on one side of a step.
+#[derive(Clone, Debug, PartialEq)]
+pub struct Term {
+    pub coefficient: u32,
+    pub species: Name,
+    pub span: Span,
+}
+
+/// A constant operand: a param name or a literal.
+#[derive(Clone, Debug, PartialEq)]
+pub enum Operand {
+    Param(Name),
+    Literal(Literal),
+}
+
+impl Operand {
+    pub fn span(&self) -> Span {
+        match self {
+            Operand::Param(n) => n.span,
+            Operand::Literal(l) => l.span,
+        }
+    }
+}
+
+#[derive(Clone, Debug, PartialEq)]
+pub enum Rate {
+    /// A mass-action constant.
+    Constant(Operand),
+    /// `half-life <time>`: k = ln 2 / t½ for a first-order step.
+    HalfLife(Operand, Span),
+    /// `kd <concentration>` on the reverse of a `<->` step: k_rev = k_fwd·K_d.
+    Kd(Operand, Span),
+    /// `law <expr>`: the reaction's whole rate.
+    Law(Expr),
+}
+
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+pub enum BinOp {
+    Add,
+    Sub,
+    Mul,
+    Div,
+    Pow,
+}
+
+#[derive(Clone, Debug, PartialEq)]
+pub enum Expr {
+    Number(Literal),
+    Name(Name),
+    Neg(Box<Expr>, Span),
+    Binary(BinOp, Box<Expr>, Box<Expr>, Span),
+    Call(Name, Vec<Expr>, Span),
+}
+
+impl Expr {
+    pub fn span(&self) -> Span {
+        match self {
+            Expr::Number(l) => l.span,
+            Expr::Name(n) => n.span,
+            Expr::Neg(_, s) | Expr::Binary(_, _, _, s) | Expr::Call(_, _, s) => *s,
+        }
+    }
+}
+
+/// Words with a fixed meaning in the language; they cannot name species, params or steps.
+pub const KEYWORDS: &[&str] = &[
+    "volume", "species", "param", "step", "law", "kd", "half", "life", "clamped",
+];
+
+/// Parses a whole file. `bytes` may be anything: invalid UTF-8 is reported with its position.
+pub fn parse(file: &str, bytes: &[u8]) -> Result<Ast, Vec<Diagnostic>> {
+    let source = match std::str::from_utf8(bytes) {
+        Ok(s) => s.to_string(),
+        Err(e) => {
+            let good = &bytes[..e.valid_up_to()];
+            let line = good.iter().filter(|&&b| b == b'\n').count() as u32 + 1;
+            let line_start = good.iter().rposition(|&b| b == b'\n').map_or(0, |p| p + 1);
+            let col = String::from_utf8_lossy(&good[line_start..]).chars().count() as u32 + 1;
+            let lossy = String::from_utf8_lossy(bytes).into_owned();
+            return Err(vec![Diagnostic::at(
+                file,
+                &lossy,
+                Span::new(line, col, 1),
+                "this file is not UTF-8 text",
+            )
+            .with_help(
+                "a network file is plain text; check that the right file was given",
+            )]);
+        }
+    };
+    let mut items = Vec::new();
+    let mut errors = Vec::new();
+    for (i, text) in source.lines().enumerate() {
+        let line = i as u32 + 1;
+        let tokens = match lex_line(text, line) {
+            Ok(t) => t,
+            Err(e) => {
+                errors.push(Diagnostic::at(file, &source, e.span, e.message));
+                continue;
+            }
+        };
+        if tokens.is_empty() {
+            continue;
+        }
+        let mut p = LineParser {
+            file,
+            source: &source,
+            tokens: &tokens,
+            pos: 0,
+            line,
+            end_col: text.chars().count() as u32 + 1,
+        };
+        match p.item() {
+            Ok(item) => items.push(item),
+            Err(d) => errors.push(*d),
+        }
+    }
+    if items.is_empty() && errors.is_empty() {
+        let d = Diagnostic::at(
+            file,
+            &source,
+            Span::new(1, 1, 1),
+            "the file has no statements",
+        )
+        .with_help("a network needs at least one `species` and one `step` line");
+        errors.push(d);
+    }
+    if errors.is_empty() {
+        Ok(Ast {
+            file: file.to_string(),
+            source,
+            items,
+        })
+    } else {
+        Err(errors)
+    }
+}
+
+type PResult<T> = Result<T, Box<Diagnostic>>;
+
+struct LineParser<'a> {
+    file: &'a str,
+    source: &'a str,
+    tokens: &'a [Token],
+    pos: usize,
+    line: u32,
+    end_col: u32,
+}
+
+impl<'a> LineParser<'a> {
+    fn peek(&self) -> Option<&'a Token> {
+        self.tokens.get(self.pos)
+    }
+
+    fn peek_at(&self, k: usize) -> Option<&'a Token> {
+        self.tokens.get(self.pos + k)
+    }
+
+    fn next(&mut self) -> Option<&'a Token> {
+        let t = self.tokens.get(self.pos);
+        self.pos += 1;
+        t
+    }
+
+    fn here(&self) -> Span {
+        match self.peek() {
+            Some(t) => t.span,
+            None => Span::new(self.line, self.end_col, 1),
+        }
+    }
+
+    fn error(&self, span: Span, message: impl Into<String>) -> Box<Diagnostic> {
+        Box::new(Diagnostic::at(self.file, self.source, span, message))
+    }
+
+    /// "expected X, found Y" at the current token.
+    fn expected(&self, what: &str) -> Box<Diagnostic> {
+        let found = match self.peek() {
+            Some(t) => t.tok.describe(),
+            None => "the end of the line".to_string(),
+        };
+        self.error(self.here(), format!("expected {what}, found {found}"))
+    }
+
+    fn at_ident(&self, word: &str) -> bool {
+        matches!(self.peek(), Some(Token { tok: Tok::Ident(s), .. }) if s == word)
+    }
+
+    fn eat(&mut self, tok: &Tok) -> bool {
+        if self.peek().map(|t| &t.tok) == Some(tok) {
+            self.pos += 1;
+            true
+        } else {
+            false
+        }
+    }
+
+    fn expect(&mut self, tok: &Tok, what: &str) -> PResult<Span> {
+        match self.peek() {
+            Some(t) if &t.tok == tok => {
+                self.pos += 1;
+                Ok(t.span)
+            }
+            _ => Err(self.expected(what)),
+        }
+    }
+
+    fn end(&self) -> PResult<()> {
+        match self.peek() {
+            None => Ok(()),
+            Some(_) => Err(self.expected("the end of the line")),
+        }
+    }
+
+    fn item(&mut self) -> PResult<Item> {
+        let head = self.next().expect("non-empty line");
+        let word = match &head.tok {
+            Tok::Ident(w) => w.as_str(),
+            _ => "",
+        };
+        let item = match word {
+            "volume" => {
+                let lit = self.literal("a volume such as `1 pL`")?;
+                Item::Volume(lit)
+            }
+            "species" => {
+                let name = self.declared_name("a species name")?;
+                self.expect(&Tok::Eq, "`=` after the species name")?;
+                let amount = self.literal("an amount such as `500 molecules` or `2 nM`")?;
+                let clamped = if self.at_ident("clamped") {
+                    self.pos += 1;
+                    true
+                } else {
+                    false
+                };
+                Item::Species {
+                    name,
+                    amount,
+                    clamped,
+                }
+            }
+            "param" => {
+                let name = self.declared_name("a param name")?;
+                self.expect(&Tok::Eq, "`=` after the param name")?;
+                let value = self.literal("a number with an optional unit")?;
+                Item::Param { name, value }
+            }
+            "step" => Item::Step(self.step(head.span)?),
+            _ => {
+                return Err(self
+                    .error(
+                        head.span,
+                        format!(
+                            "expected `volume`, `species`, `param` or `step`, found {}",
+                            head.tok.describe()
+                        ),
+                    )
+                    .with_help_boxed("each line starts with one of these four words"))
+            }
+        };
+        self.end()?;
+        Ok(item)
+    }
+
+    /// A name being declared: must match `[A-Za-z_][A-Za-z0-9_]*` and not be a keyword, a unit
+    /// or a function.
+    fn declared_name(&mut self, what: &str) -> PResult<Name> {
+        let t = self.peek();
+        let Some(Token {
+            tok: Tok::Ident(text),
+            span,
+        }) = t
+        else {
+            return Err(self.expected(what));
+        };
+        self.pos += 1;
+        check_name(text).map_err(|m| self.error(*span, m))?;
+        Ok(Name {
+            text: text.clone(),
+            span: *span,
+        })
+    }
+
+    fn name_ref(&mut self, what: &str) -> PResult<Name> {
+        match self.peek() {
+            Some(Token {
+                tok: Tok::Ident(text),
+                span,
+            }) => {
+                self.pos += 1;
+                Ok(Name {
+                    text: text.clone(),
+                    span: *span,
+                })
+            }
+            _ => Err(self.expected(what)),
+        }
+    }
+
+    fn step(&mut self, head: Span) -> PResult<Step> {
+        let label = self.declared_name("a step label")?;
+        let reactants = self.side()?;
+        let reversible = match self.peek().map(|t| &t.tok) {
+            Some(Tok::Arrow) => false,
+            Some(Tok::BiArrow) => true,
+            _ => return Err(self.expected("`->` or `<->`")),
+        };
+        self.pos += 1;
+        let products = self.side()?;
+        if !self.eat(&Tok::At) {
+            return Err(self
+                .expected("`@` and the rate")
+                .with_help_boxed("a step reads `step <label> A + B -> C @ <rate>`"));
+        }
+        let forward = self.rate(false)?;
+        let reverse = if reversible {
+            if !self.eat(&Tok::Comma) {
+                return Err(self.expected("`,` and the reverse rate of the `<->` step"));
+            }
+            Some(self.rate(true)?)
+        } else {
+            if self.peek().map(|t| &t.tok) == Some(&Tok::Comma) {
+                return Err(self
+                    .error(
+                        self.here(),
+                        "a second rate is given for a one-way `->` step",
+                    )
+                    .with_help_boxed("write `<->` for a reversible step"));
+            }
+            None
+        };
+        let last = self.tokens.last().map_or(head, |t| t.span);
+        Ok(Step {
+            label,
+            reactants,
+            products,
+            reversible,
+            forward,
+            reverse,
+            span: head.to(last),
+        })
+    }
+
+    /// `0` or `[n] A + [m] B + …`.
+    fn side(&mut self) -> PResult<Vec<Term>> {
+        if let Some(Token {
+            tok: Tok::Number(v, _),
+            ..
+        }) = self.peek()
+        {
+            let followed_by_name = matches!(
+                self.peek_at(1),
+                Some(Token {
+                    tok: Tok::Ident(_),
+                    ..
+                })
+            );
+            if *v == 0.0 && !followed_by_name {
+                self.pos += 1;
+                return Ok(Vec::new());
+            }
+        }
+        let mut terms = vec![self.term()?];
+        while self.eat(&Tok::Plus) {
+            terms.push(self.term()?);
+        }
+        Ok(terms)
+    }
+
+    fn term(&mut self) -> PResult<Term> {
+        let start = self.here();
+        let mut coefficient = 1;
+        if let Some(Token {
+            tok: Tok::Number(v, text),
+            span,
+        }) = self.peek()
+        {
+            if v.fract() != 0.0 || *v < 1.0 || *v > 1000.0 {
+                return Err(self
+                    .error(*span, format!("`{text}` is not a valid coefficient"))
+                    .with_help_boxed("a coefficient is a whole number from 1 up, as in `2 A`"));
+            }
+            coefficient = *v as u32;
+            self.pos += 1;
+        }
+        let species = self.name_ref("a species name (or `0` for nothing)")?;
+        Ok(Term {
+            coefficient,
+            span: start.to(species.span),
+            species,
+        })
+    }
+
+    fn rate(&mut self, reverse: bool) -> PResult<Rate> {
+        if self.at_ident("law") {
+            self.pos += 1;
+            return Ok(Rate::Law(self.expr()?));
+        }
+        if self.at_ident("half")
+            && self.peek_at(1).map(|t| &t.tok) == Some(&Tok::Minus)
+            && matches!(self.peek_at(2), Some(Token { tok: Tok::Ident(w), .. }) if w == "life")
+        {
+            let span = self.here().to(self.peek_at(2).unwrap().span);
+            self.pos += 3;
+            return Ok(Rate::HalfLife(
+                self.operand("a half-life such as `40 min`")?,
+                span,
+            ));
+        }
+        if self.at_ident("kd") {
+            let span = self.here();
+            if !reverse {
+                return Err(self
+                    .error(span, "`kd` can only give the reverse rate of a `<->` step")
+                    .with_help_boxed("write `step b A + B <-> C @ kon, kd 3 nM`"));
+            }
+            self.pos += 1;
+            return Ok(Rate::Kd(
+                self.operand("a dissociation constant such as `3 nM`")?,
+                span,
+            ));
+        }
+        Ok(Rate::Constant(self.operand(
+            "a rate: a param name, a number with a unit, `half-life <time>` or `law <expression>`",
+        )?))
+    }
+
+    fn operand(&mut self, what: &str) -> PResult<Operand> {
+        match self.peek().map(|t| &t.tok) {
+            Some(Tok::Ident(_)) => Ok(Operand::Param(self.name_ref(what)?)),
+            Some(Tok::Number(..)) | Some(Tok::Minus) => Ok(Operand::Literal(self.literal(what)?)),
+            _ => Err(self.expected(what)),
+        }
+    }
+
+    /// `[-]<number> [<unit>]` with the value converted to canonical units.
+    fn literal(&mut self, what: &str) -> PResult<Literal> {
+        let start = self.here();
+        let negative = self.eat(&Tok::Minus);
+        let Some(Token {
+            tok: Tok::Number(v, text),
+            span,
+        }) = self.peek()
+        else {
+            return Err(self.expected(what));
+        };
+        self.pos += 1;
+        if !v.is_finite() {
+            return Err(self.error(
+                *span,
+                format!("`{text}` is too large to be a finite number"),
+            ));
+        }
+        let (factor, dim, bare, end) = self.unit(*span)?;
+        let value = if negative { -v } else { *v } * factor;
+        Ok(Literal {
+            quantity: Quantity::new(value, dim),
+            bare,
+            unit_factor: factor,
+            span: start.to(end),
+        })
+    }
+
+    /// A unit after a number: factors joined by `*`, `/` or a space, each with an optional
+    /// integer power `^n`. Returns (factor, dimension, no-unit-written, span of the last token).
+    fn unit(&mut self, number: Span) -> PResult<(f64, Dim, bool, Span)> {
+        let mut factor = 1.0;
+        let mut dim = Dim::NONE;
+        let mut bare = true;
+        let mut end = number;
+        loop {
+            let (sign, name_at) = match self.peek().map(|t| &t.tok) {
+                Some(Tok::Slash) | Some(Tok::Star) => {
+                    let sign = if self.peek().unwrap().tok == Tok::Slash {
+                        -1
+                    } else {
+                        1
+                    };
+                    match self.peek_at(1) {
+                        Some(Token {
+                            tok: Tok::Ident(w), ..
+                        }) if units::is_unit(w) => (sign, 1),
+                        Some(Token {
+                            tok: Tok::Ident(w),
+                            span,
+                        }) if !self.in_expression() => {
+                            return Err(self
+                                .error(*span, format!("unknown unit `{w}`"))
+                                .with_help_boxed(UNIT_HELP))
+                        }
+                        _ => break,
+                    }
+                }
+                Some(Tok::Ident(w)) if units::is_unit(w) => (1, 0),
+                _ => break,
+            };
+            self.pos += name_at;
+            let t = self.next().unwrap();
+            let Tok::Ident(w) = &t.tok else {
+                unreachable!()
+            };
+            let (f, d) = units::unit(w).unwrap();
+            let mut power = 1i32;
+            end = t.span;
+            if self.peek().map(|t| &t.tok) == Some(&Tok::Caret) {
+                self.pos += 1;
+                let neg = self.eat(&Tok::Minus);
+                match self.peek() {
+                    Some(Token {
+                        tok: Tok::Number(p, _),
+                        span,
+                    }) if p.fract() == 0.0 && *p <= 9.0 => {
+                        power = if neg { -(*p as i32) } else { *p as i32 };
+                        end = *span;
+                        self.pos += 1;
+                    }
+                    _ => return Err(self.expected("a small whole-number power such as `^-1`")),
+                }
+            }
+            let power = power * sign;
+            factor *= f.powi(power);
+            dim = dim.times(d.powi(power));
+            bare = false;
+        }
+        if let Some(Token {
+            tok: Tok::Ident(w),
+            span,
+        }) = self.peek()
+        {
+            if !self.in_expression() && !KEYWORDS.contains(&w.as_str()) {
+                let msg = if bare {
+                    format!("unknown unit `{w}`")
+                } else {
+                    format!("unknown unit `{w}` after `{}`", self.unit_text(number, end))
+                };
+                return Err(self.error(*span, msg).with_help_boxed(UNIT_HELP));
+            }
+        }
+        Ok((factor, dim, bare, end))
+    }
+
+    fn in_expression(&self) -> bool {
+        self.tokens[..self.pos]
+            .iter()
+            .any(|t| matches!(&t.tok, Tok::Ident(w) if w == "law"))
+    }
+
+    fn unit_text(&self, from: Span, to: Span) -> String {
+        let line = self
+            .source
+            .lines()
+            .nth(self.line as usize - 1)
+            .unwrap_or("");
+        line.chars()
+            .skip((from.col + from.len - 1) as usize)
+            .take((to.col + to.len).saturating_sub(from.col + from.len) as usize)
+            .collect::<String>()
+            .trim()
+            .to_string()
+    }
+
+    // ---- expressions: precedence climbing over + - * / ^ and unary minus ----
+
+    fn expr(&mut self) -> PResult<Expr> {
+        self.expr_depth(0)
+    }
+
+    fn expr_depth(&mut self, depth: u32) -> PResult<Expr> {
+        if depth > 64 {
+            return Err(self.error(self.here(), "the expression is nested too deeply"));
+        }
+        let mut lhs = self.term_expr(depth)?;
+        loop {
+            let op = match self.peek().map(|t| &t.tok) {
+                Some(Tok::Plus) => BinOp::Add,
+                Some(Tok::Minus) => BinOp::Sub,
+                _ => break,
+            };
+            self.pos += 1;
+            let rhs = self.term_expr(depth)?;
+            let span = lhs.span().to(rhs.span());
+            lhs = Expr::Binary(op, Box::new(lhs), Box::new(rhs), span);
+        }
+        Ok(lhs)
+    }
+
+    fn term_expr(&mut self, depth: u32) -> PResult<Expr> {
+        let mut lhs = self.unary(depth)?;
+        loop {
+            let op = match self.peek().map(|t| &t.tok) {
+                Some(Tok::Star) => BinOp::Mul,
+                Some(Tok::Slash) => BinOp::Div,
+                _ => break,
+            };
+            self.pos += 1;
+            let rhs = self.unary(depth)?;
+            let span = lhs.span().to(rhs.span());
+            lhs = Expr::Binary(op, Box::new(lhs), Box::new(rhs), span);
+        }
+        Ok(lhs)
+    }
+
+    fn unary(&mut self, depth: u32) -> PResult<Expr> {
+        if let Some(t) = self.peek() {
+            if t.tok == Tok::Minus {
+                self.pos += 1;
+                let inner = self.unary(depth + 1)?;
+                let span = t.span.to(inner.span());
+                return Ok(Expr::Neg(Box::new(inner), span));
+            }
+        }
+        let base = self.primary(depth)?;
+        if self.eat(&Tok::Caret) {
+            let exponent = self.unary(depth + 1)?;
+            let span = base.span().to(exponent.span());
+            return Ok(Expr::Binary(
+                BinOp::Pow,
+                Box::new(base),
+                Box::new(exponent),
+                span,
+            ));
+        }
+        Ok(base)
+    }
+
+    fn primary(&mut self, depth: u32) -> PResult<Expr> {
+        match self.peek().map(|t| &t.tok) {
+            Some(Tok::Number(..)) => Ok(Expr::Number(self.literal("a number")?)),
+            Some(Tok::LParen) => {
+                let open = self.here();
+                self.pos += 1;
+                let inner = self.expr_depth(depth + 1)?;
+                if !self.eat(&Tok::RParen) {
+                    return Err(self
+                        .expected("`)`")
+                        .with_help_boxed(format!("the `(` at column {} is not closed", open.col)));
+                }
+                Ok(inner)
+            }
+            Some(Tok::Ident(_)) => {
+                let name = self.name_ref("a name")?;
+                if self.peek().map(|t| &t.tok) == Some(&Tok::LParen) {
+                    let open = self.here();
+                    self.pos += 1;
+                    let mut args = vec![self.expr_depth(depth + 1)?];
+                    while self.eat(&Tok::Comma) {
+                        args.push(self.expr_depth(depth + 1)?);
+                    }
+                    let close = self.here();
+                    if !self.eat(&Tok::RParen) {
+                        return Err(self.expected("`,` or `)`").with_help_boxed(format!(
+                            "the `(` of `{}` at column {} is not closed",
+                            name.text, open.col
+                        )));
+                    }
+                    let span = name.span.to(close);
+                    return Ok(Expr::Call(name, args, span));
+                }
+                Ok(Expr::Name(name))
+            }
+            Some(Tok::RParen) => Err(self
+                .expected("a number, a name or `(`")
+                .with_help_boxed("this `)` has no matching `(`")),
+            _ => Err(self.expected("a number, a name or `(`")),
+        }
+    }
+}
+
+const UNIT_HELP: &str = "units are M mM uM µM nM pM fM, molecules, L mL uL µL nL pL fL um3, \
+                         s min h, joined by `*`, `/` or a space, with powers like `^-1`";
+
+trait WithHelp {
+    fn with_help_boxed(self, help: impl Into<String>) -> Self;
+}
+
+impl WithHelp for Box<Diagnostic> {
+    fn with_help_boxed(mut self, help: impl Into<String>) -> Self {
+        self.help = Some(help.into());
+        self
+    }
+}
+
+/// Checks a declared name: `[A-Za-z_][A-Za-z0-9_]*` and not a keyword. A name may equal a
+/// unit (`M`, `L`, `s`): right after a number that word reads as the unit, elsewhere as the name.
+pub fn check_name(text: &str) -> Result<(), String> {
+    let mut chars = text.chars();
+    let valid = chars
+        .next()
+        .is_some_and(|c| c.is_ascii_alphabetic() || c == '_')
+        && chars.all(|c| c.is_ascii_alphanumeric() || c == '_');
+    if !valid {
+        return Err(format!(
+            "`{text}` is not a valid name: names are letters, digits and `_`, starting with a letter or `_`"
+        ));
+    }
+    if KEYWORDS.contains(&text) {
+        return Err(format!(
+            "`{text}` is a keyword of the language and cannot be a name"
+        ));
+    }
+    Ok(())
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn ok(src: &str) -> Ast {
+        parse("t.crn", src.as_bytes()).unwrap_or_else(|e| panic!("{}", e[0]))
+    }
+
+    fn err(src: &str) -> Diagnostic {
+        parse("t.crn", src.as_bytes()).unwrap_err().remove(0)
+    }
+
+    #[test]
+    fn declarations() {
+        let ast = ok("volume 2 pL\nspecies H = 3 nM clamped\nparam k = 2 /min # c\n\n# x\n");
+        assert_eq!(ast.items.len(), 3);
+        match &ast.items[0] {
+            Item::Volume(l) => assert!((l.quantity.value - 2e-12).abs() < 1e-27),
+            _ => panic!(),
+        }
+        match &ast.items[1] {
+            Item::Species {
+                amount, clamped, ..
+            } => {
+                assert!(*clamped);
+                assert_eq!(amount.quantity.dim, Dim::CONC);
+            }
+            _ => panic!(),
+        }
+        match &ast.items[2] {
+            Item::Param { value, .. } => {
+                assert!((value.quantity.value - 2.0 / 60.0).abs() < 1e-15);
+                assert_eq!(value.quantity.dim, Dim::new(0, -1, 0, 0));
+            }
+            _ => panic!(),
+        }
+    }
+
+    #[test]
+    fn unit_forms() {
+        let ast = ok("param a = 1 /M/s\nparam b = 1 M^-1 s^-1\nparam c = 3 nM/s\nparam d = 2 molecules/s\nparam e = 4 /nM/min\nparam f = 1 M*s\n");
+        let dims: Vec<Dim> = ast
+            .items
+            .iter()
+            .map(|i| match i {
+                Item::Param { value, .. } => value.quantity.dim,
+                _ => panic!(),
+            })
+            .collect();
+        assert_eq!(dims[0], Dim::new(-1, -1, 0, 0));
+        assert_eq!(dims[1], Dim::new(-1, -1, 0, 0));
+        assert_eq!(dims[2], Dim::new(1, -1, 0, 0));
+        assert_eq!(dims[3], Dim::new(0, -1, 1, 0));
+        assert_eq!(dims[4], Dim::new(-1, -1, 0, 0));
+        assert_eq!(dims[5], Dim::new(1, 1, 0, 0));
+        match &ast.items[4] {
+            Item::Param { value, .. } => {
+                assert!((value.quantity.value - 4.0 / (1e-9 * 60.0)).abs() < 1e-3)
+            }
+            _ => panic!(),
+        }
+    }
+
+    #[test]
+    fn steps() {
+        let ast = ok("step bind E + S -> C @ kon\nstep flip A <-> B @ 2 /s, 3 /s\nstep d 2 A + B -> 0 @ 1\nstep s 0 -> H @ law vmax * sat(R, kd1) * inhib(H, ki)\nstep c H -> 0 @ half-life 40 min\nstep carry H + G <-> HG @ 2e6 /M/s, kd 3 nM\n");
+        let steps: Vec<&Step> = ast
+            .items
+            .iter()
+            .map(|i| match i {
+                Item::Step(s) => s,
+                _ => panic!(),
+            })
+            .collect();
+        assert_eq!(steps[0].reactants.len(), 2);
+        assert!(steps[1].reversible);
+        assert_eq!(steps[2].reactants[0].coefficient, 2);
+        assert!(steps[2].products.is_empty());
+        assert!(steps[3].reactants.is_empty());
+        assert!(matches!(
+            steps[3].forward,
+            Rate::Law(Expr::Binary(BinOp::Mul, ..))
+        ));
+        match &steps[4].forward {
+            Rate::HalfLife(Operand::Literal(l), _) => assert_eq!(l.quantity.value, 2400.0),
+            _ => panic!(),
+        }
+        assert!(matches!(steps[5].reverse, Some(Rate::Kd(..))));
+    }
+
+    #[test]
+    fn law_with_commas_in_reversible_step() {
+        let ast = ok("step r A <-> B @ law min(A, B) * 2 /s, law max(A, 1 nM)/s\n");
+        match &ast.items[0] {
+            Item::Step(s) => {
+                assert!(matches!(s.forward, Rate::Law(_)));
+                assert!(matches!(s.reverse, Some(Rate::Law(_))));
+            }
+            _ => panic!(),
+        }
+    }
+
+    #[test]
+    fn expression_precedence() {
+        let ast = ok("step r 0 -> A @ law 1 + 2 * 3 ^ 2 / s\n");
+        let Item::Step(s) = &ast.items[0] else {
+            panic!()
+        };
+        let Rate::Law(Expr::Binary(BinOp::Add, _, rhs, _)) = &s.forward else {
+            panic!("{:?}", s.forward)
+        };
+        assert!(matches!(**rhs, Expr::Binary(BinOp::Mul, ..)));
+    }
+
+    #[test]
+    fn negative_cases_have_positions() {
+        let d = err("step bind E + S -> C kon\n");
+        assert_eq!((d.span.line, d.span.col), (1, 22));
+        assert!(d.message.contains("expected `@`"));
+        let d = err("species A = 3 parsecs\n");
+        assert!(d.message.contains("unknown unit `parsecs`"));
+        assert_eq!(d.span.col, 15);
+        let d = err("step r 0 -> A @ law (1 + 2\n");
+        assert!(d.message.contains("expected `)`"));
+        let d = err("spieces A = 1\n");
+        assert!(d
+            .message
+            .contains("expected `volume`, `species`, `param` or `step`"));
+        let d = err("species 1A = 1\n");
+        assert!(d.message.contains("expected a species name"));
+        let d = err("species law = 1\n");
+        assert!(d.message.contains("keyword"));
+        let d = err("step a A -> B @ 1, 2\n");
+        assert!(d.message.contains("one-way"));
+        let d = err("step a A <-> B @ 1\n");
+        assert!(d.message.contains("reverse rate"));
+        let d = err("step a A -> B @ kd 3 nM\n");
+        assert!(d.message.contains("`kd` can only"));
+        let d = err("step a 1.5 A -> B @ 1\n");
+        assert!(d.message.contains("coefficient"));
+        let d = err("param k = 1e999\n");
+        assert!(d.message.contains("finite"));
+        let d = err("");
+        assert!(d.message.contains("no statements"));
+        let d = err("step a A B -> C @ 1\n");
+        assert!(d.message.contains("expected `->` or `<->`"));
+    }
+
+    #[test]
+    fn invalid_utf8_is_located() {
+        let d = parse("b.bin", b"species A = 1\nst\xffep")
+            .unwrap_err()
+            .remove(0);
+        assert_eq!((d.span.line, d.span.col), (2, 3));
+        assert!(d.message.contains("not UTF-8"));
+    }
+
+    #[test]
+    fn all_errors_are_collected() {
+        let e = parse("t.crn", b"foo\nbar\nspecies A = 1\n").unwrap_err();
+        assert_eq!(e.len(), 2);
+        assert_eq!(e[1].span.line, 2);
+    }
+}

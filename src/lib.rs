@@ -3,9 +3,11 @@
 //!
 //! Data flows one way: text → [`network`] → kernels → ensemble → reconcile → report.
 
+pub mod cli;
 pub mod error;
 pub mod kernel;
 pub mod network;
+pub mod report;
 pub mod stats;
 
 pub use error::{Error, Result};

@@ -2,7 +2,7 @@
 //! and carrier motifs.
 
 use super::parser::{Ast, Expr, Item, Operand, Rate};
-use super::{Kinetics, Network};
+use super::{units, Kinetics, Network};
 use crate::error::Diagnostic;
 
 /// Net stoichiometry S (species × reactions): products minus reactants.
@@ -418,11 +418,12 @@ fn names_in(e: &Expr, out: &mut Vec<String>) {
 /// Warns about params no step uses and species no step touches.
 pub fn usage_warnings(net: &mut Network, ast: &Ast) {
     let mut used: Vec<String> = Vec::new();
+    let mut in_laws: Vec<String> = Vec::new();
     for item in &ast.items {
         let Item::Step(s) = item else { continue };
         for rate in std::iter::once(&s.forward).chain(s.reverse.as_ref()) {
             match rate {
-                Rate::Law(e) => names_in(e, &mut used),
+                Rate::Law(e) => names_in(e, &mut in_laws),
                 Rate::Constant(Operand::Param(n))
                 | Rate::HalfLife(Operand::Param(n), _)
                 | Rate::Kd(Operand::Param(n), _) => used.push(n.text.clone()),
@@ -433,7 +434,27 @@ pub fn usage_warnings(net: &mut Network, ast: &Ast) {
             used.push(t.species.text.clone());
         }
     }
+    used.extend(in_laws.iter().cloned());
     let mut warnings = Vec::new();
+    in_laws.sort();
+    in_laws.dedup();
+    for name in in_laws.iter().filter(|n| units::is_unit(n)) {
+        let span = net
+            .species
+            .iter()
+            .map(|s| (&s.name, s.span))
+            .chain(net.params.iter().map(|p| (&p.name, p.span)))
+            .find(|(n, _)| *n == name)
+            .map(|(_, s)| s);
+        if let Some(span) = span {
+            warnings.push(Diagnostic::at(
+                &ast.file,
+                &ast.source,
+                span,
+                format!("`{name}` is also a unit: right after a number in a law it reads as the unit; write `2 * {name}` there to mean the name"),
+            ));
+        }
+    }
     for p in &net.params {
         if !used.contains(&p.name) {
             warnings.push(Diagnostic::at(

@@ -239,16 +239,6 @@ impl<'a> Compiler<'a> {
                 );
                 continue;
             }
-            if units::is_unit(&name.text) {
-                let d = self.diag(
-                    span,
-                    format!(
-                        "`{0}` is also a unit: right after a number in a law it reads as the unit; write `2 * {0}` to mean the name",
-                        name.text
-                    ),
-                );
-                self.warnings.push(d);
-            }
             match item {
                 Item::Species {
                     name,

@@ -1,0 +1,62 @@
+//! Command-line definitions (clap) and the thin glue from each command to the library.
+//!
+//! What the user typed lives here and nowhere else: each command turns its flags into the
+//! library's own option types, calls the library, and hands the result to `report`.
+
+mod check;
+
+use crate::error::Result;
+use clap::{Parser, Subcommand};
+
+const ABOUT: &str = "Stochastic molecular-level simulation of endocrine and pharmacological \
+feedback loops, reconciled with the deterministic (Langmuir / Michaelis-Menten) description.";
+
+const CAUTION: &str = "copyloop is a research instrument. Its output is not a basis for \
+diagnosis or treatment of any person; clinical decisions belong to licensed clinical practice.";
+
+#[derive(Debug, Parser)]
+#[command(name = "copyloop", version, about = ABOUT, long_about = None, after_help = CAUTION)]
+pub struct Cli {
+    #[command(subcommand)]
+    pub command: Command,
+}
+
+#[derive(Debug, Subcommand)]
+pub enum Command {
+    /// Compile a network and print species, reactions, stoichiometry, conservation laws and motifs
+    #[command(after_help = CAUTION)]
+    Check(check::CheckArgs),
+}
+
+/// Runs one parsed command line.
+pub fn run(cli: Cli) -> Result<()> {
+    match cli.command {
+        Command::Check(a) => check::run(&a),
+    }
+}
+
+/// Writes `text` to stdout, treating a closed pipe (`| head`) as success.
+pub(crate) fn print_stdout(text: &str) -> Result<()> {
+    use std::io::Write;
+    let mut out = std::io::stdout().lock();
+    match out.write_all(text.as_bytes()).and_then(|_| out.flush()) {
+        Err(e) if e.kind() != std::io::ErrorKind::BrokenPipe => Err(crate::Error::io("stdout", e)),
+        _ => Ok(()),
+    }
+}
+
+/// Prints a JSON document on stdout.
+pub(crate) fn print_json(value: &serde_json::Value) -> Result<()> {
+    let mut text = serde_json::to_string_pretty(value)
+        .map_err(|e| crate::Error::Internal(format!("JSON encoding failed: {e}")))?;
+    text.push('\n');
+    print_stdout(&text)
+}
+
+/// Prints a network's compile warnings on stderr.
+pub(crate) fn print_warnings(net: &crate::Network) {
+    for w in &net.warnings {
+        let text = w.to_string().replacen("error:", "warning:", 1);
+        eprintln!("{text}\n");
+    }
+}

@@ -1,0 +1,369 @@
+//! Replicate ensembles: many independent trajectories of one network, run in parallel, reduced
+//! to streaming statistics.
+//!
+//! - Seeds: replicate r of master seed s draws from [`crate::kernel::rng::replicate_rng`]`(s, r)`
+//!   alone.
+//! - Parallelism: rayon, in a pool of the requested number of threads.
+//! - Reproducibility: replicates are grouped in fixed blocks of [`BLOCK`] consecutive replicates
+//!   (a block pushes its replicates in order into its own accumulators), and blocks are merged
+//!   in block order. Neither depends on the thread count, so every figure is bit-for-bit the
+//!   same for any `threads`. Blocks run in waves of a few per thread, so memory holds a few
+//!   block accumulators at a time, never one per replicate.
+//! - Statistics: Welford accumulators with the pairwise merge ([`crate::stats::Welford`]);
+//!   memory grows with species × grid points, not with replicates (unless `keep_finals`).
+
+use crate::error::{Error, Result};
+use crate::kernel::observe::grid_times;
+use crate::kernel::rng::replicate_rng;
+use crate::kernel::{CompiledKernel, Direct, Integrals, RecordSpec, Recorder};
+use crate::network::Network;
+use crate::stats::Welford;
+use std::time::Instant;
+
+/// Replicates per block, the unit of work and of merging.
+pub const BLOCK: u64 = 16;
+
+/// Blocks per thread in one wave of parallel work.
+const WAVE_PER_THREAD: usize = 8;
+
+/// The simulation method.
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub enum Method {
+    /// The exact Gillespie direct method.
+    Direct,
+    /// Tau-leaping with error-control parameter ε (Cao, Gillespie & Petzold 2006).
+    Tau { epsilon: f64 },
+    /// Tau-leaping where it pays, exact steps elsewhere.
+    Auto,
+}
+
+impl Method {
+    /// The name used on the command line and in JSON.
+    pub fn name(&self) -> &'static str {
+        match self {
+            Method::Direct => "direct",
+            Method::Tau { .. } => "tau",
+            Method::Auto => "auto",
+        }
+    }
+}
+
+/// What to run.
+#[derive(Clone, Debug, PartialEq)]
+pub struct EnsembleSpec {
+    /// Number of trajectories (≥ 1).
+    pub replicates: u64,
+    /// Master seed.
+    pub seed: u64,
+    /// End time of every trajectory (s), finite and > 0.
+    pub t_end: f64,
+    /// Grid points evenly spaced from 0 to t_end inclusive (≥ 2).
+    pub grid_points: usize,
+    /// Start of the window for firing counts and time averages (s), 0 ≤ window < t_end.
+    pub window: f64,
+    /// Worker threads (`None`: all cores).
+    pub threads: Option<usize>,
+    /// Keep every replicate's final state (for whole-distribution tests).
+    pub keep_finals: bool,
+    /// Draw a progress bar on stderr (the caller decides whether stderr is a terminal).
+    pub progress: bool,
+    pub method: Method,
+}
+
+impl EnsembleSpec {
+    /// One replicate to `t_end` with the defaults of `copyloop simulate` (seed 0, 101 grid
+    /// points, window 0, all cores, direct method).
+    pub fn new(t_end: f64) -> EnsembleSpec {
+        EnsembleSpec {
+            replicates: 1,
+            seed: 0,
+            t_end,
+            grid_points: 101,
+            window: 0.0,
+            threads: None,
+            keep_finals: false,
+            progress: false,
+            method: Method::Direct,
+        }
+    }
+
+    /// Checks every value; a bad one is a usage error naming the option.
+    pub fn validate(&self) -> Result<()> {
+        if !(self.t_end > 0.0 && self.t_end.is_finite()) {
+            return Err(Error::usage(format!(
+                "--t-end must be a finite time above 0 seconds, got {}",
+                self.t_end
+            )));
+        }
+        if self.replicates == 0 {
+            return Err(Error::usage("--replicates must be at least 1"));
+        }
+        if self.grid_points < 2 {
+            return Err(Error::usage(format!(
+                "--grid must be at least 2 (the points 0 and t-end), got {}",
+                self.grid_points
+            )));
+        }
+        if !(self.window >= 0.0 && self.window < self.t_end) {
+            return Err(Error::usage(format!(
+                "--window must satisfy 0 <= window < t-end ({}), got {}",
+                self.t_end, self.window
+            )));
+        }
+        if self.threads == Some(0) {
+            return Err(Error::usage("--threads must be at least 1"));
+        }
+        match self.method {
+            Method::Direct => Ok(()),
+            Method::Tau { epsilon } if !(epsilon > 0.0 && epsilon < 1.0) => Err(Error::usage(
+                format!("--epsilon must lie strictly between 0 and 1, got {epsilon}"),
+            )),
+            m => Err(Error::usage(format!(
+                "method `{}` is not yet available; use `direct`",
+                m.name()
+            ))),
+        }
+    }
+}
+
+/// Ensemble statistics. Every per-species vector is in the network's species order, every
+/// per-reaction vector in its reaction order; each Welford has one entry per replicate.
+#[derive(Clone, Debug, PartialEq)]
+pub struct EnsembleResult {
+    pub spec: EnsembleSpec,
+    /// Count of each species at t_end.
+    pub final_state: Vec<Welford>,
+    /// Time average ∫x dt / T over the window (T = t_end − window), per replicate.
+    pub time_average: Vec<Welford>,
+    /// Within-replicate variance over the window, ∫x² dt / T − (∫x dt / T)², per replicate.
+    pub within_variance: Vec<Welford>,
+    /// Firings of each reaction in [window, t_end].
+    pub firings: Vec<Welford>,
+    /// Firings of each reaction in [window, (window + t_end)/2).
+    pub firings_first_half: Vec<Welford>,
+    /// Grid times 0 … t_end.
+    pub grid_times: Vec<f64>,
+    /// `grid[p][i]`: count of species i at grid point p.
+    pub grid: Vec<Vec<Welford>>,
+    /// Every replicate's final state, in replicate order (when `keep_finals`).
+    pub finals: Option<Vec<Vec<i64>>>,
+    /// Firings over all replicates and all of [0, t_end].
+    pub events_total: u64,
+    /// Replicates in which nothing could fire any more before t_end.
+    pub absorbed: u64,
+    pub wall_seconds: f64,
+}
+
+impl EnsembleResult {
+    /// Length of the measurement window, t_end − window (s).
+    pub fn window_length(&self) -> f64 {
+        self.spec.t_end - self.spec.window
+    }
+
+    /// Events per second of wall time.
+    pub fn events_per_second(&self) -> f64 {
+        self.events_total as f64 / self.wall_seconds
+    }
+}
+
+/// Accumulators of one block (or of all blocks merged so far).
+#[derive(Clone, Debug)]
+struct Partial {
+    final_state: Vec<Welford>,
+    time_average: Vec<Welford>,
+    within_variance: Vec<Welford>,
+    firings: Vec<Welford>,
+    firings_first_half: Vec<Welford>,
+    grid: Vec<Vec<Welford>>,
+    finals: Vec<Vec<i64>>,
+    events: u64,
+    absorbed: u64,
+}
+
+impl Partial {
+    fn new(species: usize, reactions: usize, points: usize) -> Partial {
+        Partial {
+            final_state: vec![Welford::new(); species],
+            time_average: vec![Welford::new(); species],
+            within_variance: vec![Welford::new(); species],
+            firings: vec![Welford::new(); reactions],
+            firings_first_half: vec![Welford::new(); reactions],
+            grid: vec![vec![Welford::new(); species]; points],
+            finals: Vec::new(),
+            events: 0,
+            absorbed: 0,
+        }
+    }
+
+    fn push(&mut self, (rec, int): &(Recorder, Integrals), last: &[i64], keep_final: bool) {
+        let t = int.window_length();
+        for (i, &v) in last.iter().enumerate() {
+            self.final_state[i].push(v as f64);
+            let mean = int.x()[i] / t;
+            self.time_average[i].push(mean);
+            self.within_variance[i].push((int.x2()[i] / t - mean * mean).max(0.0));
+        }
+        for (j, (&n, &h)) in rec
+            .firings()
+            .iter()
+            .zip(rec.firings_first_half())
+            .enumerate()
+        {
+            self.firings[j].push(n as f64);
+            self.firings_first_half[j].push(h as f64);
+        }
+        for (p, row) in self.grid.iter_mut().enumerate() {
+            for (w, &v) in row.iter_mut().zip(rec.grid_state(p)) {
+                w.push(v as f64);
+            }
+        }
+        if keep_final {
+            self.finals.push(last.to_vec());
+        }
+    }
+
+    fn merge(&mut self, o: Partial) {
+        let pairs = [
+            (&mut self.final_state, &o.final_state),
+            (&mut self.time_average, &o.time_average),
+            (&mut self.within_variance, &o.within_variance),
+            (&mut self.firings, &o.firings),
+            (&mut self.firings_first_half, &o.firings_first_half),
+        ];
+        for (a, b) in pairs {
+            a.iter_mut().zip(b).for_each(|(a, b)| a.merge(b));
+        }
+        for (a, b) in self.grid.iter_mut().zip(&o.grid) {
+            a.iter_mut().zip(b).for_each(|(a, b)| a.merge(b));
+        }
+        self.finals.extend(o.finals);
+        self.events += o.events;
+        self.absorbed += o.absorbed;
+    }
+}
+
+/// Per-thread working memory, reused across blocks.
+struct Workspace<'k> {
+    direct: Direct<'k>,
+    observers: (Recorder, Integrals),
+}
+
+/// Runs replicates `first .. first + count` in order into one block's accumulators.
+fn run_block(
+    kernel: &CompiledKernel,
+    spec: &EnsembleSpec,
+    ws: &mut Workspace,
+    first: u64,
+    count: u64,
+    bar: Option<&indicatif::ProgressBar>,
+) -> Result<Partial> {
+    let mut part = Partial::new(kernel.species, kernel.reactions(), spec.grid_points);
+    for r in first..first + count {
+        let mut rng = replicate_rng(spec.seed, r);
+        let summary = ws
+            .direct
+            .run(&kernel.x0, spec.t_end, &mut rng, &mut ws.observers)?;
+        part.events += summary.events;
+        part.absorbed += u64::from(summary.absorbed_at.is_some());
+        part.push(&ws.observers, ws.direct.state(), spec.keep_finals);
+        if let Some(b) = bar {
+            b.inc(1);
+        }
+    }
+    Ok(part)
+}
+
+/// Runs the ensemble described by `spec` on `net`.
+pub fn run(net: &Network, spec: &EnsembleSpec) -> Result<EnsembleResult> {
+    spec.validate()?;
+    let kernel = CompiledKernel::new(net)?;
+    let mut builder = rayon::ThreadPoolBuilder::new();
+    if let Some(n) = spec.threads {
+        builder = builder.num_threads(n);
+    }
+    let pool = builder
+        .build()
+        .map_err(|e| Error::Internal(format!("cannot start worker threads: {e}")))?;
+    let bar = spec.progress.then(|| progress_bar(spec.replicates));
+    let started = Instant::now();
+    let total = pool.install(|| run_blocks(&kernel, spec, bar.as_ref()));
+    let wall_seconds = started.elapsed().as_secs_f64();
+    if let Some(b) = &bar {
+        b.finish_and_clear();
+    }
+    let total = total?;
+    let grid_times = grid_times(spec.t_end, spec.grid_points);
+    Ok(EnsembleResult {
+        spec: spec.clone(),
+        final_state: total.final_state,
+        time_average: total.time_average,
+        within_variance: total.within_variance,
+        firings: total.firings,
+        firings_first_half: total.firings_first_half,
+        grid_times,
+        grid: total.grid,
+        finals: spec.keep_finals.then_some(total.finals),
+        events_total: total.events,
+        absorbed: total.absorbed,
+        wall_seconds,
+    })
+}
+
+fn record_spec(spec: &EnsembleSpec) -> RecordSpec {
+    RecordSpec {
+        t_end: spec.t_end,
+        grid_points: spec.grid_points,
+        window: spec.window,
+    }
+}
+
+/// Runs all blocks in waves inside the current rayon pool and merges them in block order.
+fn run_blocks(
+    kernel: &CompiledKernel,
+    spec: &EnsembleSpec,
+    bar: Option<&indicatif::ProgressBar>,
+) -> Result<Partial> {
+    use rayon::prelude::*;
+    let blocks = spec.replicates.div_ceil(BLOCK);
+    let wave = (rayon::current_num_threads() * WAVE_PER_THREAD) as u64;
+    let mut total = Partial::new(kernel.species, kernel.reactions(), spec.grid_points);
+    let mut start = 0u64;
+    while start < blocks {
+        let end = (start + wave).min(blocks);
+        let parts: Vec<Result<Partial>> = (start..end)
+            .into_par_iter()
+            .map_init(
+                || Workspace {
+                    direct: Direct::new(kernel),
+                    observers: (
+                        Recorder::new(record_spec(spec), kernel),
+                        Integrals::new(spec.t_end, spec.window, kernel),
+                    ),
+                },
+                |ws, b| {
+                    let first = b * BLOCK;
+                    let count = BLOCK.min(spec.replicates - first);
+                    run_block(kernel, spec, ws, first, count, bar)
+                },
+            )
+            .collect();
+        for p in parts {
+            total.merge(p?);
+        }
+        start = end;
+    }
+    Ok(total)
+}
+
+fn progress_bar(replicates: u64) -> indicatif::ProgressBar {
+    let bar = indicatif::ProgressBar::with_draw_target(
+        Some(replicates),
+        indicatif::ProgressDrawTarget::stderr(),
+    );
+    if let Ok(style) = indicatif::ProgressStyle::with_template(
+        "{elapsed_precise} [{bar:40}] {pos}/{len} replicates, ETA {eta}",
+    ) {
+        bar.set_style(style.progress_chars("=> "));
+    }
+    bar
+}

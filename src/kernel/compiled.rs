@@ -1,0 +1,383 @@
+//! The network in the flat form the event loop reads, built once per network.
+//!
+//! - Mass-action propensities become one branch-free product of three falling factors (a
+//!   [`Rate`] of 24 bytes with `u32` indices); `law` propensities stay in a side table as
+//!   [`Network::propensities`] compiles them.
+//! - State changes and the dependency graph are rows of flat arrays (an offset array and a value
+//!   array). In a small network (fewer than [`SMALL_BELOW`] reactions) every row is padded to the
+//!   same length, with changes of 0 to the constant slot and with an idle channel whose
+//!   propensity is always 0, so the loops of an event have the same trip count every time and
+//!   the processor predicts them.
+//! - The state buffer holds one count per species and then a slot that always holds 1.
+
+use crate::error::{Error, Result};
+use crate::network::{Kinetics, Network, Propensity, MAX_COUNT};
+
+/// Networks with fewer reactions than this get padded rows (and linear selection).
+pub const SMALL_BELOW: usize = 32;
+
+/// [`Rate::factors`] of a regulated rate law.
+pub const LAW: u8 = u8::MAX;
+
+/// A propensity in flat form (molecules per second).
+///
+/// Mass action, a = c·Π C(xᵢ, νᵢ) (Gillespie 1976, J. Comput. Phys. 22:403 [verified]; the
+/// forms c·x, c·x₁x₂, c·x(x−1)/2, c·x(x−1)(x−2)/6 [M], REFERENCES.md §1), is written as
+///
+/// a = c′·(x[i₀] − o₀)·(x[i₁] − o₁)·(x[i₂] − o₂),
+///
+/// with c′ = c/Π νᵢ! and one factor x − k (k = 0 … ν−1) per reactant molecule: A + B gives
+/// x_A·x_B, 2A gives x_A(x_A − 1), 3A gives x_A(x_A − 1)(x_A − 2). Unused factors read the slot
+/// that holds 1, and a clamped reactant's C(x, ν) is folded into c′ (its count never changes).
+/// With x < ν one factor is 0, so the product is 0 (or −0), exactly as C(x, ν) = 0.
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub struct Rate {
+    /// c′ (unused for a law).
+    pub c: f64,
+    /// Species read by the three factors; for a law, `i[0]` is its entry in the law table.
+    pub i: [u32; 3],
+    /// Offsets o of the three factors.
+    pub o: [u8; 3],
+    /// Number of factors that read a species (the rest read the slot 1), or [`LAW`].
+    pub factors: u8,
+}
+
+impl Rate {
+    /// The channel that never fires (reads the constant slot `one`, constant 0).
+    fn idle(one: u32) -> Rate {
+        Rate {
+            c: 0.0,
+            i: [one; 3],
+            o: [0; 3],
+            factors: 0,
+        }
+    }
+}
+
+/// Rows of a flat table: row j is `values[start[j]..start[j+1]]`.
+#[derive(Clone, Debug, PartialEq)]
+struct Rows<T> {
+    start: Vec<u32>,
+    values: Vec<T>,
+}
+
+impl<T: Copy> Rows<T> {
+    /// Rows from `rows`; with `pad`, every row is filled up to the longest with `pad`.
+    fn new(rows: &[Vec<T>], pad: Option<T>) -> Result<Rows<T>> {
+        let width = rows.iter().map(Vec::len).max().unwrap_or(0);
+        let mut start = vec![0u32];
+        let mut values = Vec::new();
+        for r in rows {
+            values.extend_from_slice(r);
+            if let Some(p) = pad {
+                values.extend(std::iter::repeat_n(p, width - r.len()));
+            }
+            let end = u32::try_from(values.len())
+                .map_err(|_| Error::usage("the network is too large for the kernel"))?;
+            start.push(end);
+        }
+        Ok(Rows { start, values })
+    }
+
+    #[inline(always)]
+    fn row(&self, j: usize) -> &[T] {
+        &self.values[self.start[j] as usize..self.start[j + 1] as usize]
+    }
+
+    /// # Safety
+    ///
+    /// `j + 1 < start.len()`. `start` is non-decreasing and ends at `values.len()` by
+    /// construction.
+    #[inline(always)]
+    unsafe fn row_unchecked(&self, j: usize) -> &[T] {
+        debug_assert!(j + 1 < self.start.len());
+        // SAFETY: see above.
+        unsafe {
+            let s = *self.start.get_unchecked(j) as usize;
+            let e = *self.start.get_unchecked(j + 1) as usize;
+            self.values.get_unchecked(s..e)
+        }
+    }
+}
+
+/// A network compiled for the kernels: flat arrays only.
+#[derive(Clone, Debug)]
+pub struct CompiledKernel {
+    /// Number of species.
+    pub species: usize,
+    /// Initial counts.
+    pub x0: Vec<i64>,
+    /// One rate per reaction, then the idle channel.
+    rates: Vec<Rate>,
+    laws: Vec<Propensity>,
+    /// Net change of each reaction: (species, change) for non-clamped species; padding is
+    /// (constant slot, 0).
+    change: Rows<(u32, i64)>,
+    /// Dependency graph: reactions whose propensity may change when j fires; padding is the
+    /// idle channel.
+    dependents: Rows<u32>,
+    small: bool,
+    clamped: Vec<bool>,
+    /// Where messages point.
+    file: String,
+    labels: Vec<String>,
+    reaction_at: Vec<(u32, u32)>,
+    species_names: Vec<String>,
+    species_at: Vec<(u32, u32)>,
+}
+
+impl CompiledKernel {
+    /// Builds the flat form of `net`.
+    pub fn new(net: &Network) -> Result<CompiledKernel> {
+        let n = net.species.len();
+        let m = net.reactions.len();
+        if n >= u32::MAX as usize || m >= u32::MAX as usize {
+            return Err(Error::usage("the network is too large for the kernel"));
+        }
+        let one = n as u32;
+        let mut rates = Vec::with_capacity(m + 1);
+        let mut laws = Vec::new();
+        for (r, p) in net.reactions.iter().zip(net.propensities()) {
+            rates.push(match r.kinetics {
+                Kinetics::Law { .. } => {
+                    laws.push(p);
+                    Rate {
+                        c: 0.0,
+                        i: [(laws.len() - 1) as u32, one, one],
+                        o: [0; 3],
+                        factors: LAW,
+                    }
+                }
+                Kinetics::MassAction { c, .. } => mass_action(net, r, c, one)?,
+            });
+        }
+        rates.push(Rate::idle(one));
+        let small = m < SMALL_BELOW;
+        let changes: Vec<Vec<(u32, i64)>> = net
+            .reactions
+            .iter()
+            .map(|r| r.change.iter().map(|&(i, d)| (i as u32, d)).collect())
+            .collect();
+        let deps: Vec<Vec<u32>> = net
+            .dependents
+            .iter()
+            .map(|d| d.iter().map(|&k| k as u32).collect())
+            .collect();
+        if deps.len() != m {
+            return Err(Error::Internal(
+                "dependency graph does not match the reactions".into(),
+            ));
+        }
+        Ok(CompiledKernel {
+            species: n,
+            x0: net.initial_state(),
+            rates,
+            laws,
+            change: Rows::new(&changes, small.then_some((one, 0)))?,
+            dependents: Rows::new(&deps, small.then_some(m as u32))?,
+            small,
+            clamped: net.species.iter().map(|s| s.clamped).collect(),
+            file: net.file.clone(),
+            labels: net.reactions.iter().map(|r| r.label.clone()).collect(),
+            reaction_at: net
+                .reactions
+                .iter()
+                .map(|r| (r.span.line, r.span.col))
+                .collect(),
+            species_names: net.species.iter().map(|s| s.name.clone()).collect(),
+            species_at: net
+                .species
+                .iter()
+                .map(|s| (s.span.line, s.span.col))
+                .collect(),
+        })
+    }
+
+    /// Number of reactions (channels), not counting the idle channel.
+    pub fn reactions(&self) -> usize {
+        self.rates.len() - 1
+    }
+
+    /// Whether the rows are padded (fewer than [`SMALL_BELOW`] reactions). Then
+    /// [`CompiledKernel::dependents`] may name the idle channel `reactions()`, whose propensity
+    /// is always 0.
+    pub fn is_small(&self) -> bool {
+        self.small
+    }
+
+    /// Propensity of reaction `j` (molecules per second; `j == reactions()` is the idle channel)
+    /// at state `x`, which holds one count per species followed by the constant slot 1 (see
+    /// [`CompiledKernel::state_buffer`]). A law's value is returned as it is, even if negative.
+    #[inline(always)]
+    pub fn propensity(&self, j: usize, x: &[i64]) -> f64 {
+        let r = &self.rates[j];
+        if r.factors == LAW {
+            return self.laws[r.i[0] as usize].eval(x);
+        }
+        r.c * factor(x, r.i[0], r.o[0]) * factor(x, r.i[1], r.o[1]) * factor(x, r.i[2], r.o[2])
+    }
+
+    /// As [`CompiledKernel::propensity`] without bounds checks, except that a law value that
+    /// is negative, infinite or NaN comes back as NaN (so that the event loop sees it in a₀).
+    ///
+    /// # Safety
+    ///
+    /// `j ≤ reactions()` and `x.len() == species + 1`. Construction guarantees that every index
+    /// stored in a [`Rate`] is at most `species` (the constant slot) and every law index is in
+    /// the law table.
+    #[inline(always)]
+    pub unsafe fn propensity_unchecked(&self, j: usize, x: &[i64]) -> f64 {
+        debug_assert!(j < self.rates.len() && x.len() == self.species + 1);
+        // SAFETY: j ≤ reactions() by the caller's contract.
+        let r = unsafe { self.rates.get_unchecked(j) };
+        // SAFETY: r.i[k] ≤ species < x.len() (construction and the caller's contract).
+        let f = |k: usize| unsafe { (*x.get_unchecked(r.i[k] as usize) - r.o[k] as i64) as f64 };
+        match r.factors {
+            0 => r.c,
+            1 => r.c * f(0),
+            2 => r.c * f(0) * f(1),
+            3 => r.c * f(0) * f(1) * f(2),
+            _ => {
+                let v = self.laws[r.i[0] as usize].eval(x);
+                if v >= 0.0 && v < f64::INFINITY {
+                    v
+                } else {
+                    f64::NAN
+                }
+            }
+        }
+    }
+
+    /// A state buffer for the propensities: `x0` (one count per species), then the slot 1.
+    pub fn state_buffer(&self, x0: &[i64]) -> Vec<i64> {
+        let mut x = Vec::with_capacity(x0.len() + 1);
+        x.extend_from_slice(x0);
+        x.push(1);
+        x
+    }
+
+    /// Whether species `i` is clamped (its count is folded into the constants).
+    pub fn is_clamped(&self, i: usize) -> bool {
+        self.clamped[i]
+    }
+
+    /// (species, change per firing) of reaction `j`; in a small network padded with changes of
+    /// 0 to the constant slot (index `species`).
+    #[inline(always)]
+    pub fn change(&self, j: usize) -> &[(u32, i64)] {
+        self.change.row(j)
+    }
+
+    /// [`CompiledKernel::change`] without bounds checks.
+    ///
+    /// # Safety
+    ///
+    /// `j < reactions()`.
+    #[inline(always)]
+    pub unsafe fn change_unchecked(&self, j: usize) -> &[(u32, i64)] {
+        // SAFETY: j < reactions() by the caller's contract; rows are valid by construction.
+        unsafe { self.change.row_unchecked(j) }
+    }
+
+    /// Reactions whose propensity may change when `j` fires (see [`CompiledKernel::is_small`]).
+    #[inline(always)]
+    pub fn dependents(&self, j: usize) -> &[u32] {
+        self.dependents.row(j)
+    }
+
+    /// [`CompiledKernel::dependents`] without bounds checks.
+    ///
+    /// # Safety
+    ///
+    /// `j < reactions()`.
+    #[inline(always)]
+    pub unsafe fn dependents_unchecked(&self, j: usize) -> &[u32] {
+        // SAFETY: j < reactions() by the caller's contract; rows are valid by construction.
+        unsafe { self.dependents.row_unchecked(j) }
+    }
+
+    /// Label of reaction `j`.
+    pub fn label(&self, j: usize) -> &str {
+        &self.labels[j]
+    }
+
+    /// Name of species `i`.
+    pub fn species_name(&self, i: usize) -> &str {
+        &self.species_names[i]
+    }
+
+    /// The error for a propensity that is negative, infinite or NaN: names the step, where it
+    /// is written, the value and the time.
+    #[cold]
+    pub fn bad_propensity(&self, j: usize, value: f64, t: f64) -> Error {
+        let (line, col) = self.reaction_at[j];
+        let why = if self.rates[j].factors == LAW {
+            "check the law for a subtraction or division that can go below zero or blow up"
+        } else {
+            "its constant is too large for these counts"
+        };
+        Error::usage(format!(
+            "{}:{line}:{col}: step `{}`: its propensity became {value} molecules/s at t = {t} s; \
+             a rate must be finite and not negative ({why})",
+            self.file, self.labels[j]
+        ))
+    }
+
+    /// The error for a count that would pass [`MAX_COUNT`].
+    #[cold]
+    pub fn overflow(&self, i: usize, j: usize, t: f64) -> Error {
+        let (line, col) = self.species_at[i];
+        Error::usage(format!(
+            "{}:{line}:{col}: species `{}` would exceed the largest count copyloop holds \
+             ({MAX_COUNT} molecules) when step `{}` fires at t = {t} s; the network grows \
+             without bound, or the run is far too long for it",
+            self.file, self.species_names[i], self.labels[j]
+        ))
+    }
+}
+
+/// One falling factor x[i] − o as f64.
+#[inline(always)]
+fn factor(x: &[i64], i: u32, o: u8) -> f64 {
+    (x[i as usize] - o as i64) as f64
+}
+
+/// The flat rate of a mass-action reaction with stochastic constant `c`.
+fn mass_action(net: &Network, r: &crate::network::Reaction, c: f64, one: u32) -> Result<Rate> {
+    let mut c = c;
+    let mut factors = Vec::new();
+    for &(i, nu) in &r.reactants {
+        let nu_factorial: f64 = (1..=nu).map(f64::from).product();
+        if net.species[i].clamped {
+            let x = net.species[i].initial;
+            let falling: f64 = (0..nu).map(|k| (x - i64::from(k)) as f64).product();
+            c *= falling / nu_factorial;
+        } else {
+            c /= nu_factorial;
+            factors.extend((0..nu).map(|k| (i as u32, k as u8)));
+        }
+    }
+    if factors.len() > 3 {
+        return Err(Error::Internal(format!(
+            "step `{}` has order above 3",
+            r.label
+        )));
+    }
+    let used = factors.len() as u8;
+    // Keeps c′·x₁x₂x₃ finite for every count up to MAX_COUNT, so that a mass-action
+    // propensity is never infinite and a₀ stays finite.
+    if !(c * (MAX_COUNT as f64).powi(used as i32) < 1e290) {
+        return Err(Error::usage(format!(
+            "{}:{}:{}: step `{}`: the stochastic constant {c:e} is too large; propensities \
+             would overflow",
+            net.file, r.span.line, r.span.col, r.label
+        )));
+    }
+    factors.resize(3, (one, 0));
+    Ok(Rate {
+        c,
+        i: [factors[0].0, factors[1].0, factors[2].0],
+        o: [factors[0].1, factors[1].1, factors[2].1],
+        factors: used,
+    })
+}

@@ -138,6 +138,9 @@ pub const KEYWORDS: &[&str] = &[
     "volume", "species", "param", "step", "law", "kd", "half", "life", "clamped",
 ];
 
+/// Parsing stops after this many broken lines: the first ones are what the user needs.
+const MAX_ERRORS: usize = 50;
+
 /// Parses a whole file. `bytes` may be anything: invalid UTF-8 is reported with its position.
 pub fn parse(file: &str, bytes: &[u8]) -> Result<Ast, Vec<Diagnostic>> {
     let source = match std::str::from_utf8(bytes) {
@@ -162,6 +165,9 @@ pub fn parse(file: &str, bytes: &[u8]) -> Result<Ast, Vec<Diagnostic>> {
     let mut items = Vec::new();
     let mut errors = Vec::new();
     for (i, text) in source.lines().enumerate() {
+        if errors.len() >= MAX_ERRORS {
+            break;
+        }
         let line = i as u32 + 1;
         let tokens = match lex_line(text, line) {
             Ok(t) => t,

@@ -266,6 +266,7 @@ impl<'a> Compiler<'a> {
                     q.value *= self.count_ratio.powi(q.dim.count as i32);
                     self.names
                         .insert(&name.text, Named::Param(self.params.len()));
+                    self.param_bare.push(value.bare);
                     self.params.push(Param {
                         name: name.text.clone(),
                         value: q,

@@ -219,3 +219,34 @@ proptest! {
         prop_assert_eq!(svd_rank(&laws, free.len()), expected_dim, "{}", text);
     }
 }
+
+proptest! {
+    #![proptest_config(ProptestConfig::with_cases(400))]
+
+    /// No edit of a valid file makes the compiler panic: it returns a network or errors.
+    #[test]
+    fn mutated_files_never_panic(
+        which in 0usize..3,
+        edits in proptest::collection::vec((any::<u16>(), any::<u8>(), 0u8..3), 1..12),
+    ) {
+        let files = [
+            include_str!("../reactions/gland_loop.crn"),
+            include_str!("../reactions/enzyme_clearance.crn"),
+            include_str!("../reactions/receptor_signal.crn"),
+        ];
+        let mut bytes = files[which].as_bytes().to_vec();
+        for (pos, byte, kind) in edits {
+            let p = pos as usize % (bytes.len() + 1);
+            match kind {
+                0 => bytes.insert(p, byte),
+                1 if p < bytes.len() => { bytes.remove(p); }
+                _ if p < bytes.len() => bytes[p] = byte,
+                _ => {}
+            }
+        }
+        let result = std::panic::catch_unwind(|| {
+            let _ = load_source("m.crn", &bytes, &Overrides::default());
+        });
+        prop_assert!(result.is_ok(), "panicked on:\n{}", String::from_utf8_lossy(&bytes));
+    }
+}

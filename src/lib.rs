@@ -35,6 +35,7 @@ pub mod cli;
 pub mod error;
 pub mod kernel;
 pub mod network;
+pub mod reconcile;
 pub mod report;
 pub mod stats;
 

@@ -4,6 +4,7 @@
 //! Data flows one way: text → [`network`] → kernels → ensemble → reconcile → report.
 
 pub mod cli;
+pub mod deterministic;
 pub mod error;
 pub mod kernel;
 pub mod network;

@@ -241,15 +241,29 @@ impl Ctx<'_, '_> {
         out
     }
 
-    /// Largest relative difference between two states.
+    /// Largest difference between two states, each species relative to its own level, with
+    /// differences below 10⁻⁶ of the largest level (or 10⁻⁶ molecules) not counted.
     fn distance(&self, a: &[f64], b: &[f64]) -> f64 {
         let top = b.iter().fold(0.0f64, |m, x| m.max(x.abs()));
-        let floor = self.tiny.max(1e-12 * top);
+        let floor = self.tiny.max(1e-6 * top);
         a.iter()
             .zip(b)
             .map(|(x, y)| (x - y).abs() / (x.abs().max(y.abs()) + floor))
             .fold(0.0, f64::max)
     }
+}
+
+/// max|a − b| relative to the largest level in either state.
+fn norm_distance(a: &[f64], b: &[f64]) -> f64 {
+    let top = a
+        .iter()
+        .chain(b)
+        .fold(0.0f64, |m, x| m.max(x.abs()))
+        .max(f64::MIN_POSITIVE);
+    a.iter()
+        .zip(b)
+        .fold(0.0f64, |m, (x, y)| m.max((x - y).abs()))
+        / top
 }
 
 struct NewtonRun {
@@ -258,8 +272,10 @@ struct NewtonRun {
     converged: bool,
 }
 
-/// Damped Newton from `start`; with `positive`, steps are shortened so that no positive
-/// concentration falls below 10 % of its value.
+/// Newton from `start`. Guarded (`positive`): steps are shortened so that no positive
+/// concentration falls below 10 % of its value, then halved until the weighted residual falls
+/// (Armijo). Unguarded: full steps, wherever they lead (used only to locate an algebraic
+/// solution with negative amounts for a diagnosis).
 fn newton(ctx: &Ctx, start: &[f64], positive: bool, max_iter: usize) -> NewtonRun {
     let n = ctx.sys.n();
     let mut y = start.to_vec();
@@ -326,7 +342,7 @@ fn newton(ctx: &Ctx, start: &[f64], positive: bool, max_iter: usize) -> NewtonRu
                 .collect();
             if let Some(et) = ctx.eval(&trial) {
                 let w1: f64 = ctx.weighted(&et, &e).iter().map(|x| x * x).sum();
-                if w1 <= (1.0 - 2e-4 * lambda) * w0 || ctx.converged(&et) {
+                if !positive || w1 <= (1.0 - 2e-4 * lambda) * w0 || ctx.converged(&et) {
                     accepted = Some((trial, et));
                     break;
                 }
@@ -517,7 +533,7 @@ fn integrate_then_polish(
         if let Some(e) = ctx.eval(&y) {
             if e.rel_rate < 1e-6 {
                 let polished = newton(ctx, &y, true, opts.max_newton);
-                if polished.converged && ctx.distance(&polished.y, &y) < 1e-3 {
+                if polished.converged && norm_distance(&polished.y, &y) < 1e-3 {
                     return finish(
                         ctx,
                         polished.y,
@@ -827,19 +843,31 @@ fn negative_root_note(ctx: &Ctx, starts: &[&[f64]]) -> Option<String> {
             continue;
         }
         let top = run.y.iter().fold(0.0f64, |m, x| m.max(x.abs()));
-        let Some(k) = (0..run.y.len())
+        let mut neg: Vec<usize> = (0..run.y.len())
             .filter(|&k| run.y[k] < -(1e-9 * top).max(ctx.tiny))
-            .min_by(|&a, &b| run.y[a].total_cmp(&run.y[b]))
-        else {
+            .collect();
+        if neg.is_empty() {
             continue;
-        };
-        let i = ctx.sys.free[k];
-        let name = &net.species[i].name;
+        }
+        neg.sort_by(|&a, &b| run.y[a].total_cmp(&run.y[b]));
+        let listed: Vec<String> = neg
+            .iter()
+            .map(|&k| {
+                format!(
+                    "{} ({})",
+                    net.species[ctx.sys.free[k]].name,
+                    amount(net, run.y[k])
+                )
+            })
+            .collect();
         let mut note = format!(
-            " The rate equations balance only at a negative amount of {name} ({})",
-            amount(net, run.y[k])
+            " The rate equations balance only at a negative amount of {}",
+            listed.join(" and ")
         );
-        let law = net.conservation_laws.iter().find(|l| l[i] != 0);
+        let law = net
+            .conservation_laws
+            .iter()
+            .find(|l| neg.iter().any(|&k| l[ctx.sys.free[k]] != 0));
         if let Some(l) = law {
             let total: f64 = l
                 .iter()

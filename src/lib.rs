@@ -32,6 +32,7 @@
 //! copyloop is a research instrument; its output is not a basis for diagnosis or treatment.
 
 pub mod cli;
+pub mod deterministic;
 pub mod error;
 pub mod kernel;
 pub mod network;

@@ -4,6 +4,7 @@
 //! library's own option types, calls the library, and hands the result to `report`.
 
 mod check;
+mod steady;
 
 use crate::error::Result;
 use clap::{Parser, Subcommand};
@@ -26,12 +27,16 @@ pub enum Command {
     /// Compile a network and print species, reactions, stoichiometry, conservation laws and motifs
     #[command(after_help = CAUTION)]
     Check(check::CheckArgs),
+    /// Deterministic steady state reached from the initial state: amounts, fluxes, stability
+    #[command(after_help = CAUTION)]
+    Steady(steady::SteadyArgs),
 }
 
 /// Runs one parsed command line.
 pub fn run(cli: Cli) -> Result<()> {
     match cli.command {
         Command::Check(a) => check::run(&a),
+        Command::Steady(a) => steady::run(&a),
     }
 }
 

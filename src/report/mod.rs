@@ -2,6 +2,7 @@
 //! Reports only format; they compute nothing.
 
 pub mod check;
+pub mod steady;
 pub mod svg;
 pub mod table;
 

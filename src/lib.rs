@@ -38,6 +38,7 @@ pub mod kernel;
 pub mod network;
 pub mod reconcile;
 pub mod report;
+pub mod stationary;
 pub mod stats;
 
 pub use error::{Error, Result};

@@ -111,6 +111,8 @@ pub fn compile(ast: &Ast, overrides: &Overrides) -> Result<Network, Vec<Diagnost
         conservation_laws: Vec::new(),
         motifs: Vec::new(),
         warnings,
+        source: std::sync::Arc::new(ast.clone()),
+        overrides: overrides.clone(),
     };
     net.stoichiometry = analysis::stoichiometry(&net);
     net.dependents = analysis::dependency_graph(&net);

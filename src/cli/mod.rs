@@ -5,6 +5,7 @@
 
 mod check;
 mod simulate;
+mod steady;
 
 use crate::error::Result;
 use clap::{Parser, Subcommand};
@@ -30,6 +31,9 @@ pub enum Command {
     /// Run replicate trajectories and report final states, time averages, firings and a grid
     #[command(after_help = CAUTION)]
     Simulate(simulate::SimulateArgs),
+    /// Deterministic steady state reached from the initial state: amounts, fluxes, stability
+    #[command(after_help = CAUTION)]
+    Steady(steady::SteadyArgs),
 }
 
 /// Runs one parsed command line.
@@ -37,6 +41,7 @@ pub fn run(cli: Cli) -> Result<()> {
     match cli.command {
         Command::Check(a) => check::run(&a),
         Command::Simulate(a) => simulate::run(&a),
+        Command::Steady(a) => steady::run(&a),
     }
 }
 

@@ -16,6 +16,7 @@
 
 pub mod compiled;
 pub mod direct;
+pub mod leap;
 pub mod observe;
 pub mod rng;
 pub mod select;

@@ -398,6 +398,45 @@ pub fn motifs(net: &Network) -> Vec<Motif> {
     out
 }
 
+/// Motifs in series: maximal paths m₁ → m₂ → … where the output step of mᵢ makes the ligand
+/// of mᵢ₊₁ (a transporter feeding an enzyme feeding a receptor). Each chain has at least two
+/// stages and lists motif indices in order.
+pub fn motif_chains(net: &Network) -> Vec<Vec<usize>> {
+    let ms = &net.motifs;
+    let feeds = |a: usize, b: usize| {
+        a != b
+            && ms[a].complex != ms[b].complex
+            && net.reactions[ms[a].output]
+                .products
+                .iter()
+                .any(|&(i, _)| i == ms[b].ligand && i != ms[a].carrier && i != ms[a].complex)
+    };
+    let has_pred = |b: usize| (0..ms.len()).any(|a| feeds(a, b));
+    let mut chains = Vec::new();
+    for start in (0..ms.len()).filter(|&m| !has_pred(m)) {
+        let mut stack = vec![vec![start]];
+        while let Some(path) = stack.pop() {
+            let last = *path.last().unwrap();
+            let next: Vec<usize> = (0..ms.len())
+                .filter(|&b| feeds(last, b) && !path.contains(&b))
+                .collect();
+            if next.is_empty() {
+                if path.len() > 1 {
+                    chains.push(path);
+                }
+                continue;
+            }
+            for b in next {
+                let mut p = path.clone();
+                p.push(b);
+                stack.push(p);
+            }
+        }
+    }
+    chains.sort();
+    chains
+}
+
 // ---------------------------------------------------------------------------------------------
 // Warnings about unused declarations
 // ---------------------------------------------------------------------------------------------
@@ -568,6 +607,26 @@ mod tests {
         let n = net("species A = 5\nspecies B = 0\nstep a A -> B @ 1\nstep b 0 -> A @ 2\n");
         assert_eq!(n.dependents[1], vec![0]);
         assert_eq!(n.dependents[0], vec![0]);
+    }
+
+    #[test]
+    fn motifs_in_series() {
+        // transporter T moves A_out into the cell as A; enzyme E turns A into P; receptor R binds P.
+        let src = "species Aout = 100 clamped\nspecies T = 10\nspecies TA = 0\nspecies A = 0\n\
+                   species E = 10\nspecies EA = 0\nspecies P = 0\nspecies R = 10\nspecies RP = 0\nspecies Q = 0\n\
+                   step tb T + Aout <-> TA @ 0.01, 1\nstep tt TA -> T + A @ 5\n\
+                   step eb E + A <-> EA @ 0.01, 1\nstep ec EA -> E + P @ 2\n\
+                   step rb R + P <-> RP @ 0.01, 1\nstep rs RP -> RP + Q @ 1\n\
+                   step pd P -> 0 @ 0.1\nstep qd Q -> 0 @ 1\n";
+        let n = net(src);
+        assert_eq!(n.motifs.len(), 3);
+        let chains = super::motif_chains(&n);
+        assert_eq!(chains.len(), 1);
+        let carriers: Vec<&str> = chains[0]
+            .iter()
+            .map(|&m| n.species[n.motifs[m].carrier].name.as_str())
+            .collect();
+        assert_eq!(carriers, ["T", "E", "R"]);
     }
 
     #[test]

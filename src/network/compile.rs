@@ -73,6 +73,7 @@ pub fn compile(ast: &Ast, overrides: &Overrides) -> Result<Network, Vec<Diagnost
         names: HashMap::new(),
         species: Vec::new(),
         params: Vec::new(),
+        param_bare: Vec::new(),
     };
     c.volume();
     c.declarations();
@@ -110,6 +111,8 @@ pub fn compile(ast: &Ast, overrides: &Overrides) -> Result<Network, Vec<Diagnost
         conservation_laws: Vec::new(),
         motifs: Vec::new(),
         warnings,
+        source: std::sync::Arc::new(ast.clone()),
+        overrides: overrides.clone(),
     };
     net.stoichiometry = analysis::stoichiometry(&net);
     net.dependents = analysis::dependency_graph(&net);
@@ -140,6 +143,8 @@ struct Compiler<'a> {
     names: HashMap<&'a str, Named>,
     species: Vec<Species>,
     params: Vec<Param>,
+    /// Whether each param was written without a unit (a stochastic constant when used as one).
+    param_bare: Vec<bool>,
 }
 
 impl<'a> Compiler<'a> {
@@ -209,14 +214,11 @@ impl<'a> Compiler<'a> {
             self.omega = units::omega(v);
             self.count_ratio = self.omega / file_omega;
         }
-        if self.volume_l.is_none() {
-            if let Some(v) = self.overrides.rescale_volume {
-                let _ = v;
-                self.error(
-                    Span::new(1, 1, 1),
-                    "this network has no volume, so it cannot be run at another volume",
-                );
-            }
+        if self.volume_l.is_none() && self.overrides.rescale_volume.is_some() {
+            self.error(
+                Span::new(1, 1, 1),
+                "this network has no volume, so it cannot be run at another volume",
+            );
         }
     }
 
@@ -266,6 +268,7 @@ impl<'a> Compiler<'a> {
                     q.value *= self.count_ratio.powi(q.dim.count as i32);
                     self.names
                         .insert(&name.text, Named::Param(self.params.len()));
+                    self.param_bare.push(value.bare);
                     self.params.push(Param {
                         name: name.text.clone(),
                         value: q,
@@ -460,13 +463,7 @@ impl<'a> Compiler<'a> {
                 Some((q, l.bare))
             }
             Operand::Param(name) => match self.names.get(name.text.as_str()) {
-                Some(Named::Param(i)) => {
-                    let i = *i;
-                    let bare = self.ast.items.iter().any(|it| {
-                        matches!(it, Item::Param { name: n, value } if n.text == name.text && value.bare)
-                    });
-                    Some((self.params[i].value, bare))
-                }
+                Some(Named::Param(i)) => Some((self.params[*i].value, self.param_bare[*i])),
                 Some(Named::Species(_)) => {
                     self.error_help(
                         name.span,

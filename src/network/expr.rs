@@ -291,7 +291,24 @@ pub fn compile(
     })
 }
 
+/// Checks a node and rejects a constant part that is not a finite number (`0/0`, `ln(0)`).
 fn check(
+    expr: &Expr,
+    resolve: &dyn Fn(&str) -> Option<Resolved>,
+    species_dim: Dim,
+    norm: &dyn Fn(Dim) -> Dim,
+) -> Result<Typed, LawError> {
+    let t = check_node(expr, resolve, species_dim, norm)?;
+    match t.constant {
+        Some(v) if !v.is_finite() => err(
+            expr.span(),
+            format!("this part of the rate law is the constant {v}, not a finite number"),
+        ),
+        _ => Ok(t),
+    }
+}
+
+fn check_node(
     expr: &Expr,
     resolve: &dyn Fn(&str) -> Option<Resolved>,
     species_dim: Dim,
@@ -474,8 +491,7 @@ fn ternary(a: Typed, b: Typed, c: Typed, op: Op, dim: Dim) -> Typed {
 
 fn finish(ops: Vec<Op>, dim: Dim, constant: bool, depth: usize) -> Typed {
     if constant {
-        let v = fold(&ops);
-        return Typed::constant(v, dim);
+        return Typed::constant(fold(&ops), dim);
     }
     Typed {
         dim,

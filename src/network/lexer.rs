@@ -62,6 +62,9 @@ pub struct LexError {
     pub message: String,
 }
 
+/// Longest name or number accepted, so that messages quoting them stay readable.
+const MAX_NAME: usize = 200;
+
 fn is_ident_start(c: char) -> bool {
     c.is_ascii_alphabetic() || c == '_' || c == 'µ' || c == 'μ'
 }
@@ -139,6 +142,12 @@ pub fn lex_line(text: &str, line: u32) -> Result<Vec<Token>, LexError> {
         if c.is_ascii_digit() || (c == '.' && chars.get(i + 1).is_some_and(|d| d.is_ascii_digit()))
         {
             i = scan_number(&chars, i);
+            if i - start > MAX_NAME {
+                return Err(LexError {
+                    span: span(start, start + MAX_NAME),
+                    message: format!("a number of {} characters", i - start),
+                });
+            }
             let text: String = chars[start..i].iter().collect();
             let value = text.parse::<f64>().map_err(|_| LexError {
                 span: span(start, i),
@@ -153,6 +162,15 @@ pub fn lex_line(text: &str, line: u32) -> Result<Vec<Token>, LexError> {
         if is_ident_start(c) {
             while i < chars.len() && is_ident_char(chars[i]) {
                 i += 1;
+            }
+            if i - start > MAX_NAME {
+                return Err(LexError {
+                    span: span(start, start + MAX_NAME),
+                    message: format!(
+                        "a name of {} characters; names are at most {MAX_NAME}",
+                        i - start
+                    ),
+                });
             }
             out.push(Token {
                 tok: Tok::Ident(chars[start..i].iter().collect()),

@@ -15,7 +15,7 @@ pub mod lexer;
 pub mod parser;
 pub mod units;
 
-pub use analysis::{Motif, MotifKind};
+pub use analysis::{motif_chains, Motif, MotifKind};
 pub use compile::{compile, load, load_source, Override, Overrides};
 pub use expr::{Dual, Law, Scalar};
 pub use units::{Dim, Quantity, AVOGADRO};
@@ -48,6 +48,10 @@ pub struct Network {
     pub conservation_laws: Vec<Vec<i64>>,
     pub motifs: Vec<Motif>,
     pub warnings: Vec<Diagnostic>,
+    /// The parsed file and the overrides it was compiled with, so that variants of the same
+    /// network (sweep points, sensitivities, fits) can be compiled without reading it again.
+    pub source: std::sync::Arc<parser::Ast>,
+    pub overrides: Overrides,
 }
 
 #[derive(Clone, Debug, PartialEq)]
@@ -119,6 +123,18 @@ impl Reaction {
 }
 
 impl Network {
+    /// The same file compiled with `changes` applied on top of this network's own overrides.
+    pub fn with_overrides(&self, changes: &Overrides) -> crate::Result<Network> {
+        let mut o = self.overrides.clone();
+        for (name, v) in &changes.values {
+            o = o.set(name, *v);
+        }
+        if changes.rescale_volume.is_some() {
+            o.rescale_volume = changes.rescale_volume;
+        }
+        compile(&self.source, &o).map_err(crate::Error::Input)
+    }
+
     pub fn species_index(&self, name: &str) -> Option<usize> {
         self.species.iter().position(|s| s.name == name)
     }

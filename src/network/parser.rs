@@ -138,6 +138,9 @@ pub const KEYWORDS: &[&str] = &[
     "volume", "species", "param", "step", "law", "kd", "half", "life", "clamped",
 ];
 
+/// Parsing stops after this many broken lines: the first ones are what the user needs.
+const MAX_ERRORS: usize = 50;
+
 /// Parses a whole file. `bytes` may be anything: invalid UTF-8 is reported with its position.
 pub fn parse(file: &str, bytes: &[u8]) -> Result<Ast, Vec<Diagnostic>> {
     let source = match std::str::from_utf8(bytes) {
@@ -162,6 +165,9 @@ pub fn parse(file: &str, bytes: &[u8]) -> Result<Ast, Vec<Diagnostic>> {
     let mut items = Vec::new();
     let mut errors = Vec::new();
     for (i, text) in source.lines().enumerate() {
+        if errors.len() >= MAX_ERRORS {
+            break;
+        }
         let line = i as u32 + 1;
         let tokens = match lex_line(text, line) {
             Ok(t) => t,
@@ -205,6 +211,29 @@ pub fn parse(file: &str, bytes: &[u8]) -> Result<Ast, Vec<Diagnostic>> {
     } else {
         Err(errors)
     }
+}
+
+/// Reads a number with an optional unit, such as `2nM`, `3 /min` or `1e6 /M/s`, from a command
+/// line value, with the unit rules of the file language. Returns the quantity in canonical
+/// units and the factor of the written unit (`None` when no unit was written).
+pub fn parse_quantity(text: &str) -> Result<(Quantity, Option<f64>), String> {
+    let tokens = lex_line(text, 1).map_err(|e| e.message)?;
+    if tokens.is_empty() {
+        return Err("expected a number".into());
+    }
+    let mut p = LineParser {
+        file: "",
+        source: text,
+        tokens: &tokens,
+        pos: 0,
+        line: 1,
+        end_col: text.chars().count() as u32 + 1,
+    };
+    let lit = p
+        .literal("a number with an optional unit")
+        .and_then(|l| p.end().map(|_| l))
+        .map_err(|d| d.message)?;
+    Ok((lit.quantity, (!lit.bare).then_some(lit.unit_factor)))
 }
 
 type PResult<T> = Result<T, Box<Diagnostic>>;
@@ -918,6 +947,22 @@ mod tests {
         assert!(d.message.contains("no statements"));
         let d = err("step a A B -> C @ 1\n");
         assert!(d.message.contains("expected `->` or `<->`"));
+    }
+
+    #[test]
+    fn command_line_quantities() {
+        let (q, unit) = parse_quantity("2nM").unwrap();
+        assert_eq!(unit, Some(1e-9));
+        assert!(q.dim == Dim::CONC && (q.value - 2e-9).abs() < 1e-24);
+        let (q, unit) = parse_quantity("-3.5").unwrap();
+        assert!(unit.is_none() && q.value == -3.5);
+        let (q, _) = parse_quantity("1e6 /M/s").unwrap();
+        assert_eq!(q.dim, Dim::new(-1, -1, 0, 0));
+        assert!(parse_quantity("2 parsecs")
+            .unwrap_err()
+            .contains("unknown unit"));
+        assert!(parse_quantity("").is_err());
+        assert!(parse_quantity("2 nM 3").is_err());
     }
 
     #[test]

@@ -3,6 +3,8 @@
 
 pub mod check;
 pub mod simulate;
+pub mod steady;
+pub mod svg;
 pub mod table;
 
 /// `2 A + B`, or `0` for an empty side.
@@ -65,7 +67,7 @@ mod tests {
         assert_eq!(num(1234.5678), "1235");
         assert_eq!(num(0.5), "0.5");
         assert_eq!(num(2.0), "2");
-        assert_eq!(num(1.660539e-3), "0.00166");
+        assert_eq!(num(1.660539e-3), "0.001661");
         assert_eq!(num(6.02214076e8), "6.022e8");
     }
 }

@@ -1,0 +1,164 @@
+//! The report of `copyloop steady`.
+
+use super::check::law_text;
+use super::table::Table;
+use super::{jnum, num, side};
+use crate::deterministic::Steady;
+use crate::network::Network;
+use serde_json::{json, Map, Value};
+
+/// A molar figure beside a count figure: `x/Ω`, or null without a volume.
+fn molar(net: &Network, x: f64) -> Value {
+    net.volume_l.map_or(Value::Null, |_| jnum(x / net.omega))
+}
+
+fn eigen_text(z: &nalgebra::Complex<f64>) -> String {
+    if z.im == 0.0 {
+        num(z.re)
+    } else {
+        let sign = if z.im < 0.0 { "-" } else { "+" };
+        format!("{} {sign} {}i", num(z.re), num(z.im.abs()))
+    }
+}
+
+/// The JSON document of CONTRACT §3 for `steady`, with extras.
+pub fn json(net: &Network, st: &Steady) -> Value {
+    let mut state = Map::new();
+    for (i, s) in net.species.iter().enumerate() {
+        state.insert(
+            s.name.clone(),
+            json!({
+                "count": jnum(st.counts[i]),
+                "molar": molar(net, st.counts[i]),
+                "clamped": s.clamped,
+            }),
+        );
+    }
+    let mut fluxes = Map::new();
+    for (j, r) in net.reactions.iter().enumerate() {
+        fluxes.insert(
+            r.label.clone(),
+            json!({
+                "per_s": jnum(st.fluxes_per_s[j]),
+                "molar_per_s": molar(net, st.fluxes_per_s[j]),
+            }),
+        );
+    }
+    let conservation: Vec<Value> = net
+        .conservation_laws
+        .iter()
+        .zip(&st.totals)
+        .map(|(l, &t)| {
+            let mut m = Map::new();
+            for (i, &c) in l.iter().enumerate().filter(|(_, &c)| c != 0) {
+                m.insert(net.species[i].name.clone(), json!(c));
+            }
+            json!({
+                "law": Value::Object(m),
+                "total": jnum(t * net.omega),
+                "total_molar": molar(net, t * net.omega),
+            })
+        })
+        .collect();
+    let eigenvalues: Vec<Value> = st
+        .eigenvalues
+        .iter()
+        .map(|z| json!({"re": jnum(z.re), "im": jnum(z.im)}))
+        .collect();
+    json!({
+        "file": net.file,
+        "volume_l": net.volume_l,
+        "state": state,
+        "fluxes": fluxes,
+        "residual": jnum(st.residual.max_abs_per_s),
+        "residual_molar": molar(net, st.residual.max_abs_per_s),
+        "residual_relative": jnum(st.residual.relative),
+        "stable": st.stable(),
+        "stability": st.stability.as_str(),
+        "eigenvalues": eigenvalues,
+        "independent": st.independent.iter().map(|&i| net.species[i].name.clone()).collect::<Vec<_>>(),
+        "conservation": conservation,
+        "method": st.method.as_str(),
+        "iterations": st.iterations,
+        "integrated_time": jnum(st.integrated_time),
+        "ode_steps": st.ode_steps,
+    })
+}
+
+/// The readable report of `steady`.
+pub fn table(net: &Network, st: &Steady) -> String {
+    let mut out = format!(
+        "{}: deterministic steady state ({})\n\n",
+        net.file,
+        st.method.as_str()
+    );
+    let with_volume = net.volume_l.is_some();
+    let mut head = vec!["species", "molecules"];
+    if with_volume {
+        head.push("M");
+    }
+    head.push("held");
+    let mut t = Table::new(&head);
+    for (i, s) in net.species.iter().enumerate() {
+        let mut row = vec![s.name.clone(), num(st.counts[i])];
+        if with_volume {
+            row.push(num(st.conc[i]));
+        }
+        row.push(if s.clamped {
+            "clamped".into()
+        } else {
+            String::new()
+        });
+        t.row(row);
+    }
+    out.push_str(&t.render());
+    out.push('\n');
+    let mut head = vec!["reaction", "step", "flux (molecules/s)"];
+    if with_volume {
+        head.push("flux (M/s)");
+    }
+    let mut t = Table::new(&head);
+    for (j, r) in net.reactions.iter().enumerate() {
+        let mut row = vec![
+            r.label.clone(),
+            format!("{} -> {}", side(net, &r.reactants), side(net, &r.products)),
+            num(st.fluxes_per_s[j]),
+        ];
+        if with_volume {
+            row.push(num(st.rates[j]));
+        }
+        t.row(row);
+    }
+    out.push_str(&t.render());
+    if !net.conservation_laws.is_empty() {
+        out.push_str("\nconserved totals\n");
+        for (l, &total) in net.conservation_laws.iter().zip(&st.totals) {
+            let molar = if with_volume {
+                format!(" ({} M)", num(total))
+            } else {
+                String::new()
+            };
+            out.push_str(&format!(
+                "  {} = {} molecules{molar}\n",
+                law_text(net, l),
+                num(total * net.omega)
+            ));
+        }
+    }
+    out.push_str(&format!(
+        "\nresidual: max |dx/dt| = {} molecules/s (relative {})\n",
+        num(st.residual.max_abs_per_s),
+        num(st.residual.relative)
+    ));
+    let ev: Vec<String> = st.eigenvalues.iter().map(eigen_text).collect();
+    out.push_str(&format!(
+        "stability: {}; eigenvalues of the reduced Jacobian (1/s): {}\n",
+        st.stability.as_str(),
+        if ev.is_empty() {
+            "none".to_string()
+        } else {
+            ev.join(", ")
+        }
+    ));
+    out
+}

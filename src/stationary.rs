@@ -1,0 +1,151 @@
+//! Planning an ensemble that measures stationary behaviour (for `reconcile` and `noise`): where
+//! each replicate starts, how long it burns in, and how long it is measured.
+//!
+//! Replicates start at the deterministic steady state rounded to whole molecules, with every
+//! conservation law kept exactly, so that only the fluctuations have to build up. The slowest
+//! relaxation time τ = 1/min|Re λ| over the eigenvalues λ of the reduced Jacobian at the steady
+//! state sets the clock: fluctuations relax like e^(−t/τ) (linear noise approximation; van Kampen
+//! 1976 [M]), so a burn-in of [`BURN_IN_TAUS`]·τ leaves e^(−5) ≈ 0.7 % of any start-up offset,
+//! and a window of [`WINDOW_TAUS`]·τ holds about that many independent stretches per replicate.
+
+use crate::deterministic::Steady;
+use crate::network::Network;
+
+/// Burn-in in units of the slowest relaxation time.
+pub const BURN_IN_TAUS: f64 = 5.0;
+/// Measurement window in units of the slowest relaxation time.
+pub const WINDOW_TAUS: f64 = 20.0;
+
+/// Where and how long replicates run.
+#[derive(Clone, Debug, PartialEq)]
+pub struct Plan {
+    /// Initial counts of every species.
+    pub start: Vec<i64>,
+    /// `"steady state"` or `"initial state"`.
+    pub started_from: &'static str,
+    /// Slowest relaxation time τ (s), infinite when no free species relaxes.
+    pub relaxation_time: f64,
+    pub burn_in: f64,
+    pub t_end: f64,
+    /// Whether the burn-in was chosen by copyloop rather than given.
+    pub burn_in_found: bool,
+}
+
+/// The slowest relaxation time 1/min|Re λ| of a stable steady state.
+pub fn relaxation_time(steady: &Steady) -> f64 {
+    let slowest = steady
+        .eigenvalues
+        .iter()
+        .map(|l| l.re.abs())
+        .filter(|r| *r > 0.0)
+        .fold(f64::INFINITY, f64::min);
+    1.0 / slowest
+}
+
+/// The steady state rounded to whole molecules with every conservation law of the network
+/// holding exactly at its initial total; `None` when rounding cannot be repaired simply (then
+/// the file's initial state is used).
+pub fn integer_start(net: &Network, steady: &Steady) -> Option<Vec<i64>> {
+    let x0 = net.initial_state();
+    let mut x: Vec<i64> = net
+        .species
+        .iter()
+        .enumerate()
+        .map(|(i, s)| {
+            if s.clamped {
+                s.initial
+            } else {
+                steady.counts[i].round().max(0.0) as i64
+            }
+        })
+        .collect();
+    let laws = &net.conservation_laws;
+    let total = |l: &[i64], v: &[i64]| -> i64 { l.iter().zip(v).map(|(a, b)| a * b).sum() };
+    for (k, law) in laws.iter().enumerate() {
+        let deficit = total(law, &x0) - total(law, &x);
+        if deficit == 0 {
+            continue;
+        }
+        // A species in this law alone, with coefficient ±1, absorbs the rounding.
+        let own = (0..x.len()).find(|&i| {
+            law[i].abs() == 1 && laws.iter().enumerate().all(|(m, l)| m == k || l[i] == 0)
+        })?;
+        x[own] += deficit * law[own];
+        if x[own] < 0 {
+            return None;
+        }
+    }
+    laws.iter()
+        .all(|l| total(l, &x) == total(l, &x0))
+        .then_some(x)
+}
+
+/// A plan from the steady state and the user's `--burn-in` and `--t-end`, if given.
+pub fn plan(
+    net: &Network,
+    steady: Option<&Steady>,
+    burn_in: Option<f64>,
+    t_end: Option<f64>,
+) -> Plan {
+    let tau = steady.map_or(f64::INFINITY, relaxation_time);
+    let start = steady.and_then(|s| integer_start(net, s));
+    let started_from = if start.is_some() {
+        "steady state"
+    } else {
+        "initial state"
+    };
+    let start = start.unwrap_or_else(|| net.initial_state());
+    // Without a finite relaxation time, fall back to 100 s of burn-in and 400 s of window.
+    let tau_or = if tau.is_finite() { tau } else { 20.0 };
+    let found = burn_in.is_none();
+    let burn_in = burn_in.unwrap_or_else(|| match t_end {
+        Some(t) => (BURN_IN_TAUS * tau_or).min(t / 5.0),
+        None => BURN_IN_TAUS * tau_or,
+    });
+    let t_end = t_end.unwrap_or(burn_in + WINDOW_TAUS * tau_or);
+    Plan {
+        start,
+        started_from,
+        relaxation_time: tau,
+        burn_in,
+        t_end,
+        burn_in_found: found,
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::deterministic::{solve, SteadyOptions};
+    use crate::network::{load_source, Overrides};
+
+    #[test]
+    fn rounded_start_keeps_conservation_laws() {
+        // E + C = 7 and S + C + P held by inflow/outflow: rounding must keep E + C = 7.
+        let src = "species E = 7\nspecies S = 0\nspecies C = 0\nspecies P = 0\n\
+                   step in 0 -> S @ 3.3\nstep b E + S <-> C @ 0.05, 0.7\nstep c C -> E + P @ 1.1\nstep out P -> 0 @ 0.9\n";
+        let net = load_source("t.crn", src.as_bytes(), &Overrides::default()).unwrap();
+        let st = solve(&net, &SteadyOptions::default()).unwrap();
+        let x = integer_start(&net, &st).unwrap();
+        assert_eq!(x[0] + x[2], 7);
+        for (i, &c) in x.iter().enumerate() {
+            assert!(
+                (c as f64 - st.counts[i]).abs() <= 1.0,
+                "{x:?} vs {:?}",
+                st.counts
+            );
+        }
+        // Immigration–death: τ = 1/γ exactly (the only eigenvalue is −γ; common practice).
+        let net = load_source(
+            "t.crn",
+            b"species A = 0\nstep i 0 -> A @ 10\nstep d A -> 0 @ 0.25\n",
+            &Overrides::default(),
+        )
+        .unwrap();
+        let st = solve(&net, &SteadyOptions::default()).unwrap();
+        assert!((relaxation_time(&st) - 4.0).abs() < 1e-9);
+        let p = plan(&net, Some(&st), None, None);
+        assert_eq!(p.start, vec![40]);
+        assert!((p.burn_in - 20.0).abs() < 1e-9 && (p.t_end - 100.0).abs() < 1e-9);
+    }
+}

@@ -1,0 +1,159 @@
+//! The bad-input catalogue: every malformed network gives exit status 2, names
+//! file:line:column, says what is wrong, and never panics.
+
+use std::path::PathBuf;
+use std::process::Command;
+
+struct Case {
+    name: &'static str,
+    text: Vec<u8>,
+    line: u32,
+    col: u32,
+    says: &'static str,
+}
+
+fn case(name: &'static str, text: &str, line: u32, col: u32, says: &'static str) -> Case {
+    Case {
+        name,
+        text: text.as_bytes().to_vec(),
+        line,
+        col,
+        says,
+    }
+}
+
+fn catalogue() -> Vec<Case> {
+    let deep = format!(
+        "species A = 1\nstep s A -> 0 @ law {}A{}\n",
+        "(".repeat(100),
+        ")".repeat(100)
+    );
+    let huge = format!(
+        "species A = 1\nstep s A -> 0 @ 1 {}\n",
+        "+".repeat(10_000_000)
+    );
+    let long_name = format!("species {} = 1\n", "x".repeat(5_000_000));
+    let mut v = vec![
+        case("unknown species", "species A = 1\nstep s A -> Q @ 1\n", 2, 13, "unknown species `Q`"),
+        case("duplicate species", "species A = 1\nspecies A = 2\n", 2, 9, "declared twice"),
+        case("species and param share a name", "species A = 1\nparam A = 2\n", 2, 7, "declared twice"),
+        case("duplicate label", "species A = 1\nstep s A -> 0 @ 1\nstep s A -> 0 @ 2\n", 3, 6, "used twice"),
+        case("label clashes with a reverse", "species A = 1\nspecies B = 0\nstep s A <-> B @ 1, 1\nstep s_rev A -> B @ 1\n", 4, 6, "`s_rev` is used twice"),
+        case("order 4", "species A = 10\nstep s 4 A -> 0 @ 1\n", 2, 8, "order 4"),
+        case("order 4 after merging repeats", "species A = 10\nspecies B = 1\nstep s 2 A + B + A -> 0 @ 1\n", 3, 8, "order 4"),
+        case("second-order constant in 1/s", "volume 1 fL\nspecies A = 1\nspecies B = 1\nstep s A + B -> 0 @ 2 /s\n", 4, 21, "needs dimension 1/(concentration·time)"),
+        case("first-order constant in /M/s", "volume 1 fL\nspecies A = 1\nstep s A -> 0 @ 1e6 /M/s\n", 3, 17, "needs dimension 1/time"),
+        case("zero-order constant without concentration", "volume 1 fL\nspecies A = 1\nstep s 0 -> A @ 3 /M\n", 3, 17, "needs dimension concentration/time"),
+        case("negative constant", "species A = 1\nstep s A -> 0 @ -1\n", 2, 17, "at least 0"),
+        case("negative param as a constant", "species A = 1\nparam k = -2 /s\nstep s A -> 0 @ k\n", 3, 17, "at least 0"),
+        case("NaN spelled out", "param k = nan\n", 1, 11, "expected a number"),
+        case("NaN from a law", "species A = 1\nstep s A -> 0 @ law (0 / 0) * A\n", 2, 22, "not a finite number"),
+        case("infinite constant", "param k = 1e999\n", 1, 11, "finite"),
+        case("concentration without a volume", "species A = 3 nM\n", 1, 13, "no volume"),
+        case("count overflow", "species A = 1e18\n", 1, 13, "more than copyloop can count"),
+        case("count overflow from a concentration", "volume 1 L\nspecies A = 1 M\n", 2, 13, "more than copyloop can count"),
+        case("fractional molecules", "species A = 2.5\n", 1, 13, "not a whole number"),
+        case("negative amount", "species A = -3\n", 1, 13, "at least 0"),
+        case("unknown unit", "volume 1 fL\nspecies A = 3 nm\n", 2, 15, "unknown unit `nm`"),
+        case("unknown unit after a slash", "species A = 1\nstep s A -> 0 @ 2 /sec\n", 2, 20, "unknown unit `sec`"),
+        case("volume in a concentration unit", "volume 1 nM\n", 1, 8, "volume unit"),
+        case("volume twice", "volume 1 fL\nvolume 2 fL\n", 2, 8, "set twice"),
+        case("unbalanced parentheses in a law", "species A = 1\nstep s A -> 0 @ law (A * 2\n", 2, 27, "expected `)`"),
+        case("closing parenthesis without opening", "species A = 1\nstep s A -> 0 @ law A * 2)\n", 2, 26, "found `)`"),
+        case("missing @", "species A = 1\nstep s A -> 0 1\n", 2, 15, "expected `@`"),
+        case("missing arrow", "species A = 1\nspecies B = 1\nstep s A B @ 1\n", 3, 10, "expected `->` or `<->`"),
+        case("missing reverse rate", "species A = 1\nspecies B = 0\nstep s A <-> B @ 1\n", 3, 19, "reverse rate"),
+        case("two rates on a one-way step", "species A = 1\nstep s A -> 0 @ 1, 2\n", 2, 18, "one-way"),
+        case("unknown statement", "spec A = 1\n", 1, 1, "expected `volume`, `species`, `param` or `step`"),
+        case("missing equals sign", "species A 1\n", 1, 11, "expected `=`"),
+        case("bad coefficient", "species A = 1\nstep s 0.5 A -> 0 @ 1\n", 2, 8, "not a valid coefficient"),
+        case("half-life on a second-order step", "species A = 1\nspecies B = 1\nstep s A + B -> 0 @ half-life 3 s\n", 3, 21, "first-order"),
+        case("half-life that is not a time", "volume 1 fL\nspecies A = 1\nstep s A -> 0 @ half-life 3 nM\n", 3, 27, "positive time"),
+        case("law with the wrong dimension", "volume 1 fL\nspecies A = 1\nstep s 0 -> A @ law 2 * A\n", 3, 21, "has dimension concentration"),
+        case("law with an unknown name", "species A = 1\nstep s 0 -> A @ law k * A\n", 2, 21, "unknown name `k`"),
+        case("law adding unlike dimensions", "volume 1 fL\nspecies A = 1\nparam k = 1 /s\nstep s 0 -> A @ law A + k\n", 4, 21, "cannot add"),
+        case("unknown function", "species A = 1\nstep s 0 -> A @ law sqr(A)\n", 2, 21, "unknown function `sqr`"),
+        case("kd with the wrong dimension", "volume 1 fL\nspecies A = 1\nspecies B = 1\nspecies C = 0\nstep s A + B <-> C @ 1e6 /M/s, kd 3 /s\n", 5, 35, "should have dimension concentration"),
+        case("kd on a forward rate", "species A = 1\nstep s A -> 0 @ kd 3\n", 2, 17, "`kd` can only"),
+        case("param used as a species", "param k = 1\nstep s k -> 0 @ 1\n", 2, 8, "is a param, not a species"),
+        case("species used as a rate", "species A = 1\nstep s A -> 0 @ A\n", 2, 17, "is a species"),
+        case("unknown param", "species A = 1\nstep s A -> 0 @ kx\n", 2, 17, "unknown param `kx`"),
+        case("keyword as a name", "species law = 1\n", 1, 9, "keyword"),
+        case("empty file", "", 1, 1, "no statements"),
+        case("only comments", "# nothing here\n\n   \n", 1, 1, "no statements"),
+        case("control character", "species A = 1\u{7}\n", 1, 14, "control character"),
+        case("stray less-than", "species A = 1\nstep s A <- B @ 1\n", 2, 10, "`<->`"),
+        case("expression nested too deeply", &deep, 2, 0, "nested too deeply"),
+        case("a 10 MB line", &huge, 2, 19, "expected the end of the line"),
+        case("a 5 MB name", &long_name, 1, 9, "names are at most"),
+    ];
+    v.push(Case {
+        name: "binary bytes",
+        text: vec![0x00, 0x01, 0xff, 0xfe, b'\n', 0x80],
+        line: 1,
+        col: 3,
+        says: "not UTF-8",
+    });
+    v.push(Case {
+        name: "binary after text",
+        text: b"species A = 1\nstep s A -> 0 @ 1\n\x89PNG\r\n\x1a\n\x00\x00".to_vec(),
+        line: 3,
+        col: 1,
+        says: "not UTF-8",
+    });
+    v
+}
+
+fn scratch() -> PathBuf {
+    let dir = std::env::temp_dir().join(format!("copyloop-bad-{}", std::process::id()));
+    std::fs::create_dir_all(&dir).unwrap();
+    dir
+}
+
+#[test]
+fn every_bad_input_exits_2_with_its_location() {
+    let dir = scratch();
+    let cases = catalogue();
+    assert!(cases.len() >= 25);
+    let mut failures = Vec::new();
+    for (k, c) in cases.iter().enumerate() {
+        let path = dir.join(format!("case{k}.crn"));
+        std::fs::write(&path, &c.text).unwrap();
+        let out = Command::new(env!("CARGO_BIN_EXE_copyloop"))
+            .args(["check", path.to_str().unwrap()])
+            .output()
+            .unwrap();
+        let stderr = String::from_utf8_lossy(&out.stderr);
+        let loc = if c.col == 0 {
+            format!("{}:{}:", path.display(), c.line)
+        } else {
+            format!("{}:{}:{}:", path.display(), c.line, c.col)
+        };
+        let ok = out.status.code() == Some(2)
+            && stderr.contains(&loc)
+            && stderr.contains(c.says)
+            && !stderr.contains("panicked")
+            && stderr.len() < 20_000;
+        if !ok {
+            let shown: String = stderr.chars().take(600).collect();
+            failures.push(format!(
+                "{}: status {:?}, wanted `{loc}` and `{}`, got:\n{shown}",
+                c.name,
+                out.status.code(),
+                c.says
+            ));
+        }
+    }
+    let _ = std::fs::remove_dir_all(&dir);
+    assert!(failures.is_empty(), "{}", failures.join("\n\n"));
+}
+
+#[test]
+fn a_missing_file_exits_2() {
+    let out = Command::new(env!("CARGO_BIN_EXE_copyloop"))
+        .args(["check", "/nonexistent/net.crn"])
+        .output()
+        .unwrap();
+    assert_eq!(out.status.code(), Some(2));
+    assert!(String::from_utf8_lossy(&out.stderr).contains("/nonexistent/net.crn"));
+}

@@ -1,0 +1,132 @@
+//! `copyloop check` on every bundled example: valid JSON with every key of CONTRACT §3.
+
+use std::process::Command;
+
+fn check_json(path: &str) -> serde_json::Value {
+    let out = Command::new(env!("CARGO_BIN_EXE_copyloop"))
+        .args(["check", path, "--json"])
+        .output()
+        .unwrap();
+    assert_eq!(
+        out.status.code(),
+        Some(0),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    serde_json::from_slice(&out.stdout).expect("valid JSON")
+}
+
+fn examples() -> Vec<String> {
+    let dir = concat!(env!("CARGO_MANIFEST_DIR"), "/reactions");
+    let mut v: Vec<String> = std::fs::read_dir(dir)
+        .unwrap()
+        .map(|e| e.unwrap().path().display().to_string())
+        .filter(|p| p.ends_with(".crn"))
+        .collect();
+    v.sort();
+    v
+}
+
+#[test]
+fn every_example_has_every_contract_key() {
+    let files = examples();
+    assert!(files.len() >= 3);
+    for f in files {
+        let j = check_json(&f);
+        for key in [
+            "species",
+            "reactions",
+            "stoichiometry",
+            "conservation_laws",
+            "omega",
+            "motifs",
+        ] {
+            assert!(j.get(key).is_some(), "{f}: missing {key}");
+        }
+        let ns = j["species"].as_array().unwrap().len();
+        let nr = j["reactions"].as_array().unwrap().len();
+        for s in j["species"].as_array().unwrap() {
+            for key in ["name", "initial_count", "clamped"] {
+                assert!(s.get(key).is_some(), "{f}: species lacks {key}");
+            }
+        }
+        for r in j["reactions"].as_array().unwrap() {
+            for key in [
+                "label",
+                "reactants",
+                "products",
+                "order",
+                "stochastic_constant",
+            ] {
+                assert!(r.get(key).is_some(), "{f}: reaction lacks {key}");
+            }
+        }
+        let s = j["stoichiometry"].as_array().unwrap();
+        assert_eq!(s.len(), ns);
+        assert!(s.iter().all(|row| row.as_array().unwrap().len() == nr));
+        for m in j["motifs"].as_array().unwrap() {
+            for key in [
+                "kind",
+                "carrier",
+                "ligand",
+                "complex",
+                "bind",
+                "unbind",
+                "k_half",
+                "k_half_molar",
+            ] {
+                assert!(m.get(key).is_some(), "{f}: motif lacks {key}");
+            }
+            assert!(m.get("turnover").is_some() || m.get("signal").is_some());
+        }
+    }
+}
+
+// Briggs–Haldane K = (k_off + k_cat)/k_on (Briggs & Haldane 1925 [M]) for the enzyme example:
+// (0.5 + 1.5)/2e7 M = 100 nM; Langmuir K_d = k_off/k_on = 0.2/1e7 = 20 nM for the receptor.
+#[test]
+fn example_motifs_and_laws() {
+    let dir = concat!(env!("CARGO_MANIFEST_DIR"), "/reactions");
+    let j = check_json(&format!("{dir}/enzyme_clearance.crn"));
+    let m = &j["motifs"][0];
+    assert_eq!(m["kind"], "enzyme");
+    assert_eq!(m["carrier"], "E");
+    assert_eq!(m["ligand"], "H");
+    assert_eq!(m["turnover"], "turnover");
+    assert!((m["k_half_molar"].as_f64().unwrap() - 1e-7).abs() < 1e-20);
+    assert_eq!(
+        j["conservation_laws"],
+        serde_json::json!([{"E": 1, "EH": 1}])
+    );
+
+    let j = check_json(&format!("{dir}/receptor_signal.crn"));
+    let m = &j["motifs"][0];
+    assert_eq!(m["kind"], "receptor");
+    assert_eq!(m["signal"], "signal");
+    assert!((m["k_half_molar"].as_f64().unwrap() - 2e-8).abs() < 1e-21);
+
+    let j = check_json(&format!("{dir}/gland_loop.crn"));
+    assert_eq!(
+        j["conservation_laws"],
+        serde_json::json!([{"G": 1, "HG": 1}, {"R": 1, "HR": 1}])
+    );
+    assert_eq!(j["motifs"].as_array().unwrap().len(), 1);
+    assert_eq!(j["motifs"][0]["carrier"], "R");
+    assert_eq!(j["motifs"][0]["ligand"], "H");
+    assert!(j["reactions"][0]["stochastic_constant"].is_null());
+}
+
+#[test]
+fn help_carries_the_research_caution() {
+    for args in [vec!["--help"], vec!["check", "--help"]] {
+        let out = Command::new(env!("CARGO_BIN_EXE_copyloop"))
+            .args(&args)
+            .output()
+            .unwrap();
+        let text = String::from_utf8_lossy(&out.stdout);
+        assert!(
+            text.contains("not a basis for diagnosis or treatment"),
+            "{text}"
+        );
+    }
+}

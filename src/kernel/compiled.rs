@@ -239,7 +239,7 @@ impl CompiledKernel {
             3 => r.c * f(0) * f(1) * f(2),
             _ => {
                 let v = self.laws[r.i[0] as usize].eval(x);
-                if v >= 0.0 && v < f64::INFINITY {
+                if (0.0..f64::INFINITY).contains(&v) {
                     v
                 } else {
                     f64::NAN
@@ -317,9 +317,11 @@ impl CompiledKernel {
             "its constant is too large for these counts"
         };
         Error::usage(format!(
-            "{}:{line}:{col}: step `{}`: its propensity became {value} molecules/s at t = {t} s; \
+            "{}:{line}:{col}: step `{}`: its propensity became {value} molecules/s at t = {} s; \
              a rate must be finite and not negative ({why})",
-            self.file, self.labels[j]
+            self.file,
+            self.labels[j],
+            time(t)
         ))
     }
 
@@ -329,10 +331,22 @@ impl CompiledKernel {
         let (line, col) = self.species_at[i];
         Error::usage(format!(
             "{}:{line}:{col}: species `{}` would exceed the largest count copyloop holds \
-             ({MAX_COUNT} molecules) when step `{}` fires at t = {t} s; the network grows \
+             ({MAX_COUNT} molecules) when step `{}` fires at t = {} s; the network grows \
              without bound, or the run is far too long for it",
-            self.file, self.species_names[i], self.labels[j]
+            self.file,
+            self.species_names[i],
+            self.labels[j],
+            time(t)
         ))
+    }
+}
+
+/// A time for a message: four decimals, or four significant digits in scientific form.
+fn time(t: f64) -> String {
+    if t == 0.0 || (1e-3..1e6).contains(&t.abs()) {
+        format!("{t:.4}")
+    } else {
+        format!("{t:.4e}")
     }
 }
 
@@ -366,7 +380,8 @@ fn mass_action(net: &Network, r: &crate::network::Reaction, c: f64, one: u32) ->
     let used = factors.len() as u8;
     // Keeps c′·x₁x₂x₃ finite for every count up to MAX_COUNT, so that a mass-action
     // propensity is never infinite and a₀ stays finite.
-    if !(c * (MAX_COUNT as f64).powi(used as i32) < 1e290) {
+    let largest = c * (MAX_COUNT as f64).powi(used as i32);
+    if largest.is_nan() || largest >= 1e290 {
         return Err(Error::usage(format!(
             "{}:{}:{}: step `{}`: the stochastic constant {c:e} is too large; propensities \
              would overflow",

@@ -1,8 +1,8 @@
 //! The network in the flat form the event loop reads, built once per network.
 //!
-//! - Mass-action propensities become one branch-free product of three falling factors (a
-//!   [`Rate`] of 24 bytes with `u32` indices); `law` propensities stay in a side table as
-//!   [`Network::propensities`] compiles them.
+//! - Mass-action propensities become a product of at most three falling factors (a [`Rate`] of
+//!   24 bytes with `u32` indices, its number of factors matched once per evaluation); `law`
+//!   propensities stay in a side table as [`Network::propensities`] compiles them.
 //! - State changes and the dependency graph are rows of flat arrays (an offset array and a value
 //!   array). In a small network (fewer than [`SMALL_BELOW`] reactions) every row is padded to the
 //!   same length, with changes of 0 to the constant slot and with an idle channel whose
@@ -24,12 +24,12 @@ pub const LAW: u8 = u8::MAX;
 /// Mass action, a = c·Π C(xᵢ, νᵢ) (Gillespie 1976, J. Comput. Phys. 22:403 [verified]; the
 /// forms c·x, c·x₁x₂, c·x(x−1)/2, c·x(x−1)(x−2)/6 [M], REFERENCES.md §1), is written as
 ///
-/// a = c′·(x[i₀] − o₀)·(x[i₁] − o₁)·(x[i₂] − o₂),
+/// a = c′·(x[i₀] − o₀)·(x[i₁] − o₁)·(x[i₂] − o₂)   (the first `factors` of them),
 ///
 /// with c′ = c/Π νᵢ! and one factor x − k (k = 0 … ν−1) per reactant molecule: A + B gives
-/// x_A·x_B, 2A gives x_A(x_A − 1), 3A gives x_A(x_A − 1)(x_A − 2). Unused factors read the slot
-/// that holds 1, and a clamped reactant's C(x, ν) is folded into c′ (its count never changes).
-/// With x < ν one factor is 0, so the product is 0 (or −0), exactly as C(x, ν) = 0.
+/// x_A·x_B, 2A gives x_A(x_A − 1), 3A gives x_A(x_A − 1)(x_A − 2). Unused factors point at the
+/// slot that holds 1, and a clamped reactant's C(x, ν) is folded into c′ (its count never
+/// changes). With x < ν one factor is 0, so the product is 0 (or −0), exactly as C(x, ν) = 0.
 #[derive(Clone, Copy, Debug, PartialEq)]
 pub struct Rate {
     /// c′ (unused for a law).

@@ -11,6 +11,11 @@
 //!   block accumulators at a time, never one per replicate.
 //! - Statistics: Welford accumulators with the pairwise merge ([`crate::stats::Welford`]);
 //!   memory grows with species × grid points, not with replicates (unless `keep_finals`).
+//!   Student-t intervals come from [`crate::stats::Welford::ci95`].
+//! - Progress: with `progress`, an indicatif bar with elapsed time and ETA on stderr; the
+//!   caller decides (the command line asks for it only when stderr is a terminal).
+//! - Observers: every replicate records its grid, its firing counts and its time integrals
+//!   ([`Recorder`] and [`Integrals`]).
 
 use crate::error::{Error, Result};
 use crate::kernel::observe::grid_times;

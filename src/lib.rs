@@ -37,6 +37,7 @@ pub mod ensemble;
 pub mod error;
 pub mod kernel;
 pub mod network;
+pub mod noise;
 pub mod reconcile;
 pub mod report;
 pub mod stationary;

@@ -48,7 +48,9 @@ fn gof(samples: &[i64], pmf: impl Fn(i64) -> f64, lo: i64, hi: i64) -> f64 {
     probs.push(tail);
     let total: f64 = probs.iter().sum();
     probs.iter_mut().for_each(|p| *p /= total);
-    chi_square_gof(&observed, &probs).expect("chi-square").p_value
+    chi_square_gof(&observed, &probs)
+        .expect("chi-square")
+        .p_value
 }
 
 /// Records the time and channel of every firing.
@@ -105,13 +107,21 @@ fn pure_decay_is_binomial() {
     let (mean, var) = (1000.0 * p, 1000.0 * p * (1.0 - p));
     assert!((mean - 606.5307).abs() < 1e-4 && (var - 238.6512).abs() < 1e-4);
     let r = xs.len() as f64;
-    assert!((w.mean() - mean).abs() < 4.0 * (var / r).sqrt(), "mean {}", w.mean());
+    assert!(
+        (w.mean() - mean).abs() < 4.0 * (var / r).sqrt(),
+        "mean {}",
+        w.mean()
+    );
     // Binomial fourth central moment μ₄ = npq(1 + 3(n − 2)pq) (standard handbook formula);
     // SE(s²) ≈ √((μ₄ − σ⁴)/R).
     let pq = p * (1.0 - p);
     let mu4 = 1000.0 * pq * (1.0 + 3.0 * 998.0 * pq);
     let se_var = ((mu4 - var * var) / r).sqrt();
-    assert!((w.variance() - var).abs() < 4.0 * se_var, "variance {}", w.variance());
+    assert!(
+        (w.variance() - var).abs() < 4.0 * se_var,
+        "variance {}",
+        w.variance()
+    );
     let b = Binomial::new(p, 1000).unwrap();
     let pv = gof(&xs, |k| b.pmf(k as u64), 0, 1000);
     assert!(pv > 1e-4, "chi-square p = {pv}");
@@ -133,7 +143,11 @@ fn decay_extinction_time_has_the_harmonic_mean() {
         w.push(s.absorbed_at.expect("decay ends in extinction"));
     }
     let se = (1.634984f64 / 1e4).sqrt();
-    assert!((w.mean() - 5.187378).abs() < 4.0 * se, "mean T {}", w.mean());
+    assert!(
+        (w.mean() - 5.187378).abs() < 4.0 * se,
+        "mean T {}",
+        w.mean()
+    );
 }
 
 /// Immigration–death 0 → X (k = 10), X → 0 (γ = 0.1 per molecule) from X = 0 (REFERENCES.md
@@ -157,10 +171,18 @@ fn immigration_death_is_poisson_with_exact_window_figures() {
     let rr = 10_000f64;
     let lam = 100.0 * (1.0 - (-10.0f64).exp());
     let fin = &r.final_state[0];
-    assert!((fin.mean() - lam).abs() < 4.0 * (lam / rr).sqrt(), "mean {}", fin.mean());
+    assert!(
+        (fin.mean() - lam).abs() < 4.0 * (lam / rr).sqrt(),
+        "mean {}",
+        fin.mean()
+    );
     // Poisson variance: SE(s²) ≈ √((λ + 2λ²)/R) (REFERENCES.md §0).
     let se_var = ((lam + 2.0 * lam * lam) / rr).sqrt();
-    assert!((fin.variance() - lam).abs() < 4.0 * se_var, "var {}", fin.variance());
+    assert!(
+        (fin.variance() - lam).abs() < 4.0 * se_var,
+        "var {}",
+        fin.variance()
+    );
     let xs: Vec<i64> = r.finals.as_ref().unwrap().iter().map(|x| x[0]).collect();
     let pois = Poisson::new(lam).unwrap();
     let pv = gof(&xs, |k| pois.pmf(k as u64), 0, 200);
@@ -169,7 +191,11 @@ fn immigration_death_is_poisson_with_exact_window_figures() {
     assert_eq!(r.grid_times[1], 10.0);
     let g = &r.grid[1][0];
     let lam10 = 63.212056;
-    assert!((g.mean() - lam10).abs() < 4.0 * (lam10 / rr).sqrt(), "grid mean {}", g.mean());
+    assert!(
+        (g.mean() - lam10).abs() < 4.0 * (lam10 / rr).sqrt(),
+        "grid mean {}",
+        g.mean()
+    );
     // Firings in the window.
     let births = &r.firings[0];
     assert!((births.mean() - 500.0).abs() < 4.0 * (500.0 / rr).sqrt());
@@ -178,7 +204,11 @@ fn immigration_death_is_poisson_with_exact_window_figures() {
     let deaths = &r.firings[1];
     assert!((deaths.mean() - 499.33077).abs() < 4.0 * deaths.stderr());
     let avg = &r.time_average[0];
-    assert!((avg.mean() - 99.866153).abs() < 4.0 * avg.stderr(), "avg {}", avg.mean());
+    assert!(
+        (avg.mean() - 99.866153).abs() < 4.0 * avg.stderr(),
+        "avg {}",
+        avg.mean()
+    );
     // Within-window variance (1/T)∫x² − x̄², from the exact moments: X(t) ~ Poisson(λ(t)),
     // Cov(X(s), X(t)) = λ(s)e^(−γ(t−s)) for s < t (survivors of X(s); derived [C]), so
     // E = (1/T)∫(λ + λ²) − ((1/T)∫λ)² − (2/T²)∫ λ(s)(1 − e^(−γ(t_end−s)))/γ ds.
@@ -216,7 +246,11 @@ fn isomerisation_is_binomial() {
     assert!((half.mean() - 78.383382).abs() < 4.0 * (16.943836f64 / 1e4).sqrt());
     let xs = finals(&n, 10_000, 42, 6.0, "A");
     let w = moments(&xs);
-    assert!((w.mean() - 75.0).abs() < 4.0 * (18.75f64 / 1e4).sqrt(), "mean {}", w.mean());
+    assert!(
+        (w.mean() - 75.0).abs() < 4.0 * (18.75f64 / 1e4).sqrt(),
+        "mean {}",
+        w.mean()
+    );
     let b = Binomial::new(0.75, 100).unwrap();
     let pv = gof(&xs, |k| b.pmf(k as u64), 0, 100);
     assert!(pv > 1e-4, "chi-square p = {pv}");
@@ -227,7 +261,11 @@ fn isomerisation_is_binomial() {
 /// orders with the same argument). `forward(n)` and `reverse(n)` are the propensities written
 /// out from Gillespie's combinatorics (1976/1977 [M]): c·x, c·x₁x₂, c·x(x−1)/2,
 /// c·x(x−1)(x−2)/6, c·x₁x₂x₃, c·x₁(x₁−1)x₂/2.
-fn detailed_balance(max: i64, forward: impl Fn(i64) -> f64, reverse: impl Fn(i64) -> f64) -> Vec<f64> {
+fn detailed_balance(
+    max: i64,
+    forward: impl Fn(i64) -> f64,
+    reverse: impl Fn(i64) -> f64,
+) -> Vec<f64> {
     let mut p = vec![1.0];
     for n in 0..max {
         let next = p[n as usize] * forward(n) / reverse(n + 1);
@@ -254,7 +292,12 @@ fn check_reversible(src: &str, product: &str, law: &[f64], seed: u64) {
         "{product}: mean {} vs exact {mean}",
         w.mean()
     );
-    let pv = gof(&xs, |k| law.get(k as usize).copied().unwrap_or(0.0), 0, law.len() as i64 - 1);
+    let pv = gof(
+        &xs,
+        |k| law.get(k as usize).copied().unwrap_or(0.0),
+        0,
+        law.len() as i64 - 1,
+    );
     assert!(pv > 1e-4, "{product}: chi-square p = {pv}");
 }
 
@@ -348,10 +391,12 @@ fn order_three_mixed_steps_follow_detailed_balance() {
 /// (Gillespie 1976 [verified]; forms [M]) on small states, to rounding.
 #[test]
 fn compiled_propensities_are_the_binomial_forms() {
-    let n = net("species A = 0\nspecies B = 0\nspecies C = 0\nspecies S = 7 clamped\n\
+    let n = net(
+        "species A = 0\nspecies B = 0\nspecies C = 0\nspecies S = 7 clamped\n\
                  step z 0 -> A @ 0.5\nstep f A -> 0 @ 0.5\nstep p A + B -> 0 @ 0.5\n\
                  step d 2 A -> 0 @ 0.5\nstep t 3 A -> 0 @ 0.5\nstep q 2 A + B -> 0 @ 0.5\n\
-                 step r A + B + C -> 0 @ 0.5\nstep s A + S -> 0 @ 0.5\nstep u 2 S -> A @ 0.5\n");
+                 step r A + B + C -> 0 @ 0.5\nstep s A + S -> 0 @ 0.5\nstep u 2 S -> A @ 0.5\n",
+    );
     let k = CompiledKernel::new(&n).unwrap();
     let choose = |x: i64, v: i64| -> f64 {
         (0..v).map(|i| (x - i) as f64).product::<f64>() / (1..=v).map(|i| i as f64).product::<f64>()
@@ -373,7 +418,10 @@ fn compiled_propensities_are_the_binomial_forms() {
             ];
             for (j, e) in expect.iter().enumerate() {
                 let got = k.propensity(j, &x);
-                assert!((got - e).abs() <= 1e-14 * e.abs(), "step {j} at A={a}, B={b}: {got}");
+                assert!(
+                    (got - e).abs() <= 1e-14 * e.abs(),
+                    "step {j} at A={a}, B={b}: {got}"
+                );
             }
         }
     }
@@ -402,8 +450,10 @@ impl Observer for Intervals {
 /// λ± the roots of λ² − (k₁S + k₋₁ + k₂)λ + k₁S·k₂ = 0.
 #[test]
 fn single_enzyme_turnover_intervals_follow_single_molecule_michaelis_menten() {
-    let n = net("species E = 1\nspecies S = 2 clamped\nspecies C = 0\nspecies P = 0\n\
-                 step bind E + S -> C @ 1\nstep unbind C -> E + S @ 1\nstep cat C -> E + P @ 1\n");
+    let n = net(
+        "species E = 1\nspecies S = 2 clamped\nspecies C = 0\nspecies P = 0\n\
+                 step bind E + S -> C @ 1\nstep unbind C -> E + S @ 1\nstep cat C -> E + P @ 1\n",
+    );
     let k = CompiledKernel::new(&n).unwrap();
     let mut d = Direct::new(&k);
     let mut obs = Intervals {
@@ -418,7 +468,11 @@ fn single_enzyme_turnover_intervals_follow_single_molecule_michaelis_menten() {
     assert!(gaps.len() > 90_000);
     let w: Welford = gaps.iter().copied().collect();
     let se = 2.0 * 0.75f64.sqrt() / (w.count() as f64).sqrt();
-    assert!((w.mean() - 2.0).abs() < 4.0 * se, "mean interval {}", w.mean());
+    assert!(
+        (w.mean() - 2.0).abs() < 4.0 * se,
+        "mean interval {}",
+        w.mean()
+    );
     // Randomness: its SE from 100 batches of consecutive intervals (independent batches).
     let batch = gaps.len() / 100;
     let rs: Welford = gaps
@@ -429,7 +483,11 @@ fn single_enzyme_turnover_intervals_follow_single_molecule_michaelis_menten() {
         })
         .collect();
     let r = w.variance() / (w.mean() * w.mean());
-    assert!((r - 0.75).abs() < 4.0 * rs.stderr(), "randomness {r} ± {}", rs.stderr());
+    assert!(
+        (r - 0.75).abs() < 4.0 * rs.stderr(),
+        "randomness {r} ± {}",
+        rs.stderr()
+    );
     let (s, k1s, km1, k2) = (4.0f64, 2.0f64, 1.0f64, 1.0f64);
     let root = (s * s - 4.0 * k1s * k2).sqrt();
     let (lp, lm) = ((s + root) / 2.0, (s - root) / 2.0);
@@ -444,8 +502,10 @@ fn single_enzyme_turnover_intervals_follow_single_molecule_michaelis_menten() {
 /// 0.5) for k₁S = 2, k₋₁ = 1, k₂ = 1, and the product flux is k₂·E_T·S/(K_M + S) = 5 per second.
 #[test]
 fn clamped_enzyme_flux_is_the_langmuir_form() {
-    let n = net("species E = 10\nspecies S = 2 clamped\nspecies C = 0\nspecies P = 0\n\
-                 step bind E + S -> C @ 1\nstep unbind C -> E + S @ 1\nstep cat C -> E + P @ 1\n");
+    let n = net(
+        "species E = 10\nspecies S = 2 clamped\nspecies C = 0\nspecies P = 0\n\
+                 step bind E + S -> C @ 1\nstep unbind C -> E + S @ 1\nstep cat C -> E + P @ 1\n",
+    );
     let spec = EnsembleSpec {
         replicates: 10_000,
         seed: 71,
@@ -457,7 +517,11 @@ fn clamped_enzyme_flux_is_the_langmuir_form() {
     let c = n.species_index("C").unwrap();
     let xs: Vec<i64> = r.finals.as_ref().unwrap().iter().map(|x| x[c]).collect();
     let fin = &r.final_state[c];
-    assert!((fin.mean() - 5.0).abs() < 4.0 * (2.5f64 / 1e4).sqrt(), "mean C {}", fin.mean());
+    assert!(
+        (fin.mean() - 5.0).abs() < 4.0 * (2.5f64 / 1e4).sqrt(),
+        "mean C {}",
+        fin.mean()
+    );
     let b = Binomial::new(0.5, 10).unwrap();
     let pv = gof(&xs, |k| b.pmf(k as u64), 0, 10);
     assert!(pv > 1e-4, "chi-square p = {pv}");

@@ -4,6 +4,8 @@
 //! library's own option types, calls the library, and hands the result to `report`.
 
 mod check;
+mod noise;
+mod reconcile;
 mod simulate;
 mod steady;
 
@@ -34,6 +36,14 @@ pub enum Command {
     /// Deterministic steady state reached from the initial state: amounts, fluxes, stability
     #[command(after_help = CAUTION)]
     Steady(steady::SteadyArgs),
+    /// Carrier-motif fluxes of an exact ensemble against the Langmuir-form, total-QSSA and ODE
+    /// predictions; observed levels, sensitivities and fits
+    #[command(after_help = CAUTION)]
+    Reconcile(reconcile::ReconcileArgs),
+    /// Stationary mean, variance, CV and Fano factor of every species beside the linear-noise
+    /// prediction, optionally at several volumes
+    #[command(after_help = CAUTION)]
+    Noise(noise::NoiseArgs),
 }
 
 /// Runs one parsed command line.
@@ -42,6 +52,8 @@ pub fn run(cli: Cli) -> Result<()> {
         Command::Check(a) => check::run(&a),
         Command::Simulate(a) => simulate::run(&a),
         Command::Steady(a) => steady::run(&a),
+        Command::Reconcile(a) => reconcile::run(&a),
+        Command::Noise(a) => noise::run(&a),
     }
 }
 

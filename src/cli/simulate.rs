@@ -73,6 +73,8 @@ impl SimulateArgs {
                 },
                 MethodArg::Auto => Method::Auto,
             },
+            first_replicate: 0,
+            initial: None,
         }
     }
 }

@@ -2,6 +2,8 @@
 //! Reports only format; they compute nothing.
 
 pub mod check;
+pub mod noise;
+pub mod reconcile;
 pub mod simulate;
 pub mod steady;
 pub mod svg;

@@ -33,6 +33,9 @@ pub struct ReconcileArgs {
     /// Most replicates --precision may use
     #[arg(long, default_value_t = 20_000)]
     pub max_replicates: u64,
+    /// Start every replicate from the file's initial state (default: the rounded steady state)
+    #[arg(long)]
+    pub from_initial: bool,
     /// Master seed; the same seed gives the same numbers whatever the thread count
     #[arg(long, default_value_t = 0)]
     pub seed: u64,
@@ -65,6 +68,7 @@ pub fn run(a: &ReconcileArgs) -> Result<()> {
         max_replicates: a.max_replicates,
         observations,
         fit: a.fit.clone(),
+        from_initial: a.from_initial,
         progress: std::io::stderr().is_terminal(),
     };
     let r = reconcile::reconcile(&net, &opts)?;

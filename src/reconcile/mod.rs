@@ -55,6 +55,8 @@ pub struct Options {
     pub observations: Vec<Observation>,
     /// Param to fit to the first observation.
     pub fit: Option<String>,
+    /// Start replicates from the file's initial state instead of the rounded steady state.
+    pub from_initial: bool,
     pub progress: bool,
 }
 
@@ -70,6 +72,7 @@ impl Default for Options {
             max_replicates: 20_000,
             observations: Vec::new(),
             fit: None,
+            from_initial: false,
             progress: false,
         }
     }
@@ -231,6 +234,15 @@ pub fn reconcile(net: &Network, opts: &Options) -> Result<Reconciliation> {
         opts.t_end,
         stationary::EVENT_BUDGET / opts.replicates.max(1) as f64,
     );
+    let plan = if opts.from_initial {
+        Plan {
+            start: net.initial_state(),
+            started_from: "initial state",
+            ..plan
+        }
+    } else {
+        plan
+    };
     validate_plan(&plan)?;
     let (ens, replicates) = run_ensemble(net, &plan, opts)?;
     let mut notes = Vec::new();
@@ -340,7 +352,8 @@ fn run_ensemble(net: &Network, plan: &Plan, opts: &Options) -> Result<(EnsembleR
         net.motifs.iter().any(|m| {
             let w = &e.firings[m.output];
             let est = Estimate::of(w, 1.0);
-            !(est.half_width() <= p * est.mean.abs())
+            let narrow = est.half_width() <= p * est.mean.abs();
+            !narrow
         })
     };
     while wide(&ens) && used < opts.max_replicates {

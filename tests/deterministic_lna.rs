@@ -20,14 +20,18 @@ fn rel(a: f64, b: f64) -> f64 {
 // (REFERENCES §9 [C]; McQuarrie 1967 [verified]; Elf & Ehrenberg 2003 [verified]).
 #[test]
 fn immigration_death_is_poisson() {
-    let l = lna_of(&net("species A = 0\nstep in 0 -> A @ 10\nstep out A -> 0 @ 0.1\n"));
+    let l = lna_of(&net(
+        "species A = 0\nstep in 0 -> A @ 10\nstep out A -> 0 @ 0.1\n",
+    ));
     assert!(rel(l.mean[0], 100.0) < 1e-10);
     assert!(rel(l.variance[0], 100.0) < 1e-10);
     assert!(rel(l.fano[0], 1.0) < 1e-10);
     assert!(rel(l.cv[0], 0.1) < 1e-10);
     // With a volume: inflow 1 nM/s into 1 fL, so the mean is 10 nM = 6.02214076 molecules and
     // the count variance equals it (Ω enters D as a = Ω·v).
-    let l = lna_of(&net("volume 1 fL\nspecies A = 0 nM\nstep in 0 -> A @ 1 nM/s\nstep out A -> 0 @ 0.1 /s\n"));
+    let l = lna_of(&net(
+        "volume 1 fL\nspecies A = 0 nM\nstep in 0 -> A @ 1 nM/s\nstep out A -> 0 @ 0.1 /s\n",
+    ));
     assert!(rel(l.mean[0], 6.022_140_76) < 1e-10);
     assert!(rel(l.variance[0], 6.022_140_76) < 1e-10);
 }
@@ -37,7 +41,9 @@ fn immigration_death_is_poisson() {
 // law A + B = N is handled through the link matrix.
 #[test]
 fn isomerisation_is_binomial() {
-    let l = lna_of(&net("species A = 100\nspecies B = 0\nstep f A <-> B @ 1, 3\n"));
+    let l = lna_of(&net(
+        "species A = 100\nspecies B = 0\nstep f A <-> B @ 1, 3\n",
+    ));
     assert!(rel(l.mean[0], 75.0) < 1e-10);
     assert!(rel(l.variance[0], 18.75) < 1e-10);
     assert!(rel(l.variance[1], 18.75) < 1e-10);
@@ -50,8 +56,10 @@ fn isomerisation_is_binomial() {
 // k_m = 1, g_m = 0.1, k_p = 10, g_p = 1 gives <P> = 100, Fano(P) = 10.0909...
 #[test]
 fn two_stage_expression_fano() {
-    let l = lna_of(&net("species M = 0\nspecies P = 0\nstep tx 0 -> M @ 1\nstep dm M -> 0 @ 0.1\n\
-                         step tl M -> M + P @ 10\nstep dp P -> 0 @ 1\n"));
+    let l = lna_of(&net(
+        "species M = 0\nspecies P = 0\nstep tx 0 -> M @ 1\nstep dm M -> 0 @ 0.1\n\
+                         step tl M -> M + P @ 10\nstep dp P -> 0 @ 1\n",
+    ));
     assert!(rel(l.mean[0], 10.0) < 1e-10);
     assert!(rel(l.mean[1], 100.0) < 1e-10);
     assert!(rel(l.fano[0], 1.0) < 1e-10);
@@ -64,8 +72,10 @@ fn two_stage_expression_fano() {
 // the clamped species has no variance.
 #[test]
 fn clamped_ligand_binding_is_binomial() {
-    let l = lna_of(&net("species L = 40 clamped\nspecies R = 20\nspecies RL = 0\n\
-                         step b R + L <-> RL @ 0.01, 0.2\n"));
+    let l = lna_of(&net(
+        "species L = 40 clamped\nspecies R = 20\nspecies RL = 0\n\
+                         step b R + L <-> RL @ 0.01, 0.2\n",
+    ));
     let theta: f64 = 40.0 / (20.0 + 40.0);
     assert!(rel(l.mean[2], 20.0 * theta) < 1e-10);
     assert!(rel(l.variance[2], 20.0 * theta * (1.0 - theta)) < 1e-10);
@@ -77,7 +87,8 @@ fn clamped_ligand_binding_is_binomial() {
 // the LNA is only asymptotically right; its error in the variance is of relative order 1/N
 // (van Kampen's system-size expansion [M]). The exact stationary law comes from detailed
 // balance, P(C+1)/P(C) = c_on(A0 − C)(B0 − C)/(c_off(C + 1)), computed here. With N = 2000
-// molecules the LNA variance must lie within 1 % of the exact one, and closer at N = 20000.
+// molecules the LNA variance must lie within 1 % of the exact one, and ten times the molecules
+// must bring it at least five times closer.
 #[test]
 fn reversible_binding_approaches_the_exact_variance() {
     let mut errors = Vec::new();
@@ -105,20 +116,27 @@ fn reversible_binding_approaches_the_exact_variance() {
             .sum::<f64>()
             / z;
         let err = rel(l.variance[2], var);
-        assert!(err < 0.01, "N scale {scale}: LNA {} vs exact {var}", l.variance[2]);
+        assert!(
+            err < 0.01,
+            "N scale {scale}: LNA {} vs exact {var}",
+            l.variance[2]
+        );
         // The LNA mean is the rate-equation value; it differs from the exact mean by O(1).
         assert!((l.mean[2] - mean).abs() < 2.0);
         errors.push(err);
     }
     eprintln!("LNA variance relative error at N = 2000, 20000: {errors:?}");
-    assert!(errors[1] < errors[0], "{errors:?}");
+    // Relative order 1/N: ten times the molecules, at least five times closer.
+    assert!(errors[1] < 0.2 * errors[0], "{errors:?}");
 }
 
 // No stationary law around a centre or an unstable point: an error with status 2.
 #[test]
 fn lna_needs_a_stable_steady_state() {
-    let n = net("species Y1 = 1000\nspecies Y2 = 1000\nstep a Y1 -> 2 Y1 @ 10\n\
-                 step b Y1 + Y2 -> 2 Y2 @ 0.01\nstep c Y2 -> 0 @ 10\n");
+    let n = net(
+        "species Y1 = 1000\nspecies Y2 = 1000\nstep a Y1 -> 2 Y1 @ 10\n\
+                 step b Y1 + Y2 -> 2 Y2 @ 0.01\nstep c Y2 -> 0 @ 10\n",
+    );
     let st = solve(&n, &SteadyOptions::default()).unwrap();
     let e = lna::stationary(&n, &st).unwrap_err();
     assert_eq!(e.exit_code(), 2);

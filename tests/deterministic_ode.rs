@@ -88,8 +88,10 @@ fn clamped_substrate_makes_product_at_the_langmuir_rate() {
 // point (1000, 1000) so that it cycles; relative drift of H over t = 0..10 must stay below 1e-8.
 #[test]
 fn lotka_volterra_invariant_is_kept() {
-    let n = net("species Y1 = 1500\nspecies Y2 = 800\nstep a Y1 -> 2 Y1 @ 10\n\
-                 step b Y1 + Y2 -> 2 Y2 @ 0.01\nstep c Y2 -> 0 @ 10\n");
+    let n = net(
+        "species Y1 = 1500\nspecies Y2 = 800\nstep a Y1 -> 2 Y1 @ 10\n\
+                 step b Y1 + Y2 -> 2 Y2 @ 0.01\nstep c Y2 -> 0 @ 10\n",
+    );
     let h = |x: &[f64]| 0.01 * (x[0] + x[1]) - 10.0 * x[0].ln() - 10.0 * x[1].ln();
     let times: Vec<f64> = (0..=200).map(|i| i as f64 * 0.05).collect();
     let opts = OdeOptions {
@@ -142,8 +144,10 @@ fn brusselator_and_oregonator_rates_vanish_at_their_fixed_points() {
 // full ODE after t = 0.5; the standard QSSA (K = 0.02, V = 10) does not (P(0.5) = 1.000000).
 #[test]
 fn michaelis_menten_full_tqssa_and_sqssa() {
-    let full = net("species E = 10\nspecies S = 1\nspecies C = 0\nspecies P = 0\n\
-                    step bind E + S <-> C @ 100, 1\nstep cat C -> E + P @ 1\n");
+    let full = net(
+        "species E = 10\nspecies S = 1\nspecies C = 0\nspecies P = 0\n\
+                    step bind E + S <-> C @ 100, 1\nstep cat C -> E + P @ 1\n",
+    );
     let tq = net("species Sb = 1\nspecies P = 0\n\
                   step r Sb -> P @ law 2 * 10 * Sb / ((10 + 0.02 + Sb) + ((10 + 0.02 + Sb)^2 - 4 * 10 * Sb)^0.5)\n");
     let sq = net("species S = 1\nspecies P = 0\nstep r S -> P @ law 10 * sat(S, 0.02)\n");
@@ -170,8 +174,16 @@ fn michaelis_menten_full_tqssa_and_sqssa() {
     let want_full = [0.392501, 0.631340, 0.864239];
     let want_tq = [0.392812, 0.631336, 0.864099];
     for k in 0..3 {
-        assert!((p_full[k] - want_full[k]).abs() < 1e-6, "full {k}: {}", p_full[k]);
-        assert!((p_tq[k] - want_tq[k]).abs() < 1e-6, "tQSSA {k}: {}", p_tq[k]);
+        assert!(
+            (p_full[k] - want_full[k]).abs() < 1e-6,
+            "full {k}: {}",
+            p_full[k]
+        );
+        assert!(
+            (p_tq[k] - want_tq[k]).abs() < 1e-6,
+            "tQSSA {k}: {}",
+            p_tq[k]
+        );
         assert!((p_tq[k] - p_full[k]).abs() < 1e-3);
     }
     assert!((p_sq[0] - 1.0).abs() < 1e-6);
@@ -183,8 +195,10 @@ fn michaelis_menten_full_tqssa_and_sqssa() {
 // concentration), so P(50)/100 must match.
 #[test]
 fn michaelis_menten_low_enzyme_regime() {
-    let n = net("species E = 1\nspecies S = 100\nspecies C = 0\nspecies P = 0\n\
-                 step bind E + S <-> C @ 0.01, 1\nstep cat C -> E + P @ 1\n");
+    let n = net(
+        "species E = 1\nspecies S = 100\nspecies C = 0\nspecies P = 0\n\
+                 step bind E + S <-> C @ 0.01, 1\nstep cat C -> E + P @ 1\n",
+    );
     let tr = integrate(&n, None, &[50.0], &tight()).unwrap();
     assert!((tr.states[0][3] / 100.0 - 0.156207).abs() < 1e-6);
 }
@@ -198,7 +212,11 @@ fn michaelis_menten_low_enzyme_regime() {
 #[test]
 fn stiff_network_matches_scipy_radau() {
     let dir = env!("CARGO_MANIFEST_DIR");
-    let n = load(&format!("{dir}/tests/reference/stiff_enzyme.crn"), &Overrides::default()).unwrap();
+    let n = load(
+        &format!("{dir}/tests/reference/stiff_enzyme.crn"),
+        &Overrides::default(),
+    )
+    .unwrap();
     let reference: serde_json::Value =
         serde_json::from_str(include_str!("reference/stiff_enzyme.json")).unwrap();
     let times: Vec<f64> = reference["times"]
@@ -228,7 +246,12 @@ fn stiff_network_matches_scipy_radau() {
             let got = tr.states[k][idx[s]];
             let err = (got - want).abs() / (1e-7 * want.abs() + floor);
             worst = worst.max(err);
-            assert!(err <= 1.0, "{} at t = {}: {got} vs {want}", names[s], times[k]);
+            assert!(
+                err <= 1.0,
+                "{} at t = {}: {got} vs {want}",
+                names[s],
+                times[k]
+            );
         }
     }
     eprintln!(
@@ -237,7 +260,10 @@ fn stiff_network_matches_scipy_radau() {
     );
     // The clamped X never moves.
     let x = n.species_index("X").unwrap();
-    assert!(tr.states.iter().all(|s| s[x] == n.initial_concentrations()[x]));
+    assert!(tr
+        .states
+        .iter()
+        .all(|s| s[x] == n.initial_concentrations()[x]));
 }
 
 // Bad requests are errors, never panics.

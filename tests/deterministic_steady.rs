@@ -48,7 +48,11 @@ fn fed_enzyme_steady_state() {
         let n_cat = n.reaction_index("cat").unwrap();
         let st = steady(&n);
         let s_star = 300.0 * v_in / (200.0 - v_in);
-        assert!(rel(st.counts[0], s_star) < 1e-9, "S* {} vs {s_star}", st.counts[0]);
+        assert!(
+            rel(st.counts[0], s_star) < 1e-9,
+            "S* {} vs {s_star}",
+            st.counts[0]
+        );
         assert!(rel(st.counts[2], v_in / 2.0) < 1e-9);
         assert!(rel(st.counts[3], v_in / 0.1) < 1e-9);
         assert!(rel(st.fluxes_per_s[n_cat], v_in) < 1e-9);
@@ -90,7 +94,11 @@ fn closed_enzyme_cycle_matches_langmuir_and_tqssa() {
     let a = 1.0 + k2 / k3;
     let b = k + a * et - s_t;
     let s_star = (-b + (b * b + 4.0 * s_t * k).sqrt()) / 2.0;
-    assert!(rel(st.counts[1], s_star) < 1e-10, "{} vs {s_star}", st.counts[1]);
+    assert!(
+        rel(st.counts[1], s_star) < 1e-10,
+        "{} vs {s_star}",
+        st.counts[1]
+    );
     let c = st.counts[2];
     assert!(rel(c, et * langmuir::occupancy(s_star, k)) < 1e-10);
     assert!(rel(c, langmuir::tqssa_complex(et, s_star + c, k)) < 1e-10);
@@ -166,11 +174,19 @@ fn lotka_volterra_centre() {
 // found (A = B = 0, C = 1000, the conservation totals A + C and B + C).
 #[test]
 fn slow_algebraic_approach_is_found() {
-    let st = steady(&net("species A = 1000\nspecies B = 1000\nspecies C = 0\nstep r A + B -> C @ 0.001\n"));
-    assert!(st.counts[0].abs() < 1.0 && st.counts[1].abs() < 1.0, "{:?}", st.counts);
+    let st = steady(&net(
+        "species A = 1000\nspecies B = 1000\nspecies C = 0\nstep r A + B -> C @ 0.001\n",
+    ));
+    assert!(
+        st.counts[0].abs() < 1.0 && st.counts[1].abs() < 1.0,
+        "{:?}",
+        st.counts
+    );
     assert!((st.counts[2] - 1000.0).abs() < 1.0);
     // Unequal amounts: exponential approach, exact end point A = 400, B = 0, C = 600.
-    let st = steady(&net("species A = 1000\nspecies B = 600\nspecies C = 0\nstep r A + B -> C @ 0.001\n"));
+    let st = steady(&net(
+        "species A = 1000\nspecies B = 600\nspecies C = 0\nstep r A + B -> C @ 0.001\n",
+    ));
     assert!(rel(st.counts[0], 400.0) < 1e-10);
     assert!(st.counts[1].abs() < 1e-6);
     assert!(st.stable());
@@ -181,23 +197,32 @@ fn slow_algebraic_approach_is_found() {
 fn blow_up_and_negative_amounts_are_explained() {
     // 2A -> 3A: dA/dt = A²/2 blows up in finite time (closed form 1/(1/A0 − t/2)).
     let msg = no_steady(&net("species A = 10\nstep r 2 A -> 3 A @ 1\n"));
-    assert!(msg.contains("blows up") || msg.contains("without bound"), "{msg}");
+    assert!(
+        msg.contains("blows up") || msg.contains("without bound"),
+        "{msg}"
+    );
     // Exponential growth A -> 2A.
     let msg = no_steady(&net("species A = 10\nstep r A -> 2 A @ 1\n"));
     assert!(msg.contains("A grows without bound"), "{msg}");
     // A law that keeps removing X at a fixed rate drives it negative.
-    let msg = no_steady(&net("species X = 10\nspecies Y = 0\nstep out X -> Y @ law 5\n"));
+    let msg = no_steady(&net(
+        "species X = 10\nspecies Y = 0\nstep out X -> Y @ law 5\n",
+    ));
     assert!(msg.contains("X becomes negative"), "{msg}");
 }
 
 // Nothing to do: every species clamped, or no step moves anything.
 #[test]
 fn trivial_networks() {
-    let st = steady(&net("species A = 10 clamped\nspecies B = 3 clamped\nstep r A -> B @ 1\n"));
+    let st = steady(&net(
+        "species A = 10 clamped\nspecies B = 3 clamped\nstep r A -> B @ 1\n",
+    ));
     assert!(st.stable());
     assert_eq!(st.counts, vec![10.0, 3.0]);
     assert!(rel(st.fluxes_per_s[0], 10.0) < 1e-15);
-    let st = steady(&net("species A = 10\nspecies B = 3\nstep r A + B -> A + B @ 1\n"));
+    let st = steady(&net(
+        "species A = 10\nspecies B = 3\nstep r A + B -> A + B @ 1\n",
+    ));
     assert_eq!(st.counts, vec![10.0, 3.0]);
     assert!(st.eigenvalues.is_empty());
 }
@@ -213,4 +238,76 @@ fn near_guess_uses_newton_only() {
     assert_eq!(st.method, Method::Newton);
     assert!(st.iterations <= 6, "{}", st.iterations);
     assert!(rel(st.counts[0], 300.0) < 1e-10);
+}
+
+mod random_networks {
+    use super::*;
+    use proptest::prelude::*;
+
+    /// A random network over species A..D: each step has up to two reactant and two product
+    /// molecules; its rate is mass action, or a law with sat, inhib or hill of one species.
+    fn network() -> impl Strategy<Value = String> {
+        let term = prop::collection::vec(0usize..4, 0..=2);
+        let rate = (0usize..6, 0.01f64..10.0, 0usize..4, 1u32..300, 1u32..4);
+        let step = (term.clone(), term, rate);
+        (
+            prop::collection::vec(0u32..200, 4),
+            prop::collection::vec(step, 1..7),
+        )
+            .prop_map(|(init, steps)| {
+                let names = ["A", "B", "C", "D"];
+                let mut s = String::new();
+                for (n, x) in names.iter().zip(&init) {
+                    s.push_str(&format!("species {n} = {x}\n"));
+                }
+                for (k, (r, p, (kind, c, x, kk, h))) in steps.iter().enumerate() {
+                    let side = |t: &[usize]| {
+                        if t.is_empty() {
+                            "0".to_string()
+                        } else {
+                            t.iter().map(|&i| names[i]).collect::<Vec<_>>().join(" + ")
+                        }
+                    };
+                    let x = names[*x];
+                    let rate = match kind {
+                        0 => format!("law {c:.3} * 100 * sat({x}, {kk})"),
+                        1 => format!("law {c:.3} * 100 * inhib({x}, {kk})"),
+                        2 => format!("law {c:.3} * 100 * hill({x}, {kk}, {h})"),
+                        _ => format!("{c:.4}"),
+                    };
+                    s.push_str(&format!("step r{k} {} -> {} @ {rate}\n", side(r), side(p)));
+                }
+                s
+            })
+    }
+
+    proptest! {
+        #![proptest_config(ProptestConfig {
+            cases: 256,
+            rng_seed: proptest::test_runner::RngSeed::Fixed(20240607),
+            failure_persistence: None,
+            ..ProptestConfig::default()
+        })]
+        // Whatever the network, the solver returns a steady state or a status-2 reason, never a
+        // panic; a returned state is non-negative, keeps every conservation law and has a small
+        // residual.
+        #[test]
+        fn never_panics_and_answers_are_steady(src in network()) {
+            let n = load_source("p.crn", src.as_bytes(), &Overrides::default()).unwrap();
+            let mut opts = SteadyOptions::default();
+            opts.ode.max_steps = 20_000;
+            match solve(&n, &opts) {
+                Ok(st) => {
+                    prop_assert!(st.counts.iter().all(|&x| x >= 0.0), "{:?}", st.counts);
+                    prop_assert!(st.residual.relative < 1e-8, "{}", st.residual.relative);
+                    let x0 = n.initial_state();
+                    for (l, t) in n.conservation_laws.iter().zip(&st.totals) {
+                        let t0: f64 = l.iter().zip(&x0).map(|(&c, &x)| (c * x) as f64).sum();
+                        prop_assert!((t - t0).abs() <= 1e-9 * t0.abs().max(1.0));
+                    }
+                }
+                Err(e) => prop_assert_eq!(e.exit_code(), 2, "{}", e),
+            }
+        }
+    }
 }

@@ -9,6 +9,7 @@ pub mod kernel;
 pub mod network;
 pub mod report;
 pub mod stats;
+pub mod sweep;
 
 pub use error::{Error, Result};
 pub use network::Network;

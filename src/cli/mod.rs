@@ -4,6 +4,8 @@
 //! library's own option types, calls the library, and hands the result to `report`.
 
 mod check;
+mod merge;
+mod sweep;
 
 use crate::error::Result;
 use clap::{Parser, Subcommand};
@@ -26,12 +28,20 @@ pub enum Command {
     /// Compile a network and print species, reactions, stoichiometry, conservation laws and motifs
     #[command(after_help = CAUTION)]
     Check(check::CheckArgs),
+    /// Run a task at many parameter points: resumable, shardable, one JSON line per point
+    #[command(after_help = CAUTION)]
+    Sweep(sweep::SweepArgs),
+    /// Merge sweep shards into one sweep file, ordered by point
+    #[command(after_help = CAUTION)]
+    Merge(merge::MergeArgs),
 }
 
 /// Runs one parsed command line.
 pub fn run(cli: Cli) -> Result<()> {
     match cli.command {
         Command::Check(a) => check::run(&a),
+        Command::Sweep(a) => sweep::run(a),
+        Command::Merge(a) => merge::run(&a),
     }
 }
 

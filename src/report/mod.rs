@@ -2,6 +2,7 @@
 //! Reports only format; they compute nothing.
 
 pub mod check;
+pub mod sweep;
 pub mod table;
 
 /// `2 A + B`, or `0` for an empty side.

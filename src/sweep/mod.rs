@@ -14,6 +14,7 @@
 //! machine or as N shards, with any number of threads, in one go or resumed.
 
 pub mod design;
+pub mod response;
 pub mod run;
 pub mod shard;
 pub mod spec;
@@ -21,6 +22,7 @@ pub mod store;
 pub mod task;
 
 pub use design::{point_seed, Design, DesignKind};
+pub use response::{response, Axis, Response};
 pub use run::{run, Outcome, RunOptions};
 pub use shard::{merge, Merged, Shard};
 pub use spec::Vary;

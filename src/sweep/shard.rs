@@ -80,16 +80,18 @@ pub fn merge(inputs: &[String], out: &str) -> Result<Merged> {
     let mut all: Vec<(Entry, usize)> = Vec::new();
     let mut torn = Vec::new();
     for (k, f) in inputs.iter().enumerate() {
-        let s = scan(f, |_, _| {})?;
+        let s = scan(f, |_, _, _| {})?;
         let h = s.header.ok_or_else(|| {
             Error::usage(format!("{f} has no sweep header (an empty or torn file)"))
         })?;
         if let Some(first) = &header {
             if first.fingerprint != h.fingerprint {
                 return Err(Error::usage(format!(
-                    "{f} is from another sweep than {}: {} differ",
+                    "{f} is from another sweep than {}; what differs: {}",
                     inputs[0],
-                    first.differences(&h).join(", ")
+                    first
+                        .differences(&h, &format!("in {}", inputs[0]), &format!("in {f}"))
+                        .join("; ")
                 )));
             }
         }

@@ -131,8 +131,9 @@ impl Header {
         serde_json::to_string(self).expect("a header always encodes")
     }
 
-    /// The parts of the sweep that differ between `self` and `other`, in words.
-    pub fn differences(&self, other: &Header) -> Vec<String> {
+    /// The parts of the sweep that differ between `self` and `other`, in words, each with its
+    /// value in both (`mine` and `theirs` name them).
+    pub fn differences(&self, other: &Header, mine: &str, theirs: &str) -> Vec<String> {
         let a = &self.identity;
         let b = &other.identity;
         let mut out = Vec::new();
@@ -148,7 +149,7 @@ impl Header {
         ];
         for (key, words) in parts {
             if a[key] != b[key] {
-                out.push(format!("{words} ({} here, {} there)", a[key], b[key]));
+                out.push(format!("{words} ({} {mine}, {} {theirs})", a[key], b[key]));
             }
         }
         if out.is_empty() && self.fingerprint != other.fingerprint {
@@ -208,11 +209,12 @@ pub struct Scan {
     pub torn: bool,
 }
 
-/// Reads the sweep file at `path`, checking every line, and calls `visit` with each point line.
+/// Reads the sweep file at `path`, checking every line, and calls `visit` with the header and
+/// each point line.
 /// A file that ends without a newline ends in a torn line: it is reported, not read. Any other
 /// line that is not a point of this sweep (bad JSON, a point out of range or seen twice, a seed
 /// that is not the point's) is an error.
-pub fn scan(path: &str, mut visit: impl FnMut(&Entry, &Value)) -> Result<Scan> {
+pub fn scan(path: &str, mut visit: impl FnMut(&Header, &Entry, &Value)) -> Result<Scan> {
     let file = File::open(path).map_err(|e| Error::io(path, e))?;
     let mut reader = BufReader::new(file);
     let mut buf = Vec::new();
@@ -282,7 +284,7 @@ pub fn scan(path: &str, mut visit: impl FnMut(&Entry, &Value)) -> Result<Scan> {
                     offset,
                     len: text.len() as u64,
                 };
-                visit(&e, &v);
+                visit(h, &e, &v);
                 entries.push(e);
             }
         }
@@ -353,7 +355,7 @@ impl Store {
         if !Path::new(path).exists() {
             return Ok((Store::start(path, header)?, Vec::new()));
         }
-        let scan = scan(path, |_, _| {})?;
+        let scan = scan(path, |_, _, _| {})?;
         let Some(found) = scan.header else {
             return Ok((Store::start(path, header)?, Vec::new()));
         };
@@ -363,7 +365,9 @@ impl Store {
                  {}; use another --out file, or the settings that started it",
                 found.fingerprint,
                 header.fingerprint,
-                found.differences(header).join(", ")
+                found
+                    .differences(header, "in the file", "in this run")
+                    .join("; ")
             )));
         }
         if found.shard != header.shard {

@@ -122,8 +122,7 @@ fn args_task<A>(
 where
     A: Args + FromArgMatches + Send + Sync + 'static,
 {
-    let cmd = A::augment_args(Command::new("copyloop-sweep-task"))
-        .no_binary_name(true);
+    let cmd = A::augment_args(Command::new("copyloop-sweep-task")).no_binary_name(true);
     let argv = std::iter::once(file.to_string()).chain(options.iter().cloned());
     let m = match cmd.clone().try_get_matches_from(argv) {
         Ok(m) => m,
@@ -401,7 +400,11 @@ fn progress_bar(todo: u64, already: u64) -> Option<indicatif::ProgressBar> {
         "per_hour",
         |s: &indicatif::ProgressState, w: &mut dyn std::fmt::Write| {
             let secs = s.elapsed().as_secs_f64();
-            let rate = if secs > 0.0 { s.pos() as f64 / secs * 3600.0 } else { 0.0 };
+            let rate = if secs > 0.0 {
+                s.pos() as f64 / secs * 3600.0
+            } else {
+                0.0
+            };
             let _ = write!(w, "{} points/h", report::num(rate));
         },
     )
@@ -447,8 +450,15 @@ mod tests {
     #[test]
     fn sweep_flags_are_taken_back_from_the_task_options() {
         let (mine, theirs) = split_options(&strings(&[
-            "--t-end", "5", "--out", "f.jsonl", "--replicates=3", "--resume", "--seed=4",
-            "--vary", "k=list:1",
+            "--t-end",
+            "5",
+            "--out",
+            "f.jsonl",
+            "--replicates=3",
+            "--resume",
+            "--seed=4",
+            "--vary",
+            "k=list:1",
         ]));
         assert_eq!(
             mine,

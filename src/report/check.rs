@@ -130,7 +130,11 @@ pub fn table(net: &Network) -> String {
             s.initial.to_string(),
             net.volume_l
                 .map_or("-".into(), |_| num(s.initial as f64 / net.omega)),
-            if s.clamped { "clamped".into() } else { String::new() },
+            if s.clamped {
+                "clamped".into()
+            } else {
+                String::new()
+            },
         ]);
     }
     out.push_str(&t.render());
@@ -179,7 +183,15 @@ pub fn table(net: &Network) -> String {
     if net.motifs.is_empty() {
         out.push_str("  none found\n");
     } else {
-        let mut t = Table::new(&["kind", "carrier", "ligand", "complex", "steps", "K (molecules)", "K (M)"]);
+        let mut t = Table::new(&[
+            "kind",
+            "carrier",
+            "ligand",
+            "complex",
+            "steps",
+            "K (molecules)",
+            "K (M)",
+        ]);
         for m in &net.motifs {
             let label = |j: usize| net.reactions[j].label.clone();
             let mut steps = vec![label(m.bind)];
@@ -192,7 +204,8 @@ pub fn table(net: &Network) -> String {
                 net.species[m.complex].name.clone(),
                 steps.join(", "),
                 num(m.k_half),
-                net.volume_l.map_or("-".into(), |_| num(m.k_half / net.omega)),
+                net.volume_l
+                    .map_or("-".into(), |_| num(m.k_half / net.omega)),
             ]);
         }
         out.push_str(&t.render());

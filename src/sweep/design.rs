@@ -206,7 +206,8 @@ impl Design {
     /// reported at once rather than hours later: every value of a list, and the smallest and
     /// largest value of a range (what the compiler checks — sign, finiteness, size — is
     /// monotone in the value), each with the rest of the point at point 0's values.
-    pub fn probes(&self) -> Vec<Overrides> {
+    /// Each comes with its values in words (`kon = 3 nM, E = 100`).
+    pub fn probes(&self) -> Vec<(String, Overrides)> {
         let first = self.values(0);
         let mut out = Vec::new();
         for (d, v) in self.vary.iter().enumerate() {
@@ -221,11 +222,16 @@ impl Design {
             };
             for x in picks {
                 let mut o = Overrides::default();
+                let mut words = Vec::new();
                 for (e, w) in self.vary.iter().enumerate() {
                     let y = if e == d { x } else { first[e] };
                     o = o.set(&w.name, w.override_for(y));
+                    words.push(match w.unit_text() {
+                        Some(u) => format!("{} = {y} {u}", w.name),
+                        None => format!("{} = {y}", w.name),
+                    });
                 }
-                out.push(o);
+                out.push((words.join(", "), o));
             }
         }
         out
@@ -241,9 +247,7 @@ fn too_many() -> Error {
 
 fn check_names(vary: &[Vary]) -> Result<()> {
     if vary.is_empty() {
-        return Err(Error::usage(
-            "a sweep needs at least one --vary NAME=SPEC",
-        ));
+        return Err(Error::usage("a sweep needs at least one --vary NAME=SPEC"));
     }
     for (i, v) in vary.iter().enumerate() {
         if vary[..i].iter().any(|w| w.name == v.name) {
@@ -294,7 +298,10 @@ mod tests {
         let src = "volume 1 pL\nspecies A = 10 nM\nspecies B = 5\nparam k = 1 /s\nparam j = 2 /s\n\
                    step s A -> B @ k\nstep t B -> 0 @ j\n";
         let ast = parser::parse("t.crn", src.as_bytes()).unwrap();
-        specs.iter().map(|s| Vary::parse(s, &ast).unwrap()).collect()
+        specs
+            .iter()
+            .map(|s| Vary::parse(s, &ast).unwrap())
+            .collect()
     }
 
     // SplitMix64 reference: the generator of rand_xoshiro (a general-purpose library), seeded
@@ -341,9 +348,15 @@ mod tests {
     #[test]
     fn too_many_points_and_repeated_names_are_refused() {
         let big = vary(&["k=lin:1..2:10000", "j=lin:1..2:10001"]);
-        assert!(Design::grid(big, 0).unwrap_err().to_string().contains("more than"));
+        assert!(Design::grid(big, 0)
+            .unwrap_err()
+            .to_string()
+            .contains("more than"));
         let twice = vary(&["k=lin:1..2:3", "k=lin:1..2:3"]);
-        assert!(Design::grid(twice, 0).unwrap_err().to_string().contains("twice"));
+        assert!(Design::grid(twice, 0)
+            .unwrap_err()
+            .to_string()
+            .contains("twice"));
     }
 
     #[test]

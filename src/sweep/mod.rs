@@ -97,22 +97,11 @@ impl Plan {
     /// [`Design::probes`]) and returns point 0's network. An error names the `--vary` that
     /// caused it.
     pub fn check(&self) -> Result<Network> {
-        for o in self.design.probes() {
+        for (words, o) in self.design.probes() {
             if let Err(diags) = compile(&self.ast, &o) {
-                let values: Vec<String> = o
-                    .values
-                    .iter()
-                    .map(|(n, v)| match v {
-                        crate::network::Override::Bare(x) => format!("{n}={x}"),
-                        crate::network::Override::Quantity(q) => {
-                            format!("{n}={} (canonical units)", q.value)
-                        }
-                    })
-                    .collect();
-                let text = Error::Input(diags).to_string();
                 return Err(Error::usage(format!(
-                    "the network does not compile at the sweep point {}:\n{text}",
-                    values.join(", ")
+                    "the network does not compile at the sweep point {words}:\n{}",
+                    Error::Input(diags)
                 )));
             }
         }

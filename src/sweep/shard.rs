@@ -67,9 +67,9 @@ pub fn merge(inputs: &[String], out: &str) -> Result<Merged> {
     }
     let out_path = std::path::Path::new(out);
     for f in inputs {
-        let same = std::fs::canonicalize(f).ok().is_some_and(|a| {
-            std::fs::canonicalize(out_path).ok().is_some_and(|b| a == b)
-        });
+        let same = std::fs::canonicalize(f)
+            .ok()
+            .is_some_and(|a| std::fs::canonicalize(out_path).ok().is_some_and(|b| a == b));
         if same || f == out {
             return Err(Error::usage(format!(
                 "--out {out} is also an input; write the merge to a new file"
@@ -130,7 +130,12 @@ pub fn merge(inputs: &[String], out: &str) -> Result<Merged> {
 
 /// Writes the header and the lines, in the order given, to a temporary file beside `out`, syncs
 /// it and renames it over `out`: a reader never sees half a merge.
-fn write_merged(inputs: &[String], out: &str, header: &Header, all: &[(Entry, usize)]) -> Result<()> {
+fn write_merged(
+    inputs: &[String],
+    out: &str,
+    header: &Header,
+    all: &[(Entry, usize)],
+) -> Result<()> {
     let tmp = format!("{out}.partial-{}", std::process::id());
     let io = |e| Error::io(&tmp, e);
     let mut files: Vec<File> = inputs

@@ -97,9 +97,9 @@ impl Vary {
         let name = name.trim();
         let spec = spec.trim();
         let target = target(name, ast).map_err(fail)?;
-        let (kind, body) = spec.split_once(':').ok_or_else(|| {
-            fail("SPEC is `lin:A..B:N`, `log:A..B:N` or `list:A,B,…`".into())
-        })?;
+        let (kind, body) = spec
+            .split_once(':')
+            .ok_or_else(|| fail("SPEC is `lin:A..B:N`, `log:A..B:N` or `list:A,B,…`".into()))?;
         let mut v = Vary {
             name: name.to_string(),
             spec: spec.to_string(),
@@ -303,7 +303,9 @@ fn written(text: &str) -> std::result::Result<Written, String> {
     let line = format!("param v = {text}");
     let ast = parser::parse("--vary", line.as_bytes()).map_err(|d| {
         let d = &d[0];
-        let msg = d.message.replace("the end of the line", "the end of the value");
+        let msg = d
+            .message
+            .replace("the end of the line", "the end of the value");
         match &d.help {
             Some(h) => format!("`{text}`: {msg} ({h})"),
             None => format!("`{text}`: {msg}"),
@@ -335,7 +337,11 @@ fn unit_text(text: &str) -> String {
         .iter()
         .find(|t| matches!(t.tok, Tok::Number(..)))
         .map_or(0, |t| (t.span.col - 1 + t.span.len) as usize);
-    text.chars().skip(end).collect::<String>().trim().to_string()
+    text.chars()
+        .skip(end)
+        .collect::<String>()
+        .trim()
+        .to_string()
 }
 
 /// Reads several values that must share one unit convention: all without a unit, or all with

@@ -274,7 +274,9 @@ pub fn scan(path: &str, mut visit: impl FnMut(&Header, &Entry, &Value)) -> Resul
                     return Err(bad(&format!("point {point} has the wrong `seed`")));
                 }
                 if v.get("result").is_none() && v.get("error").is_none() {
-                    return Err(bad(&format!("point {point} has neither `result` nor `error`")));
+                    return Err(bad(&format!(
+                        "point {point} has neither `result` nor `error`"
+                    )));
                 }
                 if !seen.insert(point) {
                     return Err(bad(&format!("point {point} appears twice")));

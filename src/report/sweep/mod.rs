@@ -79,7 +79,10 @@ pub fn sweep_json(s: &SweepSummary) -> Value {
 
 pub fn sweep_text(s: &SweepSummary) -> String {
     let share = match &s.shard {
-        Some(sh) => format!("shard {sh}: {} of the {} points", s.points_here, s.points_total),
+        Some(sh) => format!(
+            "shard {sh}: {} of the {} points",
+            s.points_here, s.points_total
+        ),
         None => format!("{} points", s.points_total),
     };
     let mut out = format!(
@@ -147,7 +150,9 @@ pub fn merge_text(s: &MergeSummary) -> String {
         ));
     }
     for t in s.torn {
-        out.push_str(&format!("  {t} ended in a torn line (an unfinished point), left out\n"));
+        out.push_str(&format!(
+            "  {t} ended in a torn line (an unfinished point), left out\n"
+        ));
     }
     if let Some(svg) = s.svg {
         out.push_str(&format!("  plot {svg}\n"));

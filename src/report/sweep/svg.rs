@@ -273,11 +273,20 @@ fn line(out: &mut String, r: &Response) {
 /// Colour of `t` in [0, 1] on [`RAMP`], linearly between its stops.
 fn colour(t: f64) -> String {
     let t = t.clamp(0.0, 1.0);
-    let k = RAMP.iter().position(|s| s.0 >= t).unwrap_or(RAMP.len() - 1).max(1);
+    let k = RAMP
+        .iter()
+        .position(|s| s.0 >= t)
+        .unwrap_or(RAMP.len() - 1)
+        .max(1);
     let (a, b) = (RAMP[k - 1], RAMP[k]);
     let f = (t - a.0) / (b.0 - a.0);
     let mix = |p: f64, q: f64| (p + f * (q - p)).round() as u8;
-    format!("#{:02x}{:02x}{:02x}", mix(a.1, b.1), mix(a.2, b.2), mix(a.3, b.3))
+    format!(
+        "#{:02x}{:02x}{:02x}",
+        mix(a.1, b.1),
+        mix(a.2, b.2),
+        mix(a.3, b.3)
+    )
 }
 
 /// Cell boundaries around sorted grid values: midway between neighbours (geometrically on a
@@ -288,7 +297,11 @@ fn edges(values: &[f64], log: bool) -> Vec<f64> {
     let t: Vec<f64> = values.iter().map(|&v| f(v)).collect();
     let n = t.len();
     if n == 1 {
-        let w = if log { 0.5 } else if t[0] == 0.0 { 0.5 } else { t[0].abs() * 0.1 };
+        let w = if log || t[0] == 0.0 {
+            0.5
+        } else {
+            t[0].abs() * 0.1
+        };
         return vec![g(t[0] - w), g(t[0] + w)];
     }
     let mut e = Vec::with_capacity(n + 1);
@@ -305,13 +318,16 @@ fn edges(values: &[f64], log: bool) -> Vec<f64> {
 fn heat_map(out: &mut String, r: &Response) {
     let (ax, ay) = (&r.axes[0], &r.axes[1]);
     let right = WIDTH - 132.0;
-    let zs: Vec<f64> = r.points.iter().filter_map(|p| p.1).filter(|z| z.is_finite()).collect();
+    let zs: Vec<f64> = r
+        .points
+        .iter()
+        .filter_map(|p| p.1)
+        .filter(|z| z.is_finite())
+        .collect();
     let z0 = zs.iter().copied().fold(f64::INFINITY, f64::min);
     let z1 = zs.iter().copied().fold(f64::NEG_INFINITY, f64::max);
     let shade = |z: Option<f64>| match z {
-        Some(z) if z.is_finite() => {
-            colour(if z1 > z0 { (z - z0) / (z1 - z0) } else { 0.5 })
-        }
+        Some(z) if z.is_finite() => colour(if z1 > z0 { (z - z0) / (z1 - z0) } else { 0.5 }),
         _ => "#d8d8d8".to_string(),
     };
     let is_grid = !ax.grid.is_empty() && !ay.grid.is_empty();
@@ -371,7 +387,13 @@ fn heat_map(out: &mut String, r: &Response) {
 
 fn cell_title(ax: &Axis, ay: &Axis, v: &[f64], z: Option<f64>) -> String {
     let z = z.map_or("no value".to_string(), num);
-    format!("{} = {}, {} = {}: {z}", ax.name, num(v[0]), ay.name, num(v[1]))
+    format!(
+        "{} = {}, {} = {}: {z}",
+        ax.name,
+        num(v[0]),
+        ay.name,
+        num(v[1])
+    )
 }
 
 /// The metric's colour scale at the right of the heat map.
@@ -380,11 +402,7 @@ fn colour_bar(out: &mut String, z0: f64, z1: f64, metric: &str) {
     let w = 16.0;
     out.push_str(r#"<defs><linearGradient id="ramp" x1="0" y1="1" x2="0" y2="0">"#);
     for (t, ..) in RAMP {
-        let _ = write!(
-            out,
-            r#"<stop offset="{t}" stop-color="{}"/>"#,
-            colour(t)
-        );
+        let _ = write!(out, r#"<stop offset="{t}" stop-color="{}"/>"#, colour(t));
     }
     out.push_str("</linearGradient></defs>\n");
     let _ = writeln!(
@@ -492,7 +510,10 @@ mod tests {
         assert!(s.contains("M"));
         assert!(s.contains("H [nM]"));
         let heat = Response {
-            axes: vec![axis("a", false, vec![1.0, 2.0]), axis("b", true, vec![1.0, 10.0])],
+            axes: vec![
+                axis("a", false, vec![1.0, 2.0]),
+                axis("b", true, vec![1.0, 10.0]),
+            ],
             metric: "/x".into(),
             task: "steady".into(),
             points: vec![

@@ -47,7 +47,7 @@ fn lines_in(path: &Path) -> usize {
 
 const BIG: &[&str] = &[
     "--vary",
-    "kon=lin:1e6..1e8:6000",
+    "kon=lin:1e6..1e8:2000",
     "--task",
     "initial",
     "--seed",
@@ -67,7 +67,7 @@ fn killed_sweep_resumes_to_the_uninterrupted_result() {
         String::from_utf8_lossy(&st.stderr)
     );
     let (full_header, full_points) = read(&full);
-    assert_eq!(full_points.len(), 6000);
+    assert_eq!(full_points.len(), 2000);
 
     // Kill it once at least 40 points are on the disk. Every point is synced to the disk on
     // its own, so the run takes far longer than reaching 40 lines; should it finish first
@@ -92,7 +92,7 @@ fn killed_sweep_resumes_to_the_uninterrupted_result() {
     );
     let before = read_lenient(&part);
     assert!(
-        (40..6000).contains(&before),
+        (40..2000).contains(&before),
         "{before} points before the kill"
     );
 
@@ -112,7 +112,7 @@ fn killed_sweep_resumes_to_the_uninterrupted_result() {
     assert_eq!(summary["already_done"].as_u64().unwrap(), before as u64);
     assert_eq!(
         summary["written"].as_u64().unwrap(),
-        6000 - before as u64,
+        2000 - before as u64,
         "no finished point is computed again"
     );
     let (header, points) = read(&part);
@@ -162,7 +162,7 @@ fn interrupt_stops_cleanly_and_resume_finishes() {
         "every point line is whole after Ctrl-C"
     );
     let (_, points) = read(&part);
-    assert!(points.len() < 6000);
+    assert!(points.len() < 2000);
     let st = sweep(BIG)
         .arg("--out")
         .arg(&part)
@@ -170,7 +170,7 @@ fn interrupt_stops_cleanly_and_resume_finishes() {
         .output()
         .unwrap();
     assert!(st.status.success());
-    assert_eq!(read(&part).1.len(), 6000);
+    assert_eq!(read(&part).1.len(), 2000);
 }
 
 const SMALL: &[&str] = &[

@@ -85,15 +85,15 @@ struct InitialArgs {
 /// Builds the task a sweep runs from its name and its command's options (`file` stands in
 /// for the command's FILE).
 ///
-/// Wiring a command in is one line here: `args_task::<XArgs>(name, file, options, document)`,
+/// Wiring a command in is one line here: `args_task::<XArgs>("x", file, options, document)`,
 /// where `document(&XArgs, &Point) -> Result<Value>` is the function the command itself uses to
 /// build its `--json` document from a compiled network, a seed and a thread count.
 fn task(name: &str, file: &str, options: &[String]) -> Result<Box<dyn Task>> {
     match name {
-        "check" => args_task::<super::check::CheckArgs>(name, file, options, |_, p| {
+        "check" => args_task::<super::check::CheckArgs>("check", file, options, |_, p| {
             Ok(report::check::json(p.net))
         }),
-        "initial" => args_task::<InitialArgs>(name, file, options, |_, p| {
+        "initial" => args_task::<InitialArgs>("initial", file, options, |_, p| {
             Ok(report::sweep::initial(p.net))
         }),
         "simulate" | "steady" | "reconcile" | "noise" => Err(Error::usage(format!(
@@ -114,7 +114,7 @@ const SWEEP_OWNED: &[&str] = &["file", "seed", "threads", "json", "out", "svg", 
 /// A task from a command's clap options: parses `options` as that command's flags and runs
 /// `document` at each point.
 fn args_task<A>(
-    name: &str,
+    name: &'static str,
     file: &str,
     options: &[String],
     document: fn(&A, &Point) -> Result<Value>,

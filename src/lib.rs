@@ -42,6 +42,7 @@ pub mod reconcile;
 pub mod report;
 pub mod stationary;
 pub mod stats;
+pub mod sweep;
 
 pub use error::{Error, Result};
 pub use network::Network;

@@ -8,6 +8,8 @@ mod noise;
 mod reconcile;
 mod simulate;
 mod steady;
+mod merge;
+mod sweep;
 
 use crate::error::Result;
 use clap::{Parser, Subcommand};
@@ -44,6 +46,12 @@ pub enum Command {
     /// prediction, optionally at several volumes
     #[command(after_help = CAUTION)]
     Noise(noise::NoiseArgs),
+    /// Run a task at many parameter points: resumable, shardable, one JSON line per point
+    #[command(after_help = CAUTION)]
+    Sweep(sweep::SweepArgs),
+    /// Merge sweep shards into one sweep file, ordered by point
+    #[command(after_help = CAUTION)]
+    Merge(merge::MergeArgs),
 }
 
 /// Runs one parsed command line.
@@ -54,6 +62,8 @@ pub fn run(cli: Cli) -> Result<()> {
         Command::Steady(a) => steady::run(&a),
         Command::Reconcile(a) => reconcile::run(&a),
         Command::Noise(a) => noise::run(&a),
+        Command::Sweep(a) => sweep::run(a),
+        Command::Merge(a) => merge::run(&a),
     }
 }
 

@@ -7,6 +7,7 @@ pub mod reconcile;
 pub mod simulate;
 pub mod steady;
 pub mod svg;
+pub mod sweep;
 pub mod table;
 
 /// `2 A + B`, or `0` for an empty side.

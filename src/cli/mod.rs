@@ -4,11 +4,11 @@
 //! library's own option types, calls the library, and hands the result to `report`.
 
 mod check;
+mod merge;
 mod noise;
 mod reconcile;
 mod simulate;
 mod steady;
-mod merge;
 mod sweep;
 
 use crate::error::Result;

@@ -50,9 +50,7 @@ fn volume(text: &str) -> Result<f64> {
     Ok(q.value)
 }
 
-pub fn run(a: &NoiseArgs) -> Result<()> {
-    let net = load(&a.file, &Overrides::default())?;
-    super::print_warnings(&net);
+fn options(a: &NoiseArgs) -> Result<Options> {
     let volumes = a
         .volumes
         .iter()
@@ -67,6 +65,28 @@ pub fn run(a: &NoiseArgs) -> Result<()> {
         volumes,
         progress: std::io::stderr().is_terminal(),
     };
+    Ok(opts)
+}
+
+/// The `--json` document for one sweep point.
+pub(crate) fn document(a: &NoiseArgs, p: &crate::sweep::Point) -> Result<serde_json::Value> {
+    let opts = Options {
+        seed: p.seed,
+        threads: Some(p.threads),
+        progress: false,
+        ..options(a)?
+    };
+    Ok(report::noise::json(
+        &p.net.file,
+        p.seed,
+        &noise::noise(p.net, &opts)?,
+    ))
+}
+
+pub fn run(a: &NoiseArgs) -> Result<()> {
+    let net = load(&a.file, &Overrides::default())?;
+    super::print_warnings(&net);
+    let opts = options(a)?;
     let vols = noise::noise(&net, &opts)?;
     if let Some(path) = &a.svg {
         std::fs::write(path, report::noise::svg(&net.file, &vols))

@@ -50,13 +50,11 @@ pub struct ReconcileArgs {
     pub svg: Option<String>,
 }
 
-pub fn run(a: &ReconcileArgs) -> Result<()> {
-    let net = load(&a.file, &Overrides::default())?;
-    super::print_warnings(&net);
+fn options(a: &ReconcileArgs, net: &crate::Network) -> Result<Options> {
     let observations = a
         .observe
         .iter()
-        .map(|o| parse_observation(o, &net))
+        .map(|o| parse_observation(o, net))
         .collect::<Result<Vec<_>>>()?;
     let opts = Options {
         replicates: a.replicates,
@@ -71,6 +69,27 @@ pub fn run(a: &ReconcileArgs) -> Result<()> {
         from_initial: a.from_initial,
         progress: std::io::stderr().is_terminal(),
     };
+    Ok(opts)
+}
+
+/// The `--json` document for one sweep point.
+pub(crate) fn document(a: &ReconcileArgs, p: &crate::sweep::Point) -> Result<serde_json::Value> {
+    let opts = Options {
+        seed: p.seed,
+        threads: Some(p.threads),
+        progress: false,
+        ..options(a, p.net)?
+    };
+    Ok(report::reconcile::json(
+        p.net,
+        &reconcile::reconcile(p.net, &opts)?,
+    ))
+}
+
+pub fn run(a: &ReconcileArgs) -> Result<()> {
+    let net = load(&a.file, &Overrides::default())?;
+    super::print_warnings(&net);
+    let opts = options(a, &net)?;
     let r = reconcile::reconcile(&net, &opts)?;
     if let Some(path) = &a.svg {
         std::fs::write(path, report::reconcile::svg(&net, &r)).map_err(|e| Error::io(path, e))?;

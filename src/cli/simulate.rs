@@ -79,6 +79,17 @@ impl SimulateArgs {
     }
 }
 
+/// The `--json` document for one sweep point.
+pub(crate) fn document(a: &SimulateArgs, p: &crate::sweep::Point) -> Result<serde_json::Value> {
+    let spec = EnsembleSpec {
+        seed: p.seed,
+        threads: Some(p.threads),
+        progress: false,
+        ..a.spec()
+    };
+    Ok(report::simulate::json(p.net, &ensemble::run(p.net, &spec)?))
+}
+
 pub fn run(a: &SimulateArgs) -> Result<()> {
     let spec = a.spec();
     spec.validate()?;

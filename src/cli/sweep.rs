@@ -96,10 +96,24 @@ fn task(name: &str, file: &str, options: &[String]) -> Result<Box<dyn Task>> {
         "initial" => args_task::<InitialArgs>("initial", file, options, |_, p| {
             Ok(report::sweep::initial(p.net))
         }),
-        "simulate" | "steady" | "reconcile" | "noise" => Err(Error::usage(format!(
-            "the task `{name}` is not available yet in this build of copyloop; available \
-             tasks: check, initial"
-        ))),
+        "simulate" => args_task::<super::simulate::SimulateArgs>(
+            "simulate",
+            file,
+            options,
+            super::simulate::document,
+        ),
+        "steady" => {
+            args_task::<super::steady::SteadyArgs>("steady", file, options, super::steady::document)
+        }
+        "reconcile" => args_task::<super::reconcile::ReconcileArgs>(
+            "reconcile",
+            file,
+            options,
+            super::reconcile::document,
+        ),
+        "noise" => {
+            args_task::<super::noise::NoiseArgs>("noise", file, options, super::noise::document)
+        }
         _ => Err(Error::usage(format!(
             "--task {name}: unknown task; tasks are simulate, steady, reconcile, noise, check \
              and initial"

@@ -897,25 +897,6 @@ fn short(x: f64) -> String {
     }
 }
 
-fn law_text(net: &Network, law: &[i64]) -> String {
-    let mut s = String::new();
-    for (i, &c) in law.iter().enumerate().filter(|(_, &c)| c != 0) {
-        let name = &net.species[i].name;
-        let term = if c.abs() == 1 {
-            name.clone()
-        } else {
-            format!("{} {name}", c.abs())
-        };
-        if s.is_empty() {
-            s = if c < 0 { format!("-{term}") } else { term };
-        } else {
-            s.push_str(if c < 0 { " - " } else { " + " });
-            s.push_str(&term);
-        }
-    }
-    s
-}
-
 /// Where the algebraic steady state exists only with a negative concentration: a sentence
 /// naming it, and the conservation law it breaks if it belongs to one.
 fn negative_root_note(ctx: &Ctx, starts: &[&[f64]]) -> Option<String> {
@@ -959,7 +940,7 @@ fn negative_root_note(ctx: &Ctx, starts: &[&[f64]]) -> Option<String> {
                 .sum();
             note.push_str(&format!(
                 ", so the conserved total {} = {} cannot hold with every amount at least 0.",
-                law_text(net, l),
+                crate::network::law_text(net, l),
                 amount(net, total)
             ));
         } else {

@@ -9,7 +9,7 @@
 //!   hand-specialised for this network alone (the ceiling), with the ziggurat exponential and
 //!   with −ln u.
 //! - `immigration_death`: 0 → X (10/s), X → 0 (0.1/s per molecule).
-//! - `random_200`: 200 random mass-conserving reactions over 40 species (sum-tree selection).
+//! - `random_200`: 200 random mass-conserving reactions over 100 species (sum-tree selection).
 //! - `ensemble_threads`: 1000 replicates of the motif on 1 and 2 threads (replicates per second).
 
 use copyloop::ensemble::{self, EnsembleSpec};
@@ -200,7 +200,7 @@ fn bench_generic(c: &mut Criterion, name: &str, src: &str, t_end: f64) {
 
 fn bench_other(c: &mut Criterion) {
     bench_generic(c, "immigration_death", IMMIGRATION, 50_000.0);
-    bench_generic(c, "random_200", &random_network(40, 200), 5.0);
+    bench_generic(c, "random_200", &random_network(100, 200), 5.0);
 }
 
 fn bench_ensemble(c: &mut Criterion) {

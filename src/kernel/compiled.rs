@@ -1,8 +1,8 @@
 //! The network in the flat form the event loop reads, built once per network.
 //!
-//! - Mass-action propensities become one branch-free product of three falling factors (a
-//!   [`Rate`] of 24 bytes with `u32` indices); `law` propensities stay in a side table as
-//!   [`Network::propensities`] compiles them.
+//! - Mass-action propensities become a product of at most three falling factors (a [`Rate`] of
+//!   24 bytes with `u32` indices, its number of factors matched once per evaluation); `law`
+//!   propensities stay in a side table as [`Network::propensities`] compiles them.
 //! - State changes and the dependency graph are rows of flat arrays (an offset array and a value
 //!   array). In a small network (fewer than [`SMALL_BELOW`] reactions) every row is padded to the
 //!   same length, with changes of 0 to the constant slot and with an idle channel whose
@@ -24,12 +24,12 @@ pub const LAW: u8 = u8::MAX;
 /// Mass action, a = c·Π C(xᵢ, νᵢ) (Gillespie 1976, J. Comput. Phys. 22:403 [verified]; the
 /// forms c·x, c·x₁x₂, c·x(x−1)/2, c·x(x−1)(x−2)/6 [M], REFERENCES.md §1), is written as
 ///
-/// a = c′·(x[i₀] − o₀)·(x[i₁] − o₁)·(x[i₂] − o₂),
+/// a = c′·(x[i₀] − o₀)·(x[i₁] − o₁)·(x[i₂] − o₂)   (the first `factors` of them),
 ///
 /// with c′ = c/Π νᵢ! and one factor x − k (k = 0 … ν−1) per reactant molecule: A + B gives
-/// x_A·x_B, 2A gives x_A(x_A − 1), 3A gives x_A(x_A − 1)(x_A − 2). Unused factors read the slot
-/// that holds 1, and a clamped reactant's C(x, ν) is folded into c′ (its count never changes).
-/// With x < ν one factor is 0, so the product is 0 (or −0), exactly as C(x, ν) = 0.
+/// x_A·x_B, 2A gives x_A(x_A − 1), 3A gives x_A(x_A − 1)(x_A − 2). Unused factors point at the
+/// slot that holds 1, and a clamped reactant's C(x, ν) is folded into c′ (its count never
+/// changes). With x < ν one factor is 0, so the product is 0 (or −0), exactly as C(x, ν) = 0.
 #[derive(Clone, Copy, Debug, PartialEq)]
 pub struct Rate {
     /// c′ (unused for a law).
@@ -239,7 +239,7 @@ impl CompiledKernel {
             3 => r.c * f(0) * f(1) * f(2),
             _ => {
                 let v = self.laws[r.i[0] as usize].eval(x);
-                if v >= 0.0 && v < f64::INFINITY {
+                if (0.0..f64::INFINITY).contains(&v) {
                     v
                 } else {
                     f64::NAN
@@ -317,9 +317,11 @@ impl CompiledKernel {
             "its constant is too large for these counts"
         };
         Error::usage(format!(
-            "{}:{line}:{col}: step `{}`: its propensity became {value} molecules/s at t = {t} s; \
+            "{}:{line}:{col}: step `{}`: its propensity became {value} molecules/s at t = {} s; \
              a rate must be finite and not negative ({why})",
-            self.file, self.labels[j]
+            self.file,
+            self.labels[j],
+            time(t)
         ))
     }
 
@@ -329,10 +331,22 @@ impl CompiledKernel {
         let (line, col) = self.species_at[i];
         Error::usage(format!(
             "{}:{line}:{col}: species `{}` would exceed the largest count copyloop holds \
-             ({MAX_COUNT} molecules) when step `{}` fires at t = {t} s; the network grows \
+             ({MAX_COUNT} molecules) when step `{}` fires at t = {} s; the network grows \
              without bound, or the run is far too long for it",
-            self.file, self.species_names[i], self.labels[j]
+            self.file,
+            self.species_names[i],
+            self.labels[j],
+            time(t)
         ))
+    }
+}
+
+/// A time for a message: four decimals, or four significant digits in scientific form.
+fn time(t: f64) -> String {
+    if t == 0.0 || (1e-3..1e6).contains(&t.abs()) {
+        format!("{t:.4}")
+    } else {
+        format!("{t:.4e}")
     }
 }
 
@@ -366,7 +380,8 @@ fn mass_action(net: &Network, r: &crate::network::Reaction, c: f64, one: u32) ->
     let used = factors.len() as u8;
     // Keeps c′·x₁x₂x₃ finite for every count up to MAX_COUNT, so that a mass-action
     // propensity is never infinite and a₀ stays finite.
-    if !(c * (MAX_COUNT as f64).powi(used as i32) < 1e290) {
+    let largest = c * (MAX_COUNT as f64).powi(used as i32);
+    if largest.is_nan() || largest >= 1e290 {
         return Err(Error::usage(format!(
             "{}:{}:{}: step `{}`: the stochastic constant {c:e} is too large; propensities \
              would overflow",

@@ -216,7 +216,7 @@ impl Select for SumTree {
 
 /// Checks a freshly computed propensity: finite and not negative.
 fn checked(k: &CompiledKernel, j: usize, a: f64, t: f64) -> Result<f64> {
-    if a >= 0.0 && a < f64::INFINITY {
+    if (0.0..f64::INFINITY).contains(&a) {
         Ok(a)
     } else {
         Err(k.bad_propensity(j, a, t))
@@ -351,7 +351,7 @@ fn leg<S: Select, R: Rng + Clone, O: Observer>(
         let t_new = match pending.take() {
             Some(t_new) => t_new,
             None => {
-                if !(a0 > 0.0) {
+                if a0.is_nan() || a0 <= 0.0 {
                     sel.refresh();
                     let a0 = sel.total();
                     if a0 == 0.0 {
@@ -375,7 +375,8 @@ fn leg<S: Select, R: Rng + Clone, O: Observer>(
         let j = sel.find(uniform(rng) * a0);
         debug_assert!(j < k.reactions());
         // SAFETY: `find` returns a channel below reactions().
-        if !(unsafe { sel.get(j) } > 0.0) {
+        let a_j = unsafe { sel.get(j) };
+        if a_j.is_nan() || a_j <= 0.0 {
             // Only reachable when rounding left a₀ above the sum of the propensities.
             sel.refresh();
             continue;

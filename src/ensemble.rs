@@ -73,6 +73,12 @@ pub struct EnsembleSpec {
     /// Draw a progress bar on stderr (the caller decides whether stderr is a terminal).
     pub progress: bool,
     pub method: Method,
+    /// Index of the first replicate: replicates `first_replicate ..` are run, each seeded from
+    /// (seed, index), so a later batch continues an earlier one reproducibly.
+    pub first_replicate: u64,
+    /// Initial counts of every species (`None`: the network's initial state). Clamped species
+    /// must keep their network value.
+    pub initial: Option<Vec<i64>>,
 }
 
 impl EnsembleSpec {
@@ -89,6 +95,8 @@ impl EnsembleSpec {
             keep_finals: false,
             progress: false,
             method: Method::Direct,
+            first_replicate: 0,
+            initial: None,
         }
     }
 
@@ -146,6 +154,9 @@ pub struct EnsembleResult {
     pub firings: Vec<Welford>,
     /// Firings of each reaction in [window, (window + t_end)/2).
     pub firings_first_half: Vec<Welford>,
+    /// First-half minus second-half firings of each reaction, per replicate (a stationary
+    /// window has mean 0).
+    pub half_difference: Vec<Welford>,
     /// Grid times 0 … t_end.
     pub grid_times: Vec<f64>,
     /// `grid[p][i]`: count of species i at grid point p.
@@ -160,6 +171,32 @@ pub struct EnsembleResult {
 }
 
 impl EnsembleResult {
+    /// Adds the replicates of `other`, a later batch of the same spec (the next replicate
+    /// indices), as if they had been run together.
+    pub fn merge(&mut self, other: &EnsembleResult) {
+        let pairs = [
+            (&mut self.final_state, &other.final_state),
+            (&mut self.time_average, &other.time_average),
+            (&mut self.within_variance, &other.within_variance),
+            (&mut self.firings, &other.firings),
+            (&mut self.firings_first_half, &other.firings_first_half),
+            (&mut self.half_difference, &other.half_difference),
+        ];
+        for (a, b) in pairs {
+            a.iter_mut().zip(b).for_each(|(a, b)| a.merge(b));
+        }
+        for (a, b) in self.grid.iter_mut().zip(&other.grid) {
+            a.iter_mut().zip(b).for_each(|(a, b)| a.merge(b));
+        }
+        if let (Some(a), Some(b)) = (&mut self.finals, &other.finals) {
+            a.extend(b.iter().cloned());
+        }
+        self.spec.replicates += other.spec.replicates;
+        self.events_total += other.events_total;
+        self.absorbed += other.absorbed;
+        self.wall_seconds += other.wall_seconds;
+    }
+
     /// Length of the measurement window, t_end − window (s).
     pub fn window_length(&self) -> f64 {
         self.spec.t_end - self.spec.window
@@ -179,6 +216,7 @@ struct Partial {
     within_variance: Vec<Welford>,
     firings: Vec<Welford>,
     firings_first_half: Vec<Welford>,
+    half_difference: Vec<Welford>,
     grid: Vec<Vec<Welford>>,
     finals: Vec<Vec<i64>>,
     events: u64,
@@ -193,6 +231,7 @@ impl Partial {
             within_variance: vec![Welford::new(); species],
             firings: vec![Welford::new(); reactions],
             firings_first_half: vec![Welford::new(); reactions],
+            half_difference: vec![Welford::new(); reactions],
             grid: vec![vec![Welford::new(); species]; points],
             finals: Vec::new(),
             events: 0,
@@ -216,6 +255,7 @@ impl Partial {
         {
             self.firings[j].push(n as f64);
             self.firings_first_half[j].push(h as f64);
+            self.half_difference[j].push(2.0 * h as f64 - n as f64);
         }
         for (p, row) in self.grid.iter_mut().enumerate() {
             for (w, &v) in row.iter_mut().zip(rec.grid_state(p)) {
@@ -234,6 +274,7 @@ impl Partial {
             (&mut self.within_variance, &o.within_variance),
             (&mut self.firings, &o.firings),
             (&mut self.firings_first_half, &o.firings_first_half),
+            (&mut self.half_difference, &o.half_difference),
         ];
         for (a, b) in pairs {
             a.iter_mut().zip(b).for_each(|(a, b)| a.merge(b));
@@ -263,11 +304,10 @@ fn run_block(
     bar: Option<&indicatif::ProgressBar>,
 ) -> Result<Partial> {
     let mut part = Partial::new(kernel.species, kernel.reactions(), spec.grid_points);
+    let x0 = spec.initial.as_deref().unwrap_or(&kernel.x0);
     for r in first..first + count {
-        let mut rng = replicate_rng(spec.seed, r);
-        let summary = ws
-            .direct
-            .run(&kernel.x0, spec.t_end, &mut rng, &mut ws.observers)?;
+        let mut rng = replicate_rng(spec.seed, spec.first_replicate + r);
+        let summary = ws.direct.run(x0, spec.t_end, &mut rng, &mut ws.observers)?;
         part.events += summary.events;
         part.absorbed += u64::from(summary.absorbed_at.is_some());
         part.push(&ws.observers, ws.direct.state(), spec.keep_finals);
@@ -305,6 +345,7 @@ pub fn run(net: &Network, spec: &EnsembleSpec) -> Result<EnsembleResult> {
         within_variance: total.within_variance,
         firings: total.firings,
         firings_first_half: total.firings_first_half,
+        half_difference: total.half_difference,
         grid_times,
         grid: total.grid,
         finals: spec.keep_finals.then_some(total.finals),

@@ -37,10 +37,12 @@ pub mod ensemble;
 pub mod error;
 pub mod kernel;
 pub mod network;
+pub mod noise;
 pub mod reconcile;
 pub mod report;
 pub mod stationary;
 pub mod stats;
+pub mod sweep;
 
 pub use error::{Error, Result};
 pub use network::Network;

@@ -80,12 +80,20 @@ pub fn integer_start(net: &Network, steady: &Steady) -> Option<Vec<i64>> {
         .then_some(x)
 }
 
-/// A plan from the steady state and the user's `--burn-in` and `--t-end`, if given.
+/// Events an ensemble may spend by default when the user gives no times (a few seconds of
+/// work on two cores).
+pub const EVENT_BUDGET: f64 = 6e7;
+
+/// A plan from the steady state and the user's `--burn-in` and `--t-end`, if given. When the
+/// times are chosen here and 25 relaxation times would cost more than `max_events` per
+/// replicate (at the steady state's event rate), both are shortened in proportion; the
+/// stationarity check of the window halves then tells whether that was enough.
 pub fn plan(
     net: &Network,
     steady: Option<&Steady>,
     burn_in: Option<f64>,
     t_end: Option<f64>,
+    max_events: f64,
 ) -> Plan {
     let tau = steady.map_or(f64::INFINITY, relaxation_time);
     let start = steady.and_then(|s| integer_start(net, s));
@@ -96,7 +104,12 @@ pub fn plan(
     };
     let start = start.unwrap_or_else(|| net.initial_state());
     // Without a finite relaxation time, fall back to 100 s of burn-in and 400 s of window.
-    let tau_or = if tau.is_finite() { tau } else { 20.0 };
+    let mut tau_or = if tau.is_finite() { tau } else { 20.0 };
+    let rate: f64 = steady.map_or(0.0, |s| s.fluxes_per_s.iter().map(|f| f.abs()).sum());
+    let wanted = (BURN_IN_TAUS + WINDOW_TAUS) * tau_or * rate;
+    if burn_in.is_none() && t_end.is_none() && wanted > max_events {
+        tau_or *= max_events / wanted;
+    }
     let found = burn_in.is_none();
     let burn_in = burn_in.unwrap_or_else(|| match t_end {
         Some(t) => (BURN_IN_TAUS * tau_or).min(t / 5.0),
@@ -144,7 +157,7 @@ mod tests {
         .unwrap();
         let st = solve(&net, &SteadyOptions::default()).unwrap();
         assert!((relaxation_time(&st) - 4.0).abs() < 1e-9);
-        let p = plan(&net, Some(&st), None, None);
+        let p = plan(&net, Some(&st), None, None, f64::INFINITY);
         assert_eq!(p.start, vec![40]);
         assert!((p.burn_in - 20.0).abs() < 1e-9 && (p.t_end - 100.0).abs() < 1e-9);
     }

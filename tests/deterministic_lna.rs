@@ -87,7 +87,8 @@ fn clamped_ligand_binding_is_binomial() {
 // the LNA is only asymptotically right; its error in the variance is of relative order 1/N
 // (van Kampen's system-size expansion [M]). The exact stationary law comes from detailed
 // balance, P(C+1)/P(C) = c_on(A0 − C)(B0 − C)/(c_off(C + 1)), computed here. With N = 2000
-// molecules the LNA variance must lie within 1 % of the exact one, and closer at N = 20000.
+// molecules the LNA variance must lie within 1 % of the exact one, and ten times the molecules
+// must bring it at least five times closer.
 #[test]
 fn reversible_binding_approaches_the_exact_variance() {
     let mut errors = Vec::new();
@@ -125,7 +126,8 @@ fn reversible_binding_approaches_the_exact_variance() {
         errors.push(err);
     }
     eprintln!("LNA variance relative error at N = 2000, 20000: {errors:?}");
-    assert!(errors[1] < errors[0], "{errors:?}");
+    // Relative order 1/N: ten times the molecules, at least five times closer.
+    assert!(errors[1] < 0.2 * errors[0], "{errors:?}");
 }
 
 // No stationary law around a centre or an unstable point: an error with status 2.

@@ -1,7 +1,7 @@
 //! The ODE integrator against closed forms, invariants, published check points and a scipy
 //! reference solution.
 
-use copyloop::deterministic::{integrate, OdeOptions, System};
+use copyloop::deterministic::{integrate, langmuir, OdeOptions, System};
 use copyloop::network::{load, load_source, Network, Overrides};
 
 fn net(src: &str) -> Network {
@@ -187,6 +187,13 @@ fn michaelis_menten_full_tqssa_and_sqssa() {
         assert!((p_tq[k] - p_full[k]).abs() < 1e-3);
     }
     assert!((p_sq[0] - 1.0).abs() < 1e-6);
+    // The law written in the file is the library's tQSSA flux k₂·C(X_T, S̄, K).
+    let sys = System::new(&tq);
+    for sb in [1.0, 0.6, 0.1, 1e-3] {
+        let v = sys.rates(&[sb, 1.0 - sb])[0];
+        let want = langmuir::tqssa_flux(1.0, 10.0, sb, 0.02);
+        assert!(rel(v, want) < 1e-12, "{v} vs {want}");
+    }
     assert!((p_sq[0] - p_full[0]).abs() > 0.5);
 }
 

@@ -239,3 +239,75 @@ fn near_guess_uses_newton_only() {
     assert!(st.iterations <= 6, "{}", st.iterations);
     assert!(rel(st.counts[0], 300.0) < 1e-10);
 }
+
+mod random_networks {
+    use super::*;
+    use proptest::prelude::*;
+
+    /// A random network over species A..D: each step has up to two reactant and two product
+    /// molecules; its rate is mass action, or a law with sat, inhib or hill of one species.
+    fn network() -> impl Strategy<Value = String> {
+        let term = prop::collection::vec(0usize..4, 0..=2);
+        let rate = (0usize..6, 0.01f64..10.0, 0usize..4, 1u32..300, 1u32..4);
+        let step = (term.clone(), term, rate);
+        (
+            prop::collection::vec(0u32..200, 4),
+            prop::collection::vec(step, 1..7),
+        )
+            .prop_map(|(init, steps)| {
+                let names = ["A", "B", "C", "D"];
+                let mut s = String::new();
+                for (n, x) in names.iter().zip(&init) {
+                    s.push_str(&format!("species {n} = {x}\n"));
+                }
+                for (k, (r, p, (kind, c, x, kk, h))) in steps.iter().enumerate() {
+                    let side = |t: &[usize]| {
+                        if t.is_empty() {
+                            "0".to_string()
+                        } else {
+                            t.iter().map(|&i| names[i]).collect::<Vec<_>>().join(" + ")
+                        }
+                    };
+                    let x = names[*x];
+                    let rate = match kind {
+                        0 => format!("law {c:.3} * 100 * sat({x}, {kk})"),
+                        1 => format!("law {c:.3} * 100 * inhib({x}, {kk})"),
+                        2 => format!("law {c:.3} * 100 * hill({x}, {kk}, {h})"),
+                        _ => format!("{c:.4}"),
+                    };
+                    s.push_str(&format!("step r{k} {} -> {} @ {rate}\n", side(r), side(p)));
+                }
+                s
+            })
+    }
+
+    proptest! {
+        #![proptest_config(ProptestConfig {
+            cases: 256,
+            rng_seed: proptest::test_runner::RngSeed::Fixed(20240607),
+            failure_persistence: None,
+            ..ProptestConfig::default()
+        })]
+        // Whatever the network, the solver returns a steady state or a status-2 reason, never a
+        // panic; a returned state is non-negative, keeps every conservation law and has a small
+        // residual.
+        #[test]
+        fn never_panics_and_answers_are_steady(src in network()) {
+            let n = load_source("p.crn", src.as_bytes(), &Overrides::default()).unwrap();
+            let mut opts = SteadyOptions::default();
+            opts.ode.max_steps = 20_000;
+            match solve(&n, &opts) {
+                Ok(st) => {
+                    prop_assert!(st.counts.iter().all(|&x| x >= 0.0), "{:?}", st.counts);
+                    prop_assert!(st.residual.relative < 1e-8, "{}", st.residual.relative);
+                    let x0 = n.initial_state();
+                    for (l, t) in n.conservation_laws.iter().zip(&st.totals) {
+                        let t0: f64 = l.iter().zip(&x0).map(|(&c, &x)| (c * x) as f64).sum();
+                        prop_assert!((t - t0).abs() <= 1e-9 * t0.abs().max(1.0));
+                    }
+                }
+                Err(e) => prop_assert_eq!(e.exit_code(), 2, "{}", e),
+            }
+        }
+    }
+}

@@ -4,8 +4,12 @@
 //! library's own option types, calls the library, and hands the result to `report`.
 
 mod check;
+mod merge;
+mod noise;
+mod reconcile;
 mod simulate;
 mod steady;
+mod sweep;
 
 use crate::error::Result;
 use clap::{Parser, Subcommand};
@@ -34,6 +38,20 @@ pub enum Command {
     /// Deterministic steady state reached from the initial state: amounts, fluxes, stability
     #[command(after_help = CAUTION)]
     Steady(steady::SteadyArgs),
+    /// Carrier-motif fluxes of an exact ensemble against the Langmuir-form, total-QSSA and ODE
+    /// predictions; observed levels, sensitivities and fits
+    #[command(after_help = CAUTION)]
+    Reconcile(reconcile::ReconcileArgs),
+    /// Stationary mean, variance, CV and Fano factor of every species beside the linear-noise
+    /// prediction, optionally at several volumes
+    #[command(after_help = CAUTION)]
+    Noise(noise::NoiseArgs),
+    /// Run a task at many parameter points: resumable, shardable, one JSON line per point
+    #[command(after_help = CAUTION)]
+    Sweep(sweep::SweepArgs),
+    /// Merge sweep shards into one sweep file, ordered by point
+    #[command(after_help = CAUTION)]
+    Merge(merge::MergeArgs),
 }
 
 /// Runs one parsed command line.
@@ -42,6 +60,10 @@ pub fn run(cli: Cli) -> Result<()> {
         Command::Check(a) => check::run(&a),
         Command::Simulate(a) => simulate::run(&a),
         Command::Steady(a) => steady::run(&a),
+        Command::Reconcile(a) => reconcile::run(&a),
+        Command::Noise(a) => noise::run(&a),
+        Command::Sweep(a) => sweep::run(a),
+        Command::Merge(a) => merge::run(&a),
     }
 }
 

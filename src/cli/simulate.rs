@@ -73,8 +73,21 @@ impl SimulateArgs {
                 },
                 MethodArg::Auto => Method::Auto,
             },
+            first_replicate: 0,
+            initial: None,
         }
     }
+}
+
+/// The `--json` document for one sweep point.
+pub(crate) fn document(a: &SimulateArgs, p: &crate::sweep::Point) -> Result<serde_json::Value> {
+    let spec = EnsembleSpec {
+        seed: p.seed,
+        threads: Some(p.threads),
+        progress: false,
+        ..a.spec()
+    };
+    Ok(report::simulate::json(p.net, &ensemble::run(p.net, &spec)?))
 }
 
 pub fn run(a: &SimulateArgs) -> Result<()> {

@@ -15,6 +15,12 @@ pub struct SteadyArgs {
     pub json: bool,
 }
 
+/// The `--json` document for one sweep point.
+pub(crate) fn document(_: &SteadyArgs, p: &crate::sweep::Point) -> Result<serde_json::Value> {
+    let st = deterministic::solve(p.net, &SteadyOptions::default())?;
+    Ok(report::steady::json(p.net, &st))
+}
+
 pub fn run(a: &SteadyArgs) -> Result<()> {
     let net = load(&a.file, &Overrides::default())?;
     super::print_warnings(&net);

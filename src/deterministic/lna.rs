@@ -19,7 +19,7 @@
 //! nalgebra LU: exact to rounding, and cheap for the r ≤ 60 independent species it accepts.
 
 use super::reduce::Reduction;
-use super::steady::Steady;
+use super::steady::{Steady, SteadyOptions};
 use super::system::System;
 use crate::network::Network;
 use crate::{Error, Result};
@@ -149,6 +149,14 @@ pub fn stationary(net: &Network, steady: &Steady) -> Result<Lna> {
         cv,
         fano,
     })
+}
+
+/// The steady state reached from the initial state (default [`SteadyOptions`]) and the
+/// stationary LNA around it: what `noise` puts beside each ensemble.
+pub fn at_steady_state(net: &Network) -> Result<(Steady, Lna)> {
+    let st = super::steady::solve(net, &SteadyOptions::default())?;
+    let l = stationary(net, &st)?;
+    Ok((st, l))
 }
 
 #[cfg(test)]

@@ -22,7 +22,7 @@ pub mod steady;
 pub mod system;
 
 pub use langmuir::{predict, MotifPrediction};
-pub use lna::{stationary, Lna};
+pub use lna::{at_steady_state, stationary, Lna};
 pub use ode::{integrate, OdeOptions, Trajectory};
 pub use steady::{solve, Method, Residual, Stability, Steady, SteadyOptions};
 pub use system::System;

@@ -263,8 +263,8 @@ impl<'s, 'a> Integrator<'s, 'a> {
             if landing {
                 h = remaining;
             }
-            let min_h = 1e-14 * self.t.abs().max(remaining).max(1e-300);
-            if h < min_h {
+            // A step that no longer moves the clock (or is subnormal) cannot make progress.
+            if self.t + h == self.t || h < 1e-300 {
                 return Err(OdeFailure::StepTooSmall { t: self.t, h });
             }
             match self.step(h, &f0, &jac) {

@@ -19,7 +19,9 @@
 //!
 //! Residual: max |dx/dt| over the free species, and the same divided by the largest gross
 //! turnover Σ_j |S_ij|·v_j of any species (at the steady state or at the start, whichever is
-//! larger). Stability: eigenvalues of the reduced Jacobian (see [`super::reduce`]); asymptotically
+//! larger). Newton stops when that ratio against the turnover at the state itself is below
+//! [`SteadyOptions::tol`], or against the turnover at the start below tol/1000 (for networks that
+//! run down to rest, where both vanish together), and then takes one more step if it helps. Stability: eigenvalues of the reduced Jacobian (see [`super::reduce`]); asymptotically
 //! stable when every real part is below −10⁻¹⁰·max|λ|.
 
 use super::ode::{Integrator, OdeFailure, OdeOptions};
@@ -178,11 +180,18 @@ struct Ctx<'s, 'a> {
     tol: f64,
     /// Absolute concentration scale below which differences do not matter (10⁻⁶ molecules).
     tiny: f64,
+    /// A million times the largest amount at the start, plus one molecule.
+    bound: f64,
 }
 
 struct Eval {
     f: Vec<f64>,
+    /// max|f| over the larger of the turnover here and at the start.
     rel_rate: f64,
+    /// max|f| over the turnover here alone.
+    rel_own: f64,
+    /// Largest amount.
+    top: f64,
     rel_law: f64,
     law_res: Vec<f64>,
     law_scale: Vec<f64>,
@@ -196,15 +205,20 @@ impl Ctx<'_, '_> {
             return None;
         }
         let f = self.sys.rhs_from_rates(&v);
-        let gmax = self.sys.gross(&v).into_iter().fold(self.g_ref, f64::max);
+        let g_own = self.sys.gross(&v).into_iter().fold(0.0, f64::max);
+        let gmax = g_own.max(self.g_ref);
         let fmax = f.iter().fold(0.0f64, |m, x| m.max(x.abs()));
-        let rel_rate = if gmax > 0.0 {
-            fmax / gmax
-        } else if fmax == 0.0 {
-            0.0
-        } else {
-            f64::INFINITY
+        let ratio = |g: f64| {
+            if fmax == 0.0 {
+                0.0
+            } else if g > 0.0 {
+                fmax / g
+            } else {
+                f64::INFINITY
+            }
         };
+        let (rel_rate, rel_own) = (ratio(gmax), ratio(g_own));
+        let top = y.iter().fold(0.0f64, |m, x| m.max(x.abs()));
         let now = self.red.totals(y);
         let mut law_res = Vec::new();
         let mut law_scale = Vec::new();
@@ -222,6 +236,8 @@ impl Ctx<'_, '_> {
         Some(Eval {
             f,
             rel_rate,
+            rel_own,
+            top,
             rel_law,
             law_res,
             law_scale,
@@ -229,8 +245,13 @@ impl Ctx<'_, '_> {
         })
     }
 
+    /// Steady: the laws hold, and the net rates are within `tol` of the turnover there, or
+    /// within `tol`/1000 of the turnover at the start for a network that runs down to rest
+    /// (no amount beyond a million times the largest at the start: rates that fade only as an
+    /// amount runs off to infinity are not a steady state).
     fn converged(&self, e: &Eval) -> bool {
-        e.rel_rate <= self.tol && e.rel_law <= 1e-10
+        e.rel_law <= 1e-10
+            && (e.rel_own <= self.tol || (e.rel_rate <= 1e-3 * self.tol && e.top <= self.bound))
     }
 
     /// Weighted residual vector [f_I / g; (Λx − T)/scale] with weights fixed by `w`.
@@ -253,12 +274,13 @@ impl Ctx<'_, '_> {
     }
 }
 
-/// max|a − b| relative to the largest level in either state.
-fn norm_distance(a: &[f64], b: &[f64]) -> f64 {
+/// max|a − b| relative to the largest level in either state (at least `floor`).
+fn norm_distance(a: &[f64], b: &[f64], floor: f64) -> f64 {
     let top = a
         .iter()
         .chain(b)
         .fold(0.0f64, |m, x| m.max(x.abs()))
+        .max(floor)
         .max(f64::MIN_POSITIVE);
     a.iter()
         .zip(b)
@@ -277,18 +299,24 @@ struct NewtonRun {
 /// (Armijo). Unguarded: full steps, wherever they lead (used only to locate an algebraic
 /// solution with negative amounts for a diagnosis).
 fn newton(ctx: &Ctx, start: &[f64], positive: bool, max_iter: usize) -> NewtonRun {
-    let n = ctx.sys.n();
     let mut y = start.to_vec();
-    let fail = |y: Vec<f64>, it| NewtonRun {
-        y,
-        iterations: it,
-        converged: false,
-    };
     let Some(mut e) = ctx.eval(&y) else {
-        return fail(y, 0);
+        return NewtonRun {
+            y,
+            iterations: 0,
+            converged: false,
+        };
     };
     for it in 0..=max_iter {
         if ctx.converged(&e) {
+            // One more step to polish, kept only if it lowers the residual.
+            if let Some((y2, e2)) = newton_step(ctx, &y, &e, positive) {
+                let now: f64 = ctx.weighted(&e, &e).iter().map(|x| x * x).sum();
+                let next: f64 = ctx.weighted(&e2, &e).iter().map(|x| x * x).sum();
+                if next < now && ctx.converged(&e2) {
+                    y = y2;
+                }
+            }
             return NewtonRun {
                 y,
                 iterations: it,
@@ -298,66 +326,84 @@ fn newton(ctx: &Ctx, start: &[f64], positive: bool, max_iter: usize) -> NewtonRu
         if it == max_iter {
             break;
         }
-        let jac = ctx.sys.jacobian(&y);
-        if jac.iter().any(|v| !v.is_finite()) {
-            return fail(y, it);
-        }
-        let nc = ctx.red.laws.nrows();
-        let mut m = DMatrix::zeros(n, n);
-        let mut rhs = DVector::zeros(n);
-        for (row, &k) in ctx.red.independent.iter().enumerate() {
-            m.row_mut(row).copy_from(&jac.row(k));
-            rhs[row] = -e.f[k];
-        }
-        for l in 0..nc {
-            let row = ctx.red.r() + l;
-            m.row_mut(row).copy_from(&ctx.red.laws.row(l));
-            rhs[row] = -e.law_res[l];
-        }
-        let delta = match m.clone().lu().solve(&rhs) {
-            Some(d) if d.iter().all(|x| x.is_finite()) => d,
-            _ => {
-                let eps = 1e-12 * m.amax().max(f64::MIN_POSITIVE);
-                match m.svd(true, true).solve(&rhs, eps) {
-                    Ok(d) if d.iter().all(|x| x.is_finite()) => d,
-                    _ => return fail(y, it),
+        match newton_step(ctx, &y, &e, positive) {
+            Some((y2, e2)) => {
+                y = y2;
+                e = e2;
+            }
+            None => {
+                return NewtonRun {
+                    y,
+                    iterations: it + 1,
+                    converged: false,
                 }
             }
-        };
-        let mut lambda = 1.0f64;
-        if positive {
-            for (yi, di) in y.iter().zip(delta.iter()) {
-                if *yi > 0.0 && *di < 0.0 && yi + di < 0.0 {
-                    lambda = lambda.min(0.9 * yi / -di);
-                }
-            }
-        }
-        let w0: f64 = ctx.weighted(&e, &e).iter().map(|x| x * x).sum();
-        let mut accepted = None;
-        for _ in 0..40 {
-            let trial: Vec<f64> = y
-                .iter()
-                .zip(delta.iter())
-                .map(|(a, d)| a + lambda * d)
-                .collect();
-            if let Some(et) = ctx.eval(&trial) {
-                let w1: f64 = ctx.weighted(&et, &e).iter().map(|x| x * x).sum();
-                if !positive || w1 <= (1.0 - 2e-4 * lambda) * w0 || ctx.converged(&et) {
-                    accepted = Some((trial, et));
-                    break;
-                }
-            }
-            lambda *= 0.5;
-        }
-        match accepted {
-            Some((t, et)) => {
-                y = t;
-                e = et;
-            }
-            None => return fail(y, it + 1),
         }
     }
-    fail(y, max_iter)
+    NewtonRun {
+        y,
+        iterations: max_iter,
+        converged: false,
+    }
+}
+
+/// One Newton step from `y` (with its evaluation `e`): the linear system [J_I; Λ]·Δ = −F by LU
+/// (SVD least squares if singular), then the guarded or full step.
+fn newton_step(ctx: &Ctx, y: &[f64], e: &Eval, positive: bool) -> Option<(Vec<f64>, Eval)> {
+    let n = ctx.sys.n();
+    if n == 0 {
+        return None;
+    }
+    let jac = ctx.sys.jacobian(y);
+    if jac.iter().any(|v| !v.is_finite()) {
+        return None;
+    }
+    let nc = ctx.red.laws.nrows();
+    let mut m = DMatrix::zeros(n, n);
+    let mut rhs = DVector::zeros(n);
+    for (row, &k) in ctx.red.independent.iter().enumerate() {
+        m.row_mut(row).copy_from(&jac.row(k));
+        rhs[row] = -e.f[k];
+    }
+    for l in 0..nc {
+        let row = ctx.red.r() + l;
+        m.row_mut(row).copy_from(&ctx.red.laws.row(l));
+        rhs[row] = -e.law_res[l];
+    }
+    let delta = match m.clone().lu().solve(&rhs) {
+        Some(d) if d.iter().all(|x| x.is_finite()) => d,
+        _ => {
+            let eps = 1e-12 * m.amax().max(f64::MIN_POSITIVE);
+            match m.svd(true, true).solve(&rhs, eps) {
+                Ok(d) if d.iter().all(|x| x.is_finite()) => d,
+                _ => return None,
+            }
+        }
+    };
+    let mut lambda = 1.0f64;
+    if positive {
+        for (yi, di) in y.iter().zip(delta.iter()) {
+            if *yi > 0.0 && *di < 0.0 && yi + di < 0.0 {
+                lambda = lambda.min(0.9 * yi / -di);
+            }
+        }
+    }
+    let w0: f64 = ctx.weighted(e, e).iter().map(|x| x * x).sum();
+    for _ in 0..40 {
+        let trial: Vec<f64> = y
+            .iter()
+            .zip(delta.iter())
+            .map(|(a, d)| a + lambda * d)
+            .collect();
+        if let Some(et) = ctx.eval(&trial) {
+            let w1: f64 = ctx.weighted(&et, e).iter().map(|x| x * x).sum();
+            if !positive || w1 <= (1.0 - 2e-4 * lambda) * w0 || ctx.converged(&et) {
+                return Some((trial, et));
+            }
+        }
+        lambda *= 0.5;
+    }
+    None
 }
 
 fn eigenvalues(m: &DMatrix<f64>) -> Result<Vec<Complex<f64>>> {
@@ -426,6 +472,7 @@ pub fn solve(net: &Network, opts: &SteadyOptions) -> Result<Steady> {
         g_ref,
         tol: opts.tol,
         tiny: (1e-6 / net.omega).max(1e-15 * top0),
+        bound: 1e6 * (top0 + 1.0 / net.omega),
     };
     let guess = match &opts.guess {
         Some(g) if g.len() == net.species.len() => sys.restrict(g),
@@ -481,8 +528,16 @@ fn integrate_then_polish(
         .as_ref()
         .filter(|c| c.stability == Stability::Stable);
     let cand_y = stable_candidate.map(|c| ctx.sys.restrict(&c.conc));
-    // Time scales: the fastest at the start, else the candidate's slowest relaxation.
-    let mut t_fast = 1.0 / spectral_radius(ctx, y0);
+    // First segment: the fastest time scale at the start, from the Jacobian's spectral radius
+    // and from each species' turnover relative to its level (plus one molecule).
+    let v0 = ctx.sys.rates(y0);
+    let turnover = ctx
+        .sys
+        .gross(&v0)
+        .iter()
+        .zip(y0)
+        .fold(0.0f64, |m, (g, y)| m.max(g / (y.abs() + 1.0 / net.omega)));
+    let mut t_fast = 1.0 / spectral_radius(ctx, y0).max(turnover);
     if let Some(c) = stable_candidate {
         let slow = c
             .eigenvalues
@@ -504,23 +559,27 @@ fn integrate_then_polish(
             .as_ref()
             .map_or(0.0, |c| slowest_time(&c.eigenvalues)),
     );
+    let top0 = y0.iter().fold(0.0f64, |m, x| m.max(x.abs()));
+    let top_c = cand_y
+        .as_ref()
+        .map_or(0.0, |c| c.iter().fold(0.0f64, |m, x| m.max(x.abs())));
     let watch = Watch {
         t_min: 20.0 * t_slow,
         ceiling: cand_y.clone(),
+        huge: 1e6 * (top0.max(top_c) + 1.0 / net.omega),
     };
     let mut int = Integrator::new(ctx.sys, y0.to_vec(), &opts.ode);
     let mut history: Vec<Segment> = Vec::new();
     let mut t_prev = 0.0;
     let mut t_next = t_fast;
-    let top0 = y0.iter().fold(0.0f64, |m, x| m.max(x.abs()));
     loop {
         // Check the state at the start of each segment (also catches a start already steady).
         let y = int.y().to_vec();
-        if let Some(cy) = &cand_y {
+        if let (Some(cy), Some(c)) = (&cand_y, &candidate) {
             if ctx.distance(&y, cy) < 1e-3 {
                 let polished = newton(ctx, &y, true, opts.max_newton);
                 if polished.converged && ctx.distance(&polished.y, cy) < 1e-6 {
-                    let c = candidate.clone().expect("candidate exists");
+                    let c = c.clone();
                     return Ok(Steady {
                         method: Method::NewtonConfirmed,
                         integrated_time: int.t(),
@@ -533,7 +592,7 @@ fn integrate_then_polish(
         if let Some(e) = ctx.eval(&y) {
             if e.rel_rate < 1e-6 {
                 let polished = newton(ctx, &y, true, opts.max_newton);
-                if polished.converged && norm_distance(&polished.y, &y) < 1e-3 {
+                if polished.converged && norm_distance(&polished.y, &y, ctx.tiny) < 1e-3 {
                     return finish(
                         ctx,
                         polished.y,
@@ -553,6 +612,10 @@ fn integrate_then_polish(
         for s in 1..=SAMPLES {
             let t = t_prev + (t_end - t_prev) * s as f64 / SAMPLES as f64;
             if let Err(fail) = int.advance_to(t) {
+                let yy = int.y();
+                if let Some(k) = (0..yy.len()).find(|&k| yy[k] < -ctx.tiny) {
+                    return Err(negative_during_run(ctx, k, yy[k], int.t()));
+                }
                 return Err(no_steady_state(
                     ctx,
                     y0,
@@ -707,11 +770,31 @@ struct Watch {
     /// A stable fixed point: growth is claimed only for a species already past 10 times its
     /// level there.
     ceiling: Option<Vec<f64>>,
+    /// A level no bounded transient reaches: a million times the largest amount at the start or
+    /// at the fixed point, plus one molecule. A species still rising past it is growing without
+    /// bound whatever the time.
+    huge: f64,
 }
 
 fn classify(ctx: &Ctx, history: &[Segment], watch: &Watch) -> Option<Reason> {
     let n = ctx.sys.n();
     let h = history.len();
+    if h >= 3 {
+        for k in 0..n {
+            let (a, b, c) = (
+                history[h - 3].y_end[k],
+                history[h - 2].y_end[k],
+                history[h - 1].y_end[k],
+            );
+            if c > watch.huge && a > 0.0 && b >= 1.25 * a && c >= 1.25 * b {
+                let f = ctx.sys.rhs(&history[h - 1].y_end);
+                return Some(Reason::Growth {
+                    slot: k,
+                    rate: f[k],
+                });
+            }
+        }
+    }
     if history.last().is_none_or(|s| s.t_end < watch.t_min) {
         return None;
     }
@@ -814,25 +897,6 @@ fn short(x: f64) -> String {
     }
 }
 
-fn law_text(net: &Network, law: &[i64]) -> String {
-    let mut s = String::new();
-    for (i, &c) in law.iter().enumerate().filter(|(_, &c)| c != 0) {
-        let name = &net.species[i].name;
-        let term = if c.abs() == 1 {
-            name.clone()
-        } else {
-            format!("{} {name}", c.abs())
-        };
-        if s.is_empty() {
-            s = if c < 0 { format!("-{term}") } else { term };
-        } else {
-            s.push_str(if c < 0 { " - " } else { " + " });
-            s.push_str(&term);
-        }
-    }
-    s
-}
-
 /// Where the algebraic steady state exists only with a negative concentration: a sentence
 /// naming it, and the conservation law it breaks if it belongs to one.
 fn negative_root_note(ctx: &Ctx, starts: &[&[f64]]) -> Option<String> {
@@ -876,7 +940,7 @@ fn negative_root_note(ctx: &Ctx, starts: &[&[f64]]) -> Option<String> {
                 .sum();
             note.push_str(&format!(
                 ", so the conserved total {} = {} cannot hold with every amount at least 0.",
-                law_text(net, l),
+                crate::network::law_text(net, l),
                 amount(net, total)
             ));
         } else {
@@ -999,19 +1063,36 @@ fn no_steady_state(
             &Watch {
                 t_min: 0.0,
                 ceiling: None,
+                huge: f64::INFINITY,
             },
         ) {
             return no_steady_state_because(ctx, y0, candidate, reason, t_last);
         }
-        let big = (0..y_last.len()).max_by(|&a, &b| y_last[a].abs().total_cmp(&y_last[b].abs()));
-        let what = match (f, big) {
-            (OdeFailure::TooManySteps { .. }, _) => String::new(),
-            (_, Some(k)) => format!(
-                " {} has reached {}, which points to unbounded growth.",
+        // The species that grew most relative to the start (plus one molecule).
+        let one = 1.0 / net.omega;
+        let big = (0..y_last.len()).max_by(|&a, &b| {
+            let ga = y_last[a].abs() / (y0[a].abs() + one);
+            let gb = y_last[b].abs() / (y0[b].abs() + one);
+            ga.total_cmp(&gb)
+        });
+        let what = match big {
+            Some(k) if y_last[k].abs() > 1e3 * (y0[k].abs() + one) => format!(
+                " {} has reached {} (from {} at the start), which points to unbounded growth.",
                 net.species[ctx.sys.free[k]].name,
-                amount(net, y_last[k])
+                amount(net, y_last[k]),
+                amount(net, y0[k])
             ),
-            _ => String::new(),
+            _ => {
+                let f = ctx.sys.rhs(y_last);
+                match (0..f.len()).max_by(|&a, &b| f[a].abs().total_cmp(&f[b].abs())) {
+                    Some(k) => format!(
+                        " At that time {} is changing at {}.",
+                        net.species[ctx.sys.free[k]].name,
+                        rate_text(net, f[k])
+                    ),
+                    None => String::new(),
+                }
+            }
         };
         let mut m = format!("{head}: {}.{what}", f.describe());
         if let Some(note) = negative_root_note(ctx, &[y0]) {

@@ -241,6 +241,26 @@ pub fn conservation_laws(net: &Network) -> Vec<Vec<i64>> {
         .collect()
 }
 
+/// `E + C`, `S + C + P`, `P + 2 P2`.
+pub fn law_text(net: &Network, law: &[i64]) -> String {
+    let mut s = String::new();
+    for (i, &c) in law.iter().enumerate().filter(|(_, &c)| c != 0) {
+        let name = &net.species[i].name;
+        let term = if c.abs() == 1 {
+            name.clone()
+        } else {
+            format!("{} {name}", c.abs())
+        };
+        if s.is_empty() {
+            s = if c < 0 { format!("-{term}") } else { term };
+        } else {
+            s.push_str(if c < 0 { " - " } else { " + " });
+            s.push_str(&term);
+        }
+    }
+    s
+}
+
 // ---------------------------------------------------------------------------------------------
 // Carrier motifs
 // ---------------------------------------------------------------------------------------------

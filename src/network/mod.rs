@@ -15,7 +15,7 @@ pub mod lexer;
 pub mod parser;
 pub mod units;
 
-pub use analysis::{motif_chains, Motif, MotifKind};
+pub use analysis::{law_text, motif_chains, Motif, MotifKind};
 pub use compile::{compile, load, load_source, Override, Overrides};
 pub use expr::{Dual, Law, Scalar};
 pub use units::{Dim, Quantity, AVOGADRO};

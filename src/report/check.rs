@@ -2,7 +2,7 @@
 
 use super::table::Table;
 use super::{jnum, num, side};
-use crate::network::Network;
+use crate::network::{law_text, Network};
 use serde_json::{json, Map, Value};
 
 fn coefficients(net: &Network, terms: &[(usize, u32)]) -> Value {
@@ -11,26 +11,6 @@ fn coefficients(net: &Network, terms: &[(usize, u32)]) -> Value {
         m.insert(net.species[i].name.clone(), json!(n));
     }
     Value::Object(m)
-}
-
-/// `E + C`, `S + C + P`, `P + 2 P2`.
-pub fn law_text(net: &Network, law: &[i64]) -> String {
-    let mut s = String::new();
-    for (i, &c) in law.iter().enumerate().filter(|(_, &c)| c != 0) {
-        let name = &net.species[i].name;
-        let term = if c.abs() == 1 {
-            name.clone()
-        } else {
-            format!("{} {name}", c.abs())
-        };
-        if s.is_empty() {
-            s = if c < 0 { format!("-{term}") } else { term };
-        } else {
-            s.push_str(if c < 0 { " - " } else { " + " });
-            s.push_str(&term);
-        }
-    }
-    s
 }
 
 /// The JSON document of CONTRACT §3 for `check`.

@@ -2,9 +2,12 @@
 //! Reports only format; they compute nothing.
 
 pub mod check;
+pub mod noise;
+pub mod reconcile;
 pub mod simulate;
 pub mod steady;
 pub mod svg;
+pub mod sweep;
 pub mod table;
 
 /// `2 A + B`, or `0` for an empty side.

@@ -1,9 +1,9 @@
 //! The report of `copyloop steady`.
 
-use super::check::law_text;
 use super::table::Table;
 use super::{jnum, num, side};
 use crate::deterministic::Steady;
+use crate::network::law_text;
 use crate::network::Network;
 use serde_json::{json, Map, Value};
 

@@ -1,0 +1,100 @@
+//! `copyloop noise FILE`: stationary mean, variance, CV and Fano factor of every species from
+//! the ensemble, beside the linear-noise prediction, optionally at several volumes.
+
+use crate::error::{Error, Result};
+use crate::network::{load, parser::parse_quantity, Dim, Overrides};
+use crate::noise::{self, Options};
+use crate::report;
+use clap::Args;
+use std::io::IsTerminal;
+
+#[derive(Debug, Args)]
+pub struct NoiseArgs {
+    /// Network file (.crn)
+    pub file: String,
+    /// Replicate trajectories per volume
+    #[arg(long, default_value_t = 100)]
+    pub replicates: u64,
+    /// End time of each trajectory in seconds (default: burn-in + 20 relaxation times)
+    #[arg(long)]
+    pub t_end: Option<f64>,
+    /// Statistics are taken over [burn-in, t-end] (default: 5 relaxation times, reported)
+    #[arg(long)]
+    pub burn_in: Option<f64>,
+    /// Repeat at these volumes, amounts kept as concentrations, e.g. 0.1pL,1pL,10pL
+    #[arg(long, value_delimiter = ',', value_name = "V1,V2,…")]
+    pub volumes: Vec<String>,
+    /// Master seed; the same seed gives the same numbers whatever the thread count
+    #[arg(long, default_value_t = 0)]
+    pub seed: u64,
+    /// Worker threads (default: all cores)
+    #[arg(long)]
+    pub threads: Option<usize>,
+    /// Print one JSON document instead of the table
+    #[arg(long)]
+    pub json: bool,
+    /// Also draw CV against mean copy number (log–log, with the 1/√N line) to this SVG file
+    #[arg(long, value_name = "FILE")]
+    pub svg: Option<String>,
+}
+
+/// A volume given on the command line, in litres.
+fn volume(text: &str) -> Result<f64> {
+    let (q, unit) =
+        parse_quantity(text.trim()).map_err(|e| Error::usage(format!("--volumes {text}: {e}")))?;
+    if unit.is_none() || q.dim != Dim::VOLUME || !(q.value > 0.0 && q.value.is_finite()) {
+        return Err(Error::usage(format!(
+            "--volumes {text}: expected a positive volume with its unit, e.g. 1pL or 2 fL"
+        )));
+    }
+    Ok(q.value)
+}
+
+fn options(a: &NoiseArgs) -> Result<Options> {
+    let volumes = a
+        .volumes
+        .iter()
+        .map(|v| volume(v))
+        .collect::<Result<Vec<_>>>()?;
+    let opts = Options {
+        replicates: a.replicates,
+        seed: a.seed,
+        threads: a.threads,
+        t_end: a.t_end,
+        burn_in: a.burn_in,
+        volumes,
+        progress: std::io::stderr().is_terminal(),
+    };
+    Ok(opts)
+}
+
+/// The `--json` document for one sweep point.
+pub(crate) fn document(a: &NoiseArgs, p: &crate::sweep::Point) -> Result<serde_json::Value> {
+    let opts = Options {
+        seed: p.seed,
+        threads: Some(p.threads),
+        progress: false,
+        ..options(a)?
+    };
+    Ok(report::noise::json(
+        &p.net.file,
+        p.seed,
+        &noise::noise(p.net, &opts)?,
+    ))
+}
+
+pub fn run(a: &NoiseArgs) -> Result<()> {
+    let net = load(&a.file, &Overrides::default())?;
+    super::print_warnings(&net);
+    let opts = options(a)?;
+    let vols = noise::noise(&net, &opts)?;
+    if let Some(path) = &a.svg {
+        std::fs::write(path, report::noise::svg(&net.file, &vols))
+            .map_err(|e| Error::io(path, e))?;
+    }
+    if a.json {
+        super::print_json(&report::noise::json(&net.file, a.seed, &vols))
+    } else {
+        super::print_stdout(&report::noise::table(&net.file, &vols))
+    }
+}

@@ -1,0 +1,490 @@
+//! `copyloop sweep FILE --vary NAME=SPEC … --task TASK [task options] --out F.jsonl`
+//!
+//! The task's options are its own command's flags, written anywhere after `--task TASK`; the
+//! sweep's own flags (`--out`, `--seed`, `--threads`, `--resume`, `--shard`, `--svg`, …) may
+//! stand among them and always belong to the sweep.
+
+use crate::error::{Error, Result};
+use crate::report;
+use crate::sweep::{self, DesignKind, Plan, Point, Shard, Store, Task};
+use clap::{ArgMatches, Args, Command, FromArgMatches, ValueEnum};
+use serde_json::{Map, Value};
+use std::io::IsTerminal;
+use std::sync::atomic::{AtomicBool, AtomicUsize, Ordering};
+use std::sync::Arc;
+
+#[derive(Debug, Args)]
+pub struct SweepArgs {
+    /// Network file (.crn)
+    pub file: String,
+    /// A swept value: NAME=lin:A..B:N, NAME=log:A..B:N or NAME=list:A,B,… ; values may carry
+    /// units (a bare value is in the unit the file wrote); NAME is a param, a species (initial
+    /// amount) or `volume`. Repeat for more dimensions
+    #[arg(long, value_name = "NAME=SPEC")]
+    pub vary: Vec<String>,
+    /// grid: every combination of the values; lhs: a Latin hypercube of --points points
+    #[arg(long, value_enum)]
+    pub design: Option<DesignArg>,
+    /// Points of a Latin hypercube (default: the common N of the specs)
+    #[arg(long, value_name = "N")]
+    pub points: Option<u64>,
+    /// The task run at every point: simulate, steady, reconcile or noise, followed by that
+    /// command's options; also check (the check document) and initial (what the point compiles
+    /// to)
+    #[arg(long, value_name = "TASK")]
+    pub task: Option<String>,
+    /// The sweep file (JSON lines): a header line, then one line per finished point
+    #[arg(long, value_name = "F.jsonl")]
+    pub out: Option<String>,
+    /// Continue the --out file: skip its finished points, drop a torn last line (a missing
+    /// file starts afresh)
+    #[arg(long)]
+    pub resume: bool,
+    /// Run the I-th of N disjoint shares of the points (1-based), e.g. 3/8
+    #[arg(long, value_name = "I/N")]
+    pub shard: Option<String>,
+    /// Master seed; point i is seeded from (seed, i) alone [default: 0]
+    #[arg(long)]
+    pub seed: Option<u64>,
+    /// Threads in all, shared between points and the replicates inside them [default: all
+    /// cores]
+    #[arg(long)]
+    pub threads: Option<usize>,
+    /// Draw the swept response: a line for one varied value, a heat map for two
+    #[arg(long, value_name = "F.svg")]
+    pub svg: Option<String>,
+    /// The result key drawn by --svg, as a JSON pointer into `result` (default per task, e.g.
+    /// /final/<species>/mean for simulate)
+    #[arg(long, value_name = "PATH")]
+    pub metric: Option<String>,
+    /// Print the summary as one JSON document
+    #[arg(long)]
+    pub json: bool,
+    /// The task's options (its command's flags)
+    #[arg(
+        trailing_var_arg = true,
+        allow_hyphen_values = true,
+        hide = true,
+        value_name = "TASK OPTIONS"
+    )]
+    pub task_options: Vec<String>,
+}
+
+#[derive(Clone, Copy, Debug, PartialEq, Eq, ValueEnum)]
+pub enum DesignArg {
+    Grid,
+    Lhs,
+}
+
+/// Options of the `initial` task (none besides the file).
+#[derive(Debug, Args)]
+struct InitialArgs {
+    file: String,
+}
+
+/// Builds the task a sweep runs from its name and its command's options (`file` stands in
+/// for the command's FILE).
+///
+/// Wiring a command in is one line here: `args_task::<XArgs>("x", file, options, document)`,
+/// where `document(&XArgs, &Point) -> Result<Value>` is the function the command itself uses to
+/// build its `--json` document from a compiled network, a seed and a thread count.
+fn task(name: &str, file: &str, options: &[String]) -> Result<Box<dyn Task>> {
+    match name {
+        "check" => args_task::<super::check::CheckArgs>("check", file, options, |_, p| {
+            Ok(report::check::json(p.net))
+        }),
+        "initial" => args_task::<InitialArgs>("initial", file, options, |_, p| {
+            Ok(report::sweep::initial(p.net))
+        }),
+        "simulate" => args_task::<super::simulate::SimulateArgs>(
+            "simulate",
+            file,
+            options,
+            super::simulate::document,
+        ),
+        "steady" => {
+            args_task::<super::steady::SteadyArgs>("steady", file, options, super::steady::document)
+        }
+        "reconcile" => args_task::<super::reconcile::ReconcileArgs>(
+            "reconcile",
+            file,
+            options,
+            super::reconcile::document,
+        ),
+        "noise" => {
+            args_task::<super::noise::NoiseArgs>("noise", file, options, super::noise::document)
+        }
+        _ => Err(Error::usage(format!(
+            "--task {name}: unknown task; tasks are simulate, steady, reconcile, noise, check \
+             and initial"
+        ))),
+    }
+}
+
+/// Flags of the command itself that a sweep sets for every point, or that write files: they
+/// are the sweep's, and not part of the task's options.
+const SWEEP_OWNED: &[&str] = &["file", "seed", "threads", "json", "out", "svg", "metric"];
+
+/// A task from a command's clap options: parses `options` as that command's flags and runs
+/// `document` at each point.
+fn args_task<A>(
+    name: &'static str,
+    file: &str,
+    options: &[String],
+    document: fn(&A, &Point) -> Result<Value>,
+) -> Result<Box<dyn Task>>
+where
+    A: Args + FromArgMatches + Send + Sync + 'static,
+{
+    let cmd = A::augment_args(Command::new("copyloop-sweep-task")).no_binary_name(true);
+    let argv = std::iter::once(file.to_string()).chain(options.iter().cloned());
+    let m = match cmd.clone().try_get_matches_from(argv) {
+        Ok(m) => m,
+        Err(e) if e.kind() == clap::error::ErrorKind::DisplayHelp => e.exit(),
+        Err(e) => return Err(clap_usage(&format!("--task {name}"), e)),
+    };
+    let args = A::from_arg_matches(&m).map_err(|e| clap_usage(&format!("--task {name}"), e))?;
+    let identity = options_identity(&cmd, &m);
+    Ok(Box::new(sweep::FnTask::new(name, identity, move |p| {
+        document(&args, p)
+    })))
+}
+
+/// The task's options as parsed (defaults included), by option name, without the flags the
+/// sweep owns: what the fingerprint holds.
+fn options_identity(cmd: &Command, m: &ArgMatches) -> Value {
+    let mut ids: Vec<&str> = cmd
+        .get_arguments()
+        .map(|a| a.get_id().as_str())
+        .filter(|id| !SWEEP_OWNED.contains(id))
+        .collect();
+    ids.sort_unstable();
+    let mut out = Map::new();
+    for id in ids {
+        let values: Vec<Value> = m
+            .get_raw(id)
+            .map(|r| {
+                r.map(|v| Value::from(v.to_string_lossy().into_owned()))
+                    .collect()
+            })
+            .unwrap_or_default();
+        out.insert(id.to_string(), Value::Array(values));
+    }
+    Value::Object(out)
+}
+
+fn clap_usage(context: &str, e: clap::Error) -> Error {
+    let text = e.to_string();
+    let text = text.trim();
+    let first = text
+        .strip_prefix("error: ")
+        .unwrap_or(text)
+        .split("\n\n")
+        .next()
+        .unwrap_or("")
+        .to_string();
+    Error::usage(format!("{context}: {first}"))
+}
+
+/// The sweep's own flags among the task options move back to the sweep: returns (sweep
+/// tokens, task tokens).
+fn split_options(tokens: &[String]) -> (Vec<String>, Vec<String>) {
+    let cmd = SweepArgs::augment_args(Command::new("sweep"));
+    let mut sweep = Vec::new();
+    let mut task = Vec::new();
+    let mut it = tokens.iter();
+    while let Some(t) = it.next() {
+        let flag = t
+            .strip_prefix("--")
+            .map(|f| f.split_once('=').map_or((f, false), |(n, _)| (n, true)));
+        let owned = flag.and_then(|(name, inline)| {
+            cmd.get_arguments()
+                .find(|a| a.get_long() == Some(name))
+                .map(|a| a.get_action().takes_values() && !inline)
+        });
+        match owned {
+            Some(takes_value) => {
+                sweep.push(t.clone());
+                if takes_value {
+                    if let Some(v) = it.next() {
+                        sweep.push(v.clone());
+                    }
+                }
+            }
+            None => task.push(t.clone()),
+        }
+    }
+    (sweep, task)
+}
+
+impl SweepArgs {
+    /// Takes in the sweep flags found among the task options.
+    fn absorb(&mut self, o: SweepArgs) -> Result<()> {
+        fn one<T>(mine: &mut Option<T>, theirs: Option<T>, flag: &str) -> Result<()> {
+            if theirs.is_some() {
+                if mine.is_some() {
+                    return Err(Error::usage(format!("--{flag} is given twice")));
+                }
+                *mine = theirs;
+            }
+            Ok(())
+        }
+        self.vary.extend(o.vary);
+        one(&mut self.design, o.design, "design")?;
+        one(&mut self.points, o.points, "points")?;
+        one(&mut self.task, o.task, "task")?;
+        one(&mut self.out, o.out, "out")?;
+        one(&mut self.shard, o.shard, "shard")?;
+        one(&mut self.seed, o.seed, "seed")?;
+        one(&mut self.threads, o.threads, "threads")?;
+        one(&mut self.svg, o.svg, "svg")?;
+        one(&mut self.metric, o.metric, "metric")?;
+        self.resume |= o.resume;
+        self.json |= o.json;
+        Ok(())
+    }
+
+    /// The full sweep flags and the task's own, however they were interleaved.
+    fn settle(mut self) -> Result<(SweepArgs, Vec<String>)> {
+        let (mine, task_tokens) = split_options(&std::mem::take(&mut self.task_options));
+        if !mine.is_empty() {
+            let cmd = SweepArgs::augment_args(Command::new("copyloop sweep")).no_binary_name(true);
+            let argv = std::iter::once(self.file.clone()).chain(mine);
+            let m = cmd
+                .try_get_matches_from(argv)
+                .map_err(|e| clap_usage("sweep", e))?;
+            let more = SweepArgs::from_arg_matches(&m).map_err(|e| clap_usage("sweep", e))?;
+            self.absorb(more)?;
+        }
+        Ok((self, task_tokens))
+    }
+}
+
+pub fn run(a: SweepArgs) -> Result<()> {
+    let (a, task_tokens) = a.settle()?;
+    let task_name = a.task.as_deref().ok_or_else(|| {
+        Error::usage("sweep needs --task TASK (simulate, steady, reconcile, noise, check, initial)")
+    })?;
+    let out = a
+        .out
+        .as_deref()
+        .ok_or_else(|| Error::usage("sweep needs --out F.jsonl, the file the points go to"))?;
+    let threads = match a.threads {
+        Some(0) => return Err(Error::usage("--threads must be at least 1")),
+        Some(n) => n,
+        None => std::thread::available_parallelism().map_or(1, |n| n.get()),
+    };
+    let shard = a.shard.as_deref().map(Shard::parse).transpose()?;
+    let kind = match a.design.unwrap_or(DesignArg::Grid) {
+        DesignArg::Grid => DesignKind::Grid,
+        DesignArg::Lhs => DesignKind::Lhs,
+    };
+    let plan = Plan::load(&a.file, &a.vary, kind, a.points, a.seed.unwrap_or(0), shard)?;
+    if a.svg.is_some() {
+        sweep::response::check_drawable(plan.design.vary.len())?;
+    }
+    let task = task(task_name, &a.file, &task_tokens)?;
+    let first = plan.check()?;
+    super::print_warnings(&first);
+    let header = plan.header(task.as_ref());
+    let (store, done) = if a.resume {
+        Store::resume(out, &header)?
+    } else {
+        (Store::create(out, &header)?, Vec::new())
+    };
+    let store = Arc::new(store);
+    let done: std::collections::HashSet<u64> = done.into_iter().collect();
+    let members: Vec<u64> = plan.members().collect();
+    let todo: Vec<u64> = members
+        .iter()
+        .copied()
+        .filter(|i| !done.contains(i))
+        .collect();
+    let stop = Arc::new(AtomicBool::new(false));
+    watch_signals(&stop, &store);
+    let bar = progress_bar(todo.len() as u64, done.len() as u64);
+    let tick = |n: u64| {
+        if let Some(b) = &bar {
+            b.set_position(n);
+        }
+    };
+    let outcome = sweep::run(
+        &plan.ast,
+        &plan.design,
+        task.as_ref(),
+        &todo,
+        &store,
+        &sweep::RunOptions {
+            threads,
+            stop: &stop,
+            progress: &tick,
+        },
+    )?;
+    if let Some(b) = &bar {
+        b.finish_and_clear();
+    }
+    if let Some(svg) = &a.svg {
+        let r = sweep::response(out, a.metric.as_deref())?;
+        let text = report::sweep::svg::svg(&r);
+        std::fs::write(svg, text).map_err(|e| Error::io(svg, e))?;
+    }
+    let summary = report::sweep::SweepSummary {
+        out,
+        fingerprint: &header.fingerprint,
+        task: task.name(),
+        points_total: plan.design.total(),
+        shard: shard.map(|s| s.to_string()),
+        points_here: members.len() as u64,
+        already_done: done.len() as u64,
+        written: outcome.written,
+        failed: &outcome.failed,
+        stopped: outcome.stopped,
+        svg: a.svg.as_deref(),
+    };
+    if a.json {
+        super::print_json(&report::sweep::sweep_json(&summary))?;
+    } else {
+        super::print_stdout(&report::sweep::sweep_text(&summary))?;
+    }
+    if outcome.stopped {
+        eprintln!(
+            "sweep stopped: {} of {} points are in {out}; run the same command with --resume to \
+             finish",
+            done.len() as u64 + outcome.written,
+            members.len()
+        );
+        std::process::exit(130);
+    }
+    if let Some((p, msg, internal)) = outcome.failed.first() {
+        let text = format!(
+            "{} of {} points failed (their lines in {out} carry `error`); point {p}: {msg}",
+            outcome.failed.len(),
+            members.len()
+        );
+        let any_internal = *internal || outcome.failed.iter().any(|f| f.2);
+        return Err(if any_internal {
+            Error::Internal(text)
+        } else {
+            Error::Usage(text)
+        });
+    }
+    Ok(())
+}
+
+/// Ctrl-C (and SIGTERM, which a batch scheduler sends at a time limit): the first stops the
+/// sweep after the points in flight; a second exits at once, holding the file so no line is
+/// left half written.
+fn watch_signals(stop: &Arc<AtomicBool>, store: &Arc<Store>) {
+    let stop = Arc::clone(stop);
+    let store = Arc::clone(store);
+    let hits = AtomicUsize::new(0);
+    let installed = ctrlc::set_handler(move || {
+        if hits.fetch_add(1, Ordering::SeqCst) == 0 {
+            stop.store(true, Ordering::SeqCst);
+            eprintln!(
+                "\nstopping: the points in flight finish and are written (signal again to \
+                 abandon them)"
+            );
+        } else {
+            let _held = store.lock();
+            eprintln!(
+                "\nabandoned the points in flight; {} holds every finished point, --resume \
+                 continues it",
+                store.path()
+            );
+            std::process::exit(130);
+        }
+    });
+    if let Err(e) = installed {
+        eprintln!("warning: cannot watch for Ctrl-C ({e}); an interrupt stops the sweep at once");
+    }
+}
+
+/// A progress bar with points per hour and the time left, when stderr is a terminal.
+fn progress_bar(todo: u64, already: u64) -> Option<indicatif::ProgressBar> {
+    if !std::io::stderr().is_terminal() || todo == 0 {
+        return None;
+    }
+    let style = indicatif::ProgressStyle::with_template(
+        "{prefix}[{bar:32}] {pos}/{len} points  {per_hour}  ETA {left}",
+    )
+    .ok()?
+    .progress_chars("=> ")
+    .with_key(
+        "per_hour",
+        |s: &indicatif::ProgressState, w: &mut dyn std::fmt::Write| {
+            let secs = s.elapsed().as_secs_f64();
+            let rate = if secs > 0.0 {
+                s.pos() as f64 / secs * 3600.0
+            } else {
+                0.0
+            };
+            let _ = write!(w, "{} points/h", report::num(rate));
+        },
+    )
+    .with_key(
+        "left",
+        |s: &indicatif::ProgressState, w: &mut dyn std::fmt::Write| {
+            let secs = s.elapsed().as_secs_f64();
+            let pos = s.pos();
+            if pos == 0 {
+                let _ = write!(w, "-");
+                return;
+            }
+            let left = (s.len().unwrap_or(pos) - pos) as f64 * secs / pos as f64;
+            let _ = write!(w, "{}", clock(left));
+        },
+    );
+    let bar = indicatif::ProgressBar::new(todo).with_style(style);
+    if already > 0 {
+        bar.set_prefix(format!("({already} already done) "));
+    }
+    bar.enable_steady_tick(std::time::Duration::from_millis(500));
+    Some(bar)
+}
+
+/// Seconds as `1h02m`, `3m05s` or `12s`.
+fn clock(secs: f64) -> String {
+    let s = secs.round() as u64;
+    match s {
+        0..=59 => format!("{s}s"),
+        60..=3599 => format!("{}m{:02}s", s / 60, s % 60),
+        _ => format!("{}h{:02}m", s / 3600, s % 3600 / 60),
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn strings(s: &[&str]) -> Vec<String> {
+        s.iter().map(|x| x.to_string()).collect()
+    }
+
+    #[test]
+    fn sweep_flags_are_taken_back_from_the_task_options() {
+        let (mine, theirs) = split_options(&strings(&[
+            "--t-end",
+            "5",
+            "--out",
+            "f.jsonl",
+            "--replicates=3",
+            "--resume",
+            "--seed=4",
+            "--vary",
+            "k=list:1",
+        ]));
+        assert_eq!(
+            mine,
+            strings(&["--out", "f.jsonl", "--resume", "--seed=4", "--vary", "k=list:1"])
+        );
+        assert_eq!(theirs, strings(&["--t-end", "5", "--replicates=3"]));
+    }
+
+    #[test]
+    fn clock_reads_naturally() {
+        assert_eq!(clock(5.0), "5s");
+        assert_eq!(clock(185.0), "3m05s");
+        assert_eq!(clock(3720.0), "1h02m");
+    }
+}

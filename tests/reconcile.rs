@@ -1,0 +1,208 @@
+//! The reconciler against exact results: clamped-substrate Michaelis–Menten flux, ligand
+//! depletion (total QSSA), low copy number, non-stationary windows, sensitivities and fits.
+
+use copyloop::network::{load_source, Network, Overrides};
+use copyloop::reconcile::{self, parse_observation, Options, Verdict};
+
+fn net(src: &str) -> Network {
+    load_source("t.crn", src.as_bytes(), &Overrides::default()).unwrap_or_else(|e| panic!("{e}"))
+}
+
+fn opts(replicates: u64, t_end: f64, burn_in: f64) -> Options {
+    Options {
+        replicates,
+        t_end: Some(t_end),
+        burn_in: Some(burn_in),
+        seed: 7,
+        ..Options::default()
+    }
+}
+
+// With the substrate clamped, each enzyme is an independent two-state chain, so the mean
+// product flux is exactly k2·E_T·S/(K + S) at any copy number (Kou et al. 2005 [verified];
+// REFERENCES §6, derived [C]). Checked over S/K from 0.1 to 10 with one enzyme and with 100.
+#[test]
+fn clamped_substrate_flux_is_michaelis_menten_exactly() {
+    // k1 = 0.01 per molecule per s, k_-1 = 1, k2 = 1: K = 200 molecules.
+    for (et, s) in [
+        (1, 20),
+        (1, 200),
+        (1, 2000),
+        (100, 20),
+        (100, 200),
+        (100, 2000),
+    ] {
+        let src = format!(
+            "species E = {et}\nspecies S = {s} clamped\nspecies C = 0\nspecies P = 0\n\
+             step bind E + S <-> C @ 0.01, 1\nstep cat C -> E + P @ 1\nstep out P -> 0 @ 0.1\n"
+        );
+        let n = net(&src);
+        let r = reconcile::reconcile(&n, &opts(200, 220.0, 20.0)).unwrap();
+        let m = &r.motifs[0];
+        let exact = et as f64 * s as f64 / (200.0 + s as f64);
+        assert!((m.langmuir_per_s - exact).abs() < 1e-9 * exact);
+        let z = (m.ensemble.mean - exact) / m.ensemble.stderr;
+        assert!(
+            z.abs() < 4.0,
+            "E_T {et}, S {s}: ensemble {} vs {exact} (z = {z})",
+            m.ensemble.mean
+        );
+        assert!((m.ode_per_s - exact).abs() < 1e-6 * exact);
+    }
+}
+
+// Receptor R + L <-> RL with RL -> RL + Q: Langmuir occupancy L/(K_d + L), K_d = k_off/k_on
+// (Langmuir isotherm; common practice); with L clamped the flux k_sig·R_T·θ is exact in mean.
+#[test]
+fn receptor_signal_flux() {
+    let n = net(
+        "species L = 40 clamped\nspecies R = 50\nspecies RL = 0\nspecies Q = 0\n\
+         step bind R + L <-> RL @ 0.005, 0.2\nstep sig RL -> RL + Q @ 2\nstep deg Q -> 0 @ 1\n",
+    );
+    let r = reconcile::reconcile(&n, &opts(200, 110.0, 10.0)).unwrap();
+    let m = &r.motifs[0];
+    assert!((m.k_half - 40.0).abs() < 1e-12); // 0.2/0.005
+    let exact = 2.0 * 50.0 * 0.5;
+    let z = (m.ensemble.mean - exact) / m.ensemble.stderr;
+    assert!(z.abs() < 4.0, "{} vs {exact}", m.ensemble.mean);
+}
+
+// Enzyme comparable to substrate + K, substrate fed and cleared: the Langmuir (sQSSA) form
+// with total ligand fails, since X_T/(L_T + K) is not ≪ 1 (Segel & Slemrod 1989 [M]); the
+// total-QSSA complex (Borghans, de Boer & Segel 1996 [M]) holds. Large counts keep the
+// stochastic correction well below the standard error.
+#[test]
+fn ligand_depletion_deviates_from_langmuir_not_tqssa() {
+    let n = net("species E = 2000\nspecies S = 0\nspecies C = 0\n\
+         step feed 0 -> S @ 500\nstep wash S -> 0 @ 0.5\n\
+         step bind E + S <-> C @ 0.001, 0.5\nstep cat C -> E @ 0.5\n");
+    let r = reconcile::reconcile(&n, &opts(40, 60.0, 20.0)).unwrap();
+    let m = &r.motifs[0];
+    assert!(m.qssa_parameter > 0.5, "{}", m.qssa_parameter);
+    assert_eq!(m.verdict, Verdict::Deviates);
+    assert!(
+        m.causes.iter().any(|c| c.contains("quasi-steady-state")),
+        "{:?}",
+        m.causes
+    );
+    let t = m.tqssa_per_s.unwrap();
+    assert!(
+        (m.ensemble.mean - t).abs() < 4.0 * m.ensemble.stderr + 1e-3 * t,
+        "{} vs {t}",
+        m.ensemble.mean
+    );
+    assert!((m.ensemble.mean - m.langmuir_per_s).abs() > 20.0 * m.ensemble.stderr);
+}
+
+// One enzyme fed at k_in: flux balance gives an exact mean turnover flux k_in whatever the
+// noise (REFERENCES §8 [C]), while the tQSSA complex at the mean total substrate over-predicts
+// it; the report names low copy number.
+#[test]
+fn low_copy_number_is_flagged() {
+    let n = net("species E = 1\nspecies S = 0\nspecies C = 0\n\
+         step feed 0 -> S @ 0.5\nstep bind E + S <-> C @ 0.1, 0.1\nstep cat C -> E @ 1\n");
+    let r = reconcile::reconcile(&n, &opts(400, 1050.0, 50.0)).unwrap();
+    let m = &r.motifs[0];
+    let z = (m.ensemble.mean - 0.5) / m.ensemble.stderr;
+    assert!(z.abs() < 4.0, "flux balance: {} vs 0.5", m.ensemble.mean);
+    assert_eq!(m.tqssa_verdict, Some(Verdict::Deviates));
+    assert!(
+        m.causes.iter().any(|c| c.contains("low copy number")),
+        "{:?}",
+        m.causes
+    );
+}
+
+// A run measured while still relaxing from an empty start: its window halves disagree.
+#[test]
+fn non_stationary_window_is_flagged() {
+    let n = net("species E = 100\nspecies S = 0\nspecies C = 0\n\
+         step feed 0 -> S @ 20\nstep bind E + S <-> C @ 0.01, 1\nstep cat C -> E @ 1\n");
+    let o = Options {
+        from_initial: true,
+        ..opts(100, 20.0, 0.0)
+    };
+    let r = reconcile::reconcile(&n, &o).unwrap();
+    let m = &r.motifs[0];
+    assert_eq!(m.ode_verdict, Verdict::Deviates);
+    assert!(m.halves_z.abs() > 4.0);
+    assert!(
+        m.causes.iter().any(|c| c.contains("not stationary")),
+        "{:?}",
+        m.causes
+    );
+}
+
+// An enzyme fed by constant inflow v: S* = K·v/(V_max − v) (Briggs–Haldane rearranged,
+// REFERENCES §6). Then d ln S*/d ln v = V_max/(V_max − v) and
+// d ln S*/d ln kcat = kcat/(koff + kcat) − V_max/(V_max − v) (differentiating the formula).
+#[test]
+fn sensitivities_match_the_closed_form() {
+    let n = net("species E = 10\nspecies S = 0\nspecies C = 0\n\
+         param v = 4\nparam kon = 0.01\nparam koff = 1\nparam kcat = 1\n\
+         step feed 0 -> S @ v\nstep bind E + S <-> C @ kon, koff\nstep cat C -> E @ kcat\n");
+    let o = parse_observation("S=300+-10", &n).unwrap();
+    let r = reconcile::reconcile(
+        &n,
+        &Options {
+            observations: vec![o],
+            ..opts(20, 60.0, 10.0)
+        },
+    )
+    .unwrap();
+    let obs = &r.observations[0];
+    let (vmax, v, k) = (10.0, 4.0, 200.0);
+    assert!((obs.deterministic - k * v / (vmax - v)).abs() < 1e-6);
+    let s: std::collections::HashMap<_, _> = obs.sensitivities.iter().cloned().collect();
+    assert!((s["v"] - vmax / (vmax - v)).abs() < 1e-5, "{}", s["v"]);
+    assert!(
+        (s["kcat"] - (0.5 - vmax / (vmax - v))).abs() < 1e-5,
+        "{}",
+        s["kcat"]
+    );
+    assert!((s["kon"] + 1.0).abs() < 1e-5);
+    assert!((s["koff"] - 0.5).abs() < 1e-5);
+}
+
+// --observe and --fit on the bundled feedback loop: a synthetic observation made with ki
+// doubled is matched by fitting ki from the file's value.
+#[test]
+fn fit_recovers_the_param_behind_a_synthetic_observation() {
+    let path = concat!(env!("CARGO_MANIFEST_DIR"), "/reactions/gland_loop.crn");
+    let n = copyloop::network::load(path, &Overrides::default()).unwrap();
+    let ki = n.params.iter().find(|p| p.name == "ki").unwrap().value;
+    let changed = n
+        .with_overrides(&Overrides::default().set(
+            "ki",
+            copyloop::network::Override::Quantity(copyloop::network::Quantity::new(
+                2.0 * ki.value,
+                ki.dim,
+            )),
+        ))
+        .unwrap();
+    let st = copyloop::deterministic::solve(&changed, &Default::default()).unwrap();
+    let h = n.species_index("H").unwrap();
+    let text = format!("H={}±20", st.counts[h]);
+    let o = parse_observation(&text, &n).unwrap();
+    let r = reconcile::reconcile(
+        &n,
+        &Options {
+            observations: vec![o],
+            fit: Some("ki".into()),
+            replicates: 16,
+            ..opts(16, 600.0, 100.0)
+        },
+    )
+    .unwrap();
+    let f = r.fit.unwrap();
+    let v = f.value.expect("a value exists");
+    assert!(
+        (v - 2.0 * ki.value).abs() < 1e-6 * ki.value,
+        "{v} vs {}",
+        2.0 * ki.value
+    );
+    assert!(f.confirmation.is_some());
+    // ki lowers feedback strength: the level rises with ki.
+    let s = &r.observations[0].sensitivities;
+    assert!(s.iter().find(|(p, _)| p == "ki").unwrap().1 > 0.0);
+}

@@ -206,3 +206,122 @@ fn fit_recovers_the_param_behind_a_synthetic_observation() {
     let s = &r.observations[0].sensitivities;
     assert!(s.iter().find(|(p, _)| p == "ki").unwrap().1 > 0.0);
 }
+
+// --precision adds reproducible batches until the interval is narrow enough: the half-width of
+// a mean of R values falls as 1/√R (common practice), so a tighter target takes more batches.
+#[test]
+fn precision_adds_batches_until_the_interval_is_narrow() {
+    let n = net("species E = 5\nspecies S = 40 clamped\nspecies C = 0\n\
+         step bind E + S <-> C @ 0.01, 1\nstep cat C -> E @ 1\n");
+    let o = Options {
+        precision: Some(0.01),
+        ..opts(10, 30.0, 5.0)
+    };
+    let r = reconcile::reconcile(&n, &o).unwrap();
+    let m = &r.motifs[0];
+    assert!(r.replicates > 10 && r.replicates <= o.max_replicates);
+    assert!(m.ensemble.half_width() <= 0.01 * m.ensemble.mean);
+    assert_eq!(m.ensemble.n, r.replicates);
+    // The batches are the replicates 0..N of one ensemble: running N at once gives the same.
+    let once = reconcile::reconcile(&n, &opts(r.replicates, 30.0, 5.0)).unwrap();
+    assert!((once.motifs[0].ensemble.mean - m.ensemble.mean).abs() < 1e-9 * m.ensemble.mean);
+}
+
+// Motifs in series: a transporter feeding an enzyme feeding a receptor, reconciled end to end
+// against the deterministic steady state. With about 20 copies of each carrier the stochastic
+// mean may differ from the ODE by a correction of order 1/N (linear noise approximation; van
+// Kampen 1976 [M]), so the allowance is 4 SE plus 5 %.
+#[test]
+fn motifs_in_series_are_reconciled_end_to_end() {
+    let n = net(
+        "species Aout = 200 clamped\nspecies T = 20\nspecies TA = 0\nspecies A = 0\n\
+         species E = 20\nspecies EA = 0\nspecies P = 0\nspecies R = 20\nspecies RP = 0\nspecies Q = 0\n\
+         step tb T + Aout <-> TA @ 0.01, 1\nstep tt TA -> T + A @ 1\n\
+         step eb E + A <-> EA @ 0.01, 1\nstep ec EA -> E + P @ 2\n\
+         step rb R + P <-> RP @ 0.01, 1\nstep rs RP -> RP + Q @ 1\n\
+         step pd P -> 0 @ 0.2\nstep qd Q -> 0 @ 1\n",
+    );
+    let r = reconcile::reconcile(&n, &opts(100, 120.0, 20.0)).unwrap();
+    assert_eq!(r.motifs.len(), 3);
+    assert_eq!(r.chains.len(), 1);
+    let c = &r.chains[0];
+    assert_eq!(c.stages.len(), 3);
+    let last = &r.motifs[*c.stages.last().unwrap()];
+    assert_eq!(c.ensemble.mean, last.ensemble.mean);
+    assert!((c.ensemble.mean - c.ode_per_s).abs() < 4.0 * c.ensemble.stderr + 0.05 * c.ode_per_s);
+}
+
+#[test]
+fn cli_prints_every_contract_key_and_draws_the_svg() {
+    let path = concat!(env!("CARGO_MANIFEST_DIR"), "/reactions/gland_loop.crn");
+    let svg = std::env::temp_dir().join(format!("copyloop-rec-{}.svg", std::process::id()));
+    let out = std::process::Command::new(env!("CARGO_BIN_EXE_copyloop"))
+        .args([
+            "reconcile",
+            path,
+            "--replicates",
+            "8",
+            "--t-end",
+            "300",
+            "--burn-in",
+            "50",
+        ])
+        .args([
+            "--observe",
+            "H=1.2nM+-0.1nM",
+            "--json",
+            "--svg",
+            svg.to_str().unwrap(),
+        ])
+        .output()
+        .unwrap();
+    assert_eq!(
+        out.status.code(),
+        Some(0),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    let j: serde_json::Value = serde_json::from_slice(&out.stdout).unwrap();
+    let m = &j["motifs"][0];
+    for k in [
+        "carrier",
+        "ligand",
+        "kind",
+        "k_half",
+        "capacity_per_s",
+        "ligand_level",
+        "relative_difference",
+        "verdict",
+    ] {
+        assert!(m.get(k).is_some(), "motif lacks {k}");
+    }
+    for k in ["langmuir_per_s", "tqssa_per_s", "ode_per_s"] {
+        assert!(m["predicted"].get(k).is_some(), "predicted lacks {k}");
+    }
+    for k in ["mean_per_s", "stderr_per_s", "ci95"] {
+        assert!(m["ensemble"].get(k).is_some(), "ensemble lacks {k}");
+    }
+    let o = &j["observations"][0];
+    for k in [
+        "name",
+        "observed",
+        "sd",
+        "deterministic",
+        "ensemble_mean",
+        "ci95",
+        "z",
+        "verdict",
+    ] {
+        assert!(o.get(k).is_some(), "observation lacks {k}");
+    }
+    assert!(j["sensitivities"]["ki"].is_number());
+    let text = std::fs::read_to_string(&svg).unwrap();
+    assert!(text.starts_with("<svg") && text.contains("R·H"));
+    let _ = std::fs::remove_file(&svg);
+    // A bad observation is a usage error.
+    let out = std::process::Command::new(env!("CARGO_BIN_EXE_copyloop"))
+        .args(["reconcile", path, "--observe", "Nope=3"])
+        .output()
+        .unwrap();
+    assert_eq!(out.status.code(), Some(2));
+}

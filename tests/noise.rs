@@ -97,3 +97,50 @@ fn low_copy_mean_departs_from_the_deterministic_value_as_the_master_equation_say
         s.mean
     );
 }
+
+#[test]
+fn cli_prints_every_contract_key_and_draws_the_svg() {
+    let path = concat!(env!("CARGO_MANIFEST_DIR"), "/reactions/receptor_signal.crn");
+    let svg = std::env::temp_dir().join(format!("copyloop-noise-{}.svg", std::process::id()));
+    let out = std::process::Command::new(env!("CARGO_BIN_EXE_copyloop"))
+        .args([
+            "noise",
+            path,
+            "--replicates",
+            "20",
+            "--volumes",
+            "1fL,4fL",
+            "--json",
+        ])
+        .args(["--svg", svg.to_str().unwrap()])
+        .output()
+        .unwrap();
+    assert_eq!(
+        out.status.code(),
+        Some(0),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    let j: serde_json::Value = serde_json::from_slice(&out.stdout).unwrap();
+    let vols = j["volumes"].as_array().unwrap();
+    assert_eq!(vols.len(), 2);
+    assert!((vols[1]["volume_l"].as_f64().unwrap() - 4e-15).abs() < 1e-27);
+    for k in [
+        "mean",
+        "variance",
+        "cv",
+        "fano",
+        "lna_mean",
+        "lna_variance",
+        "lna_cv",
+    ] {
+        assert!(vols[0]["species"]["Q"][k].is_number(), "Q lacks {k}");
+    }
+    assert!(std::fs::read_to_string(&svg).unwrap().contains("1/√N"));
+    let _ = std::fs::remove_file(&svg);
+    let out = std::process::Command::new(env!("CARGO_BIN_EXE_copyloop"))
+        .args(["noise", path, "--volumes", "3nM"])
+        .output()
+        .unwrap();
+    assert_eq!(out.status.code(), Some(2));
+}

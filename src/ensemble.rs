@@ -20,6 +20,7 @@
 use crate::error::{Error, Result};
 use crate::kernel::observe::grid_times;
 use crate::kernel::rng::replicate_rng;
+use crate::kernel::tau::Tau;
 use crate::kernel::{CompiledKernel, Direct, Integrals, RecordSpec, Recorder};
 use crate::network::Network;
 use crate::stats::Welford;
@@ -30,6 +31,9 @@ pub const BLOCK: u64 = 16;
 
 /// Blocks per thread in one wave of parallel work.
 const WAVE_PER_THREAD: usize = 8;
+
+/// ε used by `auto` (the default of `--epsilon`).
+pub const AUTO_EPSILON: f64 = 0.03;
 
 /// The simulation method.
 #[derive(Clone, Copy, Debug, PartialEq)]
@@ -127,14 +131,10 @@ impl EnsembleSpec {
             return Err(Error::usage("--threads must be at least 1"));
         }
         match self.method {
-            Method::Direct => Ok(()),
             Method::Tau { epsilon } if !(epsilon > 0.0 && epsilon < 1.0) => Err(Error::usage(
                 format!("--epsilon must lie strictly between 0 and 1, got {epsilon}"),
             )),
-            m => Err(Error::usage(format!(
-                "method `{}` is not yet available; use `direct`",
-                m.name()
-            ))),
+            _ => Ok(()),
         }
     }
 }
@@ -165,6 +165,9 @@ pub struct EnsembleResult {
     pub finals: Option<Vec<Vec<i64>>>,
     /// Firings over all replicates and all of [0, t_end].
     pub events_total: u64,
+    /// Tau leaps and exact steps taken by `tau` and `auto` (0 for `direct`).
+    pub leaps: u64,
+    pub exact_steps: u64,
     /// Replicates in which nothing could fire any more before t_end.
     pub absorbed: u64,
     pub wall_seconds: f64,
@@ -193,6 +196,8 @@ impl EnsembleResult {
         }
         self.spec.replicates += other.spec.replicates;
         self.events_total += other.events_total;
+        self.leaps += other.leaps;
+        self.exact_steps += other.exact_steps;
         self.absorbed += other.absorbed;
         self.wall_seconds += other.wall_seconds;
     }
@@ -220,6 +225,8 @@ struct Partial {
     grid: Vec<Vec<Welford>>,
     finals: Vec<Vec<i64>>,
     events: u64,
+    leaps: u64,
+    exact_steps: u64,
     absorbed: u64,
 }
 
@@ -235,6 +242,8 @@ impl Partial {
             grid: vec![vec![Welford::new(); species]; points],
             finals: Vec::new(),
             events: 0,
+            leaps: 0,
+            exact_steps: 0,
             absorbed: 0,
         }
     }
@@ -284,14 +293,22 @@ impl Partial {
         }
         self.finals.extend(o.finals);
         self.events += o.events;
+        self.leaps += o.leaps;
+        self.exact_steps += o.exact_steps;
         self.absorbed += o.absorbed;
     }
 }
 
 /// Per-thread working memory, reused across blocks.
 struct Workspace<'k> {
-    direct: Direct<'k>,
+    sim: Sim<'k>,
     observers: (Recorder, Integrals),
+}
+
+/// The kernel a worker runs.
+enum Sim<'k> {
+    Direct(Direct<'k>),
+    Tau(Tau<'k>),
 }
 
 /// Runs replicates `first .. first + count` in order into one block's accumulators.
@@ -307,10 +324,22 @@ fn run_block(
     let x0 = spec.initial.as_deref().unwrap_or(&kernel.x0);
     for r in first..first + count {
         let mut rng = replicate_rng(spec.seed, spec.first_replicate + r);
-        let summary = ws.direct.run(x0, spec.t_end, &mut rng, &mut ws.observers)?;
-        part.events += summary.events;
-        part.absorbed += u64::from(summary.absorbed_at.is_some());
-        part.push(&ws.observers, ws.direct.state(), spec.keep_finals);
+        let (absorbed, state) = match &mut ws.sim {
+            Sim::Direct(d) => {
+                let summary = d.run(x0, spec.t_end, &mut rng, &mut ws.observers)?;
+                part.events += summary.events;
+                (summary.absorbed_at.is_some(), d.state())
+            }
+            Sim::Tau(tau) => {
+                let summary = tau.run(x0, spec.t_end, &mut rng, &mut ws.observers)?;
+                part.events += summary.events;
+                part.leaps += summary.leaps;
+                part.exact_steps += summary.exact_steps;
+                (summary.absorbed_at.is_some(), tau.state())
+            }
+        };
+        part.absorbed += u64::from(absorbed);
+        part.push(&ws.observers, state, spec.keep_finals);
         if let Some(b) = bar {
             b.inc(1);
         }
@@ -331,7 +360,7 @@ pub fn run(net: &Network, spec: &EnsembleSpec) -> Result<EnsembleResult> {
         .map_err(|e| Error::Internal(format!("cannot start worker threads: {e}")))?;
     let bar = spec.progress.then(|| progress_bar(spec.replicates));
     let started = Instant::now();
-    let total = pool.install(|| run_blocks(&kernel, spec, bar.as_ref()));
+    let total = pool.install(|| run_blocks(net, &kernel, spec, bar.as_ref()));
     let wall_seconds = started.elapsed().as_secs_f64();
     if let Some(b) = &bar {
         b.finish_and_clear();
@@ -350,6 +379,8 @@ pub fn run(net: &Network, spec: &EnsembleSpec) -> Result<EnsembleResult> {
         grid: total.grid,
         finals: spec.keep_finals.then_some(total.finals),
         events_total: total.events,
+        leaps: total.leaps,
+        exact_steps: total.exact_steps,
         absorbed: total.absorbed,
         wall_seconds,
     })
@@ -365,6 +396,7 @@ fn record_spec(spec: &EnsembleSpec) -> RecordSpec {
 
 /// Runs all blocks in waves inside the current rayon pool and merges them in block order.
 fn run_blocks(
+    net: &Network,
     kernel: &CompiledKernel,
     spec: &EnsembleSpec,
     bar: Option<&indicatif::ProgressBar>,
@@ -380,7 +412,11 @@ fn run_blocks(
             .into_par_iter()
             .map_init(
                 || Workspace {
-                    direct: Direct::new(kernel),
+                    sim: match spec.method {
+                        Method::Direct => Sim::Direct(Direct::new(kernel)),
+                        Method::Tau { epsilon } => Sim::Tau(Tau::new(kernel, net, epsilon, false)),
+                        Method::Auto => Sim::Tau(Tau::new(kernel, net, AUTO_EPSILON, true)),
+                    },
                     observers: (
                         Recorder::new(record_spec(spec), kernel),
                         Integrals::new(spec.t_end, spec.window, kernel),

@@ -10,11 +10,12 @@ use std::io::IsTerminal;
 /// The simulation method as typed.
 #[derive(Clone, Copy, Debug, PartialEq, Eq, ValueEnum)]
 pub enum MethodArg {
-    /// Exact Gillespie direct method
+    /// Exact Gillespie direct method; cost grows with the number of events
     Direct,
-    /// Tau-leaping (Cao-Gillespie-Petzold step selection)
+    /// Approximate tau-leaping (Cao-Gillespie-Petzold 2006 step selection, error set by
+    /// --epsilon); counts never go negative; far fewer steps than events at large copy numbers
     Tau,
-    /// Tau-leaping where it pays, exact steps elsewhere
+    /// Tau-leaping only where a leap replaces about 100 events or more, exact steps elsewhere
     Auto,
 }
 

@@ -24,3 +24,4 @@ pub mod select;
 pub use compiled::CompiledKernel;
 pub use direct::{Direct, RunSummary};
 pub use observe::{Integrals, Observer, RecordSpec, Recorder};
+pub mod tau;

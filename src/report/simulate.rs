@@ -101,6 +101,8 @@ pub fn json(net: &Network, r: &EnsembleResult) -> Value {
         "window": jnum(r.spec.window),
         "grid_points": r.spec.grid_points,
         "events_total": r.events_total,
+        "leaps": r.leaps,
+        "exact_steps": r.exact_steps,
         "wall_seconds": jnum(r.wall_seconds),
         "events_per_second": jnum(r.events_per_second()),
         "absorbed_replicates": r.absorbed,
@@ -154,6 +156,12 @@ pub fn table(net: &Network, r: &EnsembleResult) -> String {
             String::new()
         },
     );
+    if r.leaps + r.exact_steps > 0 {
+        out.insert_str(
+            out.len() - 1,
+            &format!("{} leaps and {} exact steps\n", r.leaps, r.exact_steps),
+        );
+    }
     let molar = molar_factor(net);
     let mut header = vec![
         "species",

@@ -199,7 +199,6 @@ fn bad_flags_exit_2_with_a_message() {
         (&["--t-end", "10", "--window", "10"], "--window"),
         (&["--t-end", "10", "--replicates", "0"], "--replicates"),
         (&["--t-end", "10", "--threads", "0"], "--threads"),
-        (&["--t-end", "10", "--method", "tau"], "not yet available"),
         (
             &["--t-end", "10", "--method", "tau", "--epsilon", "0"],
             "--epsilon",

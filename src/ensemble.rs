@@ -308,7 +308,8 @@ struct Workspace<'k> {
 /// The kernel a worker runs.
 enum Sim<'k> {
     Direct(Direct<'k>),
-    Tau(Tau<'k>),
+    /// Boxed: a tau workspace is several times the size of a direct one.
+    Tau(Box<Tau<'k>>),
 }
 
 /// Runs replicates `first .. first + count` in order into one block's accumulators.
@@ -414,8 +415,12 @@ fn run_blocks(
                 || Workspace {
                     sim: match spec.method {
                         Method::Direct => Sim::Direct(Direct::new(kernel)),
-                        Method::Tau { epsilon } => Sim::Tau(Tau::new(kernel, net, epsilon, false)),
-                        Method::Auto => Sim::Tau(Tau::new(kernel, net, AUTO_EPSILON, true)),
+                        Method::Tau { epsilon } => {
+                            Sim::Tau(Box::new(Tau::new(kernel, net, epsilon, false)))
+                        }
+                        Method::Auto => {
+                            Sim::Tau(Box::new(Tau::new(kernel, net, AUTO_EPSILON, true)))
+                        }
                     },
                     observers: (
                         Recorder::new(record_spec(spec), kernel),

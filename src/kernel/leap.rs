@@ -36,6 +36,9 @@ pub struct LeapPlan {
     g: Vec<GRule>,
     /// Per reaction, the species it consumes with their (negative) net change.
     consumes: Vec<Vec<(usize, i64)>>,
+    /// Per reaction, its non-clamped reactant species (the set I_rs of the leap condition,
+    /// whatever the sign of their net change: `A -> 2A` bounds A too).
+    reactants: Vec<Vec<usize>>,
     /// Per reaction, its net change on non-clamped species.
     change: Vec<Vec<(usize, i64)>>,
 }
@@ -67,9 +70,21 @@ impl LeapPlan {
             .iter()
             .map(|c| c.iter().copied().filter(|&(_, d)| d < 0).collect())
             .collect();
+        let reactants = net
+            .reactions
+            .iter()
+            .map(|r| {
+                r.reactants
+                    .iter()
+                    .map(|&(i, _)| i)
+                    .filter(|&i| !net.species[i].clamped)
+                    .collect()
+            })
+            .collect();
         LeapPlan {
             g,
             consumes,
+            reactants,
             change,
         }
     }
@@ -124,8 +139,9 @@ impl LeapPlan {
         }
     }
 
-    /// τ' of the leap condition over the non-critical reactions, using `mu` and `sigma2` as
-    /// scratch (length = species). Infinite when no non-critical reaction consumes anything.
+    /// τ' of the leap condition over the reactant species of the non-critical reactions, using
+    /// `mu` and `sigma2` as scratch (length = species). Infinite when no non-critical reaction
+    /// has a non-clamped reactant.
     pub fn tau_prime(
         &self,
         x: &[i64],
@@ -148,11 +164,11 @@ impl LeapPlan {
             }
         }
         let mut tau = f64::INFINITY;
-        for (j, cons) in self.consumes.iter().enumerate() {
+        for (j, reactants) in self.reactants.iter().enumerate() {
             if critical[j] || props[j] <= 0.0 {
                 continue;
             }
-            for &(i, _) in cons {
+            for &i in reactants {
                 let bound = (epsilon * x[i] as f64 / self.g(i, x[i])).max(1.0);
                 if mu[i] != 0.0 {
                     tau = tau.min(bound / mu[i].abs());
@@ -208,6 +224,19 @@ mod tests {
         let bound = 0.03 * 1000.0 / (2.0 + 1.0 / 999.0);
         assert!((tau - bound / 1998.0).abs() < 1e-15);
         assert!((tau - 0.007_503_8).abs() < 1e-7);
+    }
+
+    // The leap condition covers every reactant species (Cao, Gillespie & Petzold 2006 [M]),
+    // also one that a step makes more of: A -> 2A, c = 1, x = 1000: μ = +1000, σ² = 1000,
+    // τ' = min(30/1000, 900/1000) = 0.03 [C by hand].
+    #[test]
+    fn autocatalysis_is_bounded() {
+        let (n, p) = plan("species A = 1000\nstep b A -> 2 A @ 1\n");
+        let x = [1000];
+        let a = props(&n, &x);
+        let (mut mu, mut s2) = ([0.0], [0.0]);
+        let tau = p.tau_prime(&x, &a, &[false], 0.03, &mut mu, &mut s2);
+        assert!((tau - 0.03).abs() < 1e-15, "{tau}");
     }
 
     // g for order-3 reactions, from the formulas of Cao, Gillespie & Petzold 2006 [M].

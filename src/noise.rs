@@ -10,7 +10,7 @@
 //! and first-order steps, and its CV falls as 1/√N with copy number N.
 
 use crate::deterministic::{self, solve, SteadyOptions};
-use crate::ensemble::{self, EnsembleSpec};
+use crate::ensemble;
 use crate::network::{Network, Overrides};
 use crate::stationary::{self, Plan};
 use crate::Result;
@@ -102,16 +102,7 @@ fn at_volume(net: &Network, opts: &Options) -> Result<VolumeNoise> {
         opts.t_end,
         stationary::EVENT_BUDGET / opts.replicates.max(1) as f64,
     );
-    let spec = EnsembleSpec {
-        replicates: opts.replicates,
-        seed: opts.seed,
-        grid_points: 2,
-        window: plan.burn_in,
-        threads: opts.threads,
-        progress: opts.progress,
-        initial: Some(plan.start.clone()),
-        ..EnsembleSpec::new(plan.t_end)
-    };
+    let spec = plan.ensemble(opts.replicates, 0, opts.seed, opts.threads, opts.progress);
     let ens = ensemble::run(net, &spec)?;
     let r = ens.time_average.first().map_or(0, |w| w.count()) as f64;
     let species = net

@@ -9,6 +9,7 @@
 //! and a window of [`WINDOW_TAUS`]·τ holds about that many independent stretches per replicate.
 
 use crate::deterministic::Steady;
+use crate::ensemble::EnsembleSpec;
 use crate::network::Network;
 
 /// Burn-in in units of the slowest relaxation time.
@@ -29,6 +30,31 @@ pub struct Plan {
     pub t_end: f64,
     /// Whether the burn-in was chosen by copyloop rather than given.
     pub burn_in_found: bool,
+}
+
+impl Plan {
+    /// The exact ensemble that measures this plan: replicates `first ..` of `seed`, each
+    /// starting at [`Plan::start`], measured over [burn-in, t_end], with no grid beyond its ends.
+    pub fn ensemble(
+        &self,
+        replicates: u64,
+        first: u64,
+        seed: u64,
+        threads: Option<usize>,
+        progress: bool,
+    ) -> EnsembleSpec {
+        EnsembleSpec {
+            replicates,
+            first_replicate: first,
+            seed,
+            grid_points: 2,
+            window: self.burn_in,
+            threads,
+            progress,
+            initial: Some(self.start.clone()),
+            ..EnsembleSpec::new(self.t_end)
+        }
+    }
 }
 
 /// The slowest relaxation time 1/min|Re λ| of a stable steady state.

@@ -322,17 +322,7 @@ fn validate_plan(plan: &Plan) -> Result<()> {
 }
 
 fn spec(plan: &Plan, opts: &Options, replicates: u64, first: u64) -> EnsembleSpec {
-    EnsembleSpec {
-        replicates,
-        first_replicate: first,
-        seed: opts.seed,
-        grid_points: 2,
-        window: plan.burn_in,
-        threads: opts.threads,
-        progress: opts.progress,
-        initial: Some(plan.start.clone()),
-        ..EnsembleSpec::new(plan.t_end)
-    }
+    plan.ensemble(replicates, first, opts.seed, opts.threads, opts.progress)
 }
 
 /// The ensemble, grown in reproducible batches (replicates 0…N−1, then N…2N−1, …) until every

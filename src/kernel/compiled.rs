@@ -9,6 +9,9 @@
 //!   propensity is always 0, so the loops of an event have the same trip count every time and
 //!   the processor predicts them.
 //! - The state buffer holds one count per species and then a slot that always holds 1.
+//! - A small network also gets [`SmallTables`]: rows of one fixed width, found by arithmetic on
+//!   the channel index, whose propensity updates carry their [`Rate`] inline, so that an event
+//!   reads no offset array and no second table.
 
 use crate::error::{Error, Result};
 use crate::network::{Kinetics, Network, Propensity, MAX_COUNT};
@@ -116,7 +119,7 @@ pub struct CompiledKernel {
     /// Dependency graph: reactions whose propensity may change when j fires; padding is the
     /// idle channel.
     dependents: Rows<u32>,
-    small: bool,
+    small: Option<SmallTables>,
     clamped: Vec<bool>,
     /// Where messages point.
     file: String,
@@ -168,13 +171,19 @@ impl CompiledKernel {
                 "dependency graph does not match the reactions".into(),
             ));
         }
+        let change = Rows::new(&changes, small.then_some((one, 0)))?;
+        let dependents = Rows::new(&deps, small.then_some(m as u32))?;
+        let small = match small {
+            true => Some(SmallTables::new(&rates, &change, &deps, one)?),
+            false => None,
+        };
         Ok(CompiledKernel {
             species: n,
             x0: net.initial_state(),
             rates,
             laws,
-            change: Rows::new(&changes, small.then_some((one, 0)))?,
-            dependents: Rows::new(&deps, small.then_some(m as u32))?,
+            change,
+            dependents,
             small,
             clamped: net.species.iter().map(|s| s.clamped).collect(),
             file: net.file.clone(),
@@ -202,7 +211,12 @@ impl CompiledKernel {
     /// [`CompiledKernel::dependents`] may name the idle channel `reactions()`, whose propensity
     /// is always 0.
     pub fn is_small(&self) -> bool {
-        self.small
+        self.small.is_some()
+    }
+
+    /// The fixed-width tables of a small network (fewer than [`SMALL_BELOW`] reactions).
+    pub fn small(&self) -> Option<&SmallTables> {
+        self.small.as_ref()
     }
 
     /// Propensity of reaction `j` (molecules per second; `j == reactions()` is the idle channel)
@@ -339,6 +353,173 @@ impl CompiledKernel {
             time(t)
         ))
     }
+}
+
+/// One propensity update of an event, read before the event's changes are applied:
+/// a[d] = c′·Π (x[iₖ] − oₖ) over the first [`SmallTables::order`] factors, where x is the
+/// state before the event and oₖ is the factor's offset less the event's change of species iₖ,
+/// so the product is that of the state after it. Reading the state before the event keeps the
+/// update from waiting on the store of the change.
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub struct Update {
+    pub c: f64,
+    pub o: [i64; 3],
+    pub i: [u32; 3],
+    /// The channel whose propensity this is (the idle channel in padding).
+    pub d: u32,
+}
+
+/// The event tables of a small network, every row of one width w, the widest row of either
+/// table (row j is `values[j·w .. (j+1)·w]`).
+///
+/// - `change`: as [`CompiledKernel::change`], padded with (constant slot, 0);
+/// - `updates`: the mass-action dependents of j with their rates, padded with the idle
+///   channel (constant 0);
+/// - `law_dependents`: the dependents of j whose propensity is a `law` (rows of any length).
+#[derive(Clone, Debug, PartialEq)]
+pub struct SmallTables {
+    order: usize,
+    width: usize,
+    change: Vec<(u32, i64)>,
+    updates: Vec<Update>,
+    law_dependents: Rows<u32>,
+    has_laws: bool,
+}
+
+impl SmallTables {
+    /// `rates` ends with the idle channel; `change` has one row per reaction.
+    fn new(rates: &[Rate], change: &Rows<(u32, i64)>, deps: &[Vec<u32>], one: u32) -> Result<Self> {
+        let m = deps.len();
+        let is_law = |d: u32| rates[d as usize].factors == LAW;
+        let mass: Vec<Vec<Update>> = deps
+            .iter()
+            .enumerate()
+            .map(|(j, row)| {
+                let delta = |i: u32| -> i64 {
+                    change.row(j).iter().filter(|c| c.0 == i).map(|c| c.1).sum()
+                };
+                row.iter()
+                    .filter(|&&d| !is_law(d))
+                    .map(|&d| {
+                        let r = rates[d as usize];
+                        Update {
+                            c: r.c,
+                            o: [0, 1, 2].map(|f| i64::from(r.o[f]) - delta(r.i[f])),
+                            i: r.i,
+                            d,
+                        }
+                    })
+                    .collect()
+            })
+            .collect();
+        let changes: Vec<&[(u32, i64)]> = (0..m).map(|j| change.row(j)).collect();
+        let width = changes
+            .iter()
+            .map(|r| r.len())
+            .chain(mass.iter().map(Vec::len))
+            .max()
+            .unwrap_or(0)
+            .max(1);
+        let idle = Update {
+            c: 0.0,
+            o: [0; 3],
+            i: [one; 3],
+            d: m as u32,
+        };
+        let pad = |n: usize| width - n;
+        let laws: Vec<Vec<u32>> = deps
+            .iter()
+            .map(|row| row.iter().copied().filter(|&d| is_law(d)).collect())
+            .collect();
+        Ok(SmallTables {
+            order: rates
+                .iter()
+                .filter(|r| r.factors != LAW)
+                .map(|r| r.factors as usize)
+                .max()
+                .unwrap_or(0)
+                .max(1),
+            width,
+            change: changes
+                .iter()
+                .flat_map(|r| {
+                    r.iter()
+                        .copied()
+                        .chain(std::iter::repeat_n((one, 0), pad(r.len())))
+                })
+                .collect(),
+            updates: mass
+                .iter()
+                .flat_map(|r| {
+                    r.iter()
+                        .copied()
+                        .chain(std::iter::repeat_n(idle, pad(r.len())))
+                })
+                .collect(),
+            has_laws: laws.iter().any(|r| !r.is_empty()),
+            law_dependents: Rows::new(&laws, None)?,
+        })
+    }
+
+    /// Largest number of falling factors of a mass-action rate (1 ..= 3; 1 when there is
+    /// none, so that every update multiplies by at least one factor).
+    pub fn order(&self) -> usize {
+        self.order
+    }
+
+    /// The width of every row.
+    pub fn width(&self) -> usize {
+        self.width
+    }
+
+    /// Whether some propensity is a `law`.
+    pub fn has_laws(&self) -> bool {
+        self.has_laws
+    }
+
+    /// Row `j` of the state changes; `W` is the width if known when compiling, or 0.
+    ///
+    /// # Safety
+    ///
+    /// `j < reactions()`, and `W` is 0 or [`SmallTables::width`].
+    #[inline(always)]
+    pub unsafe fn change_unchecked<const W: usize>(&self, j: usize) -> &[(u32, i64)] {
+        // SAFETY: as for `row`.
+        unsafe { row::<W, _>(&self.change, self.width, j) }
+    }
+
+    /// Row `j` of the mass-action propensity updates; `W` as for
+    /// [`SmallTables::change_unchecked`].
+    ///
+    /// # Safety
+    ///
+    /// As for [`SmallTables::change_unchecked`].
+    #[inline(always)]
+    pub unsafe fn updates_unchecked<const W: usize>(&self, j: usize) -> &[Update] {
+        // SAFETY: as for `row`.
+        unsafe { row::<W, _>(&self.updates, self.width, j) }
+    }
+
+    /// The dependents of `j` whose propensity is a `law`.
+    #[inline(always)]
+    pub fn law_dependents(&self, j: usize) -> &[u32] {
+        self.law_dependents.row(j)
+    }
+}
+
+/// Row `j` of a table of rows `width` wide; `W` is that width when known at compile time
+/// (the row is then a constant-length slice the compiler unrolls), or 0.
+///
+/// # Safety
+///
+/// The table has more than `j` rows, and `W` is 0 or `width`.
+#[inline(always)]
+unsafe fn row<const W: usize, T>(table: &[T], width: usize, j: usize) -> &[T] {
+    debug_assert!(W == 0 || W == width);
+    let w = if W == 0 { width } else { W };
+    debug_assert!((j + 1) * w <= table.len());
+    // SAFETY: the caller's contract.
+    unsafe { table.get_unchecked(j * w..(j + 1) * w) }
 }
 
 /// A time for a message: four decimals, or four significant digits in scientific form.

@@ -6,14 +6,15 @@
 //! (τ, μ) is a_μ·e^(−a₀τ). After channel μ fires only the propensities in the dependency graph
 //! row of μ are recomputed (the graph comes from the compiler).
 //!
-//! Selection is a linear scan below [`SMALL_BELOW`](super::compiled::SMALL_BELOW) channels and
-//! the sum tree of [`crate::kernel::select`] from there on. The scan here has no early exit:
-//! it counts the cumulative sums at or below u·a₀, so the selected channel is data, not a
-//! branch the processor must guess (with three channels this runs about 30 % faster than an
-//! early-exit scan, whose exit branch is mispredicted on a large share of events). With the
-//! scan, a₀ is kept by adding each propensity's change and recomputed from scratch every
-//! [`REFRESH_EVERY`] events so rounding cannot drift; the sum tree recomputes every sum on a
-//! changed path from its children, so it never drifts.
+//! Below [`SMALL_BELOW`](super::compiled::SMALL_BELOW) channels the propensities sit in a
+//! flat array: a₀ is summed afresh at every event (so rounding cannot drift) and selection is
+//! a linear scan without early exit: it counts the cumulative sums at or below u·a₀, so the
+//! selected channel is data, not a branch the processor must guess (with three channels this
+//! runs about 30 % faster than an early-exit scan, whose exit branch is mispredicted on a large
+//! share of events). An event's rows there have one fixed width and carry their rates inline
+//! ([`SmallTables`](super::compiled::SmallTables)). From [`SMALL_BELOW`](super::compiled::SMALL_BELOW)
+//! channels on, selection goes through the sum tree of [`crate::kernel::select`], which
+//! recomputes every sum on a changed path from its children, so it never drifts either.
 //!
 //! Guarantees: clamped species never change (the compiler leaves them out of the state
 //! changes); a count that would pass [`MAX_COUNT`] stops the run with an error naming the
@@ -23,7 +24,7 @@
 //! the observer's [`Observer::finish`] fills what remains of the grid. Nothing is allocated in
 //! the event loop.
 
-use super::compiled::CompiledKernel;
+use super::compiled::{CompiledKernel, SmallTables};
 use super::observe::Observer;
 use super::rng::{exp1, uniform};
 use super::select::SumTree;
@@ -31,8 +32,9 @@ use crate::error::{Error, Result};
 use crate::network::MAX_COUNT;
 use rand::Rng;
 
-/// How often a₀ is recomputed from scratch with linear selection (in events).
-pub const REFRESH_EVERY: u64 = 1 << 12;
+/// The propensity array of a small network is a multiple of this long, so that a₀ and the
+/// selection run in blocks of a fixed size.
+const LANES: usize = 4;
 
 /// How one run went.
 #[derive(Clone, Copy, Debug, PartialEq)]
@@ -54,7 +56,9 @@ pub struct Direct<'k> {
 
 #[derive(Clone, Debug)]
 enum Selector {
-    Linear(Linear),
+    /// Propensities of a small network, one per channel, then at least one idle channel
+    /// (always 0) up to a multiple of [`LANES`], then one more 0 that is never summed.
+    Small(Vec<f64>),
     Tree(SumTree),
 }
 
@@ -62,10 +66,7 @@ impl<'k> Direct<'k> {
     pub fn new(kernel: &'k CompiledKernel) -> Direct<'k> {
         let m = kernel.reactions();
         let selector = if kernel.is_small() {
-            Selector::Linear(Linear {
-                a: vec![0.0; m + 1],
-                a0: 0.0,
-            })
+            Selector::Small(vec![0.0; (m + 1).next_multiple_of(LANES) + 1])
         } else {
             Selector::Tree(SumTree::new(&vec![0.0; m]))
         };
@@ -125,93 +126,215 @@ impl<'k> Direct<'k> {
             )));
         }
         self.x[..k.species].copy_from_slice(x0);
+        let x = &mut self.x[..];
         match &mut self.selector {
-            Selector::Linear(s) => run_loop(k, &mut self.x, s, t_end, rng, obs),
-            Selector::Tree(s) => run_loop(k, &mut self.x, s, t_end, rng, obs),
+            Selector::Small(a) => {
+                // Small is Some exactly when the selector is Small (Direct::new).
+                let Some(tables) = k.small() else {
+                    return Err(Error::Internal("small network without tables".into()));
+                };
+                match tables.order() {
+                    1 => run_small::<1, R, O>(k, tables, x, a, t_end, rng, obs),
+                    2 => run_small::<2, R, O>(k, tables, x, a, t_end, rng, obs),
+                    _ => run_small::<3, R, O>(k, tables, x, a, t_end, rng, obs),
+                }
+            }
+            Selector::Tree(tree) => run_loop(k, x, Tree { k, tree }, t_end, rng, obs),
         }
     }
 }
 
-/// Channel selection as the event loop needs it.
-///
-/// # Safety
-///
-/// `set` and `get` may skip bounds checks: callers pass `j` at most `reactions()` for
-/// [`Linear`] (the idle channel included) and below `reactions()` for the tree.
-trait Select {
-    unsafe fn set(&mut self, j: usize, a: f64);
-    unsafe fn get(&self, j: usize) -> f64;
+/// [`run_loop`] for a small network whose rates have `ORDER` factors, with the row width
+/// fixed at compile time where it is 4 or less.
+fn run_small<const ORDER: usize, R: Rng + Clone, O: Observer>(
+    k: &CompiledKernel,
+    tables: &SmallTables,
+    x: &mut [i64],
+    a: &mut [f64],
+    t_end: f64,
+    rng: &mut R,
+    obs: &mut O,
+) -> Result<RunSummary> {
+    match tables.width() {
+        1 => run_loop(k, x, Small::<ORDER, 1> { k, tables, a }, t_end, rng, obs),
+        2 => run_loop(k, x, Small::<ORDER, 2> { k, tables, a }, t_end, rng, obs),
+        3 => run_loop(k, x, Small::<ORDER, 3> { k, tables, a }, t_end, rng, obs),
+        4 => run_loop(k, x, Small::<ORDER, 4> { k, tables, a }, t_end, rng, obs),
+        _ => run_loop(k, x, Small::<ORDER, 0> { k, tables, a }, t_end, rng, obs),
+    }
+}
+
+/// The channels as the event loop needs them: their propensities, selection, and what a
+/// firing changes. Implemented by views that borrow the simulator's buffers for one run; the
+/// loop holds a view by value, so its pointers stay in registers.
+trait Channels {
+    /// Sets every propensity from `x`, checking each.
+    fn init(&mut self, x: &[i64]) -> Result<()>;
+    /// a₀.
     fn total(&self) -> f64;
-    /// A channel whose cumulative propensity first exceeds `target` ∈ [0, total).
+    /// The channel whose cumulative propensity first exceeds `target` ∈ [0, total). Where
+    /// rounding puts `target` at or above every sum, the answer may be a channel of
+    /// propensity 0, possibly an idle one at or above reactions().
     fn find(&self, target: f64) -> usize;
-    /// Recomputes the total from the propensities.
-    fn refresh(&mut self);
+    /// Propensity of channel `j`, as [`Channels::find`] returned it.
+    fn get(&self, j: usize) -> f64;
+    /// Fires channel `j` < reactions() at `t`: applies its change to `x` (reporting each
+    /// move to `obs`) and recomputes the propensities that depend on it. Returns true when
+    /// some count may have passed [`MAX_COUNT`] (the caller checks), false when none did.
+    fn fire<O: Observer>(&mut self, j: usize, x: &mut [i64], t: f64, obs: &mut O) -> bool;
 }
 
-/// Propensities in a flat array (the last entry is the idle channel, always 0) with an
-/// incrementally kept total.
-#[derive(Clone, Debug)]
-struct Linear {
-    a: Vec<f64>,
-    a0: f64,
+/// A small network: propensities in a flat array, the fixed-width rows of [`SmallTables`],
+/// mass-action rates with `ORDER` factors each, rows `W` wide (0: as wide as the tables say).
+///
+/// a₀ is summed afresh at every event, left to right, so no rounding drift accumulates. The
+/// selection counts the cumulative sums at or below the target instead of leaving the scan
+/// early, so the selected channel is data, not a branch the processor must guess.
+struct Small<'a, const ORDER: usize, const W: usize> {
+    k: &'a CompiledKernel,
+    tables: &'a SmallTables,
+    /// reactions() entries, then idle channels (always 0) up to a multiple of LANES, then
+    /// one more 0 (the selection's answer when rounding puts the target at a₀).
+    a: &'a mut [f64],
 }
 
-impl Select for Linear {
-    #[inline(always)]
-    unsafe fn set(&mut self, j: usize, a: f64) {
-        debug_assert!(j < self.a.len());
-        // SAFETY: j ≤ reactions() < a.len() (trait contract).
-        let old = std::mem::replace(unsafe { self.a.get_unchecked_mut(j) }, a);
-        self.a0 += a - old;
+impl<const ORDER: usize, const W: usize> Channels for Small<'_, ORDER, W> {
+    fn init(&mut self, x: &[i64]) -> Result<()> {
+        self.a.fill(0.0);
+        for j in 0..self.k.reactions() {
+            self.a[j] = checked(self.k, j, self.k.propensity(j, x), 0.0)?;
+        }
+        Ok(())
     }
-    #[inline(always)]
-    unsafe fn get(&self, j: usize) -> f64 {
-        debug_assert!(j < self.a.len());
-        // SAFETY: as for `set`.
-        unsafe { *self.a.get_unchecked(j) }
-    }
+
+    /// a₀ as the last of the cumulative sums that [`Channels::find`] compares, so that the
+    /// two agree to the bit. (A pairwise sum would be a shorter chain, but the compiler
+    /// turns it into vector loads of values just stored one by one, which the processor
+    /// cannot forward from its store buffer: slower.)
     #[inline(always)]
     fn total(&self) -> f64 {
-        self.a0
+        let blocks = self.a.len() / LANES;
+        // −0.0 + a = a exactly, so the first addition folds away (0.0 + −0.0 would not).
+        let mut sum = -0.0;
+        for b in self.a[..blocks * LANES].chunks_exact(LANES) {
+            for &a in b {
+                sum += a;
+            }
+        }
+        sum
     }
-    /// Smallest j with a₀ + … + a_j > target, counted without branches: j = #{k < M−1 :
-    /// a₀ + … + a_k ≤ target}. The sums are non-decreasing, so the count is that index; if
-    /// rounding puts the target at or above every sum, M−1 comes back (the caller checks that
-    /// its propensity is positive).
+
+    /// Smallest j with a₀ + … + a_j > target, as j = #{k : a₀ + … + a_k ≤ target}: the sums
+    /// are non-decreasing, so the count is that index. If rounding puts the target at or above
+    /// every sum, an idle channel or the extra 0 comes back (the loop checks that the
+    /// propensity is positive).
     #[inline(always)]
     fn find(&self, target: f64) -> usize {
-        let m = self.a.len().saturating_sub(2);
-        let mut sum = 0.0;
+        let blocks = self.a.len() / LANES;
+        let mut sum = -0.0;
         let mut j = 0;
-        for &a in &self.a[..m] {
-            sum += a;
-            j += (sum <= target) as usize;
+        for block in self.a[..blocks * LANES].chunks_exact(LANES) {
+            for &a in block {
+                sum += a;
+                j += (sum <= target) as usize;
+            }
         }
         j
     }
-    fn refresh(&mut self) {
-        self.a0 = self.a.iter().sum();
+
+    #[inline(always)]
+    fn get(&self, j: usize) -> f64 {
+        debug_assert!(j < self.a.len());
+        // SAFETY: j comes from `find`, which returns at most a.len() − 1.
+        unsafe { *self.a.get_unchecked(j) }
+    }
+
+    #[inline(always)]
+    fn fire<O: Observer>(&mut self, j: usize, x: &mut [i64], t: f64, obs: &mut O) -> bool {
+        debug_assert!(j < self.k.reactions() && x.len() == self.k.species + 1);
+        // The updates read the state before the change (their offsets include it), so they
+        // come first.
+        // SAFETY: j < reactions(); updates name channels ≤ reactions() < a.len() and species
+        // ≤ species < x.len() (construction).
+        for u in unsafe { self.tables.updates_unchecked::<W>(j) } {
+            let mut a = u.c;
+            for f in 0..ORDER {
+                a *= unsafe { (*x.get_unchecked(u.i[f] as usize) - u.o[f]) as f64 };
+            }
+            unsafe { *self.a.get_unchecked_mut(u.d as usize) = a };
+        }
+        let mut over = false;
+        // SAFETY: j < reactions(); change rows name species or the constant slot, all below
+        // x.len() = species + 1 (construction; checked by the caller).
+        for &(i, d) in unsafe { self.tables.change_unchecked::<W>(j) } {
+            let v = unsafe { x.get_unchecked_mut(i as usize) };
+            obs.moved(t, i as usize, *v, d);
+            *v += d;
+            over |= *v > MAX_COUNT;
+        }
+        if self.tables.has_laws() {
+            for &d in self.tables.law_dependents(j) {
+                // SAFETY: d < reactions() and x.len() == species + 1.
+                self.a[d as usize] = unsafe { self.k.propensity_unchecked(d as usize, x) };
+            }
+        }
+        over
     }
 }
 
-impl Select for SumTree {
-    #[inline(always)]
-    unsafe fn set(&mut self, j: usize, a: f64) {
-        SumTree::set(self, j, a)
+/// A large network: the rows of [`CompiledKernel`] and the sum tree of
+/// [`crate::kernel::select`], which recomputes every sum on a changed path from its children,
+/// so it never drifts.
+struct Tree<'a> {
+    k: &'a CompiledKernel,
+    tree: &'a mut SumTree,
+}
+
+impl Channels for Tree<'_> {
+    fn init(&mut self, x: &[i64]) -> Result<()> {
+        for j in 0..self.k.reactions() {
+            let a = checked(self.k, j, self.k.propensity(j, x), 0.0)?;
+            self.tree.set_leaf(j, a);
+        }
+        self.tree.rebuild();
+        Ok(())
     }
-    #[inline(always)]
-    unsafe fn get(&self, j: usize) -> f64 {
-        SumTree::get(self, j)
-    }
+
     #[inline(always)]
     fn total(&self) -> f64 {
-        SumTree::total(self)
+        self.tree.total()
     }
+
     #[inline(always)]
     fn find(&self, target: f64) -> usize {
-        SumTree::find(self, target)
+        self.tree.find(target)
     }
-    fn refresh(&mut self) {}
+
+    #[inline(always)]
+    fn get(&self, j: usize) -> f64 {
+        self.tree.get(j)
+    }
+
+    #[inline(always)]
+    fn fire<O: Observer>(&mut self, j: usize, x: &mut [i64], t: f64, obs: &mut O) -> bool {
+        debug_assert!(j < self.k.reactions() && x.len() == self.k.species + 1);
+        let mut over = false;
+        // SAFETY: j < reactions(); change rows name species < x.len() (construction).
+        for &(i, d) in unsafe { self.k.change_unchecked(j) } {
+            let v = unsafe { x.get_unchecked_mut(i as usize) };
+            obs.moved(t, i as usize, *v, d);
+            *v += d;
+            over |= *v > MAX_COUNT;
+        }
+        // SAFETY: j < reactions(); a large network's dependents are reactions (no idle
+        // channel), and x.len() == species + 1.
+        for &d in unsafe { self.k.dependents_unchecked(j) } {
+            let d = d as usize;
+            self.tree
+                .set(d, unsafe { self.k.propensity_unchecked(d, x) });
+        }
+        over
+    }
 }
 
 /// Checks a freshly computed propensity: finite and not negative.
@@ -253,23 +376,38 @@ struct Clock {
 
 /// Sets up the propensities, runs the event loop and turns its stop into a result. `x` holds
 /// one count per species and then the constant slot 1.
-fn run_loop<S: Select, R: Rng + Clone, O: Observer>(
+fn run_loop<C: Channels, R: Rng + Clone, O: Observer>(
     k: &CompiledKernel,
     x: &mut [i64],
-    sel: &mut S,
+    mut ch: C,
     t_end: f64,
     rng: &mut R,
     obs: &mut O,
 ) -> Result<RunSummary> {
-    for j in 0..k.reactions() {
-        let a = checked(k, j, k.propensity(j, x), 0.0)?;
-        // SAFETY: j < reactions().
-        unsafe { sel.set(j, a) };
+    if x.len() != k.species + 1 {
+        return Err(Error::Internal(
+            "state buffer without the constant slot".into(),
+        ));
     }
-    sel.refresh();
+    ch.init(x)?;
     let n = k.species;
     obs.start(&x[..n]);
-    let (stop, events) = event_loop(k, x, sel, t_end, rng, obs);
+    let mut clock = Clock { t: 0.0, events: 0 };
+    let mut pending = None;
+    // Events run in legs between the observer's due times: a leg ends when the next event is
+    // at or after Observer::due, and `reach` is called here, outside the leg, so the leg's
+    // loop contains no call and keeps its values in registers.
+    let stop = loop {
+        let (l, c) = leg(k, x, ch, t_end, rng, obs, &mut clock, pending);
+        ch = c;
+        match l {
+            Leg::Stop(s) => break s,
+            Leg::Due(t_new) => {
+                obs.reach(t_new, &x[..n]);
+                pending = Some(t_new);
+            }
+        }
+    };
     let absorbed_at = match stop {
         Stop::End => None,
         Stop::Absorbed(t) => Some(t),
@@ -280,66 +418,32 @@ fn run_loop<S: Select, R: Rng + Clone, O: Observer>(
             }
             return Err(Error::Internal(format!(
                 "the total propensity became {} at t = {t} s",
-                sel.total()
+                ch.total()
             )));
         }
     };
     obs.finish(t_end, &x[..n]);
     Ok(RunSummary {
-        events,
+        events: clock.events,
         absorbed_at,
     })
 }
 
-/// The direct method's event loop (see the module docs); returns why it stopped and the
-/// number of events.
-///
-/// Events run in legs between the observer's due times: a leg ends when the next event is at
-/// or after [`Observer::due`], and `reach` is called here, outside the leg, so the leg's loop
-/// contains no call and keeps its values in registers.
-fn event_loop<S: Select, R: Rng + Clone, O: Observer>(
-    k: &CompiledKernel,
-    x: &mut [i64],
-    sel: &mut S,
-    t_end: f64,
-    rng: &mut R,
-    obs: &mut O,
-) -> (Stop, u64) {
-    assert_eq!(
-        x.len(),
-        k.species + 1,
-        "state buffer without the constant slot"
-    );
-    let mut clock = Clock { t: 0.0, events: 0 };
-    let mut pending = None;
-    let stop = loop {
-        match leg(k, x, sel, t_end, rng, obs, &mut clock, pending) {
-            Leg::Stop(s) => break s,
-            Leg::Due(t_new) => {
-                obs.reach(t_new, &x[..k.species]);
-                pending = Some(t_new);
-            }
-        }
-    };
-    (stop, clock.events)
-}
-
-/// Runs events until the run stops or the next event is due for the observer. `pending` is an
-/// event time already drawn (by the previous leg) whose channel is still to be selected.
+/// Runs events until the run stops or the next event is due for the observer (see the module
+/// docs for one step). `pending` is an event time already drawn (by the previous leg) whose
+/// channel is still to be selected. The channels come in and go out by value.
 #[allow(clippy::too_many_arguments)]
 #[inline(never)]
-fn leg<S: Select, R: Rng + Clone, O: Observer>(
+fn leg<C: Channels, R: Rng + Clone, O: Observer>(
     k: &CompiledKernel,
     x: &mut [i64],
-    sel: &mut S,
+    mut ch: C,
     t_end: f64,
     rng_out: &mut R,
     obs: &mut O,
     clock: &mut Clock,
     mut pending: Option<f64>,
-) -> Leg {
-    let n = k.species;
-    debug_assert_eq!(x.len(), n + 1);
+) -> (Leg, C) {
     let due = obs.due();
     // A local copy of the generator stays in registers; it is written back at the end.
     let mut local = rng_out.clone();
@@ -347,20 +451,18 @@ fn leg<S: Select, R: Rng + Clone, O: Observer>(
     let mut t = clock.t;
     let mut events = clock.events;
     let leg = loop {
-        let a0 = sel.total();
+        let a0 = ch.total();
         let t_new = match pending.take() {
             Some(t_new) => t_new,
             None => {
+                // a₀ cannot be +∞: mass-action constants are bounded when the kernel is
+                // built and a law value that is not finite counts as NaN.
                 if a0.is_nan() || a0 <= 0.0 {
-                    sel.refresh();
-                    let a0 = sel.total();
-                    if a0 == 0.0 {
-                        break Leg::Stop(Stop::Absorbed(t));
-                    }
-                    if !(a0 > 0.0 && a0 < f64::INFINITY) {
-                        break Leg::Stop(Stop::BadRate(t));
-                    }
-                    continue;
+                    break Leg::Stop(if a0 == 0.0 {
+                        Stop::Absorbed(t)
+                    } else {
+                        Stop::BadRate(t)
+                    });
                 }
                 let t_new = t + exp1(rng) / a0;
                 if t_new > t_end {
@@ -372,46 +474,103 @@ fn leg<S: Select, R: Rng + Clone, O: Observer>(
                 t_new
             }
         };
-        let j = sel.find(uniform(rng) * a0);
-        debug_assert!(j < k.reactions());
-        // SAFETY: `find` returns a channel below reactions().
-        let a_j = unsafe { sel.get(j) };
-        if a_j.is_nan() || a_j <= 0.0 {
-            // Only reachable when rounding left a₀ above the sum of the propensities.
-            sel.refresh();
+        let j = ch.find(uniform(rng) * a0);
+        if ch.get(j) <= 0.0 {
+            // Only reachable when rounding put u·a₀ at or above the summed propensities: a
+            // draw of probability about 2⁻⁵³, taken again.
             continue;
         }
+        debug_assert!(j < k.reactions());
         obs.fire(t_new, j, 1);
-        let mut over = false;
-        // SAFETY: j < reactions(); change rows name species ≤ n < x.len() (construction).
-        for &(i, d) in unsafe { k.change_unchecked(j) } {
-            let v = unsafe { x.get_unchecked_mut(i as usize) };
-            obs.moved(t_new, i as usize, *v, d);
-            *v += d;
-            over |= *v > MAX_COUNT;
-        }
-        if over {
-            let i = k.change(j).iter().find(|c| x[c.0 as usize] > MAX_COUNT);
-            break Leg::Stop(Stop::Overflow {
-                i: i.map_or(0, |c| c.0 as usize),
-                j,
-                t: t_new,
-            });
-        }
-        // SAFETY: j < reactions(); dependents are reactions or the idle channel (small networks,
-        // linear selection only), x.len() == n + 1 (asserted above).
-        for &d in unsafe { k.dependents_unchecked(j) } {
-            let d = d as usize;
-            unsafe { sel.set(d, k.propensity_unchecked(d, x)) };
+        if ch.fire(j, x, t_new, obs) {
+            if let Some(&(i, _)) = k.change(j).iter().find(|c| x[c.0 as usize] > MAX_COUNT) {
+                break Leg::Stop(Stop::Overflow {
+                    i: i as usize,
+                    j,
+                    t: t_new,
+                });
+            }
         }
         t = t_new;
         events += 1;
-        if events % REFRESH_EVERY == 0 {
-            sel.refresh();
-        }
     };
     clock.t = t;
     clock.events = events;
     *rng_out = local;
-    leg
+    (leg, ch)
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::kernel::rng::replicate_rng;
+    use crate::network::{load_source, Overrides};
+    use rand::RngExt;
+
+    /// Fires random channels of positive propensity through the small-network view and, after
+    /// each, compares every kept propensity with a fresh evaluation of its rate law
+    /// (REFERENCES.md §1, the combinatorial forms [M]); the kept values come from offsets
+    /// shifted by the event's change, so they must agree exactly.
+    fn kept_equal_fresh<const ORDER: usize, const W: usize>(src: &str) {
+        let net = load_source("t.crn", src.as_bytes(), &Overrides::default()).unwrap();
+        let k = CompiledKernel::new(&net).unwrap();
+        let tables = k.small().expect("a small network");
+        assert_eq!(tables.order(), ORDER);
+        assert!(tables.width() == W || (W == 0 && tables.width() > 4));
+        let mut a = vec![0.0; (k.reactions() + 1).next_multiple_of(LANES) + 1];
+        let mut x = k.state_buffer(&k.x0);
+        let mut ch = Small::<ORDER, W> {
+            k: &k,
+            tables,
+            a: &mut a,
+        };
+        ch.init(&x).unwrap();
+        let mut rng = replicate_rng(3, 0);
+        for _ in 0..2000 {
+            let a0 = ch.total();
+            assert!(a0 > 0.0, "the test network must not absorb");
+            let j = ch.find(rng.random::<f64>() * a0);
+            assert!(ch.get(j) > 0.0);
+            assert!(!ch.fire(j, &mut x, 0.0, &mut ()));
+            for d in 0..k.reactions() {
+                assert_eq!(ch.get(d), k.propensity(d, &x), "channel {d} after {j}");
+            }
+        }
+    }
+
+    #[test]
+    fn order_one_width_three() {
+        kept_equal_fresh::<1, 3>(
+            "species E = 10\nspecies S = 50 clamped\nspecies C = 0\nspecies P = 0\n\
+             step bind E + S -> C @ 0.01\nstep unbind C -> E + S @ 1\nstep cat C -> E + P @ 2\n",
+        );
+    }
+
+    #[test]
+    fn order_two_width_two() {
+        kept_equal_fresh::<2, 2>(
+            "species A = 30\nspecies B = 0\nstep dim 2A -> B @ 0.01\nstep split B -> 2A @ 0.5\n",
+        );
+    }
+
+    #[test]
+    fn order_three_with_a_law_width_four() {
+        kept_equal_fresh::<3, 4>(
+            "species A = 20\nspecies B = 5\nspecies C = 3\nparam k = 2\n\
+             step tri 3A -> B @ 0.001\nstep back B -> 3A @ 0.3\n\
+             step mix A + B + C -> 2C @ 0.002\nstep out C -> 0 @ 0.1\n\
+             step make 0 -> C @ law k * B / (1 + B)\n",
+        );
+    }
+
+    #[test]
+    fn wide_rows_use_the_run_time_width() {
+        // One step changes six species: rows wider than 4 take the run-time width (W = 0).
+        kept_equal_fresh::<2, 0>(
+            "species A = 40\nspecies B = 40\nspecies C = 5\nspecies D = 5\nspecies E = 5\n\
+             species F = 5\nstep all A + B -> C + D + E + F @ 0.001\n\
+             step c C -> A @ 0.2\nstep d D -> B @ 0.2\nstep e E -> 0 @ 0.1\n\
+             step f F -> 0 @ 0.1\nstep in 0 -> A + B @ 1\n",
+        );
+    }
 }

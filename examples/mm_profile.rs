@@ -54,8 +54,7 @@ fn main() {
     let net = load_source("mm.crn", MM.as_bytes(), &Overrides::default()).expect("network");
     let k = CompiledKernel::new(&net).expect("kernel");
     let mut d = Direct::new(&k);
-    let mut other = Direct::new(&k);
-    let (mut generic, mut hand, mut paired) = (Vec::new(), Vec::new(), Vec::new());
+    let (mut generic, mut hand) = (Vec::new(), Vec::new());
     for _ in 0..15 {
         let start = Instant::now();
         let events = d
@@ -64,24 +63,12 @@ fn main() {
             .events;
         generic.push(events as f64 / start.elapsed().as_secs_f64() / 1e6);
         let start = Instant::now();
-        let (mut r1, mut r2) = (replicate_rng(1, 0), replicate_rng(1, 1));
-        let [s1, s2] = d.run_pair(
-            &mut other,
-            [&k.x0, &k.x0],
-            t_end,
-            [&mut r1, &mut r2],
-            [&mut (), &mut ()],
-        );
-        let events = s1.expect("run").events + s2.expect("run").events;
-        paired.push(events as f64 / start.elapsed().as_secs_f64() / 1e6);
-        let start = Instant::now();
         let events = by_hand(&mut replicate_rng(1, 0), t_end);
         hand.push(events as f64 / start.elapsed().as_secs_f64() / 1e6);
     }
-    let (g, h, p) = (best(&mut generic), best(&mut hand), best(&mut paired));
+    let (g, h) = (best(&mut generic), best(&mut hand));
     println!(
-        "M events/s, best of 15: generic {g:.1}, two at once {p:.1}, by hand {h:.1}; \
-         generic / by hand {:.2}",
+        "M events/s, best of 15: generic {g:.1}, by hand {h:.1}, ratio {:.2}",
         g / h
     );
 }

@@ -303,9 +303,6 @@ impl Partial {
 struct Workspace<'k> {
     sim: Sim<'k>,
     observers: (Recorder, Integrals),
-    /// The direct method runs replicates two at a time ([`Direct::run_pair`]); this is the
-    /// second one's simulator and observers.
-    twin: Option<(Direct<'k>, (Recorder, Integrals))>,
 }
 
 /// The kernel a worker runs.
@@ -326,34 +323,7 @@ fn run_block(
 ) -> Result<Partial> {
     let mut part = Partial::new(kernel.species, kernel.reactions(), spec.grid_points);
     let x0 = spec.initial.as_deref().unwrap_or(&kernel.x0);
-    let mut r = first;
-    while r < first + count {
-        if let (Sim::Direct(d), Some((d2, obs2))) = (&mut ws.sim, &mut ws.twin) {
-            if r + 1 < first + count {
-                let mut rng = replicate_rng(spec.seed, spec.first_replicate + r);
-                let mut rng2 = replicate_rng(spec.seed, spec.first_replicate + r + 1);
-                let [s1, s2] = d.run_pair(
-                    d2,
-                    [x0, x0],
-                    spec.t_end,
-                    [&mut rng, &mut rng2],
-                    [&mut ws.observers, obs2],
-                );
-                // In replicate order, as one at a time would give them.
-                for (summary, obs, state) in
-                    [(s1?, &ws.observers, d.state()), (s2?, &*obs2, d2.state())]
-                {
-                    part.events += summary.events;
-                    part.absorbed += u64::from(summary.absorbed_at.is_some());
-                    part.push(obs, state, spec.keep_finals);
-                }
-                if let Some(b) = bar {
-                    b.inc(2);
-                }
-                r += 2;
-                continue;
-            }
-        }
+    for r in first..first + count {
         let mut rng = replicate_rng(spec.seed, spec.first_replicate + r);
         let (absorbed, state) = match &mut ws.sim {
             Sim::Direct(d) => {
@@ -374,7 +344,6 @@ fn run_block(
         if let Some(b) = bar {
             b.inc(1);
         }
-        r += 1;
     }
     Ok(part)
 }
@@ -418,14 +387,6 @@ pub fn run(net: &Network, spec: &EnsembleSpec) -> Result<EnsembleResult> {
     })
 }
 
-/// What every replicate reports.
-fn observers(spec: &EnsembleSpec, kernel: &CompiledKernel) -> (Recorder, Integrals) {
-    (
-        Recorder::new(record_spec(spec), kernel),
-        Integrals::new(spec.t_end, spec.window, kernel),
-    )
-}
-
 fn record_spec(spec: &EnsembleSpec) -> RecordSpec {
     RecordSpec {
         t_end: spec.t_end,
@@ -461,9 +422,10 @@ fn run_blocks(
                             Sim::Tau(Box::new(Tau::new(kernel, net, AUTO_EPSILON, true)))
                         }
                     },
-                    observers: observers(spec, kernel),
-                    twin: matches!(spec.method, Method::Direct)
-                        .then(|| (Direct::new(kernel), observers(spec, kernel))),
+                    observers: (
+                        Recorder::new(record_spec(spec), kernel),
+                        Integrals::new(spec.t_end, spec.window, kernel),
+                    ),
                 },
                 |ws, b| {
                     let first = b * BLOCK;

@@ -99,75 +99,6 @@ impl<'k> Direct<'k> {
         obs: &mut O,
     ) -> Result<RunSummary> {
         let k = self.kernel;
-        self.load(x0, t_end)?;
-        let x = &mut self.x[..];
-        match &mut self.selector {
-            Selector::Small(a) => {
-                let tables = small_tables(k)?;
-                match tables.order() {
-                    1 => run_small::<1, R, O>(k, tables, x, a, t_end, rng, obs),
-                    2 => run_small::<2, R, O>(k, tables, x, a, t_end, rng, obs),
-                    _ => run_small::<3, R, O>(k, tables, x, a, t_end, rng, obs),
-                }
-            }
-            Selector::Tree(tree) => run_loop(k, x, Tree { k, tree }, t_end, rng, obs),
-        }
-    }
-
-    /// Runs two trajectories at once, this simulator's and `other`'s (which must be built on
-    /// the same kernel): each gets exactly what [`Direct::run`] gives it with the same
-    /// arguments. In a small network their events alternate in one loop, which lets the
-    /// processor overlap the two chains of dependent operations; otherwise they run one after
-    /// the other.
-    #[allow(clippy::too_many_arguments)]
-    pub fn run_pair<R: Rng + Clone, O: Observer>(
-        &mut self,
-        other: &mut Direct<'k>,
-        x0: [&[i64]; 2],
-        t_end: f64,
-        rng: [&mut R; 2],
-        obs: [&mut O; 2],
-    ) -> [Result<RunSummary>; 2] {
-        let k = self.kernel;
-        let [r1, r2] = rng;
-        let [o1, o2] = obs;
-        let small = std::ptr::eq(k, other.kernel)
-            && matches!(
-                (&self.selector, &other.selector),
-                (Selector::Small(_), Selector::Small(_))
-            );
-        if !small {
-            return [
-                self.run(x0[0], t_end, r1, o1),
-                other.run(x0[1], t_end, r2, o2),
-            ];
-        }
-        if let Err(e) = self.load(x0[0], t_end) {
-            return [Err(e), other.run(x0[1], t_end, r2, o2)];
-        }
-        if let Err(e) = other.load(x0[1], t_end) {
-            return [self.run(x0[0], t_end, r1, o1), Err(e)];
-        }
-        let (Selector::Small(a1), Selector::Small(a2)) = (&mut self.selector, &mut other.selector)
-        else {
-            unreachable!("both selectors were just matched as Small")
-        };
-        let tables = match small_tables(k) {
-            Ok(t) => t,
-            Err(e) => return [Err(e), small_tables(k).map(|_| unreachable!())],
-        };
-        let x = [&mut self.x[..], &mut other.x[..]];
-        let a = [&mut a1[..], &mut a2[..]];
-        match tables.order() {
-            1 => pair_small::<1, R, O>(k, tables, x, a, t_end, [r1, r2], [o1, o2]),
-            2 => pair_small::<2, R, O>(k, tables, x, a, t_end, [r1, r2], [o1, o2]),
-            _ => pair_small::<3, R, O>(k, tables, x, a, t_end, [r1, r2], [o1, o2]),
-        }
-    }
-
-    /// Checks a run's start and end and loads `x0` into the state buffer.
-    fn load(&mut self, x0: &[i64], t_end: f64) -> Result<()> {
-        let k = self.kernel;
         if x0.len() != k.species {
             return Err(Error::Internal(format!(
                 "initial state has {} counts for {} species",
@@ -195,49 +126,21 @@ impl<'k> Direct<'k> {
             )));
         }
         self.x[..k.species].copy_from_slice(x0);
-        Ok(())
-    }
-}
-
-/// The small-network tables, which exist exactly when the selector is Small ([`Direct::new`]).
-fn small_tables(k: &CompiledKernel) -> Result<&SmallTables> {
-    k.small()
-        .ok_or_else(|| Error::Internal("small network without tables".into()))
-}
-
-/// [`run_pair_loop`] for a small network, dispatched as [`run_small`].
-#[allow(clippy::too_many_arguments)]
-fn pair_small<const ORDER: usize, R: Rng + Clone, O: Observer>(
-    k: &CompiledKernel,
-    tables: &SmallTables,
-    x: [&mut [i64]; 2],
-    a: [&mut [f64]; 2],
-    t_end: f64,
-    rng: [&mut R; 2],
-    obs: [&mut O; 2],
-) -> [Result<RunSummary>; 2] {
-    let [a1, a2] = a;
-    macro_rules! pair {
-        ($w:literal) => {
-            run_pair_loop(
-                k,
-                x,
-                [
-                    Small::<ORDER, $w> { k, tables, a: a1 },
-                    Small::<ORDER, $w> { k, tables, a: a2 },
-                ],
-                t_end,
-                rng,
-                obs,
-            )
-        };
-    }
-    match tables.width() {
-        1 => pair!(1),
-        2 => pair!(2),
-        3 => pair!(3),
-        4 => pair!(4),
-        _ => pair!(0),
+        let x = &mut self.x[..];
+        match &mut self.selector {
+            Selector::Small(a) => {
+                // Small is Some exactly when the selector is Small (Direct::new).
+                let Some(tables) = k.small() else {
+                    return Err(Error::Internal("small network without tables".into()));
+                };
+                match tables.order() {
+                    1 => run_small::<1, R, O>(k, tables, x, a, t_end, rng, obs),
+                    2 => run_small::<2, R, O>(k, tables, x, a, t_end, rng, obs),
+                    _ => run_small::<3, R, O>(k, tables, x, a, t_end, rng, obs),
+                }
+            }
+            Selector::Tree(tree) => run_loop(k, x, Tree { k, tree }, t_end, rng, obs),
+        }
     }
 }
 
@@ -465,290 +368,142 @@ enum Leg {
     Due(f64),
 }
 
-/// One trajectory in progress: its channels, generator (a local copy, written back at the
-/// end), observer and clock. The loops hold lanes by value, so that their fields stay in
-/// registers; the state buffer travels beside the lane as an argument of its own, so that
-/// the compiler knows it does not overlap the propensities.
-struct Lane<'o, C, R, O> {
-    ch: C,
-    rng: R,
-    obs: &'o mut O,
+/// The running state of the event loop.
+struct Clock {
     t: f64,
     events: u64,
-    /// An event time already drawn whose channel is still to be selected.
-    pending: Option<f64>,
-    /// The observer's [`Observer::due`].
-    due: f64,
 }
 
-impl<'o, C: Channels, R: Rng + Clone, O: Observer> Lane<'o, C, R, O> {
-    /// Sets up the propensities and starts the observer. `x` holds one count per species and
-    /// then the constant slot 1.
-    fn start(k: &CompiledKernel, x: &[i64], mut ch: C, rng: &R, obs: &'o mut O) -> Result<Self> {
-        if x.len() != k.species + 1 {
-            return Err(Error::Internal(
-                "state buffer without the constant slot".into(),
-            ));
-        }
-        ch.init(x)?;
-        obs.start(&x[..k.species]);
-        let due = obs.due();
-        Ok(Lane {
-            ch,
-            rng: rng.clone(),
-            obs,
-            t: 0.0,
-            events: 0,
-            pending: None,
-            due,
-        })
-    }
-
-    /// The same lane rebuilt field by field: a new local value, which the compiler keeps in
-    /// registers, where a lane passed by value stays in the caller's memory.
-    #[inline(always)]
-    fn local(self) -> Self {
-        let Lane {
-            ch,
-            rng,
-            obs,
-            t,
-            events,
-            pending,
-            due,
-        } = self;
-        Lane {
-            ch,
-            rng,
-            obs,
-            t,
-            events,
-            pending,
-            due,
-        }
-    }
-
-    /// Handles the end of a leg: a due event goes to [`Observer::reach`] and stays pending
-    /// (None comes back), a stop comes back.
-    fn after(&mut self, k: &CompiledKernel, leg: Leg, x: &[i64]) -> Option<Stop> {
-        match leg {
-            Leg::Stop(s) => Some(s),
-            Leg::Due(t_new) => {
-                self.obs.reach(t_new, &x[..k.species]);
-                self.pending = Some(t_new);
-                self.due = self.obs.due();
-                None
-            }
-        }
-    }
-
-    /// Runs the lane alone to its stop.
-    fn run(mut self, k: &CompiledKernel, t_end: f64, x: &mut [i64]) -> (Self, Stop) {
-        loop {
-            let (leg, lane) = leg(k, t_end, self, x);
-            self = lane;
-            if let Some(stop) = self.after(k, leg, x) {
-                return (self, stop);
-            }
-        }
-    }
-
-    /// Turns the lane's stop into the run's result, finishes the observer and writes the
-    /// generator back.
-    fn conclude(
-        self,
-        k: &CompiledKernel,
-        t_end: f64,
-        stop: Stop,
-        x: &[i64],
-        rng: &mut R,
-    ) -> Result<RunSummary> {
-        *rng = self.rng;
-        let absorbed_at = match stop {
-            Stop::End => None,
-            Stop::Absorbed(t) => Some(t),
-            Stop::Overflow { i, j, t } => return Err(k.overflow(i, j, t)),
-            Stop::BadRate(t) => {
-                for j in 0..k.reactions() {
-                    checked(k, j, k.propensity(j, x), t)?;
-                }
-                return Err(Error::Internal(format!(
-                    "the total propensity became {} at t = {t} s",
-                    self.ch.total()
-                )));
-            }
-        };
-        self.obs.finish(t_end, &x[..k.species]);
-        Ok(RunSummary {
-            events: self.events,
-            absorbed_at,
-        })
-    }
-}
-
-/// Runs one trajectory (see [`Direct::run`]). Events run in legs between the observer's due
-/// times: a leg ends when the next event is at or after [`Observer::due`], and `reach` is
-/// called outside the leg, so the leg's loop contains no call and keeps its values in
-/// registers.
+/// Sets up the propensities, runs the event loop and turns its stop into a result. `x` holds
+/// one count per species and then the constant slot 1.
 fn run_loop<C: Channels, R: Rng + Clone, O: Observer>(
     k: &CompiledKernel,
     x: &mut [i64],
-    ch: C,
+    mut ch: C,
     t_end: f64,
     rng: &mut R,
     obs: &mut O,
 ) -> Result<RunSummary> {
-    let lane = Lane::start(k, x, ch, rng, obs)?;
-    let (lane, stop) = lane.run(k, t_end, x);
-    lane.conclude(k, t_end, stop, x, rng)
+    if x.len() != k.species + 1 {
+        return Err(Error::Internal(
+            "state buffer without the constant slot".into(),
+        ));
+    }
+    ch.init(x)?;
+    let n = k.species;
+    obs.start(&x[..n]);
+    let mut clock = Clock { t: 0.0, events: 0 };
+    let mut pending = None;
+    // Events run in legs between the observer's due times: a leg ends when the next event is
+    // at or after Observer::due, and `reach` is called here, outside the leg, so the leg's
+    // loop contains no call and keeps its values in registers.
+    let stop = loop {
+        let (l, c) = leg(k, x, ch, t_end, rng, obs, &mut clock, pending);
+        ch = c;
+        match l {
+            Leg::Stop(s) => break s,
+            Leg::Due(t_new) => {
+                obs.reach(t_new, &x[..n]);
+                pending = Some(t_new);
+            }
+        }
+    };
+    let absorbed_at = match stop {
+        Stop::End => None,
+        Stop::Absorbed(t) => Some(t),
+        Stop::Overflow { i, j, t } => return Err(k.overflow(i, j, t)),
+        Stop::BadRate(t) => {
+            for j in 0..k.reactions() {
+                checked(k, j, k.propensity(j, x), t)?;
+            }
+            return Err(Error::Internal(format!(
+                "the total propensity became {} at t = {t} s",
+                ch.total()
+            )));
+        }
+    };
+    obs.finish(t_end, &x[..n]);
+    Ok(RunSummary {
+        events: clock.events,
+        absorbed_at,
+    })
 }
 
-/// Runs two trajectories of one network at once (see [`Direct::run_pair`]): while both go
-/// on, their events alternate in one loop; when one stops, the other runs alone.
+/// Runs events until the run stops or the next event is due for the observer (see the module
+/// docs for one step). `pending` is an event time already drawn (by the previous leg) whose
+/// channel is still to be selected. The channels come in and go out by value.
 #[allow(clippy::too_many_arguments)]
-fn run_pair_loop<C: Channels, R: Rng + Clone, O: Observer>(
-    k: &CompiledKernel,
-    x: [&mut [i64]; 2],
-    ch: [C; 2],
-    t_end: f64,
-    rng: [&mut R; 2],
-    obs: [&mut O; 2],
-) -> [Result<RunSummary>; 2] {
-    let [x1, x2] = x;
-    let [c1, c2] = ch;
-    let [r1, r2] = rng;
-    let [o1, o2] = obs;
-    let mut first = match Lane::start(k, x1, c1, r1, o1) {
-        Ok(lane) => lane,
-        Err(e) => return [Err(e), run_loop(k, x2, c2, t_end, r2, o2)],
-    };
-    let mut second = match Lane::start(k, x2, c2, r2, o2) {
-        Ok(lane) => lane,
-        Err(e) => {
-            let (lane, stop) = first.run(k, t_end, x1);
-            return [lane.conclude(k, t_end, stop, x1, r1), Err(e)];
-        }
-    };
-    let (stop1, stop2) = loop {
-        let (which, leg, a, b) = pair_leg(k, t_end, first, x1, second, x2);
-        (first, second) = (a, b);
-        if which == 0 {
-            if let Some(s1) = first.after(k, leg, x1) {
-                let (b, s2) = second.run(k, t_end, x2);
-                second = b;
-                break (s1, s2);
-            }
-        } else if let Some(s2) = second.after(k, leg, x2) {
-            let (a, s1) = first.run(k, t_end, x1);
-            first = a;
-            break (s1, s2);
-        }
-    };
-    [
-        first.conclude(k, t_end, stop1, x1, r1),
-        second.conclude(k, t_end, stop2, x2, r2),
-    ]
-}
-
-/// One event of the direct method (see the module docs), or why there is none: the run
-/// stops, or the next event is due for the observer (it is then drawn but not selected).
-#[inline(always)]
-fn step<C: Channels, R: Rng, O: Observer>(
-    k: &CompiledKernel,
-    t_end: f64,
-    l: &mut Lane<'_, C, R, O>,
-    x: &mut [i64],
-) -> Option<Leg> {
-    let a0 = l.ch.total();
-    let t_new = match l.pending.take() {
-        Some(t_new) => t_new,
-        None => {
-            // a₀ cannot be +∞: mass-action constants are bounded when the kernel is built
-            // and a law value that is not finite counts as NaN.
-            if a0.is_nan() || a0 <= 0.0 {
-                return Some(Leg::Stop(if a0 == 0.0 {
-                    Stop::Absorbed(l.t)
-                } else {
-                    Stop::BadRate(l.t)
-                }));
-            }
-            let t_new = l.t + exp1(&mut l.rng) / a0;
-            if t_new > t_end {
-                return Some(Leg::Stop(Stop::End));
-            }
-            if t_new >= l.due {
-                return Some(Leg::Due(t_new));
-            }
-            t_new
-        }
-    };
-    let j = l.ch.find(uniform(&mut l.rng) * a0);
-    if l.ch.get(j) <= 0.0 {
-        // Only reachable when rounding put u·a₀ at or above the summed propensities: a draw
-        // of probability about 2⁻⁵³, taken again.
-        return None;
-    }
-    debug_assert!(j < k.reactions());
-    l.obs.fire(t_new, j, 1);
-    if l.ch.fire(j, x, t_new, l.obs) {
-        if let Some(&(i, _)) = k.change(j).iter().find(|c| x[c.0 as usize] > MAX_COUNT) {
-            return Some(Leg::Stop(Stop::Overflow {
-                i: i as usize,
-                j,
-                t: t_new,
-            }));
-        }
-    }
-    l.t = t_new;
-    l.events += 1;
-    None
-}
-
-/// Runs events of one lane until it stops or its next event is due for the observer.
 #[inline(never)]
-fn leg<'o, C: Channels, R: Rng + Clone, O: Observer>(
+fn leg<C: Channels, R: Rng + Clone, O: Observer>(
     k: &CompiledKernel,
-    t_end: f64,
-    lane: Lane<'o, C, R, O>,
     x: &mut [i64],
-) -> (Leg, Lane<'o, C, R, O>) {
-    let mut lane = lane.local();
-    loop {
-        if let Some(leg) = step(k, t_end, &mut lane, x) {
-            return (leg, lane);
-        }
-    }
-}
-
-/// Runs events of two lanes alternately until one of them (0 or 1, as returned) stops or
-/// is due for its observer. The two chains of dependent operations are independent, so the
-/// processor overlaps them.
-#[inline(never)]
-#[allow(clippy::type_complexity)]
-fn pair_leg<'o, C: Channels, R: Rng + Clone, O: Observer>(
-    k: &CompiledKernel,
+    mut ch: C,
     t_end: f64,
-    a: Lane<'o, C, R, O>,
-    xa: &mut [i64],
-    b: Lane<'o, C, R, O>,
-    xb: &mut [i64],
-) -> (u8, Leg, Lane<'o, C, R, O>, Lane<'o, C, R, O>) {
-    let (mut a, mut b) = (a.local(), b.local());
-    loop {
-        if let Some(leg) = step(k, t_end, &mut a, xa) {
-            return (0, leg, a, b);
+    rng_out: &mut R,
+    obs: &mut O,
+    clock: &mut Clock,
+    mut pending: Option<f64>,
+) -> (Leg, C) {
+    let due = obs.due();
+    // A local copy of the generator stays in registers; it is written back at the end.
+    let mut local = rng_out.clone();
+    let rng = &mut local;
+    let mut t = clock.t;
+    let mut events = clock.events;
+    let leg = loop {
+        let a0 = ch.total();
+        let t_new = match pending.take() {
+            Some(t_new) => t_new,
+            None => {
+                // a₀ cannot be +∞: mass-action constants are bounded when the kernel is
+                // built and a law value that is not finite counts as NaN.
+                if a0.is_nan() || a0 <= 0.0 {
+                    break Leg::Stop(if a0 == 0.0 {
+                        Stop::Absorbed(t)
+                    } else {
+                        Stop::BadRate(t)
+                    });
+                }
+                let t_new = t + exp1(rng) / a0;
+                if t_new > t_end {
+                    break Leg::Stop(Stop::End);
+                }
+                if t_new >= due {
+                    break Leg::Due(t_new);
+                }
+                t_new
+            }
+        };
+        let j = ch.find(uniform(rng) * a0);
+        if ch.get(j) <= 0.0 {
+            // Only reachable when rounding put u·a₀ at or above the summed propensities: a
+            // draw of probability about 2⁻⁵³, taken again.
+            continue;
         }
-        if let Some(leg) = step(k, t_end, &mut b, xb) {
-            return (1, leg, a, b);
+        debug_assert!(j < k.reactions());
+        obs.fire(t_new, j, 1);
+        if ch.fire(j, x, t_new, obs) {
+            if let Some(&(i, _)) = k.change(j).iter().find(|c| x[c.0 as usize] > MAX_COUNT) {
+                break Leg::Stop(Stop::Overflow {
+                    i: i as usize,
+                    j,
+                    t: t_new,
+                });
+            }
         }
-    }
+        t = t_new;
+        events += 1;
+    };
+    clock.t = t;
+    clock.events = events;
+    *rng_out = local;
+    (leg, ch)
 }
 
 #[cfg(test)]
 mod tests {
     use super::*;
     use crate::kernel::rng::replicate_rng;
-    use crate::kernel::{Integrals, RecordSpec, Recorder};
     use crate::network::{load_source, Overrides};
     use rand::RngExt;
 
@@ -817,78 +572,5 @@ mod tests {
              step c C -> A @ 0.2\nstep d D -> B @ 0.2\nstep e E -> 0 @ 0.1\n\
              step f F -> 0 @ 0.1\nstep in 0 -> A + B @ 1\n",
         );
-    }
-
-    /// What a run reports, for comparing two runs exactly.
-    fn report(
-        s: &RunSummary,
-        d: &Direct,
-        (rec, int): &(Recorder, Integrals),
-        rng: &mut crate::kernel::rng::KernelRng,
-    ) -> (String, u64) {
-        let grid: Vec<&[i64]> = (0..rec.grid_times().len())
-            .map(|p| rec.grid_state(p))
-            .collect();
-        let text = format!(
-            "{s:?} {:?} {grid:?} {:?} {:?} {:?} {:?}",
-            d.state(),
-            rec.firings(),
-            rec.firings_first_half(),
-            int.x(),
-            int.x2()
-        );
-        (text, rng.next_u64())
-    }
-
-    /// Two trajectories run at once give exactly what each gives alone: the same events,
-    /// samples, counts, integrals, final state and generator state afterwards; once from two
-    /// live starts, once from a second start where nothing can happen, so one lane goes on
-    /// alone.
-    #[test]
-    fn a_pair_runs_exactly_as_two_single_runs() {
-        let src = "species E = 10\nspecies S = 50 clamped\nspecies C = 0\nspecies P = 0\n\
-                   step bind E + S -> C @ 0.01\nstep unbind C -> E + S @ 1\n\
-                   step cat C -> E + P @ 2\nstep lose E -> 0 @ 0.001\n";
-        let net = load_source("t.crn", src.as_bytes(), &Overrides::default()).unwrap();
-        let k = CompiledKernel::new(&net).unwrap();
-        let spec = RecordSpec {
-            t_end: 400.0,
-            grid_points: 41,
-            window: 100.0,
-        };
-        let observers = || {
-            (
-                Recorder::new(spec, &k),
-                Integrals::new(400.0, 100.0, &k),
-            )
-        };
-        for starts in [
-            [k.x0.clone(), k.x0.clone()],
-            [k.x0.clone(), vec![0, 50, 0, 0]],
-        ] {
-            let mut alone = Vec::new();
-            for (r, x0) in starts.iter().enumerate() {
-                let mut d = Direct::new(&k);
-                let mut obs = observers();
-                let mut rng = replicate_rng(5, r as u64);
-                let s = d.run(x0, 400.0, &mut rng, &mut obs).unwrap();
-                alone.push(report(&s, &d, &obs, &mut rng));
-            }
-            let (mut d1, mut d2) = (Direct::new(&k), Direct::new(&k));
-            let (mut o1, mut o2) = (observers(), observers());
-            let (mut r1, mut r2) = (replicate_rng(5, 0), replicate_rng(5, 1));
-            let [s1, s2] = d1.run_pair(
-                &mut d2,
-                [&starts[0], &starts[1]],
-                400.0,
-                [&mut r1, &mut r2],
-                [&mut o1, &mut o2],
-            );
-            let (s1, s2) = (s1.unwrap(), s2.unwrap());
-            assert!(s1.events > 1000);
-            assert_eq!(s2.absorbed_at == Some(0.0), starts[1][0] == 0);
-            assert_eq!(report(&s1, &d1, &o1, &mut r1), alone[0]);
-            assert_eq!(report(&s2, &d2, &o2, &mut r2), alone[1]);
-        }
     }
 }

@@ -384,6 +384,28 @@ pub struct SmallTables {
     updates: Vec<Update>,
     law_dependents: Rows<u32>,
     has_laws: bool,
+    dense: Option<DenseTables>,
+}
+
+/// Channels of a [`DenseTables`] network (the rest of the block of four are idle).
+pub const DENSE_CHANNELS: usize = 3;
+
+/// A network of at most [`DENSE_CHANNELS`] mass-action reactions, in a form where every event
+/// recomputes all four propensities of the block (the last ones idle): a[k] = c_k·Π_f
+/// (x[i_{k,f}] − o_{j,k,f}) after event j. The species a propensity reads depend on its
+/// channel k only, not on the event, so the processor loads them before it knows which
+/// channel fires; only the offsets (the rate's own, less the event's change, as in
+/// [`Update`]) come from the event's row.
+#[derive(Clone, Debug, PartialEq)]
+pub struct DenseTables {
+    /// c′ of each of the four channels.
+    pub c: [f64; 4],
+    /// Species read by the factors of each channel (the constant slot where unused).
+    pub i: [[u32; 3]; 4],
+    /// Row j holds the four channels' offsets after event j, as f64.
+    pub offsets: Vec<[[f64; 3]; 4]>,
+    /// Row j holds the state change of event j, padded to four with (constant slot, 0).
+    pub change: Vec<[(u32, i64); 4]>,
 }
 
 impl SmallTables {
@@ -458,7 +480,13 @@ impl SmallTables {
                 .collect(),
             has_laws: laws.iter().any(|r| !r.is_empty()),
             law_dependents: Rows::new(&laws, None)?,
+            dense: dense(rates, &changes, one),
         })
+    }
+
+    /// The dense form, for a network of at most [`DENSE_CHANNELS`] mass-action reactions.
+    pub fn dense(&self) -> Option<&DenseTables> {
+        self.dense.as_ref()
     }
 
     /// Largest number of falling factors of a mass-action rate (1 ..= 3; 1 when there is
@@ -505,6 +533,40 @@ impl SmallTables {
     pub fn law_dependents(&self, j: usize) -> &[u32] {
         self.law_dependents.row(j)
     }
+}
+
+/// The dense form of a network with at most [`DENSE_CHANNELS`] reactions, all mass action,
+/// none changing more than four species; `rates` ends with the idle channel.
+fn dense(rates: &[Rate], changes: &[&[(u32, i64)]], one: u32) -> Option<DenseTables> {
+    let m = changes.len();
+    if m > DENSE_CHANNELS || rates[..m].iter().any(|r| r.factors == LAW) {
+        return None;
+    }
+    if changes.iter().any(|r| r.len() > 4) {
+        return None;
+    }
+    let idle = Rate::idle(one);
+    let rate = |k: usize| if k < m { rates[k] } else { idle };
+    let offsets = changes
+        .iter()
+        .map(|row| {
+            let delta = |i: u32| -> i64 { row.iter().filter(|c| c.0 == i).map(|c| c.1).sum() };
+            std::array::from_fn(|k| {
+                let r = rate(k);
+                std::array::from_fn(|f| (i64::from(r.o[f]) - delta(r.i[f])) as f64)
+            })
+        })
+        .collect();
+    let change = changes
+        .iter()
+        .map(|row| std::array::from_fn(|e| row.get(e).copied().unwrap_or((one, 0))))
+        .collect();
+    Some(DenseTables {
+        c: std::array::from_fn(|k| rate(k).c),
+        i: std::array::from_fn(|k| rate(k).i),
+        offsets,
+        change,
+    })
 }
 
 /// Row `j` of a table of rows `width` wide; `W` is that width when known at compile time

@@ -24,10 +24,11 @@
 //! the observer's [`Observer::finish`] fills what remains of the grid. Nothing is allocated in
 //! the event loop.
 
-use super::compiled::{CompiledKernel, SmallTables};
+use super::compiled::{CompiledKernel, DenseTables, SmallTables};
 use super::observe::Observer;
-use super::rng::{exp1, uniform};
+use super::rng::uniform;
 use super::select::SumTree;
+use super::ziggurat::{exp_ziggurat, Miss};
 use crate::error::{Error, Result};
 use crate::network::MAX_COUNT;
 use rand::Rng;
@@ -133,6 +134,46 @@ impl<'k> Direct<'k> {
                 let Some(tables) = k.small() else {
                     return Err(Error::Internal("small network without tables".into()));
                 };
+                if let Some(d) = tables.dense() {
+                    return match tables.order() {
+                        1 => run_loop(
+                            k,
+                            x,
+                            Dense::<1> {
+                                k,
+                                d,
+                                a: [0.0; LANES],
+                            },
+                            t_end,
+                            rng,
+                            obs,
+                        ),
+                        2 => run_loop(
+                            k,
+                            x,
+                            Dense::<2> {
+                                k,
+                                d,
+                                a: [0.0; LANES],
+                            },
+                            t_end,
+                            rng,
+                            obs,
+                        ),
+                        _ => run_loop(
+                            k,
+                            x,
+                            Dense::<3> {
+                                k,
+                                d,
+                                a: [0.0; LANES],
+                            },
+                            t_end,
+                            rng,
+                            obs,
+                        ),
+                    };
+                }
                 match tables.order() {
                     1 => run_small::<1, R, O>(k, tables, x, a, t_end, rng, obs),
                     2 => run_small::<2, R, O>(k, tables, x, a, t_end, rng, obs),
@@ -172,12 +213,23 @@ trait Channels {
     fn init(&mut self, x: &[i64]) -> Result<()>;
     /// a₀.
     fn total(&self) -> f64;
-    /// The channel whose cumulative propensity first exceeds `target` ∈ [0, total). Where
-    /// rounding puts `target` at or above every sum, the answer may be a channel of
-    /// propensity 0, possibly an idle one at or above reactions().
-    fn find(&self, target: f64) -> usize;
-    /// Propensity of channel `j`, as [`Channels::find`] returned it.
+    /// The channel whose cumulative propensity first exceeds `target` = u·a₀ (a₀ the value
+    /// [`Channels::total`] gave), or None where rounding put `target` at or above the summed
+    /// propensities (a draw of probability about 2⁻⁵³, which the loop takes again).
+    fn select(&self, target: f64, a0: f64) -> Option<usize>;
+    /// Propensity of channel `j` < reactions() (for the tests).
+    #[cfg(test)]
     fn get(&self, j: usize) -> f64;
+    /// The same view as a new local value. A view passed by value may stay in its caller's
+    /// memory; a view rebuilt field by field inside the event loop's function lives in
+    /// registers (it matters for [`Dense`], whose propensities are registers).
+    #[inline(always)]
+    fn local(self) -> Self
+    where
+        Self: Sized,
+    {
+        self
+    }
     /// Fires channel `j` < reactions() at `t`: applies its change to `x` (reporting each
     /// move to `obs`) and recomputes the propensities that depend on it. Returns true when
     /// some count may have passed [`MAX_COUNT`] (the caller checks), false when none did.
@@ -207,46 +259,21 @@ impl<const ORDER: usize, const W: usize> Channels for Small<'_, ORDER, W> {
         Ok(())
     }
 
-    /// a₀ as the last of the cumulative sums that [`Channels::find`] compares, so that the
-    /// two agree to the bit. (A pairwise sum would be a shorter chain, but the compiler
-    /// turns it into vector loads of values just stored one by one, which the processor
-    /// cannot forward from its store buffer: slower.)
     #[inline(always)]
     fn total(&self) -> f64 {
-        let blocks = self.a.len() / LANES;
-        // −0.0 + a = a exactly, so the first addition folds away (0.0 + −0.0 would not).
-        let mut sum = -0.0;
-        for b in self.a[..blocks * LANES].chunks_exact(LANES) {
-            for &a in b {
-                sum += a;
-            }
-        }
-        sum
+        block_total(self.a)
     }
 
-    /// Smallest j with a₀ + … + a_j > target, as j = #{k : a₀ + … + a_k ≤ target}: the sums
-    /// are non-decreasing, so the count is that index. If rounding puts the target at or above
-    /// every sum, an idle channel or the extra 0 comes back (the loop checks that the
-    /// propensity is positive).
+    /// The count of [`block_find`]. a₀ is the last of its cumulative sums, so a target below
+    /// a₀ selects a channel of positive propensity.
     #[inline(always)]
-    fn find(&self, target: f64) -> usize {
-        let blocks = self.a.len() / LANES;
-        let mut sum = -0.0;
-        let mut j = 0;
-        for block in self.a[..blocks * LANES].chunks_exact(LANES) {
-            for &a in block {
-                sum += a;
-                j += (sum <= target) as usize;
-            }
-        }
-        j
+    fn select(&self, target: f64, a0: f64) -> Option<usize> {
+        (target < a0).then(|| block_find(self.a, target))
     }
 
-    #[inline(always)]
+    #[cfg(test)]
     fn get(&self, j: usize) -> f64 {
-        debug_assert!(j < self.a.len());
-        // SAFETY: j comes from `find`, which returns at most a.len() − 1.
-        unsafe { *self.a.get_unchecked(j) }
+        self.a[j]
     }
 
     #[inline(always)]
@@ -282,6 +309,82 @@ impl<const ORDER: usize, const W: usize> Channels for Small<'_, ORDER, W> {
     }
 }
 
+/// A network of at most three mass-action reactions in the form of [`DenseTables`]: every
+/// event recomputes the whole block of four propensities from species loaded before the
+/// selected channel is known; only offsets come from the event's row. The four propensities
+/// are a value of the view, kept in registers by the event loop, so that a₀ and the
+/// selection read no memory. Same numbers as [`Small`], bit for bit: the factors are
+/// differences of integers below 2⁵³, exact in f64, and the sums run in the same order.
+struct Dense<'a, const ORDER: usize> {
+    k: &'a CompiledKernel,
+    d: &'a DenseTables,
+    /// The channels' propensities, the last ones idle (always 0).
+    a: [f64; LANES],
+}
+
+impl<const ORDER: usize> Channels for Dense<'_, ORDER> {
+    fn init(&mut self, x: &[i64]) -> Result<()> {
+        self.a = [0.0; LANES];
+        for j in 0..self.k.reactions() {
+            self.a[j] = checked(self.k, j, self.k.propensity(j, x), 0.0)?;
+        }
+        Ok(())
+    }
+
+    #[inline(always)]
+    fn total(&self) -> f64 {
+        block_total(&self.a)
+    }
+
+    #[inline(always)]
+    fn select(&self, target: f64, a0: f64) -> Option<usize> {
+        let mut sum = -0.0;
+        let mut j = 0;
+        for &v in &self.a {
+            sum += v;
+            j += (sum <= target) as usize;
+        }
+        (target < a0).then_some(j)
+    }
+
+    #[cfg(test)]
+    fn get(&self, j: usize) -> f64 {
+        self.a[j]
+    }
+
+    #[inline(always)]
+    fn local(self) -> Self {
+        let Dense { k, d, a } = self;
+        Dense { k, d, a }
+    }
+
+    #[inline(always)]
+    fn fire<O: Observer>(&mut self, j: usize, x: &mut [i64], t: f64, obs: &mut O) -> bool {
+        debug_assert!(j < self.k.reactions() && x.len() == self.k.species + 1);
+        let d = self.d;
+        // SAFETY: the tables name species or the constant slot, below x.len() (construction;
+        // checked by the caller); j < reactions() = number of rows.
+        let factor = |k: usize, f: usize| unsafe { *x.get_unchecked(d.i[k][f] as usize) as f64 };
+        let xs: [[f64; 3]; LANES] = std::array::from_fn(|k| std::array::from_fn(|f| factor(k, f)));
+        let offsets = unsafe { d.offsets.get_unchecked(j) };
+        for k in 0..LANES {
+            let mut a = d.c[k];
+            for f in 0..ORDER {
+                a *= xs[k][f] - offsets[k][f];
+            }
+            self.a[k] = a;
+        }
+        let mut over = false;
+        for &(i, dx) in unsafe { d.change.get_unchecked(j) } {
+            let v = unsafe { x.get_unchecked_mut(i as usize) };
+            obs.moved(t, i as usize, *v, dx);
+            *v += dx;
+            over |= *v > MAX_COUNT;
+        }
+        over
+    }
+}
+
 /// A large network: the rows of [`CompiledKernel`] and the sum tree of
 /// [`crate::kernel::select`], which recomputes every sum on a changed path from its children,
 /// so it never drifts.
@@ -305,11 +408,14 @@ impl Channels for Tree<'_> {
         self.tree.total()
     }
 
+    /// The tree's walk, which only enters subtrees of positive sum.
     #[inline(always)]
-    fn find(&self, target: f64) -> usize {
-        self.tree.find(target)
+    fn select(&self, target: f64, _a0: f64) -> Option<usize> {
+        let j = self.tree.find(target);
+        (self.tree.get(j) > 0.0).then_some(j)
     }
 
+    #[cfg(test)]
     #[inline(always)]
     fn get(&self, j: usize) -> f64 {
         self.tree.get(j)
@@ -335,6 +441,41 @@ impl Channels for Tree<'_> {
         }
         over
     }
+}
+
+/// a₀ as the last of the cumulative sums that [`block_find`] compares, so that the
+/// two agree to the bit. (A pairwise sum would be a shorter chain, but the compiler
+/// turns it into vector loads of values just stored one by one, which the processor
+/// cannot forward from its store buffer: slower.)
+#[inline(always)]
+fn block_total(a: &[f64]) -> f64 {
+    let blocks = a.len() / LANES;
+    // −0.0 + a = a exactly, so the first addition folds away (0.0 + −0.0 would not).
+    let mut sum = -0.0;
+    for b in a[..blocks * LANES].chunks_exact(LANES) {
+        for &a in b {
+            sum += a;
+        }
+    }
+    sum
+}
+
+/// Smallest j with a₀ + … + a_j > target, as j = #{k : a₀ + … + a_k ≤ target}: the sums
+/// are non-decreasing, so the count is that index. If rounding puts the target at or above
+/// every sum, an idle channel or the extra 0 comes back (the loop checks that the
+/// propensity is positive).
+#[inline(always)]
+fn block_find(a: &[f64], target: f64) -> usize {
+    let blocks = a.len() / LANES;
+    let mut sum = -0.0;
+    let mut j = 0;
+    for block in a[..blocks * LANES].chunks_exact(LANES) {
+        for &a in block {
+            sum += a;
+            j += (sum <= target) as usize;
+        }
+    }
+    j
 }
 
 /// Checks a freshly computed propensity: finite and not negative.
@@ -365,6 +506,17 @@ enum Leg {
     Stop(Stop),
     /// The next event, at this time, is due for the observer's [`Observer::reach`]; it has not
     /// been selected yet.
+    Due(f64),
+    /// The waiting time's exponential left the ziggurat's fast path; the loop finishes it
+    /// outside the leg, which thus contains no call.
+    Miss(Miss),
+}
+
+/// Where the next leg takes up an event the previous one began.
+enum Resume {
+    /// The exponential of the waiting time is drawn.
+    Exp(f64),
+    /// The event's time is drawn and due for the observer; its channel is still to select.
     Due(f64),
 }
 
@@ -404,8 +556,9 @@ fn run_loop<C: Channels, R: Rng + Clone, O: Observer>(
             Leg::Stop(s) => break s,
             Leg::Due(t_new) => {
                 obs.reach(t_new, &x[..n]);
-                pending = Some(t_new);
+                pending = Some(Resume::Due(t_new));
             }
+            Leg::Miss(miss) => pending = Some(Resume::Exp(exp_ziggurat().finish(miss, rng))),
         }
     };
     let absorbed_at = match stop {
@@ -430,31 +583,32 @@ fn run_loop<C: Channels, R: Rng + Clone, O: Observer>(
 }
 
 /// Runs events until the run stops or the next event is due for the observer (see the module
-/// docs for one step). `pending` is an event time already drawn (by the previous leg) whose
-/// channel is still to be selected. The channels come in and go out by value.
+/// docs for one step). `pending` is an event the previous leg began. The channels come in and go out by value.
 #[allow(clippy::too_many_arguments)]
 #[inline(never)]
 fn leg<C: Channels, R: Rng + Clone, O: Observer>(
     k: &CompiledKernel,
     x: &mut [i64],
-    mut ch: C,
+    ch: C,
     t_end: f64,
     rng_out: &mut R,
     obs: &mut O,
     clock: &mut Clock,
-    mut pending: Option<f64>,
+    mut pending: Option<Resume>,
 ) -> (Leg, C) {
+    let mut ch = ch.local();
     let due = obs.due();
     // A local copy of the generator stays in registers; it is written back at the end.
     let mut local = rng_out.clone();
     let rng = &mut local;
     let mut t = clock.t;
     let mut events = clock.events;
+    let zig = exp_ziggurat();
     let leg = loop {
         let a0 = ch.total();
         let t_new = match pending.take() {
-            Some(t_new) => t_new,
-            None => {
+            Some(Resume::Due(t_new)) => t_new,
+            resume => {
                 // a₀ cannot be +∞: mass-action constants are bounded when the kernel is
                 // built and a law value that is not finite counts as NaN.
                 if a0.is_nan() || a0 <= 0.0 {
@@ -464,7 +618,14 @@ fn leg<C: Channels, R: Rng + Clone, O: Observer>(
                         Stop::BadRate(t)
                     });
                 }
-                let t_new = t + exp1(rng) / a0;
+                let e = match resume {
+                    Some(Resume::Exp(e)) => e,
+                    _ => match zig.fast(rng) {
+                        Ok(e) => e,
+                        Err(miss) => break Leg::Miss(miss),
+                    },
+                };
+                let t_new = t + e / a0;
                 if t_new > t_end {
                     break Leg::Stop(Stop::End);
                 }
@@ -474,12 +635,9 @@ fn leg<C: Channels, R: Rng + Clone, O: Observer>(
                 t_new
             }
         };
-        let j = ch.find(uniform(rng) * a0);
-        if ch.get(j) <= 0.0 {
-            // Only reachable when rounding put u·a₀ at or above the summed propensities: a
-            // draw of probability about 2⁻⁵³, taken again.
+        let Some(j) = ch.select(uniform(rng) * a0, a0) else {
             continue;
-        }
+        };
         debug_assert!(j < k.reactions());
         obs.fire(t_new, j, 1);
         if ch.fire(j, x, t_new, obs) {
@@ -510,7 +668,8 @@ mod tests {
     /// Fires random channels of positive propensity through the small-network view and, after
     /// each, compares every kept propensity with a fresh evaluation of its rate law
     /// (REFERENCES.md §1, the combinatorial forms [M]); the kept values come from offsets
-    /// shifted by the event's change, so they must agree exactly.
+    /// shifted by the event's change, so they must agree exactly. Networks of at most three
+    /// reactions are checked in their dense form too.
     fn kept_equal_fresh<const ORDER: usize, const W: usize>(src: &str) {
         let net = load_source("t.crn", src.as_bytes(), &Overrides::default()).unwrap();
         let k = CompiledKernel::new(&net).unwrap();
@@ -518,18 +677,34 @@ mod tests {
         assert_eq!(tables.order(), ORDER);
         assert!(tables.width() == W || (W == 0 && tables.width() > 4));
         let mut a = vec![0.0; (k.reactions() + 1).next_multiple_of(LANES) + 1];
+        check_kept(
+            &k,
+            Small::<ORDER, W> {
+                k: &k,
+                tables,
+                a: &mut a,
+            },
+        );
+        if let Some(d) = tables.dense() {
+            check_kept(
+                &k,
+                Dense::<ORDER> {
+                    k: &k,
+                    d,
+                    a: [0.0; LANES],
+                },
+            );
+        }
+    }
+
+    fn check_kept<C: Channels>(k: &CompiledKernel, mut ch: C) {
         let mut x = k.state_buffer(&k.x0);
-        let mut ch = Small::<ORDER, W> {
-            k: &k,
-            tables,
-            a: &mut a,
-        };
         ch.init(&x).unwrap();
         let mut rng = replicate_rng(3, 0);
         for _ in 0..2000 {
             let a0 = ch.total();
             assert!(a0 > 0.0, "the test network must not absorb");
-            let j = ch.find(rng.random::<f64>() * a0);
+            let j = ch.select(rng.random::<f64>() * a0, a0).unwrap();
             assert!(ch.get(j) > 0.0);
             assert!(!ch.fire(j, &mut x, 0.0, &mut ()));
             for d in 0..k.reactions() {

@@ -13,11 +13,10 @@
 //! all zero. A replicate's numbers depend on (s, r) alone, never on threads, scheduling or shards.
 //!
 //! Draws: a uniform is the top 53 bits of one `next_u64` scaled by 2⁻⁵³; an exponential
-//! waiting time uses rand_distr's `Exp1` ziggurat (Doornik 2005 ZIGNOR variant [M]), which
-//! usually consumes one `next_u64`.
+//! waiting time uses the ziggurat of [`super::ziggurat`] (256 layers), which usually consumes
+//! one `next_u64`.
 
 use rand::{Rng, SeedableRng};
-use rand_distr::{Distribution, Exp1};
 use rand_xoshiro::Xoshiro256PlusPlus;
 
 /// The generator every kernel uses.
@@ -56,13 +55,13 @@ pub fn uniform<R: Rng + ?Sized>(rng: &mut R) -> f64 {
     (rng.next_u64() >> 11) as f64 * (1.0 / (1u64 << 53) as f64)
 }
 
-/// A standard exponential number (mean 1): rand_distr's `Exp1` ziggurat.
+/// A standard exponential number (mean 1), by the ziggurat of [`super::ziggurat`].
 ///
 /// τ = exp1/a₀ is the direct method's waiting time (Gillespie 1977: τ = ln(1/r₁)/a₀, of which
 /// this is an exact-in-distribution and faster sampler).
 #[inline(always)]
 pub fn exp1<R: Rng + ?Sized>(rng: &mut R) -> f64 {
-    Exp1.sample(rng)
+    super::ziggurat::exp_ziggurat().sample(rng)
 }
 
 #[cfg(test)]

@@ -32,8 +32,8 @@ pub const BLOCK: u64 = 16;
 /// Blocks per thread in one wave of parallel work.
 const WAVE_PER_THREAD: usize = 8;
 
-/// ε used by `auto` (the default of `--epsilon`).
-pub const AUTO_EPSILON: f64 = 0.03;
+/// The default ε of `tau` and `auto` (`--epsilon`).
+pub const DEFAULT_EPSILON: f64 = 0.03;
 
 /// The simulation method.
 #[derive(Clone, Copy, Debug, PartialEq)]
@@ -42,8 +42,8 @@ pub enum Method {
     Direct,
     /// Tau-leaping with error-control parameter ε (Cao, Gillespie & Petzold 2006).
     Tau { epsilon: f64 },
-    /// Tau-leaping where it pays, exact steps elsewhere.
-    Auto,
+    /// Tau-leaping with error-control parameter ε where a leap pays, exact steps elsewhere.
+    Auto { epsilon: f64 },
 }
 
 impl Method {
@@ -52,7 +52,7 @@ impl Method {
         match self {
             Method::Direct => "direct",
             Method::Tau { .. } => "tau",
-            Method::Auto => "auto",
+            Method::Auto { .. } => "auto",
         }
     }
 }
@@ -131,9 +131,13 @@ impl EnsembleSpec {
             return Err(Error::usage("--threads must be at least 1"));
         }
         match self.method {
-            Method::Tau { epsilon } if !(epsilon > 0.0 && epsilon < 1.0) => Err(Error::usage(
-                format!("--epsilon must lie strictly between 0 and 1, got {epsilon}"),
-            )),
+            Method::Tau { epsilon } | Method::Auto { epsilon }
+                if !(epsilon > 0.0 && epsilon < 1.0) =>
+            {
+                Err(Error::usage(format!(
+                    "--epsilon must lie strictly between 0 and 1, got {epsilon}"
+                )))
+            }
             _ => Ok(()),
         }
     }
@@ -418,8 +422,8 @@ fn run_blocks(
                         Method::Tau { epsilon } => {
                             Sim::Tau(Box::new(Tau::new(kernel, net, epsilon, false)))
                         }
-                        Method::Auto => {
-                            Sim::Tau(Box::new(Tau::new(kernel, net, AUTO_EPSILON, true)))
+                        Method::Auto { epsilon } => {
+                            Sim::Tau(Box::new(Tau::new(kernel, net, epsilon, true)))
                         }
                     },
                     observers: (

@@ -171,12 +171,19 @@ fn bad_options_are_usage_errors() {
             method: Method::Tau { epsilon: 1.5 },
             ..EnsembleSpec::new(1.0)
         },
+        EnsembleSpec {
+            method: Method::Auto { epsilon: 0.0 },
+            ..EnsembleSpec::new(1.0)
+        },
     ];
     for spec in bad {
         let err = ensemble::run(&n, &spec).unwrap_err();
         assert!(matches!(err, Error::Usage(_)), "{spec:?}: {err}");
     }
-    for method in [Method::Tau { epsilon: 0.03 }, Method::Auto] {
+    for method in [
+        Method::Tau { epsilon: 0.03 },
+        Method::Auto { epsilon: 0.03 },
+    ] {
         let spec = EnsembleSpec {
             method,
             ..EnsembleSpec::new(1.0)

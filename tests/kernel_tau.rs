@@ -105,18 +105,28 @@ fn immigration_death_with_tau() {
         (0.03, 1.0 / (1.0 - 0.45 / 2.0)),
         (0.005, 1.0 / (1.0 - 0.0125 / 2.0)),
     ] {
-        let e = finals(&n, Method::Tau { epsilon: eps }, r, 15.0, 9);
-        let w = &e.final_state[0];
-        assert!(
-            (w.mean() - 1000.0).abs() < 4.0 * (1000.0 * fano_expected / r as f64).sqrt(),
-            "mean {}",
-            w.mean()
-        );
-        let fano = w.variance() / w.mean();
-        assert!(
-            (fano - fano_expected).abs() < 4.0 * (2.0 / r as f64).sqrt() + 0.03,
-            "ε {eps}: Fano {fano} vs {fano_expected}"
-        );
+        // `auto` takes the same ε: at 0.03, τ' = ε²x²/σ² = 0.45 s and τ'·a₀ = 900, above its
+        // switch of 100, so it leaps as `tau` does; at 0.005, τ'·a₀ = 25 and it steps exactly
+        // throughout (with a default ε of 0.03 in its place it would leap).
+        for method in [Method::Tau { epsilon: eps }, Method::Auto { epsilon: eps }] {
+            let e = finals(&n, method, r, 15.0, 9);
+            if matches!(method, Method::Auto { .. }) && eps < 0.01 {
+                assert!(e.leaps == 0 && e.exact_steps > 0, "{method:?}");
+            } else {
+                assert!(e.leaps > 0, "{method:?}");
+            }
+            let w = &e.final_state[0];
+            assert!(
+                (w.mean() - 1000.0).abs() < 4.0 * (1000.0 * fano_expected / r as f64).sqrt(),
+                "mean {}",
+                w.mean()
+            );
+            let fano = w.variance() / w.mean();
+            assert!(
+                (fano - fano_expected).abs() < 4.0 * (2.0 / r as f64).sqrt() + 0.03,
+                "{method:?}: Fano {fano} vs {fano_expected}"
+            );
+        }
     }
 }
 

@@ -15,7 +15,8 @@ pub enum MethodArg {
     /// Approximate tau-leaping (Cao-Gillespie-Petzold 2006 step selection, error set by
     /// --epsilon); counts never go negative; far fewer steps than events at large copy numbers
     Tau,
-    /// Tau-leaping only where a leap replaces about 100 events or more, exact steps elsewhere
+    /// Tau-leaping (error set by --epsilon) only where a leap replaces about 100 events or
+    /// more, exact steps elsewhere
     Auto,
 }
 
@@ -32,7 +33,7 @@ pub struct SimulateArgs {
     /// Simulation method
     #[arg(long, value_enum, default_value_t = MethodArg::Direct)]
     pub method: MethodArg,
-    /// Tau-leaping error control (relative change of a reactant per leap)
+    /// Tau-leaping error control for tau and auto (relative change of a reactant per leap)
     #[arg(long, default_value_t = 0.03, value_name = "E")]
     pub epsilon: f64,
     /// Sample points evenly spaced from 0 to T inclusive
@@ -72,7 +73,9 @@ impl SimulateArgs {
                 MethodArg::Tau => Method::Tau {
                     epsilon: self.epsilon,
                 },
-                MethodArg::Auto => Method::Auto,
+                MethodArg::Auto => Method::Auto {
+                    epsilon: self.epsilon,
+                },
             },
             first_replicate: 0,
             initial: None,

@@ -36,6 +36,7 @@ fn catalogue() -> Vec<Case> {
     let mut v = vec![
         case("unknown species", "species A = 1\nstep s A -> Q @ 1\n", 2, 13, "unknown species `Q`"),
         case("duplicate species", "species A = 1\nspecies A = 2\n", 2, 9, "declared twice"),
+        case("species named time", "species A = 1\nspecies time = 2\n", 2, 9, "`time` cannot name a species"),
         case("species and param share a name", "species A = 1\nparam A = 2\n", 2, 7, "declared twice"),
         case("duplicate label", "species A = 1\nstep s A -> 0 @ 1\nstep s A -> 0 @ 2\n", 3, 6, "used twice"),
         case("label clashes with a reverse", "species A = 1\nspecies B = 0\nstep s A <-> B @ 1, 1\nstep s_rev A -> B @ 1\n", 4, 6, "`s_rev` is used twice"),

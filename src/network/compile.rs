@@ -147,6 +147,9 @@ struct Compiler<'a> {
     param_bare: Vec<bool>,
 }
 
+/// The name the reports give the grid's time axis, beside the species' names.
+pub const GRID_TIME: &str = "time";
+
 impl<'a> Compiler<'a> {
     fn diag(&self, span: Span, msg: impl Into<String>) -> Diagnostic {
         Diagnostic::at(&self.ast.file, &self.ast.source, span, msg)
@@ -247,6 +250,14 @@ impl<'a> Compiler<'a> {
                     amount,
                     clamped,
                 } => {
+                    if name.text == GRID_TIME {
+                        self.error_help(
+                            name.span,
+                            "`time` cannot name a species: the JSON reports use it for the time \
+                             axis of the grid (`grid.time`), beside the species' names",
+                            "rename the species, for example `time_` or `T`",
+                        );
+                    }
                     let initial = self.initial_count(&name.text, amount);
                     self.names
                         .insert(&name.text, Named::Species(self.species.len()));

@@ -77,7 +77,7 @@ pub fn json(net: &Network, r: &EnsembleResult) -> Value {
     }
     let mut grid = Map::new();
     grid.insert(
-        "time".into(),
+        crate::network::compile::GRID_TIME.into(),
         Value::Array(r.grid_times.iter().map(|&x| jnum(x)).collect()),
     );
     for (i, s) in net.species.iter().enumerate() {

@@ -22,15 +22,7 @@ use rand::Rng;
 use std::hint::black_box;
 use std::time::Duration;
 
-const MM: &str = "\
-species E = 100
-species S = 5000 clamped
-species C = 0
-species P = 0
-step bind E + S -> C @ 1e-3
-step unbind C -> E + S @ 1
-step cat C -> E + P @ 2
-";
+const MM: &str = include_str!("../benches/mm_clamped.crn");
 
 const T_MM: f64 = 2000.0;
 

@@ -70,11 +70,10 @@ fn random_network(n: usize, m: usize) -> String {
 }
 
 /// The motif hand-specialised: two live counts in registers, propensities recomputed from
-/// them, branch-free three-way selection, the ziggurat's fast path inline (its rare slow path
-/// is a call), no observer. Returns (events, final P) so nothing is optimised away.
-#[inline(never)]
-fn mm_specialised<R: Rng>(rng: &mut R, t_end: f64) -> (u64, i64) {
-    let zig = exp_ziggurat();
+/// them, branch-free three-way selection, no observer; `exp` draws the standard exponential.
+/// Returns (events, final P) so nothing is optimised away.
+#[inline(always)]
+fn mm_by_hand<R: Rng>(rng: &mut R, t_end: f64, exp: impl Fn(&mut R) -> f64) -> (u64, i64) {
     let (c1s, c2, c3) = (1e-3 * 5000.0, 1.0, 2.0);
     let (mut e, mut c, mut p) = (100i64, 0i64, 0i64);
     let mut t = 0.0;
@@ -83,11 +82,7 @@ fn mm_specialised<R: Rng>(rng: &mut R, t_end: f64) -> (u64, i64) {
         let a_bind = c1s * e as f64;
         let a_unbind = c2 * c as f64;
         let a0 = a_bind + (c2 + c3) * c as f64;
-        let x = match zig.fast(rng) {
-            Ok(x) => x,
-            Err(miss) => zig.finish(miss, rng),
-        };
-        t += x / a0;
+        t += exp(rng) / a0;
         if t > t_end {
             break;
         }
@@ -102,30 +97,20 @@ fn mm_specialised<R: Rng>(rng: &mut R, t_end: f64) -> (u64, i64) {
     (events, p)
 }
 
-/// As [`mm_specialised`] with the waiting time −ln(1 − u) through libm's log.
+/// [`mm_by_hand`] with the ziggurat's fast path inline (its rare slow path is a call).
+#[inline(never)]
+fn mm_specialised<R: Rng>(rng: &mut R, t_end: f64) -> (u64, i64) {
+    let zig = exp_ziggurat();
+    mm_by_hand(rng, t_end, |rng| match zig.fast(rng) {
+        Ok(x) => x,
+        Err(miss) => zig.finish(miss, rng),
+    })
+}
+
+/// [`mm_by_hand`] with the waiting time −ln(1 − u) through libm's log.
 #[inline(never)]
 fn mm_specialised_ln<R: Rng>(rng: &mut R, t_end: f64) -> (u64, i64) {
-    let (c1s, c2, c3) = (1e-3 * 5000.0, 1.0, 2.0);
-    let (mut e, mut c, mut p) = (100i64, 0i64, 0i64);
-    let mut t = 0.0;
-    let mut events = 0u64;
-    loop {
-        let a_bind = c1s * e as f64;
-        let a_unbind = c2 * c as f64;
-        let a0 = a_bind + (c2 + c3) * c as f64;
-        t += -(1.0 - uniform(rng)).ln() / a0;
-        if t > t_end {
-            break;
-        }
-        let r = uniform(rng) * a0;
-        let bind = (r < a_bind) as i64;
-        let cat = (r >= a_bind + a_unbind) as i64;
-        e += 1 - 2 * bind;
-        c -= 1 - 2 * bind;
-        p += cat;
-        events += 1;
-    }
-    (events, p)
+    mm_by_hand(rng, t_end, |rng| -(1.0 - uniform(rng)).ln())
 }
 
 fn configure() -> Criterion {

@@ -252,11 +252,7 @@ struct Small<'a, const ORDER: usize, const W: usize> {
 
 impl<const ORDER: usize, const W: usize> Channels for Small<'_, ORDER, W> {
     fn init(&mut self, x: &[i64]) -> Result<()> {
-        self.a.fill(0.0);
-        for j in 0..self.k.reactions() {
-            self.a[j] = checked(self.k, j, self.k.propensity(j, x), 0.0)?;
-        }
-        Ok(())
+        init_flat(self.k, &mut self.a[..], x)
     }
 
     #[inline(always)]
@@ -290,15 +286,9 @@ impl<const ORDER: usize, const W: usize> Channels for Small<'_, ORDER, W> {
             }
             unsafe { *self.a.get_unchecked_mut(u.d as usize) = a };
         }
-        let mut over = false;
         // SAFETY: j < reactions(); change rows name species or the constant slot, all below
         // x.len() = species + 1 (construction; checked by the caller).
-        for &(i, d) in unsafe { self.tables.change_unchecked::<W>(j) } {
-            let v = unsafe { x.get_unchecked_mut(i as usize) };
-            obs.moved(t, i as usize, *v, d);
-            *v += d;
-            over |= *v > MAX_COUNT;
-        }
+        let over = unsafe { apply(self.tables.change_unchecked::<W>(j), x, t, obs) };
         if self.tables.has_laws() {
             for &d in self.tables.law_dependents(j) {
                 // SAFETY: d < reactions() and x.len() == species + 1.
@@ -324,11 +314,7 @@ struct Dense<'a, const ORDER: usize> {
 
 impl<const ORDER: usize> Channels for Dense<'_, ORDER> {
     fn init(&mut self, x: &[i64]) -> Result<()> {
-        self.a = [0.0; LANES];
-        for j in 0..self.k.reactions() {
-            self.a[j] = checked(self.k, j, self.k.propensity(j, x), 0.0)?;
-        }
-        Ok(())
+        init_flat(self.k, &mut self.a[..], x)
     }
 
     #[inline(always)]
@@ -374,14 +360,8 @@ impl<const ORDER: usize> Channels for Dense<'_, ORDER> {
             }
             self.a[k] = a;
         }
-        let mut over = false;
-        for &(i, dx) in unsafe { d.change.get_unchecked(j) } {
-            let v = unsafe { x.get_unchecked_mut(i as usize) };
-            obs.moved(t, i as usize, *v, dx);
-            *v += dx;
-            over |= *v > MAX_COUNT;
-        }
-        over
+        // SAFETY: as for the factors.
+        unsafe { apply(d.change.get_unchecked(j), x, t, obs) }
     }
 }
 
@@ -424,14 +404,8 @@ impl Channels for Tree<'_> {
     #[inline(always)]
     fn fire<O: Observer>(&mut self, j: usize, x: &mut [i64], t: f64, obs: &mut O) -> bool {
         debug_assert!(j < self.k.reactions() && x.len() == self.k.species + 1);
-        let mut over = false;
         // SAFETY: j < reactions(); change rows name species < x.len() (construction).
-        for &(i, d) in unsafe { self.k.change_unchecked(j) } {
-            let v = unsafe { x.get_unchecked_mut(i as usize) };
-            obs.moved(t, i as usize, *v, d);
-            *v += d;
-            over |= *v > MAX_COUNT;
-        }
+        let over = unsafe { apply(self.k.change_unchecked(j), x, t, obs) };
         // SAFETY: j < reactions(); a large network's dependents are reactions (no idle
         // channel), and x.len() == species + 1.
         for &d in unsafe { self.k.dependents_unchecked(j) } {
@@ -476,6 +450,34 @@ fn block_find(a: &[f64], target: f64) -> usize {
         }
     }
     j
+}
+
+/// Sets a flat propensity array from `x`, checking each; idle entries are 0.
+fn init_flat(k: &CompiledKernel, a: &mut [f64], x: &[i64]) -> Result<()> {
+    a.fill(0.0);
+    for (j, a) in a.iter_mut().enumerate().take(k.reactions()) {
+        *a = checked(k, j, k.propensity(j, x), 0.0)?;
+    }
+    Ok(())
+}
+
+/// Applies one row of state changes to `x`, reporting each move to `obs`; true when some
+/// count passed [`MAX_COUNT`].
+///
+/// # Safety
+///
+/// Every species index of `row` is below `x.len()`.
+#[inline(always)]
+unsafe fn apply<O: Observer>(row: &[(u32, i64)], x: &mut [i64], t: f64, obs: &mut O) -> bool {
+    let mut over = false;
+    for &(i, d) in row {
+        // SAFETY: the caller's contract.
+        let v = unsafe { x.get_unchecked_mut(i as usize) };
+        obs.moved(t, i as usize, *v, d);
+        *v += d;
+        over |= *v > MAX_COUNT;
+    }
+    over
 }
 
 /// Checks a freshly computed propensity: finite and not negative.

@@ -12,9 +12,15 @@
 //! selected channel is data, not a branch the processor must guess (with three channels this
 //! runs about 30 % faster than an early-exit scan, whose exit branch is mispredicted on a large
 //! share of events). An event's rows there have one fixed width and carry their rates inline
-//! ([`SmallTables`](super::compiled::SmallTables)). From [`SMALL_BELOW`](super::compiled::SMALL_BELOW)
-//! channels on, selection goes through the sum tree of [`crate::kernel::select`], which
-//! recomputes every sum on a changed path from its children, so it never drifts either.
+//! ([`SmallTables`](super::compiled::SmallTables)); up to three mass-action reactions, the dense
+//! form keeps the propensities in registers ([`DenseTables`](super::compiled::DenseTables)).
+//! From [`SMALL_BELOW`](super::compiled::SMALL_BELOW) channels on, selection goes through the
+//! sum tree of [`crate::kernel::select`], which recomputes every sum on a changed path from its
+//! children, so it never drifts either.
+//!
+//! The loop runs in legs that contain no call: a leg ends where the observer wants to see the
+//! state ([`Observer::due`]) or where the waiting time's exponential leaves the ziggurat's
+//! fast path ([`crate::kernel::ziggurat`]); both are handled between legs.
 //!
 //! Guarantees: clamped species never change (the compiler leaves them out of the state
 //! changes); a count that would pass [`MAX_COUNT`] stops the run with an error naming the

@@ -4,14 +4,14 @@
 //!   24 bytes with `u32` indices, its number of factors matched once per evaluation); `law`
 //!   propensities stay in a side table as [`Network::propensities`] compiles them.
 //! - State changes and the dependency graph are rows of flat arrays (an offset array and a value
-//!   array). In a small network (fewer than [`SMALL_BELOW`] reactions) every row is padded to the
-//!   same length, with changes of 0 to the constant slot and with an idle channel whose
-//!   propensity is always 0, so the loops of an event have the same trip count every time and
-//!   the processor predicts them.
+//!   array).
 //! - The state buffer holds one count per species and then a slot that always holds 1.
-//! - A small network also gets [`SmallTables`]: rows of one fixed width, found by arithmetic on
-//!   the channel index, whose propensity updates carry their [`Rate`] inline, so that an event
-//!   reads no offset array and no second table.
+//! - A small network (fewer than [`SMALL_BELOW`] reactions) also gets [`SmallTables`]: rows of
+//!   one fixed width, padded with changes of 0 to the constant slot and with an idle channel
+//!   whose propensity is always 0, found by arithmetic on the channel index, whose propensity
+//!   updates carry their [`Rate`] inline, so that an event reads no offset array and no second
+//!   table, and its loops have the same trip count every time. Up to three mass-action
+//!   reactions there is a [`DenseTables`] form as well.
 
 use crate::error::{Error, Result};
 use crate::network::{Kinetics, Network, Propensity, MAX_COUNT};
@@ -65,16 +65,11 @@ struct Rows<T> {
 }
 
 impl<T: Copy> Rows<T> {
-    /// Rows from `rows`; with `pad`, every row is filled up to the longest with `pad`.
-    fn new(rows: &[Vec<T>], pad: Option<T>) -> Result<Rows<T>> {
-        let width = rows.iter().map(Vec::len).max().unwrap_or(0);
+    fn new(rows: &[Vec<T>]) -> Result<Rows<T>> {
         let mut start = vec![0u32];
         let mut values = Vec::new();
         for r in rows {
             values.extend_from_slice(r);
-            if let Some(p) = pad {
-                values.extend(std::iter::repeat_n(p, width - r.len()));
-            }
             let end = u32::try_from(values.len())
                 .map_err(|_| Error::usage("the network is too large for the kernel"))?;
             start.push(end);
@@ -113,11 +108,9 @@ pub struct CompiledKernel {
     /// One rate per reaction, then the idle channel.
     rates: Vec<Rate>,
     laws: Vec<Propensity>,
-    /// Net change of each reaction: (species, change) for non-clamped species; padding is
-    /// (constant slot, 0).
+    /// Net change of each reaction: (species, change) for non-clamped species.
     change: Rows<(u32, i64)>,
-    /// Dependency graph: reactions whose propensity may change when j fires; padding is the
-    /// idle channel.
+    /// Dependency graph: reactions whose propensity may change when j fires.
     dependents: Rows<u32>,
     small: Option<SmallTables>,
     clamped: Vec<bool>,
@@ -171,8 +164,8 @@ impl CompiledKernel {
                 "dependency graph does not match the reactions".into(),
             ));
         }
-        let change = Rows::new(&changes, small.then_some((one, 0)))?;
-        let dependents = Rows::new(&deps, small.then_some(m as u32))?;
+        let change = Rows::new(&changes)?;
+        let dependents = Rows::new(&deps)?;
         let small = match small {
             true => Some(SmallTables::new(&rates, &change, &deps, one)?),
             false => None,
@@ -207,9 +200,7 @@ impl CompiledKernel {
         self.rates.len() - 1
     }
 
-    /// Whether the rows are padded (fewer than [`SMALL_BELOW`] reactions). Then
-    /// [`CompiledKernel::dependents`] may name the idle channel `reactions()`, whose propensity
-    /// is always 0.
+    /// Whether the network has [`SmallTables`] (fewer than [`SMALL_BELOW`] reactions).
     pub fn is_small(&self) -> bool {
         self.small.is_some()
     }
@@ -275,8 +266,7 @@ impl CompiledKernel {
         self.clamped[i]
     }
 
-    /// (species, change per firing) of reaction `j`; in a small network padded with changes of
-    /// 0 to the constant slot (index `species`).
+    /// (species, change per firing) of reaction `j`.
     #[inline(always)]
     pub fn change(&self, j: usize) -> &[(u32, i64)] {
         self.change.row(j)
@@ -293,7 +283,7 @@ impl CompiledKernel {
         unsafe { self.change.row_unchecked(j) }
     }
 
-    /// Reactions whose propensity may change when `j` fires (see [`CompiledKernel::is_small`]).
+    /// Reactions whose propensity may change when `j` fires.
     #[inline(always)]
     pub fn dependents(&self, j: usize) -> &[u32] {
         self.dependents.row(j)
@@ -479,7 +469,7 @@ impl SmallTables {
                 })
                 .collect(),
             has_laws: laws.iter().any(|r| !r.is_empty()),
-            law_dependents: Rows::new(&laws, None)?,
+            law_dependents: Rows::new(&laws)?,
             dense: dense(rates, &changes, one),
         })
     }

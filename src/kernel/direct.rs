@@ -412,8 +412,7 @@ impl Channels for Tree<'_> {
         debug_assert!(j < self.k.reactions() && x.len() == self.k.species + 1);
         // SAFETY: j < reactions(); change rows name species < x.len() (construction).
         let over = unsafe { apply(self.k.change_unchecked(j), x, t, obs) };
-        // SAFETY: j < reactions(); a large network's dependents are reactions (no idle
-        // channel), and x.len() == species + 1.
+        // SAFETY: j < reactions(); dependents are reactions, and x.len() == species + 1.
         for &d in unsafe { self.k.dependents_unchecked(j) } {
             let d = d as usize;
             self.tree

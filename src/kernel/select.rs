@@ -4,7 +4,9 @@
 //!
 //! Two implementations of the same rule:
 //!
-//! - [`select_linear`]: a cumulative scan, O(M); the fastest choice for a few dozen channels.
+//! - [`select_linear`]: a cumulative scan with early exit, O(M): the plain statement of the
+//!   rule, which the tests hold the tree to. (The event loop's scan for small networks, in
+//!   [`crate::kernel::direct`], counts instead of exiting early, in blocks of four.)
 //! - [`SumTree`]: a binary tree of partial sums over a flat array, O(log M) per update and per
 //!   selection, for large networks (common practice; the same idea as a Fenwick tree).
 //!

@@ -274,9 +274,8 @@ pub struct Integrals {
     t_end: f64,
     window: f64,
     window_due: f64,
-    /// Σ t·Δx and Σ t·Δ(x²) per species, since t = 0, and a spare slot for padding entries.
-    sum_tdx: Vec<f64>,
-    sum_tdx2: Vec<f64>,
+    /// (Σ t·Δx, Σ t·Δ(x²)) per species, since t = 0, and a spare slot for padding entries.
+    sums: Vec<[f64; 2]>,
     /// x(w)·w − Σ t·Δx and x(w)²·w − Σ t·Δ(x²) at the window start w.
     at_window_x: Vec<f64>,
     at_window_x2: Vec<f64>,
@@ -292,8 +291,7 @@ impl Integrals {
             t_end,
             window,
             window_due: window,
-            sum_tdx: vec![0.0; n + 1],
-            sum_tdx2: vec![0.0; n + 1],
+            sums: vec![[0.0; 2]; n + 1],
             at_window_x: vec![0.0; n],
             at_window_x2: vec![0.0; n],
             int_x: vec![0.0; n],
@@ -320,8 +318,8 @@ impl Integrals {
         let w = self.window;
         for (i, &v) in x.iter().enumerate() {
             let v = v as f64;
-            self.at_window_x[i] = v * w - self.sum_tdx[i];
-            self.at_window_x2[i] = v * v * w - self.sum_tdx2[i];
+            self.at_window_x[i] = v * w - self.sums[i][0];
+            self.at_window_x2[i] = v * v * w - self.sums[i][1];
         }
         self.window_due = f64::INFINITY;
     }
@@ -330,8 +328,7 @@ impl Integrals {
 impl Observer for Integrals {
     fn start(&mut self, _x: &[i64]) {
         self.window_due = self.window;
-        self.sum_tdx.iter_mut().for_each(|s| *s = 0.0);
-        self.sum_tdx2.iter_mut().for_each(|s| *s = 0.0);
+        self.sums.iter_mut().for_each(|s| *s = [0.0; 2]);
     }
 
     #[inline(always)]
@@ -348,9 +345,10 @@ impl Observer for Integrals {
     #[inline(always)]
     fn moved(&mut self, t: f64, i: usize, before: i64, dx: i64) {
         let (v, d) = (before as f64, dx as f64);
-        if let (Some(s1), Some(s2)) = (self.sum_tdx.get_mut(i), self.sum_tdx2.get_mut(i)) {
-            *s1 += t * d;
-            *s2 += t * d * (2.0 * v + d);
+        if let Some(s) = self.sums.get_mut(i) {
+            let td = t * d;
+            s[0] += td;
+            s[1] += td * (2.0 * v + d);
         }
     }
 
@@ -360,8 +358,8 @@ impl Observer for Integrals {
         }
         for (i, &v) in x.iter().enumerate() {
             let v = v as f64;
-            self.int_x[i] = (v * t_end - self.sum_tdx[i]) - self.at_window_x[i];
-            self.int_x2[i] = (v * v * t_end - self.sum_tdx2[i]) - self.at_window_x2[i];
+            self.int_x[i] = (v * t_end - self.sums[i][0]) - self.at_window_x[i];
+            self.int_x2[i] = (v * v * t_end - self.sums[i][1]) - self.at_window_x2[i];
         }
     }
 }

@@ -1,19 +1,9 @@
 //! `copyloop check` on every bundled example: valid JSON with every key of CONTRACT §3.
 
-use std::process::Command;
+mod support;
 
 fn check_json(path: &str) -> serde_json::Value {
-    let out = Command::new(env!("CARGO_BIN_EXE_copyloop"))
-        .args(["check", path, "--json"])
-        .output()
-        .unwrap();
-    assert_eq!(
-        out.status.code(),
-        Some(0),
-        "{}",
-        String::from_utf8_lossy(&out.stderr)
-    );
-    serde_json::from_slice(&out.stdout).expect("valid JSON")
+    support::cli::json(&["check", path, "--json"])
 }
 
 fn examples() -> Vec<String> {
@@ -119,10 +109,7 @@ fn example_motifs_and_laws() {
 #[test]
 fn help_carries_the_research_caution() {
     for args in [vec!["--help"], vec!["check", "--help"]] {
-        let out = Command::new(env!("CARGO_BIN_EXE_copyloop"))
-            .args(&args)
-            .output()
-            .unwrap();
+        let out = support::cli::run(&args);
         let text = String::from_utf8_lossy(&out.stdout);
         assert!(
             text.contains("not a basis for diagnosis or treatment"),

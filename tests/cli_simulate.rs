@@ -1,27 +1,13 @@
 //! `copyloop simulate` through the built binary: the JSON keys of CONTRACT §3, the table, the
 //! CSV grid, thread-count independence and bad flags.
 
-use serde_json::Value;
-use std::process::{Command, Output};
+mod support;
 
-const BIN: &str = env!("CARGO_BIN_EXE_copyloop");
+use serde_json::Value;
+use support::cli::{json, run};
 
 fn example(name: &str) -> String {
     format!("{}/reactions/{name}", env!("CARGO_MANIFEST_DIR"))
-}
-
-fn run(args: &[&str]) -> Output {
-    Command::new(BIN).args(args).output().expect("run copyloop")
-}
-
-fn json(args: &[&str]) -> Value {
-    let out = run(args);
-    assert!(
-        out.status.success(),
-        "{}",
-        String::from_utf8_lossy(&out.stderr)
-    );
-    serde_json::from_slice(&out.stdout).expect("one JSON document")
 }
 
 /// The acceptance run: the enzyme example, 1000 replicates, every contract key.

@@ -102,26 +102,17 @@ fn low_copy_mean_departs_from_the_deterministic_value_as_the_master_equation_say
 fn cli_prints_every_contract_key_and_draws_the_svg() {
     let path = concat!(env!("CARGO_MANIFEST_DIR"), "/reactions/receptor_signal.crn");
     let svg = std::env::temp_dir().join(format!("copyloop-noise-{}.svg", std::process::id()));
-    let out = std::process::Command::new(env!("CARGO_BIN_EXE_copyloop"))
-        .args([
-            "noise",
-            path,
-            "--replicates",
-            "20",
-            "--volumes",
-            "1fL,4fL",
-            "--json",
-        ])
-        .args(["--svg", svg.to_str().unwrap()])
-        .output()
-        .unwrap();
-    assert_eq!(
-        out.status.code(),
-        Some(0),
-        "{}",
-        String::from_utf8_lossy(&out.stderr)
-    );
-    let j: serde_json::Value = serde_json::from_slice(&out.stdout).unwrap();
+    let j = support::cli::json(&[
+        "noise",
+        path,
+        "--replicates",
+        "20",
+        "--volumes",
+        "1fL,4fL",
+        "--json",
+        "--svg",
+        svg.to_str().unwrap(),
+    ]);
     let vols = j["volumes"].as_array().unwrap();
     assert_eq!(vols.len(), 2);
     assert!((vols[1]["volume_l"].as_f64().unwrap() - 4e-15).abs() < 1e-27);

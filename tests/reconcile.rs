@@ -1,6 +1,8 @@
 //! The reconciler against exact results: clamped-substrate Michaelis–Menten flux, ligand
 //! depletion (total QSSA), low copy number, non-stationary windows, sensitivities and fits.
 
+mod support;
+
 use copyloop::network::{load_source, Network, Overrides};
 use copyloop::reconcile::{self, parse_observation, Options, Verdict};
 
@@ -255,33 +257,21 @@ fn motifs_in_series_are_reconciled_end_to_end() {
 fn cli_prints_every_contract_key_and_draws_the_svg() {
     let path = concat!(env!("CARGO_MANIFEST_DIR"), "/reactions/gland_loop.crn");
     let svg = std::env::temp_dir().join(format!("copyloop-rec-{}.svg", std::process::id()));
-    let out = std::process::Command::new(env!("CARGO_BIN_EXE_copyloop"))
-        .args([
-            "reconcile",
-            path,
-            "--replicates",
-            "8",
-            "--t-end",
-            "300",
-            "--burn-in",
-            "50",
-        ])
-        .args([
-            "--observe",
-            "H=1.2nM+-0.1nM",
-            "--json",
-            "--svg",
-            svg.to_str().unwrap(),
-        ])
-        .output()
-        .unwrap();
-    assert_eq!(
-        out.status.code(),
-        Some(0),
-        "{}",
-        String::from_utf8_lossy(&out.stderr)
-    );
-    let j: serde_json::Value = serde_json::from_slice(&out.stdout).unwrap();
+    let j = support::cli::json(&[
+        "reconcile",
+        path,
+        "--replicates",
+        "8",
+        "--t-end",
+        "300",
+        "--burn-in",
+        "50",
+        "--observe",
+        "H=1.2nM+-0.1nM",
+        "--json",
+        "--svg",
+        svg.to_str().unwrap(),
+    ]);
     let m = &j["motifs"][0];
     for k in [
         "carrier",

@@ -1,1 +1,5 @@
+//! Helpers shared by the integration tests; each test crate uses some of them.
+#![allow(dead_code)]
+
+pub mod cli;
 pub mod cme;

@@ -22,6 +22,23 @@ fn sweep(args: &[&str]) -> Command {
     c
 }
 
+/// Resumes the sweep `args` into `out`, which must succeed; its JSON summary.
+fn resume(args: &[&str], out: &Path) -> Value {
+    let st = sweep(args)
+        .arg("--out")
+        .arg(out)
+        .arg("--resume")
+        .arg("--json")
+        .output()
+        .unwrap();
+    assert!(
+        st.status.success(),
+        "{}",
+        String::from_utf8_lossy(&st.stderr)
+    );
+    serde_json::from_slice(&st.stdout).unwrap()
+}
+
 /// The header and the point lines of a sweep file, by point; panics on a point seen twice.
 fn read(path: &Path) -> (Value, BTreeMap<u64, Value>) {
     let text = std::fs::read_to_string(path).unwrap();
@@ -96,19 +113,7 @@ fn killed_sweep_resumes_to_the_uninterrupted_result() {
         "{before} points before the kill"
     );
 
-    let st = sweep(BIG)
-        .arg("--out")
-        .arg(&part)
-        .arg("--resume")
-        .arg("--json")
-        .output()
-        .unwrap();
-    assert!(
-        st.status.success(),
-        "{}",
-        String::from_utf8_lossy(&st.stderr)
-    );
-    let summary: Value = serde_json::from_slice(&st.stdout).unwrap();
+    let summary = resume(BIG, &part);
     assert_eq!(summary["already_done"].as_u64().unwrap(), before as u64);
     assert_eq!(
         summary["written"].as_u64().unwrap(),
@@ -197,19 +202,7 @@ fn torn_last_line_is_dropped_and_redone() {
     let last_start = text[..text.len() - 1].rfind('\n').unwrap() + 1;
     let torn_at = last_start + (text.len() - last_start) / 2;
     std::fs::write(&f, &text.as_bytes()[..torn_at]).unwrap();
-    let st = sweep(SMALL)
-        .arg("--out")
-        .arg(&f)
-        .arg("--resume")
-        .arg("--json")
-        .output()
-        .unwrap();
-    assert!(
-        st.status.success(),
-        "{}",
-        String::from_utf8_lossy(&st.stderr)
-    );
-    let summary: Value = serde_json::from_slice(&st.stdout).unwrap();
+    let summary = resume(SMALL, &f);
     assert_eq!(summary["written"], 1);
     assert_eq!(summary["already_done"], 11);
     assert_eq!(read(&f).1, whole);

@@ -475,6 +475,7 @@ fn semipositive(species: &[usize], equations: &[(usize, Sparse)]) -> Option<Vec<
         }
         for &(r, _) in pos.iter().chain(&neg) {
             alive[r as usize] = false;
+            rows[r as usize].terms = Vec::new();
             count -= 1;
         }
         // Minimality of the new rows: against the rows that stay, then among themselves.

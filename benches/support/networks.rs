@@ -33,6 +33,42 @@ pub fn random(m: usize) -> String {
     src
 }
 
+/// `m` reactions over m/2 species, every species starting at 100, that stay where they start:
+/// reactions come in pairs of one step and its reverse at the same rate, three in four
+/// pairs first-order conversions Xa <-> Xb (c = 1 /s), one in four bimolecular exchanges
+/// Xa + Xb <-> Xc + Xd (c = 0.01 /s). Every pair is balanced when all counts are equal, so
+/// counts fluctuate around 100 for any length of run (detailed balance), and each species is
+/// read by about two reactions at every size: runs of a fixed number of events meet the same
+/// propensities at every size.
+pub fn stationary(m: usize) -> String {
+    let n = (m / 2).max(4);
+    let mut s = 0x2545_F491_4F6C_DD1D;
+    let mut src = String::with_capacity(40 * (n + m));
+    for i in 0..n {
+        src.push_str(&format!("species X{i} = 100\n"));
+    }
+    for j in 0..m / 2 {
+        let mut pick = |avoid: &[usize]| loop {
+            let k = draw(&mut s, n);
+            if !avoid.contains(&k) {
+                return k;
+            }
+        };
+        let a = pick(&[]);
+        let b = pick(&[a]);
+        if j % 4 == 3 {
+            let c = pick(&[a, b]);
+            let d = pick(&[a, b, c]);
+            src.push_str(&format!(
+                "step r{j} X{a} + X{b} <-> X{c} + X{d} @ 0.01, 0.01\n"
+            ));
+        } else {
+            src.push_str(&format!("step r{j} X{a} <-> X{b} @ 1, 1\n"));
+        }
+    }
+    src
+}
+
 /// A chain X0 -> X1 -> … of `n` species, each starting at 1.
 pub fn chain(n: usize) -> String {
     let mut src = String::new();

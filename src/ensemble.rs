@@ -20,7 +20,7 @@
 use crate::error::{Error, Result};
 use crate::kernel::observe::grid_times;
 use crate::kernel::rng::replicate_rng;
-use crate::kernel::tau::Tau;
+use crate::kernel::tau::{Switch, Tau};
 use crate::kernel::{CompiledKernel, Direct, Integrals, RecordSpec, Recorder};
 use crate::network::Network;
 use crate::stats::Welford;
@@ -420,10 +420,10 @@ fn run_blocks(
                     sim: match spec.method {
                         Method::Direct => Sim::Direct(Direct::new(kernel)),
                         Method::Tau { epsilon } => {
-                            Sim::Tau(Box::new(Tau::new(kernel, net, epsilon, false)))
+                            Sim::Tau(Box::new(Tau::new(kernel, net, epsilon, Switch::Tau)))
                         }
                         Method::Auto { epsilon } => {
-                            Sim::Tau(Box::new(Tau::new(kernel, net, epsilon, true)))
+                            Sim::Tau(Box::new(Tau::new(kernel, net, epsilon, Switch::Auto)))
                         }
                     },
                     observers: (

@@ -23,7 +23,7 @@ use crate::kernel::rng::replicate_rng;
 use crate::kernel::tau::{Switch, Tau};
 use crate::kernel::{CompiledKernel, Direct, Integrals, RecordSpec, Recorder};
 use crate::network::Network;
-use crate::stats::Welford;
+use crate::stats::{Bivariate, Welford};
 use std::time::Instant;
 
 /// Replicates per block, the unit of work and of merging.
@@ -154,6 +154,10 @@ pub struct EnsembleResult {
     pub time_average: Vec<Welford>,
     /// Within-replicate variance over the window, ∫x² dt / T − (∫x dt / T)², per replicate.
     pub within_variance: Vec<Welford>,
+    /// Pairs (∫x dt / T, ∫x² dt / T) over the window, per replicate: the time average and the
+    /// time-averaged square, with their covariance (for intervals on variances and Fano
+    /// factors).
+    pub time_moments: Vec<Bivariate>,
     /// Firings of each reaction in [window, t_end].
     pub firings: Vec<Welford>,
     /// Firings of each reaction in [window, (window + t_end)/2).
@@ -161,6 +165,9 @@ pub struct EnsembleResult {
     /// First-half minus second-half firings of each reaction, per replicate (a stationary
     /// window has mean 0).
     pub half_difference: Vec<Welford>,
+    /// Net change of each species over the window, x(t_end) − x(window), per replicate (0 for
+    /// clamped species): with the window length, the accumulation rate of an output.
+    pub window_change: Vec<Welford>,
     /// Grid times 0 … t_end.
     pub grid_times: Vec<f64>,
     /// `grid[p][i]`: count of species i at grid point p.
@@ -188,9 +195,13 @@ impl EnsembleResult {
             (&mut self.firings, &other.firings),
             (&mut self.firings_first_half, &other.firings_first_half),
             (&mut self.half_difference, &other.half_difference),
+            (&mut self.window_change, &other.window_change),
         ];
         for (a, b) in pairs {
             a.iter_mut().zip(b).for_each(|(a, b)| a.merge(b));
+        }
+        for (a, b) in self.time_moments.iter_mut().zip(&other.time_moments) {
+            a.merge(b);
         }
         for (a, b) in self.grid.iter_mut().zip(&other.grid) {
             a.iter_mut().zip(b).for_each(|(a, b)| a.merge(b));
@@ -223,9 +234,11 @@ struct Partial {
     final_state: Vec<Welford>,
     time_average: Vec<Welford>,
     within_variance: Vec<Welford>,
+    time_moments: Vec<Bivariate>,
     firings: Vec<Welford>,
     firings_first_half: Vec<Welford>,
     half_difference: Vec<Welford>,
+    window_change: Vec<Welford>,
     grid: Vec<Vec<Welford>>,
     finals: Vec<Vec<i64>>,
     events: u64,
@@ -240,9 +253,11 @@ impl Partial {
             final_state: vec![Welford::new(); species],
             time_average: vec![Welford::new(); species],
             within_variance: vec![Welford::new(); species],
+            time_moments: vec![Bivariate::new(); species],
             firings: vec![Welford::new(); reactions],
             firings_first_half: vec![Welford::new(); reactions],
             half_difference: vec![Welford::new(); reactions],
+            window_change: vec![Welford::new(); species],
             grid: vec![vec![Welford::new(); species]; points],
             finals: Vec::new(),
             events: 0,
@@ -252,13 +267,30 @@ impl Partial {
         }
     }
 
-    fn push(&mut self, (rec, int): &(Recorder, Integrals), last: &[i64], keep_final: bool) {
+    fn push(
+        &mut self,
+        kernel: &CompiledKernel,
+        (rec, int): &(Recorder, Integrals),
+        last: &[i64],
+        keep_final: bool,
+    ) {
         let t = int.window_length();
+        let mut change = vec![0i64; last.len()];
+        for (j, &n) in rec.firings().iter().enumerate() {
+            for &(i, d) in kernel.change(j) {
+                change[i as usize] += d * n as i64;
+            }
+        }
+        for (w, c) in self.window_change.iter_mut().zip(change) {
+            w.push(c as f64);
+        }
         for (i, &v) in last.iter().enumerate() {
             self.final_state[i].push(v as f64);
             let mean = int.x()[i] / t;
+            let square = int.x2()[i] / t;
             self.time_average[i].push(mean);
-            self.within_variance[i].push((int.x2()[i] / t - mean * mean).max(0.0));
+            self.time_moments[i].push(mean, square);
+            self.within_variance[i].push(within_variance(mean, square));
         }
         for (j, (&n, &h)) in rec
             .firings()
@@ -281,6 +313,9 @@ impl Partial {
     }
 
     fn merge(&mut self, o: Partial) {
+        for (a, b) in self.time_moments.iter_mut().zip(&o.time_moments) {
+            a.merge(b);
+        }
         let pairs = [
             (&mut self.final_state, &o.final_state),
             (&mut self.time_average, &o.time_average),
@@ -288,6 +323,7 @@ impl Partial {
             (&mut self.firings, &o.firings),
             (&mut self.firings_first_half, &o.firings_first_half),
             (&mut self.half_difference, &o.half_difference),
+            (&mut self.window_change, &o.window_change),
         ];
         for (a, b) in pairs {
             a.iter_mut().zip(b).for_each(|(a, b)| a.merge(b));
@@ -300,6 +336,19 @@ impl Partial {
         self.leaps += o.leaps;
         self.exact_steps += o.exact_steps;
         self.absorbed += o.absorbed;
+    }
+}
+
+/// The variance within one replicate's window, ⟨x²⟩ − ⟨x⟩², from its time average and time-
+/// averaged square. A difference below the rounding of the two terms (64 ulps of ⟨x⟩²) is
+/// indistinguishable from 0 in f64 and is reported as 0, so that a count that never moves has
+/// variance 0, not rounding noise.
+fn within_variance(mean: f64, square: f64) -> f64 {
+    let v = square - mean * mean;
+    if v <= 64.0 * f64::EPSILON * mean * mean {
+        0.0
+    } else {
+        v
     }
 }
 
@@ -344,7 +393,7 @@ fn run_block(
             }
         };
         part.absorbed += u64::from(absorbed);
-        part.push(&ws.observers, state, spec.keep_finals);
+        part.push(kernel, &ws.observers, state, spec.keep_finals);
         if let Some(b) = bar {
             b.inc(1);
         }
@@ -377,9 +426,11 @@ pub fn run(net: &Network, spec: &EnsembleSpec) -> Result<EnsembleResult> {
         final_state: total.final_state,
         time_average: total.time_average,
         within_variance: total.within_variance,
+        time_moments: total.time_moments,
         firings: total.firings,
         firings_first_half: total.firings_first_half,
         half_difference: total.half_difference,
+        window_change: total.window_change,
         grid_times,
         grid: total.grid,
         finals: spec.keep_finals.then_some(total.finals),

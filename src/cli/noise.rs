@@ -76,25 +76,20 @@ pub(crate) fn document(a: &NoiseArgs, p: &crate::sweep::Point) -> Result<serde_j
         progress: false,
         ..options(a)?
     };
-    Ok(report::noise::json(
-        &p.net.file,
-        p.seed,
-        &noise::noise(p.net, &opts)?,
-    ))
+    Ok(report::noise::json(&noise::noise(p.net, &opts)?))
 }
 
 pub fn run(a: &NoiseArgs) -> Result<()> {
     let net = load(&a.file, &Overrides::default())?;
     super::print_warnings(&net);
     let opts = options(a)?;
-    let vols = noise::noise(&net, &opts)?;
+    let result = noise::noise(&net, &opts)?;
     if let Some(path) = &a.svg {
-        std::fs::write(path, report::noise::svg(&net.file, &vols))
-            .map_err(|e| Error::io(path, e))?;
+        std::fs::write(path, report::noise::svg(&result)).map_err(|e| Error::io(path, e))?;
     }
     if a.json {
-        super::print_json(&report::noise::json(&net.file, a.seed, &vols))
+        super::print_json(&report::noise::json(&result))
     } else {
-        super::print_stdout(&report::noise::table(&net.file, &vols))
+        super::print_stdout(&report::noise::table(&result))
     }
 }

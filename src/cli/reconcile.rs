@@ -33,6 +33,10 @@ pub struct ReconcileArgs {
     /// Most replicates --precision may use
     #[arg(long, default_value_t = 20_000)]
     pub max_replicates: u64,
+    /// A prediction agrees with the ensemble when the 95 % interval of their relative
+    /// difference lies within ±REL (0.05: 5 %)
+    #[arg(long, default_value_t = reconcile::DEFAULT_TOLERANCE, value_name = "REL")]
+    pub tolerance: f64,
     /// Start every replicate from the file's initial state (default: the rounded steady state)
     #[arg(long)]
     pub from_initial: bool,
@@ -64,11 +68,13 @@ fn options(a: &ReconcileArgs, net: &crate::Network) -> Result<Options> {
         burn_in: a.burn_in,
         precision: a.precision,
         max_replicates: a.max_replicates,
+        tolerance: a.tolerance,
         observations,
         fit: a.fit.clone(),
         from_initial: a.from_initial,
         progress: std::io::stderr().is_terminal(),
     };
+    opts.validate()?;
     Ok(opts)
 }
 
@@ -80,10 +86,9 @@ pub(crate) fn document(a: &ReconcileArgs, p: &crate::sweep::Point) -> Result<ser
         progress: false,
         ..options(a, p.net)?
     };
-    Ok(report::reconcile::json(
-        p.net,
-        &reconcile::reconcile(p.net, &opts)?,
-    ))
+    Ok(report::reconcile::json(&reconcile::reconcile(
+        p.net, &opts,
+    )?))
 }
 
 pub fn run(a: &ReconcileArgs) -> Result<()> {
@@ -95,7 +100,7 @@ pub fn run(a: &ReconcileArgs) -> Result<()> {
         std::fs::write(path, report::reconcile::svg(&net, &r)).map_err(|e| Error::io(path, e))?;
     }
     if a.json {
-        super::print_json(&report::reconcile::json(&net, &r))
+        super::print_json(&report::reconcile::json(&r))
     } else {
         super::print_stdout(&report::reconcile::table(&net, &r))
     }

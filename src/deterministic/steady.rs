@@ -161,6 +161,19 @@ pub struct Steady {
     /// Time integrated (s) and accepted ODE steps, 0 when no integration ran.
     pub integrated_time: f64,
     pub ode_steps: usize,
+    /// The species that only accumulate ([`Network::outputs`]), with their rates at the steady
+    /// state of the rest; their entries in `conc` and `counts` hold their initial amount.
+    pub outputs: Vec<Accumulation>,
+}
+
+/// A species that only accumulates, and how fast.
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub struct Accumulation {
+    pub species: usize,
+    /// d[X]/dt (concentration per second; molecules per second without a volume).
+    pub rate: f64,
+    /// dx/dt in molecules per second.
+    pub rate_per_s: f64,
 }
 
 impl Steady {
@@ -451,7 +464,34 @@ fn slowest_time(ev: &[Complex<f64>]) -> f64 {
 }
 
 /// Finds the steady state reached from the network's initial state.
+///
+/// Species that only accumulate ([`Network::outputs`]) are held at their initial amount while
+/// the rest is solved, and reported with their accumulation rate Σⱼ S_ij·vⱼ at that state.
 pub fn solve(net: &Network, opts: &SteadyOptions) -> Result<Steady> {
+    let outputs = net.outputs();
+    if outputs.is_empty() {
+        return solve_closed(net, opts);
+    }
+    let mut st = solve_closed(&net.holding(&outputs), opts)?;
+    st.outputs = outputs
+        .iter()
+        .map(|&i| {
+            let rate: f64 = net.stoichiometry[i]
+                .iter()
+                .zip(&st.rates)
+                .map(|(&s, v)| s as f64 * v)
+                .sum();
+            Accumulation {
+                species: i,
+                rate,
+                rate_per_s: rate * net.omega,
+            }
+        })
+        .collect();
+    Ok(st)
+}
+
+fn solve_closed(net: &Network, opts: &SteadyOptions) -> Result<Steady> {
     let sys = System::new(net);
     let y0 = sys.initial();
     let red = Reduction::new(&sys);
@@ -714,6 +754,7 @@ fn finish(
         method,
         integrated_time,
         ode_steps,
+        outputs: Vec::new(),
     })
 }
 

@@ -23,6 +23,7 @@ use crate::kernel::rng::replicate_rng;
 use crate::kernel::tau::{Switch, Tau};
 use crate::kernel::{CompiledKernel, Direct, Integrals, RecordSpec, Recorder};
 use crate::network::Network;
+use crate::numbers::plain;
 use crate::stats::{Bivariate, Welford};
 use std::time::Instant;
 
@@ -31,6 +32,17 @@ pub const BLOCK: u64 = 16;
 
 /// Blocks per thread in one wave of parallel work.
 const WAVE_PER_THREAD: usize = 8;
+
+/// Memory the block accumulators of one wave may take, in bytes (at least one block per
+/// thread is always in flight).
+const WAVE_MEMORY: usize = 512 << 20;
+
+/// Most grid points an ensemble records (each costs one count per species per thread, and one
+/// accumulator per species in every block in flight).
+pub const MAX_GRID_POINTS: usize = 1_000_000;
+
+/// Most worker threads an ensemble starts.
+pub const MAX_THREADS: usize = 1024;
 
 /// The default ε of `tau` and `auto` (`--epsilon`).
 pub const DEFAULT_EPSILON: f64 = 0.03;
@@ -104,39 +116,63 @@ impl EnsembleSpec {
         }
     }
 
-    /// Checks every value; a bad one is a usage error naming the option.
+    /// Checks every value; a bad one is an [`Error::Invalid`] naming the field.
     pub fn validate(&self) -> Result<()> {
         if !(self.t_end > 0.0 && self.t_end.is_finite()) {
-            return Err(Error::usage(format!(
-                "--t-end must be a finite time above 0 seconds, got {}",
-                self.t_end
-            )));
+            return Err(Error::invalid(
+                "t_end",
+                format!(
+                    "the end time must be a finite time above 0 s, got {} s",
+                    plain(self.t_end)
+                ),
+            ));
         }
         if self.replicates == 0 {
-            return Err(Error::usage("--replicates must be at least 1"));
+            return Err(Error::invalid(
+                "replicates",
+                "at least 1 replicate is needed",
+            ));
         }
-        if self.grid_points < 2 {
-            return Err(Error::usage(format!(
-                "--grid must be at least 2 (the points 0 and t-end), got {}",
-                self.grid_points
-            )));
+        if !(2..=MAX_GRID_POINTS).contains(&self.grid_points) {
+            return Err(Error::invalid(
+                "grid_points",
+                format!(
+                    "the grid needs 2 to {MAX_GRID_POINTS} points (0 and the end time included), got {}",
+                    self.grid_points
+                ),
+            ));
         }
         if !(self.window >= 0.0 && self.window < self.t_end) {
-            return Err(Error::usage(format!(
-                "--window must satisfy 0 <= window < t-end ({}), got {}",
-                self.t_end, self.window
-            )));
+            return Err(Error::invalid(
+                "window",
+                format!(
+                    "the measurement window must start at or after 0 s and before the end time ({} s), got {} s",
+                    plain(self.t_end),
+                    plain(self.window)
+                ),
+            ));
         }
-        if self.threads == Some(0) {
-            return Err(Error::usage("--threads must be at least 1"));
+        match self.threads {
+            Some(0) => return Err(Error::invalid("threads", "at least 1 thread is needed")),
+            Some(n) if n > MAX_THREADS => {
+                return Err(Error::invalid(
+                    "threads",
+                    format!("at most {MAX_THREADS} threads, got {n}"),
+                ))
+            }
+            _ => {}
         }
         match self.method {
             Method::Tau { epsilon } | Method::Auto { epsilon }
                 if !(epsilon > 0.0 && epsilon < 1.0) =>
             {
-                Err(Error::usage(format!(
-                    "--epsilon must lie strictly between 0 and 1, got {epsilon}"
-                )))
+                Err(Error::invalid(
+                    "epsilon",
+                    format!(
+                        "ε must lie strictly between 0 and 1, got {}",
+                        plain(epsilon)
+                    ),
+                ))
             }
             _ => Ok(()),
         }
@@ -459,7 +495,12 @@ fn run_blocks(
 ) -> Result<Partial> {
     use rayon::prelude::*;
     let blocks = spec.replicates.div_ceil(BLOCK);
-    let wave = (rayon::current_num_threads() * WAVE_PER_THREAD) as u64;
+    // A wave holds one block's accumulators per block in flight: fewer blocks per thread when
+    // the grid makes them large (the results do not depend on the wave size).
+    let threads = rayon::current_num_threads();
+    let block_bytes = (spec.grid_points * kernel.species).max(1) * std::mem::size_of::<Welford>();
+    let by_memory = (WAVE_MEMORY / block_bytes).max(threads);
+    let wave = (threads * WAVE_PER_THREAD).min(by_memory) as u64;
     let mut total = Partial::new(kernel.species, kernel.reactions(), spec.grid_points);
     let mut start = 0u64;
     while start < blocks {

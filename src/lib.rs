@@ -38,6 +38,7 @@ pub mod error;
 pub mod kernel;
 pub mod network;
 pub mod noise;
+pub mod numbers;
 pub mod reconcile;
 pub mod report;
 pub mod serial;

@@ -210,7 +210,7 @@ fn fit_recovers_the_param_behind_a_synthetic_observation() {
         .unwrap();
     let st = copyloop::deterministic::solve(&changed, &Default::default()).unwrap();
     let h = n.species_index("H").unwrap();
-    let text = format!("H={}±20", st.counts[h]);
+    let text = format!("H={} molecules±20 molecules", st.counts[h]);
     let o = parse_observation(&text, &n).unwrap();
     let r = reconcile::reconcile(
         &n,

@@ -15,11 +15,12 @@ pub struct ReconcileArgs {
     /// Replicate trajectories (the first batch, with --precision)
     #[arg(long, default_value_t = 200)]
     pub replicates: u64,
-    /// End time of each trajectory in seconds (default: burn-in + 20 relaxation times)
-    #[arg(long)]
+    /// End time of each trajectory, e.g. 3600 or 1h (bare: seconds; default: burn-in + 20
+    /// relaxation times)
+    #[arg(long, value_parser = super::values::time, allow_negative_numbers = true)]
     pub t_end: Option<f64>,
     /// Fluxes and levels are measured over [burn-in, t-end] (default: 5 relaxation times)
-    #[arg(long)]
+    #[arg(long, value_parser = super::values::time, allow_negative_numbers = true)]
     pub burn_in: Option<f64>,
     /// Observed steady level NAME=VALUE[±SD], e.g. H=2nM±0.2nM (`+-` may stand for `±`); repeatable
     #[arg(long, value_name = "NAME=VALUE[±SD]")]
@@ -86,9 +87,9 @@ pub(crate) fn document(a: &ReconcileArgs, p: &crate::sweep::Point) -> Result<ser
         progress: false,
         ..options(a, p.net)?
     };
-    Ok(report::reconcile::json(&reconcile::reconcile(
-        p.net, &opts,
-    )?))
+    let result = reconcile::reconcile(p.net, &opts)
+        .map_err(|e| super::values::with_flags(e, super::values::STATIONARY_FLAGS))?;
+    Ok(report::reconcile::json(&result))
 }
 
 pub fn run(a: &ReconcileArgs) -> Result<()> {

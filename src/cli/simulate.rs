@@ -24,8 +24,8 @@ pub enum MethodArg {
 pub struct SimulateArgs {
     /// Network file (.crn)
     pub file: String,
-    /// End time of every trajectory, in seconds
-    #[arg(long, value_name = "T")]
+    /// End time of every trajectory: a time such as 600, 10min or 2h (bare: seconds)
+    #[arg(long, value_name = "T", value_parser = super::values::time, allow_negative_numbers = true)]
     pub t_end: f64,
     /// Number of independent trajectories
     #[arg(long, default_value_t = 1, value_name = "N")]
@@ -39,8 +39,8 @@ pub struct SimulateArgs {
     /// Sample points evenly spaced from 0 to T inclusive
     #[arg(long, default_value_t = 101, value_name = "K")]
     pub grid: usize,
-    /// Start of the window for firing counts and time averages, in seconds
-    #[arg(long, default_value_t = 0.0, value_name = "T0")]
+    /// Start of the window for firing counts and time averages (bare: seconds)
+    #[arg(long, default_value = "0", value_name = "T0", value_parser = super::values::time, allow_negative_numbers = true)]
     pub window: f64,
     /// Write the grid (mean and sd of every species at every sample time) as CSV
     #[arg(long, value_name = "F.csv")]
@@ -91,7 +91,9 @@ pub(crate) fn document(a: &SimulateArgs, p: &crate::sweep::Point) -> Result<serd
         progress: false,
         ..a.spec()
     };
-    Ok(report::simulate::json(p.net, &ensemble::run(p.net, &spec)?))
+    let result = ensemble::run(p.net, &spec)
+        .map_err(|e| super::values::with_flags(e, super::values::SIMULATE_FLAGS))?;
+    Ok(report::simulate::json(p.net, &result))
 }
 
 pub fn run(a: &SimulateArgs) -> Result<()> {

@@ -28,6 +28,7 @@ use super::ode::{Integrator, OdeFailure, OdeOptions};
 use super::reduce::Reduction;
 use super::system::System;
 use crate::network::Network;
+use crate::numbers::short;
 use crate::{Error, Result};
 use nalgebra::{Complex, DMatrix, DVector, Schur};
 
@@ -497,11 +498,8 @@ fn solve_closed(net: &Network, opts: &SteadyOptions) -> Result<Steady> {
     let red = Reduction::new(&sys);
     let totals = red.totals(&y0);
     let v0 = sys.rates(&y0);
-    if v0.iter().any(|v| !v.is_finite()) {
-        return Err(Error::usage(format!(
-            "{}: a rate is not a finite number at the initial state, so no steady state can be computed",
-            net.file
-        )));
+    if let Some(j) = v0.iter().position(|v| !v.is_finite()) {
+        return Err(bad_rate(net, j, v0[j], "at the initial state"));
     }
     let g_ref = sys.gross(&v0).into_iter().fold(0.0, f64::max);
     let top0 = y0.iter().fold(0.0f64, |m, x| m.max(x.abs()));
@@ -725,6 +723,11 @@ fn finish(
     let rates = sys.rates(&y);
     let f = sys.rhs_from_rates(&rates);
     let gmax = sys.gross(&rates).into_iter().fold(ctx.g_ref, f64::max);
+    // A law may go negative where mass action cannot; the stochastic kernels refuse such a
+    // rate, and so does the steady state (beyond rounding of the largest turnover).
+    if let Some(j) = (0..rates.len()).find(|&j| rates[j] < -1e-9 * gmax.max(f64::MIN_POSITIVE)) {
+        return Err(bad_rate(net, j, rates[j], "at the steady state"));
+    }
     let max_abs = f.iter().fold(0.0f64, |m, x| m.max(x.abs()));
     let relative = if gmax > 0.0 { max_abs / gmax } else { 0.0 };
     let jr = ctx.red.reduced_jacobian(&sys.jacobian(&y));
@@ -927,17 +930,6 @@ fn rate_text(net: &Network, rate: f64) -> String {
     }
 }
 
-fn short(x: f64) -> String {
-    if x == 0.0 {
-        "0".into()
-    } else if (1e-3..1e6).contains(&x.abs()) {
-        let s = format!("{x:.4}");
-        s.trim_end_matches('0').trim_end_matches('.').to_string()
-    } else {
-        format!("{x:.3e}")
-    }
-}
-
 /// Where the algebraic steady state exists only with a negative concentration: a sentence
 /// naming it, and the conservation law it breaks if it belongs to one.
 fn negative_root_note(ctx: &Ctx, starts: &[&[f64]]) -> Option<String> {
@@ -1070,6 +1062,26 @@ fn no_steady_state_because(
         }
     };
     Error::Usage(msg)
+}
+
+/// A rate that is negative or not finite, located at its step.
+fn bad_rate(net: &Network, j: usize, v: f64, where_: &str) -> Error {
+    let r = &net.reactions[j];
+    let d = crate::error::Diagnostic::at(
+        &net.file,
+        &net.source.source,
+        r.span,
+        format!(
+            "step `{}`: its rate is {} {where_}; a rate must be finite and not negative",
+            r.label,
+            rate_text(net, v)
+        ),
+    )
+    .with_help(
+        "check the law for a subtraction or division that can go below zero or blow up \
+         (e.g. write `max(0, 3 - A)` or use sat/inhib)",
+    );
+    Error::Input(vec![d])
 }
 
 fn negative_during_run(ctx: &Ctx, slot: usize, value: f64, t: f64) -> Error {

@@ -40,6 +40,7 @@ pub mod network;
 pub mod noise;
 pub mod reconcile;
 pub mod report;
+pub mod sbml;
 pub mod stationary;
 pub mod stats;
 pub mod sweep;

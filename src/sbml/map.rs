@@ -215,7 +215,7 @@ fn supported(doc: &Document) -> Result<(), SbmlError> {
                 "species",
                 Some(&s.id),
                 s.loc,
-                "substance units other than items or dimensionless (mole-based amounts are converted with the network extension)",
+                "substance units that are not items or dimensionless, or not declared (mole-based amounts are converted with the network extension)",
             ));
         }
     }
@@ -223,14 +223,12 @@ fn supported(doc: &Document) -> Result<(), SbmlError> {
 }
 
 /// Whether the substance unit of a species (its own, else the model's, else Level 2's default
-/// `substance` = mole) counts items.
+/// `substance`, which is mole unless the model redefines it) counts items. A Level 3 model that
+/// declares no substance unit has amounts of no known unit, which are not read as counts.
 fn substance_is_items(m: &Model, level: u32, own: Option<&str>) -> bool {
-    let unit =
-        own.or(m.substance_units.as_deref())
-            .or(if level == 2 { Some("substance") } else { None });
-    let Some(unit) = unit else {
-        // Level 3 without substance units: amounts are read as counts.
-        return true;
+    let default = (level == 2).then_some("substance");
+    let Some(unit) = own.or(m.substance_units.as_deref()).or(default) else {
+        return false;
     };
     if let Some(d) = m.unit_definitions.iter().find(|d| d.id == unit) {
         return matches!(d.units.as_slice(), [u] if (u.kind == "item" || u.kind == "dimensionless")
@@ -260,6 +258,19 @@ impl Context<'_> {
         }
     }
 
+    /// Whether a rule or an event changes `id` during the run.
+    fn varied(&self, id: &str) -> bool {
+        self.m
+            .rules
+            .iter()
+            .any(|r| r.variable.as_deref() == Some(id))
+            || self
+                .m
+                .events
+                .iter()
+                .any(|e| e.assignments.iter().any(|a| a.variable == id))
+    }
+
     /// One side of a reaction: (species, whole stoichiometry) in file order.
     fn side(
         &self,
@@ -271,7 +282,8 @@ impl Context<'_> {
         let refs = if products { &r.products } else { &r.reactants };
         let mut out: Vec<(usize, u32, Loc)> = Vec::new();
         for (k, s) in refs.iter().enumerate() {
-            if s.stoichiometry_math.is_some() || !s.constant {
+            let varied = s.id.as_deref().is_some_and(|id| self.varied(id));
+            if s.stoichiometry_math.is_some() || varied {
                 return Err(not_yet(
                     "speciesReference",
                     Some(&r.id),

@@ -89,7 +89,8 @@ pub enum ErrorKind {
 /// One error of the importer.
 #[derive(Clone, Debug, PartialEq, Serialize)]
 pub struct SbmlError {
-    pub kind: ErrorKind,
+    /// Boxed, so that results carrying an error stay small.
+    pub kind: Box<ErrorKind>,
     /// The XML element's local name (`species`, `apply`, …).
     pub element: String,
     /// The SBML id of the element, or of the nearest enclosing element that has one.
@@ -100,7 +101,7 @@ pub struct SbmlError {
 impl SbmlError {
     pub fn new(kind: ErrorKind, element: &str, id: Option<&str>, loc: Loc) -> SbmlError {
         SbmlError {
-            kind,
+            kind: Box::new(kind),
             element: element.to_string(),
             id: id.map(str::to_string),
             loc,
@@ -122,7 +123,7 @@ impl SbmlError {
     }
 
     fn help(&self) -> Option<String> {
-        match &self.kind {
+        match &*self.kind {
             ErrorKind::TooLarge { .. } => {
                 Some("split the model, or remove large annotations and notes".into())
             }
@@ -153,7 +154,7 @@ impl fmt::Display for SbmlError {
             Some(id) => format!("<{}> `{id}`", self.element),
             None => format!("<{}>", self.element),
         };
-        match &self.kind {
+        match &*self.kind {
             ErrorKind::TooLarge { bytes, limit } => write!(
                 f,
                 "the file is {bytes} bytes; copyloop reads SBML files of up to {limit} bytes"

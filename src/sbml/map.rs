@@ -345,7 +345,7 @@ impl Context<'_> {
             species: name(&self.m.species[i].id, loc),
             span: span(loc),
         };
-        let mass = self.monomial(law, &locals, r)?.filter(|mo| {
+        let mass = self.monomial(law, &locals)?.filter(|mo| {
             let mut want: Vec<usize> = reactants.iter().filter(|e| e.1 == 1).map(|e| e.0).collect();
             let mut got = mo.species.clone();
             want.sort_unstable();
@@ -429,7 +429,6 @@ impl Context<'_> {
         &self,
         m: &Math,
         locals: &HashMap<&str, (Option<f64>, Loc)>,
-        r: &Reaction,
     ) -> Result<Option<Monomial>, SbmlError> {
         let one = || Monomial {
             factor: 1.0,
@@ -484,7 +483,7 @@ impl Context<'_> {
             MathKind::Apply(Op::Times, args) => {
                 let mut acc = one();
                 for a in args {
-                    match self.monomial(a, locals, r)? {
+                    match self.monomial(a, locals)? {
                         Some(x) => acc = times(acc, x),
                         None => return Ok(None),
                     }
@@ -493,8 +492,8 @@ impl Context<'_> {
             }
             MathKind::Apply(Op::Divide, args) => {
                 let (Some(a), Some(b)) = (
-                    self.monomial(&args[0], locals, r)?,
-                    self.monomial(&args[1], locals, r)?,
+                    self.monomial(&args[0], locals)?,
+                    self.monomial(&args[1], locals)?,
                 ) else {
                     return Ok(None);
                 };

@@ -272,12 +272,15 @@ pub fn read(xml: &Xml, math: Node, owner: Option<&str>) -> Result<Option<Math>, 
     body.map(|b| r.expr(b, 0)).transpose()
 }
 
+/// A function definition's bound variables and body.
+pub type Lambda = (Vec<String>, Option<Math>);
+
 /// Reads the `lambda` inside a function definition's `<math>`: its bound variables and body.
 pub fn read_lambda(
     xml: &Xml,
     math: Node,
     owner: Option<&str>,
-) -> Result<Option<(Vec<String>, Option<Math>)>, SbmlError> {
+) -> Result<Option<Lambda>, SbmlError> {
     let r = Reader { xml, owner };
     r.check_math_element(math)?;
     let Some(mut node) = r.single_child(math)? else {
@@ -829,4 +832,36 @@ fn write_list(a: &[Math], f: &mut fmt::Formatter<'_>) -> fmt::Result {
         write!(f, "{x}")?;
     }
     Ok(())
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn parse(body: &str) -> Math {
+        let text = format!(r#"<math xmlns="{MATHML_NS}">{body}</math>"#);
+        let x = Xml::parse(&text).unwrap();
+        read(&x, x.doc.root_element(), None).unwrap().unwrap()
+    }
+
+    #[test]
+    fn formulas_print_with_the_parentheses_they_need() {
+        let m = parse(
+            "<apply><divide/><apply><times/><ci>k</ci><ci>S</ci></apply>\
+             <apply><plus/><ci>K</ci><ci>S</ci></apply></apply>",
+        );
+        assert_eq!(m.to_string(), "k * S / (K + S)");
+        let m =
+            parse("<apply><minus/><ci>a</ci><apply><minus/><ci>b</ci><ci>c</ci></apply></apply>");
+        assert_eq!(m.to_string(), "a - (b - c)");
+        let m = parse("<apply><power/><apply><minus/><ci>x</ci></apply><cn>2</cn></apply>");
+        assert_eq!(m.to_string(), "(-x)^2");
+    }
+
+    #[test]
+    fn positions_are_those_of_the_elements() {
+        let m = parse("\n  <apply><plus/>\n    <ci> a </ci><cn>1</cn></apply>");
+        assert_eq!((m.loc.line, m.loc.col), (2, 3));
+        assert_eq!((m.children()[0].loc.line, m.children()[0].loc.col), (3, 5));
+    }
 }

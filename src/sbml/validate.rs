@@ -393,7 +393,7 @@ impl<'m> Validator<'m> {
         }
     }
 
-    /// Every identifier in every formula resolves.
+    /// Every identifier in every formula resolves; `delay` and `rateOf` are refused.
     fn formulas(&mut self, symbols: &HashMap<&str, Symbol>) {
         let m = self.model;
         let global = |id: &str| {
@@ -411,6 +411,14 @@ impl<'m> Validator<'m> {
         let check =
             |me: &mut Self, math: &Math, owner: Option<&str>, local: &dyn Fn(&str) -> bool| {
                 math.visit(&mut |n| {
+                    let construct = match n.kind {
+                        MathKind::Delay(..) => Some(Construct::DelayFunction),
+                        MathKind::RateOf(..) => Some(Construct::RateOf),
+                        _ => None,
+                    };
+                    if let Some(construct) = construct {
+                        me.error(ErrorKind::Unsupported { construct }, "apply", owner, n.loc);
+                    }
                     if let MathKind::Ident(id) = &n.kind {
                         if !local(id) && !global(id) {
                             let what = match symbols.get(id.as_str()) {
@@ -500,17 +508,6 @@ impl<'m> Validator<'m> {
                     r.loc,
                 );
             }
-        }
-        let mut found: Vec<(Construct, Loc)> = Vec::new();
-        for x in m.maths() {
-            x.visit(&mut |n| match n.kind {
-                MathKind::Delay(..) => found.push((Construct::DelayFunction, n.loc)),
-                MathKind::RateOf(..) => found.push((Construct::RateOf, n.loc)),
-                _ => {}
-            });
-        }
-        for (construct, loc) in found {
-            self.error(ErrorKind::Unsupported { construct }, "csymbol", None, loc);
         }
     }
 

@@ -125,14 +125,14 @@ impl Outcome {
 fn first(errs: &[SbmlError]) -> Outcome {
     if let Some(e) = errs
         .iter()
-        .find(|e| matches!(e.kind, ErrorKind::Unsupported { .. }))
+        .find(|e| matches!(*e.kind, ErrorKind::Unsupported { .. }))
     {
-        if let ErrorKind::Unsupported { construct } = &e.kind {
+        if let ErrorKind::Unsupported { construct } = &*e.kind {
             return Outcome::Refused(construct.clone(), e.to_string());
         }
     }
     let e = &errs[0];
-    match &e.kind {
+    match &*e.kind {
         ErrorKind::NotYet { .. } => Outcome::NotYet(e.to_string()),
         _ => Outcome::Error(format!("line {}: {e}", e.loc.line)),
     }

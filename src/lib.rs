@@ -41,6 +41,7 @@ pub mod noise;
 pub mod numbers;
 pub mod reconcile;
 pub mod report;
+pub mod sbml;
 pub mod serial;
 pub mod stationary;
 pub mod stats;

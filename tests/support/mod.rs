@@ -3,3 +3,4 @@
 
 pub mod cli;
 pub mod cme;
+pub mod sbml_suite;

@@ -54,6 +54,12 @@ impl Diagnostic {
             .lines()
             .nth(span.line.saturating_sub(1) as usize)
             .unwrap_or("");
+        Diagnostic::on_line(file, line, span, message)
+    }
+
+    /// A diagnostic at `span`, given the text of its line (for callers that index the lines
+    /// once instead of scanning the file for every message).
+    pub fn on_line(file: &str, line: &str, span: Span, message: impl Into<String>) -> Diagnostic {
         let (snippet, snippet_col) = excerpt(line, span.col as usize);
         Diagnostic {
             file: file.to_string(),

@@ -10,10 +10,10 @@
 //! - A `law` is the whole rate: concentration per time where a volume is set (or molecules per
 //!   time if its units say so), molecules per time where none is.
 
-use super::analysis;
 use super::expr::{self, Resolved};
 use super::parser::{self, Ast, Item, Literal, Operand, Rate, Step, Term};
 use super::units::{self, Dim, Quantity};
+use super::{analysis, laws};
 use super::{Kinetics, Network, Param, Reaction, Species, MAX_COUNT};
 use crate::error::{Diagnostic, Error, Span};
 use std::collections::HashMap;
@@ -112,8 +112,8 @@ pub fn compile(ast: &Ast, overrides: &Overrides) -> Result<Network, Vec<Diagnost
         species,
         params,
         reactions,
-        stoichiometry: Vec::new(),
-        dependents: Vec::new(),
+        stoichiometry: Default::default(),
+        dependents: Default::default(),
         conservation_laws: Vec::new(),
         motifs: Vec::new(),
         warnings,
@@ -122,7 +122,7 @@ pub fn compile(ast: &Ast, overrides: &Overrides) -> Result<Network, Vec<Diagnost
     };
     net.stoichiometry = analysis::stoichiometry(&net);
     net.dependents = analysis::dependency_graph(&net);
-    net.conservation_laws = analysis::conservation_laws(&net);
+    net.conservation_laws = laws::conservation_laws(&net).map_err(|d| vec![d])?;
     net.motifs = analysis::motifs(&net);
     analysis::usage_warnings(&mut net, ast);
     Ok(net)

@@ -11,11 +11,12 @@
 pub mod analysis;
 pub mod compile;
 pub mod expr;
+pub mod laws;
 pub mod lexer;
 pub mod parser;
 pub mod units;
 
-pub use analysis::{law_text, motif_chains, Motif, MotifKind};
+pub use analysis::{law_text, motif_chains, DependencyGraph, Motif, MotifKind, Stoichiometry};
 pub use compile::{compile, load, load_source, Override, Overrides};
 pub use expr::{Dual, Law, Scalar};
 pub use units::{Dim, Quantity, AVOGADRO};
@@ -41,9 +42,9 @@ pub struct Network {
     pub reactions: Vec<Reaction>,
     /// Net stoichiometry, species × reactions (products minus reactants, as written; rows of
     /// clamped species show what the reaction would do, although the count is held fixed).
-    pub stoichiometry: Vec<Vec<i64>>,
+    pub stoichiometry: Stoichiometry,
     /// For each reaction j, the reactions whose propensity can change when j fires.
-    pub dependents: Vec<Vec<usize>>,
+    pub dependents: DependencyGraph,
     /// Integer vectors l with l·S = 0 over the non-clamped species: l·x is constant in time.
     pub conservation_laws: Vec<Vec<i64>>,
     pub motifs: Vec<Motif>,

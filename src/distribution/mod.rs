@@ -30,6 +30,7 @@
 //! Numerical modules produce no prose: results are typed and serialisable, errors are
 //! [`FspError`].
 
+pub mod compare;
 pub mod generator;
 pub mod space;
 pub mod stationary;

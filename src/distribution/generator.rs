@@ -3,15 +3,11 @@
 //! dP/dt = A·P with A_ts = a_j(x_s) for each transition s → t (t ≠ s) and A_ss = −Σ_j a_j(x_s)
 //! (every way out of s, into the projection or out of it). Rows are destinations, so a product
 //! A·v reads each row's sources and writes one entry: rows split into independent chunks for
-//! threads. Rows `states..states + sinks` are the absorbing sinks (Munsky & Khammash 2006,
+//! threads (transient.rs). Rows `states..states + sinks` are the absorbing sinks (Munsky & Khammash 2006,
 //! J. Chem. Phys. 124:044104 [M]): their entries are the rates that leave the projection across
 //! each bound, and their diagonal is zero.
 
 use super::space::Projection;
-use rayon::prelude::*;
-
-/// Rows per parallel task in a product (large enough that scheduling costs nothing).
-const CHUNK: usize = 1 << 14;
 
 #[derive(Clone, Debug)]
 pub struct Generator {
@@ -85,57 +81,5 @@ impl Generator {
             + self.col.len() * 4
             + self.rate.len() * 8
             + self.diag.len() * 8
-    }
-
-    /// One step of the uniformized chain and its weighted sum:
-    /// y = (I + A/q)·x and acc += w·y, in one pass over the matrix.
-    /// `parallel` splits the rows into chunks on the current rayon pool.
-    pub fn step(
-        &self,
-        inv_q: f64,
-        x: &[f64],
-        y: &mut [f64],
-        acc: &mut [f64],
-        w: f64,
-        parallel: bool,
-    ) {
-        let body = |start: usize, y: &mut [f64], acc: &mut [f64]| {
-            for (k, (yi, ai)) in y.iter_mut().zip(acc.iter_mut()).enumerate() {
-                let r = start + k;
-                let mut s = 0.0;
-                for e in self.row_ptr[r]..self.row_ptr[r + 1] {
-                    s += self.rate[e] * x[self.col[e] as usize];
-                }
-                let d = if r < self.states {
-                    1.0 + self.diag[r] * inv_q
-                } else {
-                    1.0
-                };
-                let v = d * x[r] + s * inv_q;
-                *yi = v;
-                *ai += w * v;
-            }
-        };
-        if parallel && y.len() > CHUNK {
-            y.par_chunks_mut(CHUNK)
-                .zip(acc.par_chunks_mut(CHUNK))
-                .enumerate()
-                .for_each(|(c, (y, acc))| body(c * CHUNK, y, acc));
-        } else {
-            body(0, y, acc);
-        }
-    }
-
-    /// r = A·x over the states (sinks ignored), for residuals.
-    pub fn apply(&self, x: &[f64]) -> Vec<f64> {
-        (0..self.states)
-            .map(|r| {
-                let mut s = self.diag[r] * x[r];
-                for e in self.row_ptr[r]..self.row_ptr[r + 1] {
-                    s += self.rate[e] * x[self.col[e] as usize];
-                }
-                s
-            })
-            .collect()
     }
 }

@@ -23,9 +23,10 @@
 //! Past `max_states` states the request is refused with the count reached.
 //!
 //! Time-dependent inputs fit this structure without change: between breakpoints the generator
-//! is constant and [`transient::Propagator::advance`] moves the distribution across an
-//! interval; a dose or a triggered reset is a map of states to states applied to the vector at
-//! its breakpoint, inside the same projection.
+//! is constant and one [`transient::Series`] runs across the interval (its end vector is one
+//! more weighted sum of the same v_k); a dose or a triggered reset is a map of states to
+//! states applied to that vector at its breakpoint, inside the same projection, and the next
+//! interval starts from the result.
 //!
 //! Numerical modules produce no prose: results are typed and serialisable, errors are
 //! [`FspError`].
@@ -406,29 +407,29 @@ fn transient_in(
             &setup.species,
             setup.n_species,
         );
-        let mut prop = transient::Propagator::new(&g, parallel);
-        let mut p = vec![0.0; g.len()];
-        p[0] = 1.0;
-        let (mut t, mut series) = (0.0, 0.0);
+        let mut series = transient::Series::new(&g, &columns, parallel);
+        let p0: Vec<f64> = (0..g.len()).map(|s| if s == 0 { 1.0 } else { 0.0 }).collect();
         let mut laws: Vec<Vec<summary::Moments>> = vec![Vec::new(); setup.species.len()];
         let mut by_time = Vec::with_capacity(times.len());
-        let mut failed = false;
-        for &ti in times {
-            series += prop.advance(&mut p, ti - t, series_budget);
-            t = ti;
-            let deficit = (1.0 - p[..g.states].iter().sum::<f64>()).max(0.0);
+        let mut series_error = 0.0f64;
+        let mut sinks = Vec::new();
+        let completed = series.run(&p0, times, series_budget, |_, o, tail| {
+            let deficit = (1.0 - o.mass).max(0.0);
             if deficit > tol {
                 leaked = Some(deficit);
-                failed = true;
-                break;
+                sinks = o.sinks.clone();
+                return false;
             }
+            series_error = series_error.max(tail);
             by_time.push(deficit);
-            for (law, counts) in laws.iter_mut().zip(&columns.counts) {
-                law.push(summary::moments(counts, &p[..g.states]));
+            for (k, law) in laws.iter_mut().enumerate() {
+                let end = columns.offsets.get(k + 1).copied().unwrap_or(columns.len);
+                law.push(summary::from_marginal(&o.marginals[columns.offsets[k]..end]));
             }
-        }
-        if failed {
-            setup.grow(&mut bounds, &p[g.states..], tol);
+            true
+        });
+        if !completed {
+            setup.grow(&mut bounds, &sinks, tol);
             continue;
         }
         let species = setup
@@ -452,11 +453,11 @@ fn transient_in(
         return Ok(Transient {
             truncation_error: by_time.iter().copied().fold(0.0, f64::max),
             truncation_error_by_time: by_time,
-            series_error: series,
+            series_error,
             states: g.states,
             projection: setup.info(net, &bounds, &g, round),
-            uniformization_rate: prop.rate(),
-            products: prop.products,
+            uniformization_rate: series.rate(),
+            products: series.products,
             times: times.to_vec(),
             species: Named(species),
         });

@@ -14,6 +14,10 @@ use crate::network::Propensity;
 pub struct Columns {
     pub species: Vec<usize>,
     pub counts: Vec<Vec<u32>>,
+    /// Where each species' marginal starts in a flattened array of all marginals, and that
+    /// array's length (each marginal runs from 0 to the column's largest count).
+    pub offsets: Vec<usize>,
+    pub len: usize,
 }
 
 impl Columns {
@@ -33,9 +37,17 @@ impl Columns {
                 c.push(x[i] as u32);
             }
         }
+        let mut offsets = Vec::with_capacity(counts.len());
+        let mut len = 0;
+        for c in &counts {
+            offsets.push(len);
+            len += c.iter().copied().max().unwrap_or(0) as usize + 1;
+        }
         Columns {
             species: species.to_vec(),
             counts,
+            offsets,
+            len,
         }
     }
 }
@@ -51,21 +63,10 @@ pub struct Moments {
     pub marginal: Vec<f64>,
 }
 
-/// The law of column `c` under the state probabilities `p` (states only).
-pub fn moments(counts: &[u32], p: &[f64]) -> Moments {
-    let top = counts
-        .iter()
-        .zip(p)
-        .filter(|(_, &q)| q > 0.0)
-        .map(|(&c, _)| c)
-        .max()
-        .unwrap_or(0) as usize;
-    let mut m = vec![0.0; top + 1];
-    for (&c, &q) in counts.iter().zip(p) {
-        if q > 0.0 {
-            m[c as usize] += q;
-        }
-    }
+/// The law given by an untrimmed marginal `m` (index = count).
+pub fn from_marginal(m: &[f64]) -> Moments {
+    let top = m.iter().rposition(|&q| q > 0.0).unwrap_or(0);
+    let m = m[..=top].to_vec();
     let total: f64 = m.iter().sum();
     let mean = m
         .iter()
@@ -82,14 +83,20 @@ pub fn moments(counts: &[u32], p: &[f64]) -> Moments {
     Moments {
         mean,
         variance,
-        fano: if mean > 0.0 {
-            variance / mean
-        } else {
-            f64::NAN
-        },
+        fano: if mean > 0.0 { variance / mean } else { f64::NAN },
         p_zero: m[0],
         marginal: m,
     }
+}
+
+/// The law of column `c` under the state probabilities `p` (states only).
+pub fn moments(counts: &[u32], p: &[f64]) -> Moments {
+    let top = counts.iter().copied().max().unwrap_or(0) as usize;
+    let mut m = vec![0.0; top + 1];
+    for (&c, &q) in counts.iter().zip(p) {
+        m[c as usize] += q;
+    }
+    from_marginal(&m)
 }
 
 /// Mean propensity E[a_j(X)] of every reaction under `p`, in events per second.

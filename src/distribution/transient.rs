@@ -30,6 +30,11 @@
 //! ACM 31:440 [M]), so no weight overflows or underflows before it matters, whatever qΔ.
 
 use super::generator::Generator;
+use super::summary::Columns;
+use rayon::prelude::*;
+
+/// Rows per parallel task in a product (large enough that scheduling costs nothing).
+const CHUNK: usize = 1 << 14;
 
 /// e^{−λ} λ^k / k! for k = 0..=N and the bound on the tail beyond N (see the module doc).
 pub fn poisson_weights(lambda: f64, budget: f64) -> (Vec<f64>, f64) {
@@ -62,25 +67,60 @@ pub fn poisson_weights(lambda: f64, budget: f64) -> (Vec<f64>, f64) {
     }
 }
 
-/// Work buffers and the uniformization rate for one generator.
-pub struct Propagator<'a> {
+/// What is kept of a distribution at one time: the marginal of every reported species
+/// (flattened, at [`Columns::offsets`]), the probability on the states, and each sink's.
+#[derive(Clone, Debug, PartialEq)]
+pub struct Observed {
+    pub marginals: Vec<f64>,
+    pub mass: f64,
+    pub sinks: Vec<f64>,
+}
+
+impl Observed {
+    fn zero(len: usize, sinks: usize) -> Observed {
+        Observed {
+            marginals: vec![0.0; len],
+            mass: 0.0,
+            sinks: vec![0.0; sinks],
+        }
+    }
+
+    fn add_scaled(&mut self, w: f64, o: &Observed) {
+        for (a, b) in self.marginals.iter_mut().zip(&o.marginals) {
+            *a += w * b;
+        }
+        self.mass += w * o.mass;
+        for (a, b) in self.sinks.iter_mut().zip(&o.sinks) {
+            *a += w * b;
+        }
+    }
+}
+
+/// Uniformization of one generator over one interval of constant rates, observed at a set of
+/// times inside it.
+///
+/// All times share one series: with v_k = P^k·p₀ computed once,
+/// p(τ_i) = Σ_k Pois(k; qτ_i)·v_k, and since every reported figure (marginals, the mass on the
+/// states, the sinks) is linear in p, only those figures of each v_k are accumulated with each
+/// time's weights, in the same pass over the matrix that makes v_k. The cost is that of the
+/// longest time alone, q·τ_max + O(√(q·τ_max)) products, instead of a series per grid
+/// interval, and no vector is kept per time.
+pub struct Series<'a> {
     gen: &'a Generator,
+    cols: &'a Columns,
     q: f64,
     parallel: bool,
-    cur: Vec<f64>,
-    next: Vec<f64>,
     /// Products with the generator so far.
     pub products: u64,
 }
 
-impl<'a> Propagator<'a> {
-    pub fn new(gen: &'a Generator, parallel: bool) -> Propagator<'a> {
-        Propagator {
+impl<'a> Series<'a> {
+    pub fn new(gen: &'a Generator, cols: &'a Columns, parallel: bool) -> Series<'a> {
+        Series {
             gen,
+            cols,
             q: gen.max_exit_rate(),
             parallel,
-            cur: vec![0.0; gen.len()],
-            next: vec![0.0; gen.len()],
             products: 0,
         }
     }
@@ -90,25 +130,112 @@ impl<'a> Propagator<'a> {
         self.q
     }
 
-    /// Advances `p` (states then sinks) by `dt`; the Poisson tail left out is at most `budget`.
-    /// Returns the bound on the tail.
-    pub fn advance(&mut self, p: &mut [f64], dt: f64, budget: f64) -> f64 {
-        if self.q == 0.0 || dt <= 0.0 {
-            return 0.0;
+    /// The observation of `v` (states then sinks).
+    fn observe(&self, v: &[f64]) -> Observed {
+        let n = self.gen.states;
+        let mut o = Observed::zero(self.cols.len, self.gen.sinks);
+        for (r, &p) in v[..n].iter().enumerate() {
+            o.mass += p;
+            for (c, &off) in self.cols.counts.iter().zip(&self.cols.offsets) {
+                o.marginals[off + c[r] as usize] += p;
+            }
         }
-        let (w, tail) = poisson_weights(self.q * dt, budget);
-        let inv_q = 1.0 / self.q;
-        self.cur.copy_from_slice(p);
-        for v in p.iter_mut() {
-            *v *= w[0];
+        o.sinks.copy_from_slice(&v[n..]);
+        o
+    }
+
+    /// y = (I + A/q)·x, observed in the same pass.
+    fn product(&self, inv_q: f64, x: &[f64], y: &mut [f64]) -> Observed {
+        let g = self.gen;
+        let n = g.states;
+        let cols = self.cols;
+        let body = |start: usize, y: &mut [f64], o: &mut Observed| {
+            for (k, yi) in y.iter_mut().enumerate() {
+                let r = start + k;
+                let mut s = 0.0;
+                for e in g.row_ptr[r]..g.row_ptr[r + 1] {
+                    s += g.rate[e] * x[g.col[e] as usize];
+                }
+                if r < n {
+                    let v = (1.0 + g.diag[r] * inv_q) * x[r] + s * inv_q;
+                    *yi = v;
+                    o.mass += v;
+                    for (c, &off) in cols.counts.iter().zip(&cols.offsets) {
+                        o.marginals[off + c[r] as usize] += v;
+                    }
+                } else {
+                    let v = x[r] + s * inv_q;
+                    *yi = v;
+                    o.sinks[r - n] = v;
+                }
+            }
+        };
+        if self.parallel && y.len() > CHUNK {
+            y.par_chunks_mut(CHUNK)
+                .enumerate()
+                .map(|(c, y)| {
+                    let mut o = Observed::zero(cols.len, g.sinks);
+                    body(c * CHUNK, y, &mut o);
+                    o
+                })
+                .reduce(
+                    || Observed::zero(cols.len, g.sinks),
+                    |mut a, b| {
+                        a.add_scaled(1.0, &b);
+                        a
+                    },
+                )
+        } else {
+            let mut o = Observed::zero(cols.len, g.sinks);
+            body(0, y, &mut o);
+            o
         }
-        for &wk in &w[1..] {
-            self.gen
-                .step(inv_q, &self.cur, &mut self.next, p, wk, self.parallel);
-            std::mem::swap(&mut self.cur, &mut self.next);
-            self.products += 1;
+    }
+
+    /// Runs the series from `p0` (states then sinks) and calls `seen(i, p(τ_i), tail bound)` for
+    /// each offset τ_i (non-decreasing, ≥ 0) in order, as soon as its sum is complete; `seen`
+    /// returning false stops the run. Returns whether it ran to the end. The Poisson tail
+    /// left out at each time is at most `budget`.
+    pub fn run(
+        &mut self,
+        p0: &[f64],
+        offsets: &[f64],
+        budget: f64,
+        mut seen: impl FnMut(usize, &Observed, f64) -> bool,
+    ) -> bool {
+        let weights: Vec<(Vec<f64>, f64)> = offsets
+            .iter()
+            .map(|&t| poisson_weights(self.q * t, budget))
+            .collect();
+        let last = weights.iter().map(|(w, _)| w.len()).max().unwrap_or(1) - 1;
+        let mut acc: Vec<Observed> = offsets
+            .iter()
+            .map(|_| Observed::zero(self.cols.len, self.gen.sinks))
+            .collect();
+        let inv_q = if self.q > 0.0 { 1.0 / self.q } else { 0.0 };
+        let mut cur = p0.to_vec();
+        let mut next = vec![0.0; p0.len()];
+        let mut o = self.observe(&cur);
+        let mut done = 0;
+        for k in 0..=last {
+            if k > 0 {
+                o = self.product(inv_q, &cur, &mut next);
+                std::mem::swap(&mut cur, &mut next);
+                self.products += 1;
+            }
+            for (a, (w, _)) in acc.iter_mut().zip(&weights).skip(done) {
+                if let Some(&wk) = w.get(k) {
+                    a.add_scaled(wk, &o);
+                }
+            }
+            while done < offsets.len() && weights[done].0.len() == k + 1 {
+                if !seen(done, &acc[done], weights[done].1) {
+                    return false;
+                }
+                done += 1;
+            }
         }
-        tail
+        true
     }
 }
 

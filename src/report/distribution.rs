@@ -183,7 +183,7 @@ pub fn svg(r: &Results, species: &str, at: &[usize]) -> String {
         if let Some(law) = t.species.get(species) {
             for &i in at {
                 series.push(Series {
-                    name: format!("exact, t = {} s", num(t.times[i])),
+                    name: format!("t = {} s exact", num(t.times[i])),
                     style: Style::Line,
                     points: bars(&law.marginal[i]),
                 });
@@ -193,9 +193,9 @@ pub fn svg(r: &Results, species: &str, at: &[usize]) -> String {
                     .filter(|h| h.species == species && h.time == t.times[i])
                 {
                     series.push(Series {
-                        name: format!("ensemble ({}), t = {} s", h.replicates, num(h.time)),
+                        name: format!("t = {} s, {} runs", num(h.time), h.replicates),
                         style: Style::Markers,
-                        points: bars(&h.frequencies),
+                        points: bars(&h.frequencies).into_iter().filter(|p| p.y > 0.0).collect(),
                     });
                 }
             }
@@ -203,7 +203,7 @@ pub fn svg(r: &Results, species: &str, at: &[usize]) -> String {
     }
     if let Some(law) = r.stationary.and_then(|s| s.species.get(species)) {
         series.push(Series {
-            name: "exact, stationary".into(),
+            name: "stationary exact".into(),
             style: Style::Dashed,
             points: bars(&law.marginal),
         });

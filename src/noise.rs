@@ -7,9 +7,12 @@
 //! Var(X) = E[w_r] + Var(m_r) (common practice). CV = √Var/mean, Fano = Var/mean.
 //! The linear noise approximation solves J·Σ + Σ·Jᵀ + D = 0 at the deterministic steady state
 //! (van Kampen 1976 [M]; Elf & Ehrenberg 2003 [verified]); it is exact for networks of zero-
-//! and first-order steps, and its CV falls as 1/√N with copy number N.
+//! and first-order steps, and its CV falls as 1/√N with copy number N. Where the network fits a
+//! finite state projection, the exact stationary law stands beside both
+//! ([`crate::distribution`]).
 
 use crate::deterministic::{self, solve, SteadyOptions};
+use crate::distribution;
 use crate::ensemble;
 use crate::network::{Network, Overrides};
 use crate::stationary::{self, Plan};
@@ -55,6 +58,10 @@ pub struct SpeciesNoise {
     pub lna_mean: f64,
     pub lna_variance: f64,
     pub lna_cv: f64,
+    /// The exact stationary law's figures, where the network fits a finite state projection.
+    pub exact_mean: Option<f64>,
+    pub exact_variance: Option<f64>,
+    pub exact_fano: Option<f64>,
 }
 
 /// The noise at one volume.
@@ -69,6 +76,11 @@ pub struct VolumeNoise {
     pub wall_seconds: f64,
     /// Why the LNA columns are missing, if they are.
     pub lna_note: Option<String>,
+    /// The exact stationary law's truncation figure and states, where it fits.
+    pub exact_truncation_error: Option<f64>,
+    pub exact_states: Option<usize>,
+    /// Why the exact columns are missing, if they are.
+    pub exact_note: Option<String>,
 }
 
 /// Runs the noise analysis of `net` at each requested volume.
@@ -93,6 +105,10 @@ fn at_volume(net: &Network, opts: &Options) -> Result<VolumeNoise> {
     let steady = solve(net, &SteadyOptions::default())?;
     let (lna, lna_note) = match deterministic::stationary(net, &steady) {
         Ok(l) => (Some(l), None),
+        Err(e) => (None, Some(e.to_string())),
+    };
+    let (exact, exact_note) = match distribution::stationary_beside(net, opts.threads) {
+        Ok(e) => (Some(e), None),
         Err(e) => (None, Some(e.to_string())),
     };
     let plan = stationary::plan(
@@ -122,7 +138,11 @@ fn at_volume(net: &Network, opts: &Options) -> Result<VolumeNoise> {
                 Some(l) => (l.mean[i], l.variance[i], l.cv[i]),
                 None => (steady.counts[i], f64::NAN, f64::NAN),
             };
+            let law = exact.as_ref().and_then(|e| e.species.get(&s.name));
             SpeciesNoise {
+                exact_mean: law.map(|l| l.mean),
+                exact_variance: law.map(|l| l.variance),
+                exact_fano: law.map(|l| l.fano),
                 name: s.name.clone(),
                 clamped: s.clamped,
                 mean,
@@ -145,5 +165,8 @@ fn at_volume(net: &Network, opts: &Options) -> Result<VolumeNoise> {
         events_total: ens.events_total,
         wall_seconds: ens.wall_seconds,
         lna_note,
+        exact_truncation_error: exact.as_ref().map(|e| e.truncation_error),
+        exact_states: exact.as_ref().map(|e| e.states),
+        exact_note,
     })
 }

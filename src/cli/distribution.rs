@@ -101,6 +101,7 @@ pub fn run(a: &DistributionArgs) -> Result<()> {
             .unwrap_or_else(distribution::default_max_states),
         threads: a.threads,
         species: species.clone(),
+        bounds: None,
     };
     let times: Vec<f64> = a.t_end.map_or_else(Vec::new, |t| {
         (0..a.grid)

@@ -1,5 +1,6 @@
 //! `copyloop simulate FILE --t-end T`: a replicate ensemble of one network.
 
+use crate::distribution::{self, compare};
 use crate::ensemble::{self, EnsembleSpec, Method};
 use crate::error::{Error, Result};
 use crate::network::{load, Overrides};
@@ -54,6 +55,10 @@ pub struct SimulateArgs {
     /// Print one JSON document instead of the table
     #[arg(long)]
     pub json: bool,
+    /// Compare the grid with the exact distribution (finite state projection, where the
+    /// network fits): the Z and Y statistics of the discrete stochastic test suite
+    #[arg(long)]
+    pub exact: bool,
 }
 
 impl SimulateArgs {
@@ -83,6 +88,14 @@ impl SimulateArgs {
     }
 }
 
+/// `--exact`: the transient law with the defaults of `copyloop distribution`.
+fn exact_options(threads: Option<usize>) -> distribution::Options {
+    distribution::Options {
+        threads,
+        ..distribution::Options::default()
+    }
+}
+
 /// The `--json` document for one sweep point.
 pub(crate) fn document(a: &SimulateArgs, p: &crate::sweep::Point) -> Result<serde_json::Value> {
     let spec = EnsembleSpec {
@@ -91,7 +104,16 @@ pub(crate) fn document(a: &SimulateArgs, p: &crate::sweep::Point) -> Result<serd
         progress: false,
         ..a.spec()
     };
-    Ok(report::simulate::json(p.net, &ensemble::run(p.net, &spec)?))
+    let result = ensemble::run(p.net, &spec)?;
+    let mut doc = report::simulate::json(p.net, &result);
+    if a.exact {
+        let exact =
+            distribution::transient(p.net, &result.grid_times, &exact_options(Some(p.threads)))
+                .map(|law| compare::compare(p.net, &law, &result))
+                .map_err(|e| e.to_string());
+        report::simulate::add_exact_json(&mut doc, &exact);
+    }
+    Ok(doc)
 }
 
 pub fn run(a: &SimulateArgs) -> Result<()> {
@@ -100,13 +122,26 @@ pub fn run(a: &SimulateArgs) -> Result<()> {
     let net = load(&a.file, &Overrides::default())?;
     super::print_warnings(&net);
     let result = ensemble::run(&net, &spec)?;
+    let exact = a.exact.then(|| {
+        distribution::transient(&net, &result.grid_times, &exact_options(a.threads))
+            .map(|law| compare::compare(&net, &law, &result))
+            .map_err(|e| e.to_string())
+    });
     if let Some(path) = &a.out {
         std::fs::write(path, report::simulate::csv(&net, &result))
             .map_err(|e| Error::io(path.clone(), e))?;
     }
     if a.json {
-        super::print_json(&report::simulate::json(&net, &result))
+        let mut doc = report::simulate::json(&net, &result);
+        if let Some(e) = &exact {
+            report::simulate::add_exact_json(&mut doc, e);
+        }
+        super::print_json(&doc)
     } else {
-        super::print_stdout(&report::simulate::table(&net, &result))
+        let mut text = report::simulate::table(&net, &result);
+        if let Some(e) = &exact {
+            text.push_str(&report::simulate::exact_table(e));
+        }
+        super::print_stdout(&text)
     }
 }

@@ -18,8 +18,11 @@
 //! Growth: each free, independent species has an upper bound; a transition crossing bound k
 //! goes to sink k, so the leaked probability says which bounds to raise. After a solve whose
 //! leak exceeds the tolerance, every bound whose sink holds more than tolerance/(2·d) (and at
-//! least the one holding most) is raised by half (plus 4), and the solve is repeated; a
-//! transient solve stops early at the first grid time where the leak passes the tolerance.
+//! least the one holding most) is raised, and the solve is repeated: the part of the bound
+//! above the initial count grows by half, or by (t_end/t_fail)^(1/2d) (at most 3; d
+//! coordinates) when a transient solve leaked too much already at t_fail, its first grid time
+//! past the tolerance (where it stops early), so that the state count grows by about
+//! √(t_end/t_fail) per round.
 //! Past `max_states` states the request is refused with the count reached.
 //!
 //! Time-dependent inputs fit this structure without change: between breakpoints the generator
@@ -66,6 +69,32 @@ pub fn default_max_states() -> usize {
     (available / 4 / BYTES_PER_STATE).clamp(100_000, 10_000_000) as usize
 }
 
+/// Largest projection `noise` and `reconcile` solve for their exact columns, and the most
+/// independent coordinates they try (the sparse LU's fill grows fast with the dimension); a
+/// network beyond either gets no exact column, so those commands stay fast beside their
+/// ensembles.
+pub const EMBEDDED_MAX_STATES: usize = 50_000;
+pub const EMBEDDED_MAX_DIMENSIONS: usize = 3;
+
+/// The exact stationary law for the columns beside the ensembles of `noise` and `reconcile`:
+/// default tolerance, at most [`EMBEDDED_MAX_STATES`] states in at most
+/// [`EMBEDDED_MAX_DIMENSIONS`] coordinates.
+pub fn stationary_beside(net: &Network, threads: Option<usize>) -> Result<Stationary, FspError> {
+    let dims = Reduction::new(net).dim();
+    if dims > EMBEDDED_MAX_DIMENSIONS {
+        return Err(FspError::TooManyDimensions {
+            dims,
+            max: EMBEDDED_MAX_DIMENSIONS,
+        });
+    }
+    let opts = Options {
+        max_states: EMBEDDED_MAX_STATES,
+        threads,
+        ..Options::default()
+    };
+    stationary(net, &opts)
+}
+
 /// What a projection is asked for.
 #[derive(Clone, Debug)]
 pub struct Options {
@@ -76,6 +105,9 @@ pub struct Options {
     pub threads: Option<usize>,
     /// Species to report (indices); None: all.
     pub species: Option<Vec<usize>>,
+    /// First bounds of the independent coordinates, in [`ProjectionInfo::bounds`] order (None:
+    /// twice the initial counts, at least the initial count + 10); growth starts from them.
+    pub bounds: Option<Vec<u32>>,
 }
 
 impl Default for Options {
@@ -85,6 +117,7 @@ impl Default for Options {
             max_states: default_max_states(),
             threads: None,
             species: None,
+            bounds: None,
         }
     }
 }
@@ -101,6 +134,9 @@ pub enum FspError {
         leaked: Option<f64>,
         stationary: bool,
     },
+    /// More independent coordinates than an exact column beside an ensemble tries.
+    #[error("the network has {dims} independent coordinates; the exact columns are solved for at most {max}")]
+    TooManyDimensions { dims: usize, max: usize },
     /// The projected chain has more than one closed class away from its boundary.
     #[error("the chain has {count} closed classes: its long-run law depends on the start")]
     ClosedClasses { count: usize },
@@ -245,6 +281,7 @@ pub struct Stationary {
 
 /// Everything fixed for one network: coordinates, propensities, the species reported.
 struct Setup {
+    first_bounds: Option<Vec<u32>>,
     red: Reduction,
     props: Vec<crate::network::Propensity>,
     species: Vec<usize>,
@@ -270,8 +307,19 @@ impl Setup {
             .species
             .clone()
             .unwrap_or_else(|| (0..net.species.len()).collect());
+        let red = Reduction::new(net);
+        if let Some(b) = &opts.bounds {
+            if b.len() != red.dim() {
+                return Err(FspError::Options(format!(
+                    "{} bounds given for {} independent coordinates",
+                    b.len(),
+                    red.dim()
+                )));
+            }
+        }
         Ok(Setup {
-            red: Reduction::new(net),
+            first_bounds: opts.bounds.clone(),
+            red,
             props: net.propensities(),
             species,
             n_species: net.species.len(),
@@ -281,6 +329,13 @@ impl Setup {
     /// First bounds: twice the initial count, at least the initial count + 10, never past a
     /// conservation cap.
     fn initial_bounds(&self) -> Vec<u32> {
+        if let Some(b) = &self.first_bounds {
+            return b
+                .iter()
+                .zip(&self.red.caps)
+                .map(|(&b, cap)| cap.map_or(b as u64, |c| (b as u64).min(c)) as u32)
+                .collect();
+        }
         self.red
             .initial_coords()
             .iter()
@@ -292,14 +347,16 @@ impl Setup {
             .collect()
     }
 
-    /// Raises the bounds whose sinks hold more than their share of the tolerance.
-    fn grow(&self, bounds: &mut [u32], sink_mass: &[f64], tolerance: f64) {
+    /// Raises the bounds whose sinks hold more than their share of the tolerance: the part of
+    /// each bound above the initial count is multiplied by `factor` (at least 1.5), plus 4.
+    fn grow(&self, bounds: &mut [u32], sink_mass: &[f64], tolerance: f64, factor: f64) {
+        let x0 = self.red.initial_coords();
         let d = bounds.len().max(1) as f64;
         let largest = (0..sink_mass.len()).max_by(|&a, &b| sink_mass[a].total_cmp(&sink_mass[b]));
         for k in 0..bounds.len() {
             if sink_mass[k] > tolerance / (2.0 * d) || Some(k) == largest {
-                let b = bounds[k] as u64;
-                let mut nb = b + b / 2 + 4;
+                let (b, x) = (bounds[k] as f64, x0[k] as f64);
+                let mut nb = (x + (b - x) * factor.max(1.5)).ceil() as u64 + 4;
                 if let Some(c) = self.red.caps[k] {
                     nb = nb.min(c);
                 }
@@ -408,15 +465,19 @@ fn transient_in(
             setup.n_species,
         );
         let mut series = transient::Series::new(&g, &columns, parallel);
-        let p0: Vec<f64> = (0..g.len()).map(|s| if s == 0 { 1.0 } else { 0.0 }).collect();
+        let p0: Vec<f64> = (0..g.len())
+            .map(|s| if s == 0 { 1.0 } else { 0.0 })
+            .collect();
         let mut laws: Vec<Vec<summary::Moments>> = vec![Vec::new(); setup.species.len()];
         let mut by_time = Vec::with_capacity(times.len());
         let mut series_error = 0.0f64;
         let mut sinks = Vec::new();
-        let completed = series.run(&p0, times, series_budget, |_, o, tail| {
+        let mut failed_at = times[times.len() - 1];
+        let completed = series.run(&p0, times, series_budget, |i, o, tail| {
             let deficit = (1.0 - o.mass).max(0.0);
             if deficit > tol {
                 leaked = Some(deficit);
+                failed_at = times[i];
                 sinks = o.sinks.clone();
                 return false;
             }
@@ -424,12 +485,20 @@ fn transient_in(
             by_time.push(deficit);
             for (k, law) in laws.iter_mut().enumerate() {
                 let end = columns.offsets.get(k + 1).copied().unwrap_or(columns.len);
-                law.push(summary::from_marginal(&o.marginals[columns.offsets[k]..end]));
+                law.push(summary::from_marginal(
+                    &o.marginals[columns.offsets[k]..end],
+                ));
             }
             true
         });
         if !completed {
-            setup.grow(&mut bounds, &sinks, tol);
+            // Leaking long before the end means the law travels far: grow more, but keep the
+            // state count's growth per round near √(t_end/t_fail) whatever the dimension.
+            let d = setup.red.dim().max(1) as f64;
+            let factor = (times[times.len() - 1] / failed_at)
+                .powf(0.5 / d)
+                .clamp(1.5, 3.0);
+            setup.grow(&mut bounds, &sinks, tol, factor);
             continue;
         }
         let species = setup
@@ -519,7 +588,7 @@ fn stationary_in(net: &Network, opts: &Options, setup: &Setup) -> Result<Station
                 }
             }
             leaked = Some(1.0);
-            setup.grow(&mut bounds, &mass, tol);
+            setup.grow(&mut bounds, &mass, tol, 1.5);
             continue;
         }
         let (pi, residual) = stationary::solve(&g, &classes, closed[0])?;
@@ -537,7 +606,7 @@ fn stationary_in(net: &Network, opts: &Options, setup: &Setup) -> Result<Station
         }
         if boundary > tol {
             leaked = Some(boundary);
-            setup.grow(&mut bounds, &sink_mass, tol);
+            setup.grow(&mut bounds, &sink_mass, tol, 1.5);
             continue;
         }
         let columns = Columns::new(

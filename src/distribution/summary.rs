@@ -83,7 +83,11 @@ pub fn from_marginal(m: &[f64]) -> Moments {
     Moments {
         mean,
         variance,
-        fano: if mean > 0.0 { variance / mean } else { f64::NAN },
+        fano: if mean > 0.0 {
+            variance / mean
+        } else {
+            f64::NAN
+        },
         p_zero: m[0],
         marginal: m,
     }

@@ -22,6 +22,7 @@ pub mod fit;
 pub mod observe;
 
 use crate::deterministic::{langmuir, solve, Steady, SteadyOptions};
+use crate::distribution;
 use crate::ensemble::{self, EnsembleResult, EnsembleSpec};
 use crate::network::{compile::Override, motif_chains, MotifKind, Network, Overrides};
 use crate::stationary::{self, Plan};
@@ -167,6 +168,9 @@ pub struct MotifReport {
     /// z of (first half − second half) of the window's flux.
     pub halves_z: f64,
     pub causes: Vec<String>,
+    /// The exact stationary mean flux of the output reaction (finite state projection), where
+    /// the network fits one.
+    pub exact_per_s: Option<f64>,
 }
 
 /// A chain of motifs in series, reconciled end to end.
@@ -222,6 +226,10 @@ pub struct Reconciliation {
     pub events_total: u64,
     pub wall_seconds: f64,
     pub notes: Vec<String>,
+    /// The exact stationary law's truncation figure and states, or why there is none.
+    pub exact_truncation_error: Option<f64>,
+    pub exact_states: Option<usize>,
+    pub exact_note: Option<String>,
 }
 
 /// Runs the reconciliation of `net`.
@@ -252,8 +260,21 @@ pub fn reconcile(net: &Network, opts: &Options) -> Result<Reconciliation> {
     if net.motifs.is_empty() {
         notes.push("no carrier motif found: only observations are reconciled".into());
     }
+    let (exact, exact_note) = if net.motifs.is_empty() {
+        (None, None)
+    } else {
+        match distribution::stationary_beside(net, opts.threads) {
+            Ok(e) => (Some(e), None),
+            Err(e) => (None, Some(e.to_string())),
+        }
+    };
     let motifs: Vec<MotifReport> = (0..net.motifs.len())
-        .map(|m| motif_report(net, m, &ens, &steady, opts.precision))
+        .map(|m| {
+            let mut r = motif_report(net, m, &ens, &steady, opts.precision);
+            let label = &net.reactions[net.motifs[m].output].label;
+            r.exact_per_s = exact.as_ref().and_then(|e| e.fluxes.get(label).copied());
+            r
+        })
         .collect();
     let chains = motif_chains(net)
         .into_iter()
@@ -280,6 +301,9 @@ pub fn reconcile(net: &Network, opts: &Options) -> Result<Reconciliation> {
         events_total: ens.events_total,
         wall_seconds: ens.wall_seconds,
         notes,
+        exact_truncation_error: exact.as_ref().map(|e| e.truncation_error),
+        exact_states: exact.as_ref().map(|e| e.states),
+        exact_note,
     })
 }
 
@@ -458,6 +482,7 @@ fn motif_report(
         qssa_parameter,
         halves_z,
         causes,
+        exact_per_s: None,
     }
 }
 

@@ -195,7 +195,10 @@ pub fn svg(r: &Results, species: &str, at: &[usize]) -> String {
                     series.push(Series {
                         name: format!("t = {} s, {} runs", num(h.time), h.replicates),
                         style: Style::Markers,
-                        points: bars(&h.frequencies).into_iter().filter(|p| p.y > 0.0).collect(),
+                        points: bars(&h.frequencies)
+                            .into_iter()
+                            .filter(|p| p.y > 0.0)
+                            .collect(),
                     });
                 }
             }

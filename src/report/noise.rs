@@ -24,6 +24,9 @@ pub fn json(file: &str, seed: u64, vols: &[VolumeNoise]) -> Value {
                         "lna_mean": jnum(s.lna_mean),
                         "lna_variance": jnum(s.lna_variance),
                         "lna_cv": jnum(s.lna_cv),
+                        "exact_mean": s.exact_mean.map(jnum),
+                        "exact_variance": s.exact_variance.map(jnum),
+                        "exact_fano": s.exact_fano.map(jnum),
                         "clamped": s.clamped,
                         "mean_molar": v.volume_l.map(|_| jnum(s.mean / v.omega)),
                         "lna_mean_molar": v.volume_l.map(|_| jnum(s.lna_mean / v.omega)),
@@ -42,6 +45,9 @@ pub fn json(file: &str, seed: u64, vols: &[VolumeNoise]) -> Value {
                 "events_total": v.events_total,
                 "wall_seconds": v.wall_seconds,
                 "lna_note": v.lna_note,
+                "exact_truncation_error": v.exact_truncation_error,
+                "exact_states": v.exact_states,
+                "exact_note": v.exact_note,
                 "species": Value::Object(species),
             })
         })
@@ -73,6 +79,9 @@ pub fn table(file: &str, vols: &[VolumeNoise]) -> String {
             "LNA mean",
             "LNA variance",
             "LNA CV",
+            "exact mean",
+            "exact variance",
+            "exact Fano",
         ]);
         for s in v.species.iter().filter(|s| !s.clamped) {
             t.row(vec![
@@ -84,11 +93,22 @@ pub fn table(file: &str, vols: &[VolumeNoise]) -> String {
                 num(s.lna_mean),
                 num(s.lna_variance),
                 num(s.lna_cv),
+                s.exact_mean.map_or("-".into(), num),
+                s.exact_variance.map_or("-".into(), num),
+                s.exact_fano.map_or("-".into(), num),
             ]);
         }
         out.push_str(&t.render());
         if let Some(n) = &v.lna_note {
             out.push_str(&format!("  linear noise approximation unavailable: {n}\n"));
+        }
+        match (&v.exact_note, v.exact_truncation_error, v.exact_states) {
+            (Some(n), _, _) => out.push_str(&format!("  exact columns unavailable: {n}\n")),
+            (None, Some(e), Some(states)) => out.push_str(&format!(
+                "  exact: stationary master equation on {states} states (finite state projection, boundary probability {})\n",
+                num(e)
+            )),
+            _ => {}
         }
         out.push('\n');
     }

@@ -73,6 +73,11 @@ pub fn json(net: &Network, r: &Reconciliation) -> Value {
                     "ci95": interval(&m.ensemble, 1.0),
                     "replicates": m.ensemble.n,
                 },
+                "exact": m.exact_per_s.map(|e| json!({
+                    "mean_per_s": jnum(e),
+                    "langmuir_relative_difference": jnum((e - m.langmuir_per_s) / m.langmuir_per_s),
+                    "ensemble_relative_difference": jnum((m.ensemble.mean - e) / e),
+                })),
                 "relative_difference": jnum(m.relative_difference),
                 "verdict": m.verdict.as_str(),
                 "verdicts": {
@@ -131,6 +136,9 @@ pub fn json(net: &Network, r: &Reconciliation) -> Value {
         "events_total": r.events_total,
         "wall_seconds": r.wall_seconds,
         "notes": r.notes,
+        "exact_truncation_error": r.exact_truncation_error,
+        "exact_states": r.exact_states,
+        "exact_note": r.exact_note,
     })
 }
 
@@ -162,6 +170,7 @@ pub fn table(net: &Network, r: &Reconciliation) -> String {
             "tQSSA",
             "ODE",
             "ensemble",
+            "exact",
             "verdict",
         ]);
         for m in &r.motifs {
@@ -175,6 +184,7 @@ pub fn table(net: &Network, r: &Reconciliation) -> String {
                 m.tqssa_per_s.map_or("(clamped)".into(), num),
                 num(m.ode_per_s),
                 est(&m.ensemble),
+                m.exact_per_s.map_or("-".into(), num),
                 format!(
                     "{} (tQSSA {}, ODE {})",
                     m.verdict.as_str(),
@@ -184,6 +194,14 @@ pub fn table(net: &Network, r: &Reconciliation) -> String {
             ]);
         }
         out.push_str(&t.render());
+        match (&r.exact_note, r.exact_states) {
+            (Some(n), _) => out.push_str(&format!("  exact column unavailable: {n}\n")),
+            (None, Some(states)) => out.push_str(&format!(
+                "  exact: stationary master equation on {states} states (finite state projection, boundary probability {})\n",
+                num(r.exact_truncation_error.unwrap_or(0.0))
+            )),
+            _ => {}
+        }
         for m in &r.motifs {
             for c in &m.causes {
                 out.push_str(&format!("  {}·{}: {c}\n", m.carrier, m.ligand));

@@ -2,4 +2,3 @@
 #![allow(dead_code)]
 
 pub mod cli;
-pub mod cme;

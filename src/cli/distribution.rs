@@ -11,8 +11,8 @@ use clap::Args;
 pub struct DistributionArgs {
     /// Network file (.crn)
     pub file: String,
-    /// End of the time grid, in seconds (required unless --stationary)
-    #[arg(long, value_name = "T")]
+    /// End of the time grid (bare: seconds; required unless --stationary)
+    #[arg(long, value_name = "T", value_parser = super::values::time, allow_negative_numbers = true)]
     pub t_end: Option<f64>,
     /// Grid points evenly spaced from 0 to T inclusive
     #[arg(long, default_value_t = 51, value_name = "K")]
@@ -41,8 +41,8 @@ pub struct DistributionArgs {
     /// Draw the marginal of the first reported species at --svg-times to this SVG file
     #[arg(long, value_name = "FILE")]
     pub svg: Option<String>,
-    /// Times drawn in the SVG (nearest grid points; default: the last)
-    #[arg(long, value_delimiter = ',', value_name = "T1,…")]
+    /// Times drawn in the SVG (nearest grid points; bare: seconds; default: the last)
+    #[arg(long, value_delimiter = ',', value_name = "T1,…", value_parser = super::values::time)]
     pub svg_times: Vec<f64>,
     /// Run this many direct-method replicates to each drawn time and show their histogram
     #[arg(long, default_value_t = 0, value_name = "N")]

@@ -11,6 +11,7 @@ mod reconcile;
 mod simulate;
 mod steady;
 mod sweep;
+mod values;
 
 use crate::error::Result;
 use clap::{Parser, Subcommand};
@@ -63,10 +64,16 @@ pub enum Command {
 pub fn run(cli: Cli) -> Result<()> {
     match cli.command {
         Command::Check(a) => check::run(&a),
-        Command::Simulate(a) => simulate::run(&a),
+        Command::Simulate(a) => {
+            simulate::run(&a).map_err(|e| values::with_flags(e, values::SIMULATE_FLAGS))
+        }
         Command::Steady(a) => steady::run(&a),
-        Command::Reconcile(a) => reconcile::run(&a),
-        Command::Noise(a) => noise::run(&a),
+        Command::Reconcile(a) => {
+            reconcile::run(&a).map_err(|e| values::with_flags(e, values::STATIONARY_FLAGS))
+        }
+        Command::Noise(a) => {
+            noise::run(&a).map_err(|e| values::with_flags(e, values::STATIONARY_FLAGS))
+        }
         Command::Distribution(a) => distribution::run(&a),
         Command::Sweep(a) => sweep::run(a),
         Command::Merge(a) => merge::run(&a),

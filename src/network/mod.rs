@@ -11,11 +11,12 @@
 pub mod analysis;
 pub mod compile;
 pub mod expr;
+pub mod laws;
 pub mod lexer;
 pub mod parser;
 pub mod units;
 
-pub use analysis::{law_text, motif_chains, Motif, MotifKind};
+pub use analysis::{law_text, motif_chains, DependencyGraph, Motif, MotifKind, Stoichiometry};
 pub use compile::{compile, load, load_source, Override, Overrides};
 pub use expr::{Dual, Law, Scalar};
 pub use units::{Dim, Quantity, AVOGADRO};
@@ -41,9 +42,9 @@ pub struct Network {
     pub reactions: Vec<Reaction>,
     /// Net stoichiometry, species × reactions (products minus reactants, as written; rows of
     /// clamped species show what the reaction would do, although the count is held fixed).
-    pub stoichiometry: Vec<Vec<i64>>,
+    pub stoichiometry: Stoichiometry,
     /// For each reaction j, the reactions whose propensity can change when j fires.
-    pub dependents: Vec<Vec<usize>>,
+    pub dependents: DependencyGraph,
     /// Integer vectors l with l·S = 0 over the non-clamped species: l·x is constant in time.
     pub conservation_laws: Vec<Vec<i64>>,
     pub motifs: Vec<Motif>,
@@ -172,6 +173,42 @@ impl Network {
             }
             Kinetics::Law { law, scale } => law.eval(conc) * T::constant(*scale / self.omega),
         }
+    }
+
+    /// The species that only accumulate: not clamped, changed by some step, read by none (no
+    /// reactant of any step, in no law) and in no conservation law. Such a species has no
+    /// steady level, but it cannot affect the rest of the network either, so the rest can be
+    /// stationary while it grows: its accumulation rate is the figure to report.
+    pub fn outputs(&self) -> Vec<usize> {
+        let mut read = vec![false; self.species.len()];
+        for r in &self.reactions {
+            for i in r.reads() {
+                read[i] = true;
+            }
+        }
+        let changed = |i: usize| {
+            self.reactions
+                .iter()
+                .any(|r| r.change.iter().any(|c| c.0 == i))
+        };
+        let in_law = |i: usize| self.conservation_laws.iter().any(|l| l[i] != 0);
+        (0..self.species.len())
+            .filter(|&i| !self.species[i].clamped && !read[i] && !in_law(i) && changed(i))
+            .collect()
+    }
+
+    /// This network with `held` species treated as clamped at their initial amount (their
+    /// changes removed), for analyses of the stationary part of a network whose outputs
+    /// accumulate. Nothing reads an output, so every other species behaves as before.
+    pub fn holding(&self, held: &[usize]) -> Network {
+        let mut net = self.clone();
+        for &i in held {
+            net.species[i].clamped = true;
+        }
+        for r in &mut net.reactions {
+            r.change.retain(|c| !held.contains(&c.0));
+        }
+        net
     }
 
     /// Initial concentrations x₀/Ω (counts without a volume).

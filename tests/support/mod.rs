@@ -2,3 +2,4 @@
 #![allow(dead_code)]
 
 pub mod cli;
+pub mod sbml_suite;

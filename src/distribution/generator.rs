@@ -37,13 +37,13 @@ impl Generator {
         let mut col = vec![0u32; p.target.len()];
         let mut rate = vec![0f64; p.target.len()];
         let mut diag = vec![0f64; p.states];
-        for s in 0..p.states {
+        for (s, d) in diag.iter_mut().enumerate() {
             for e in p.first[s]..p.first[s + 1] {
                 let t = p.target[e] as usize;
                 col[next[t]] = s as u32;
                 rate[next[t]] = p.rate[e];
                 next[t] += 1;
-                diag[s] -= p.rate[e];
+                *d -= p.rate[e];
             }
         }
         Generator {

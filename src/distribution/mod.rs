@@ -577,11 +577,10 @@ fn stationary_in(net: &Network, opts: &Options, setup: &Setup) -> Result<Station
         if closed.len() > 1 {
             // Classes closed only because the projection cut their way out: grow past them.
             let mut mass = vec![0.0; d];
-            for s in 0..g.states {
-                let c = classes.of[s];
+            for (&c, &f) in classes.of.iter().zip(&feeds) {
                 if closed.contains(&c) && on_edge[c as usize] {
                     for (k, m) in mass.iter_mut().enumerate() {
-                        if feeds[s] & (1 << k.min(63)) != 0 {
+                        if f & (1 << k.min(63)) != 0 {
                             *m = 1.0;
                         }
                     }

@@ -3,4 +3,5 @@
 
 pub mod cli;
 pub mod cme;
+pub mod sbml_stochastic;
 pub mod sbml_suite;

@@ -4,6 +4,7 @@
 //! library's own option types, calls the library, and hands the result to `report`.
 
 mod check;
+mod export;
 mod merge;
 mod noise;
 mod reconcile;
@@ -53,6 +54,9 @@ pub enum Command {
     /// Merge sweep shards into one sweep file, ordered by point
     #[command(after_help = CAUTION)]
     Merge(merge::MergeArgs),
+    /// Write the network as SBML Level 3 Version 2
+    #[command(after_help = CAUTION)]
+    Export(export::ExportArgs),
 }
 
 /// Runs one parsed command line.
@@ -71,6 +75,7 @@ pub fn run(cli: Cli) -> Result<()> {
         }
         Command::Sweep(a) => sweep::run(a),
         Command::Merge(a) => merge::run(&a),
+        Command::Export(a) => export::run(&a),
     }
 }
 

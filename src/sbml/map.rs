@@ -22,7 +22,8 @@
 //! stays `k·A²`) — unless the reaction carries copyloop's own reading ([`Reading`], written by
 //! the exporter): then a law that is exactly the deterministic law of that reading's constant
 //! is compiled as copyloop's mass action with that constant (for `2 A → …`, propensity
-//! c·A(A−1)/2). A reading that does not match the law is ignored with a warning. Calls of a
+//! c·A(A−1)/2). A reading that does not match the law is ignored with a warning; a reaction
+//! marked `<copyloop:law/>` keeps its law as a law. Calls of a
 //! function definition that is one of the network language's own functions stay calls of it.
 //! Boundary and constant species are clamped; a boundary species is not listed as a reactant
 //! of a law, so it never gates one.
@@ -228,7 +229,12 @@ pub fn ast(file: &str, text: &str, doc: &Document) -> Result<Mapped, SbmlError> 
                 let (dim, f) = units::canonical(m, doc.level, u)
                     .map_err(|e| not_yet("parameter", Some(&p.id), p.loc, e))?;
                 param_dims[i] = dim;
-                literal(Quantity::new(v * f, dim), f, p.loc)
+                if dim.is_none() && f == 1.0 {
+                    // A pure number, as a bare number of the network language is.
+                    bare(v, p.loc)
+                } else {
+                    literal(Quantity::new(v * f, dim), f, p.loc)
+                }
             }
             _ => bare(v, p.loc),
         };
@@ -576,9 +582,12 @@ impl Context<'_> {
                 }
             },
         };
-        let forward = match from_reading
-            .or_else(|| self.mass_action(mono.as_ref(), &coeffs, law.loc))
-        {
+        let standard = || {
+            (!r.keeps_law)
+                .then(|| self.mass_action(mono.as_ref(), &coeffs, law.loc))
+                .flatten()
+        };
+        let forward = match from_reading.or_else(standard) {
             Some(rate) => rate,
             None => {
                 if r.reversible {

@@ -800,7 +800,7 @@ fn write_math(m: &Math, f: &mut fmt::Formatter<'_>, outer: u8) -> fmt::Result {
         write!(f, "(")?;
     }
     match &m.kind {
-        MathKind::Number(v) => write!(f, "{v}")?,
+        MathKind::Number(v) => write!(f, "{}", super::write::exact(*v))?,
         MathKind::Boolean(b) => write!(f, "{b}")?,
         MathKind::Ident(s) => write!(f, "{s}")?,
         MathKind::Time => write!(f, "time")?,
@@ -828,8 +828,9 @@ fn write_math(m: &Math, f: &mut fmt::Formatter<'_>, outer: u8) -> fmt::Result {
                         if i > 0 {
                             write!(f, "{sym}")?;
                         }
-                        // Left-associative: the right operand of - / ^ binds tighter.
-                        let right = i > 0 && matches!(op, Op::Minus | Op::Divide | Op::Power);
+                        // Read left to right: a later operand of the same precedence is
+                        // bracketed, so the text is the tree (a * (b / c) stays so).
+                        let right = i > 0;
                         let left_pow = i == 0 && *op == Op::Power;
                         write_math(x, f, p + u8::from(right || left_pow))?;
                     }

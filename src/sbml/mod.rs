@@ -13,6 +13,7 @@
 pub mod builtins;
 pub mod error;
 pub mod eval;
+pub mod export;
 pub mod functions;
 pub mod initial;
 pub mod map;
@@ -22,6 +23,7 @@ pub mod monomial;
 pub mod read;
 pub mod units;
 pub mod validate;
+pub mod write;
 pub mod xml;
 
 pub use error::{Construct, ErrorKind, Loc, SbmlError};

@@ -182,6 +182,9 @@ pub struct Reaction {
     pub kinetic_law: Option<KineticLaw>,
     /// copyloop's reading of the reaction, from its annotation.
     pub reading: Option<Reading>,
+    /// copyloop's annotation `<copyloop:law/>`: the law is run as written, even where it is a
+    /// constant times the reactants (the exporter marks every law step so).
+    pub keeps_law: bool,
     pub notes: Option<String>,
     pub loc: Loc,
 }

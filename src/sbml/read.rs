@@ -313,13 +313,17 @@ impl<'a> Reader<'_, 'a> {
         (!text.is_empty()).then(|| text.join(" "))
     }
 
-    /// copyloop's reading in `n`'s `<annotation>`, if it has one.
-    fn reading(&self, n: Node, id: Option<&str>) -> Result<Option<Reading>, SbmlError> {
-        let Some(a) = xml::elements(n)
+    /// The element `name` of copyloop's namespace in `n`'s `<annotation>`.
+    fn copyloop_element<'i>(&self, n: Node<'a, 'i>, name: &str) -> Option<Node<'a, 'i>> {
+        xml::elements(n)
             .filter(|c| xml::name(*c) == "annotation" && xml::ns(*c) == self.ns)
             .flat_map(xml::elements)
-            .find(|c| xml::ns(*c) == COPYLOOP_NS && xml::name(*c) == "massAction")
-        else {
+            .find(|c| xml::ns(*c) == COPYLOOP_NS && xml::name(*c) == name)
+    }
+
+    /// copyloop's reading in `n`'s `<annotation>`, if it has one.
+    fn reading(&self, n: Node, id: Option<&str>) -> Result<Option<Reading>, SbmlError> {
+        let Some(a) = self.copyloop_element(n, "massAction") else {
             return Ok(None);
         };
         let constant = self
@@ -721,6 +725,7 @@ impl<'a> Reader<'_, 'a> {
             modifiers: Vec::new(),
             kinetic_law: None,
             reading: self.reading(n, idr)?,
+            keeps_law: self.copyloop_element(n, "law").is_some(),
             notes: self.notes(n),
             loc: self.loc(n),
             id: id.clone(),

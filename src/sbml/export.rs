@@ -312,8 +312,9 @@ impl Exporter<'_> {
                 plain(k)
             )),
             Rate::Kd(op, _) => Some(format!(
-                "the reverse of a step given by K_d = {} (canonical units), so k_rev = k_fwd · K_d = {}; it does not follow later changes of the forward constant",
-                self.operand_value(op).map_or("?".into(), plain),
+                "the reverse of a step given by K_d = {}, so k_rev = k_fwd · K_d = {}; it does not follow later changes of the forward constant",
+                self.operand_quantity(op)
+                    .map_or("?".into(), |(v, d)| format!("{} {}", plain(v), units::unit_for(d).0)),
                 plain(k)
             )),
             Rate::Constant(Operand::Literal(l)) => Some(format!(
@@ -424,9 +425,13 @@ impl Exporter<'_> {
     }
 
     fn operand_value(&self, op: &Operand) -> Option<f64> {
+        self.operand_quantity(op).map(|q| q.0)
+    }
+
+    fn operand_quantity(&self, op: &Operand) -> Option<(f64, Dim)> {
         match op {
-            Operand::Literal(l) => Some(l.quantity.value),
-            Operand::Param(n) => self.param(&n.text).map(|p| p.value.value),
+            Operand::Literal(l) => Some((l.quantity.value, l.quantity.dim)),
+            Operand::Param(n) => self.param(&n.text).map(|p| (p.value.value, p.value.dim)),
         }
     }
 
@@ -574,17 +579,19 @@ pub fn document(net: &Network) -> Result<Export> {
         }),
         loc: at(),
     };
+    let file_name = std::path::Path::new(&net.file)
+        .file_name()
+        .map_or(net.file.clone(), |f| f.to_string_lossy().into_owned());
     let notes = format!(
-        "Exported by copyloop from {} (SBML Level 3 Version 2).\n\
+        "Exported by copyloop from {file_name} (SBML Level 3 Version 2).\n\
          Deterministic reading: each kinetic law is the reaction's rate in {} per second, as SBML defines it.\n\
          Stochastic reading: copyloop runs every mass-action reaction with the propensity c·Π C(x, ν) given in the reaction's annotation (namespace {COPYLOOP_NS}), and every other law evaluated on molecule counts.\n\
          This model is for research; its output is not a basis for diagnosis or treatment.",
-        net.file,
         if volume.is_some() { "mole" } else { "molecules" }
     );
     let model = Model {
         id: Some(model_id(&net.file)),
-        name: Some(net.file.clone()),
+        name: Some(file_name),
         substance_units: Some(substance.into()),
         time_units: Some("second".into()),
         volume_units: Some("litre".into()),

@@ -26,7 +26,8 @@
 //! marked `<copyloop:law/>` keeps its law as a law. Calls of a
 //! function definition that is one of the network language's own functions stay calls of it.
 //! Boundary and constant species are clamped; a boundary species is not listed as a reactant
-//! of a law, so it never gates one.
+//! of a law, so it never gates one (except in a law step marked `<copyloop:law/>`, which
+//! copyloop gates by all its reactants, as it does its own law steps).
 //!
 //! What the network cannot hold yet is refused with [`ErrorKind::NotYet`]: rules, events,
 //! `time` in laws, non-integer amounts or stoichiometries in counts, other substance units,
@@ -383,7 +384,7 @@ fn scale(doc: &Document, values: &InitialValues) -> Result<Scale, SbmlError> {
     let c_err = |why: String| not_yet("compartment", Some(&c.id), c.loc, why);
     if c.spatial_dimensions != Some(3.0) {
         return Err(c_err(
-            "mole-based amounts in a compartment that is not three-dimensional".into(),
+            "mole-based amounts in a compartment whose spatialDimensions is not 3 (other compartments arrive with the network extension)".into(),
         ));
     }
     let default = (level == 2).then_some("volume");
@@ -602,11 +603,11 @@ impl Context<'_> {
             }
         };
         // A boundary species is never consumed; leaving it out of a law's reactants keeps it from
-        // gating the law.
+        // gating the law (except in copyloop's own law steps, gated by every listed reactant).
         let is_law = matches!(forward, Rate::Law(_));
         let shown_terms: Vec<Term> = reactants
             .iter()
-            .filter(|e| !(is_law && self.m.species[e.0].boundary_condition))
+            .filter(|e| r.keeps_law || !(is_law && self.m.species[e.0].boundary_condition))
             .map(term)
             .collect();
         let text = is_law.then(|| self.shown(law));

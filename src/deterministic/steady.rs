@@ -28,6 +28,7 @@ use super::ode::{Integrator, OdeFailure, OdeOptions};
 use super::reduce::Reduction;
 use super::system::System;
 use crate::network::Network;
+use crate::numbers::short;
 use crate::{Error, Result};
 use nalgebra::{Complex, DMatrix, DVector, Schur};
 
@@ -161,6 +162,19 @@ pub struct Steady {
     /// Time integrated (s) and accepted ODE steps, 0 when no integration ran.
     pub integrated_time: f64,
     pub ode_steps: usize,
+    /// The species that only accumulate ([`Network::outputs`]), with their rates at the steady
+    /// state of the rest; their entries in `conc` and `counts` hold their initial amount.
+    pub outputs: Vec<Accumulation>,
+}
+
+/// A species that only accumulates, and how fast.
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub struct Accumulation {
+    pub species: usize,
+    /// d[X]/dt (concentration per second; molecules per second without a volume).
+    pub rate: f64,
+    /// dx/dt in molecules per second.
+    pub rate_per_s: f64,
 }
 
 impl Steady {
@@ -451,17 +465,42 @@ fn slowest_time(ev: &[Complex<f64>]) -> f64 {
 }
 
 /// Finds the steady state reached from the network's initial state.
+///
+/// Species that only accumulate ([`Network::outputs`]) are held at their initial amount while
+/// the rest is solved, and reported with their accumulation rate Σⱼ S_ij·vⱼ at that state.
 pub fn solve(net: &Network, opts: &SteadyOptions) -> Result<Steady> {
+    let outputs = net.outputs();
+    if outputs.is_empty() {
+        return solve_closed(net, opts);
+    }
+    let mut st = solve_closed(&net.holding(&outputs), opts)?;
+    st.outputs = outputs
+        .iter()
+        .map(|&i| {
+            let rate: f64 = net
+                .stoichiometry
+                .row(i)
+                .iter()
+                .map(|&(j, s)| s as f64 * st.rates[j])
+                .sum();
+            Accumulation {
+                species: i,
+                rate,
+                rate_per_s: rate * net.omega,
+            }
+        })
+        .collect();
+    Ok(st)
+}
+
+fn solve_closed(net: &Network, opts: &SteadyOptions) -> Result<Steady> {
     let sys = System::new(net);
     let y0 = sys.initial();
     let red = Reduction::new(&sys);
     let totals = red.totals(&y0);
     let v0 = sys.rates(&y0);
-    if v0.iter().any(|v| !v.is_finite()) {
-        return Err(Error::usage(format!(
-            "{}: a rate is not a finite number at the initial state, so no steady state can be computed",
-            net.file
-        )));
+    if let Some(j) = v0.iter().position(|v| !v.is_finite()) {
+        return Err(bad_rate(net, j, v0[j], "at the initial state"));
     }
     let g_ref = sys.gross(&v0).into_iter().fold(0.0, f64::max);
     let top0 = y0.iter().fold(0.0f64, |m, x| m.max(x.abs()));
@@ -685,6 +724,11 @@ fn finish(
     let rates = sys.rates(&y);
     let f = sys.rhs_from_rates(&rates);
     let gmax = sys.gross(&rates).into_iter().fold(ctx.g_ref, f64::max);
+    // A law may go negative where mass action cannot; the stochastic kernels refuse such a
+    // rate, and so does the steady state (beyond rounding of the largest turnover).
+    if let Some(j) = (0..rates.len()).find(|&j| rates[j] < -1e-9 * gmax.max(f64::MIN_POSITIVE)) {
+        return Err(bad_rate(net, j, rates[j], "at the steady state"));
+    }
     let max_abs = f.iter().fold(0.0f64, |m, x| m.max(x.abs()));
     let relative = if gmax > 0.0 { max_abs / gmax } else { 0.0 };
     let jr = ctx.red.reduced_jacobian(&sys.jacobian(&y));
@@ -714,6 +758,7 @@ fn finish(
         method,
         integrated_time,
         ode_steps,
+        outputs: Vec::new(),
     })
 }
 
@@ -886,17 +931,6 @@ fn rate_text(net: &Network, rate: f64) -> String {
     }
 }
 
-fn short(x: f64) -> String {
-    if x == 0.0 {
-        "0".into()
-    } else if (1e-3..1e6).contains(&x.abs()) {
-        let s = format!("{x:.4}");
-        s.trim_end_matches('0').trim_end_matches('.').to_string()
-    } else {
-        format!("{x:.3e}")
-    }
-}
-
 /// Where the algebraic steady state exists only with a negative concentration: a sentence
 /// naming it, and the conservation law it breaks if it belongs to one.
 fn negative_root_note(ctx: &Ctx, starts: &[&[f64]]) -> Option<String> {
@@ -1029,6 +1063,26 @@ fn no_steady_state_because(
         }
     };
     Error::Usage(msg)
+}
+
+/// A rate that is negative or not finite, located at its step.
+fn bad_rate(net: &Network, j: usize, v: f64, where_: &str) -> Error {
+    let r = &net.reactions[j];
+    let d = crate::error::Diagnostic::at(
+        &net.file,
+        &net.source.source,
+        r.span,
+        format!(
+            "step `{}`: its rate is {} {where_}; a rate must be finite and not negative",
+            r.label,
+            rate_text(net, v)
+        ),
+    )
+    .with_help(
+        "check the law for a subtraction or division that can go below zero or blow up \
+         (e.g. write `max(0, 3 - A)` or use sat/inhib)",
+    );
+    Error::Input(vec![d])
 }
 
 fn negative_during_run(ctx: &Ctx, slot: usize, value: f64, t: f64) -> Error {

@@ -3,17 +3,21 @@
 //! Petzold (2005, J. Chem. Phys. 123:054104 [verified]); REFERENCES.md §3 steps 1–6:
 //!
 //! 1. reactions that could exhaust a reactant within n_c = 10 firings are critical;
-//! 2. τ' bounds the relative change of every reactant of the non-critical reactions by ε
-//!    ([`LeapPlan::tau_prime`]), and every Poisson mean a_j·τ by [`LAMBDA_MAX`] (the sampler is
+//! 2. τ' bounds by ε the relative change of every species a propensity reads (every reactant
+//!    of every reaction, and every species a law reads, also at count 0:
+//!    [`LeapPlan::tau_prime`]), and every Poisson mean a_j·τ by [`LAMBDA_MAX`] (the sampler is
 //!    not trusted beyond it);
 //! 3. if a leap would replace fewer than `threshold` exact events (τ'·a₀ < 10 for `tau`),
 //!    up to 100 exact direct-method steps are taken instead;
 //! 4. τ'' ~ Exp(a₀c) over the critical reactions;
-//! 5. the leap is min(τ', τ''): non-critical reactions fire Poisson(a_j τ) times and, when
-//!    τ'' is the shorter, exactly one critical reaction fires;
+//! 5. the leap is min(τ', τ''), cut where it would cross t_end or a time the observer samples
+//!    (a grid point): non-critical reactions fire Poisson(a_j τ) times and, when τ'' is the
+//!    shorter and the leap was not cut, exactly one critical reaction fires;
 //! 6. a leap that would make a count negative is rejected and τ' halved.
 //!
-//! Guarantees: counts never go negative; clamped species never change. Tau-leaping is
+//! Guarantees: counts never go negative; clamped species never change; every propensity is
+//! checked at every state a run reaches, the last included, so a law that turns negative
+//! stops a tau run with the same error as the direct method. Tau-leaping is
 //! approximate: its bias is controlled by ε (0.03 by default) and measured against the exact
 //! method in the tests. `auto` is the same machinery with `threshold` = 100: it leaps only where
 //! a leap replaces about a hundred exact events, so it is exact wherever leaping would not pay.
@@ -22,6 +26,7 @@ use super::compiled::CompiledKernel;
 use super::leap::{LeapPlan, N_CRITICAL};
 use super::observe::Observer;
 use super::rng::{exp1, uniform};
+use super::select::select_linear;
 use crate::error::{Error, Result};
 use crate::network::{Network, MAX_COUNT};
 use rand::Rng;
@@ -47,6 +52,24 @@ pub struct TauSummary {
     pub absorbed_at: Option<f64>,
 }
 
+/// When a leap is taken instead of exact steps.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+pub enum Switch {
+    /// Leap when the leap replaces at least [`TAU_THRESHOLD`] exact events (`--method tau`).
+    Tau,
+    /// Leap only when it replaces at least [`AUTO_THRESHOLD`] exact events (`--method auto`).
+    Auto,
+}
+
+impl Switch {
+    fn threshold(self) -> f64 {
+        match self {
+            Switch::Tau => TAU_THRESHOLD,
+            Switch::Auto => AUTO_THRESHOLD,
+        }
+    }
+}
+
 /// A tau-leaping simulator for one network; its buffers are allocated once.
 #[derive(Clone, Debug)]
 pub struct Tau<'k> {
@@ -63,16 +86,33 @@ pub struct Tau<'k> {
     dx: Vec<i64>,
 }
 
+/// What the next step of a run is.
+enum Step {
+    /// Nothing can fire any more.
+    Absorbed,
+    /// A leap of at most τ' (s).
+    Leap { tau_prime: f64 },
+    /// Exact direct-method steps.
+    Exact,
+}
+
+/// Where a stretch of exact steps or a leap left the run.
+enum Progress {
+    /// The run goes on from this time.
+    At(f64),
+    /// The run is over: t_end is reached, or nothing can fire (absorbed at the time given).
+    Over(Option<f64>),
+}
+
 impl<'k> Tau<'k> {
-    /// `auto` selects the [`AUTO_THRESHOLD`] switch, otherwise [`TAU_THRESHOLD`].
-    pub fn new(kernel: &'k CompiledKernel, net: &Network, epsilon: f64, auto: bool) -> Tau<'k> {
+    pub fn new(kernel: &'k CompiledKernel, net: &Network, epsilon: f64, switch: Switch) -> Tau<'k> {
         let n = kernel.species;
         let m = kernel.reactions();
         Tau {
             kernel,
             plan: LeapPlan::new(net),
             epsilon,
-            threshold: if auto { AUTO_THRESHOLD } else { TAU_THRESHOLD },
+            threshold: switch.threshold(),
             x: kernel.state_buffer(&kernel.x0),
             props: vec![0.0; m],
             critical: vec![false; m],
@@ -88,6 +128,59 @@ impl<'k> Tau<'k> {
         &self.x[..self.kernel.species]
     }
 
+    /// Runs one trajectory from `x0` over [0, `t_end`], reporting to `obs`.
+    pub fn run<R: Rng + ?Sized, O: Observer>(
+        &mut self,
+        x0: &[i64],
+        t_end: f64,
+        rng: &mut R,
+        obs: &mut O,
+    ) -> Result<TauSummary> {
+        let n = self.kernel.species;
+        self.check_start(x0)?;
+        self.x[..n].copy_from_slice(x0);
+        obs.start(&self.x[..n]);
+        let mut s = TauSummary::default();
+        let mut t = 0.0;
+        let mut a0 = self.propensities(t)?;
+        while t < t_end {
+            let progress = match self.next_step(a0) {
+                Step::Absorbed => Progress::Over(Some(t)),
+                Step::Exact => self.exact_steps(t, t_end, a0, rng, obs, &mut s)?,
+                Step::Leap { tau_prime } => self.leap(t, t_end, tau_prime, a0, rng, obs, &mut s)?,
+            };
+            match progress {
+                Progress::At(t_new) => t = t_new,
+                Progress::Over(absorbed) => {
+                    s.absorbed_at = absorbed;
+                    break;
+                }
+            }
+            // Every state the run reaches is checked, the last one too.
+            a0 = self.propensities(t)?;
+        }
+        obs.finish(t_end, &self.x[..n]);
+        Ok(s)
+    }
+
+    fn check_start(&self, x0: &[i64]) -> Result<()> {
+        let n = self.kernel.species;
+        if x0.len() != n {
+            return Err(Error::Internal(format!(
+                "initial state has {} counts for {n} species",
+                x0.len()
+            )));
+        }
+        if let Some(i) = x0.iter().position(|&v| !(0..=MAX_COUNT).contains(&v)) {
+            return Err(Error::usage(format!(
+                "initial count {} of species `{}` is outside 0 ..= {MAX_COUNT}",
+                x0[i],
+                self.kernel.species_name(i)
+            )));
+        }
+        Ok(())
+    }
+
     /// Propensities at the current state and their sum; an error for a bad law value.
     fn propensities(&mut self, t: f64) -> Result<f64> {
         let mut a0 = 0.0;
@@ -100,6 +193,165 @@ impl<'k> Tau<'k> {
             a0 += a;
         }
         Ok(a0)
+    }
+
+    /// Steps 1–3: marks the critical reactions, computes τ' (capped so that no Poisson mean
+    /// passes [`LAMBDA_MAX`]) and decides between a leap and exact steps.
+    fn next_step(&mut self, a0: f64) -> Step {
+        if a0 == 0.0 {
+            return Step::Absorbed;
+        }
+        let n = self.kernel.species;
+        let x = &self.x[..n];
+        self.plan
+            .mark_critical(x, &self.props, N_CRITICAL, &mut self.critical);
+        let mut tau_prime = self.plan.tau_prime(
+            x,
+            &self.props,
+            &self.critical,
+            self.epsilon,
+            &mut self.mu,
+            &mut self.sigma2,
+        );
+        for (j, &a) in self.props.iter().enumerate() {
+            if !self.critical[j] && a > 0.0 {
+                tau_prime = tau_prime.min(LAMBDA_MAX / a);
+            }
+        }
+        if tau_prime * a0 < self.threshold {
+            Step::Exact
+        } else {
+            Step::Leap { tau_prime }
+        }
+    }
+
+    /// Step 3's alternative: up to [`EXACT_BURST`] direct-method steps from `t`, the first with
+    /// the propensities already computed (total `a0`).
+    fn exact_steps<R: Rng + ?Sized, O: Observer>(
+        &mut self,
+        mut t: f64,
+        t_end: f64,
+        mut a0: f64,
+        rng: &mut R,
+        obs: &mut O,
+        s: &mut TauSummary,
+    ) -> Result<Progress> {
+        for step in 0..EXACT_BURST {
+            if step > 0 {
+                a0 = self.propensities(t)?;
+            }
+            if a0 == 0.0 {
+                return Ok(Progress::Over(Some(t)));
+            }
+            let t_new = t + exp1(rng) / a0;
+            if t_new > t_end {
+                return Ok(Progress::Over(None));
+            }
+            let j = select_linear(&self.props, uniform(rng) * a0);
+            self.clear();
+            self.add_firings(j, 1);
+            s.events += self.apply(t_new, obs)?;
+            s.exact_steps += 1;
+            t = t_new;
+        }
+        Ok(Progress::At(t))
+    }
+
+    /// Steps 4–6: one leap of length min(τ', τ'') (τ'' ~ Exp(a₀c) over the critical
+    /// reactions), cut at t_end; a leap that would make a count negative is redrawn with τ'
+    /// halved, going back to exact steps when τ' becomes too short to pay.
+    #[allow(clippy::too_many_arguments)]
+    fn leap<R: Rng + ?Sized, O: Observer>(
+        &mut self,
+        t: f64,
+        t_end: f64,
+        mut tau_prime: f64,
+        a0: f64,
+        rng: &mut R,
+        obs: &mut O,
+        s: &mut TauSummary,
+    ) -> Result<Progress> {
+        let a0c: f64 = self
+            .props
+            .iter()
+            .zip(&self.critical)
+            .filter(|(_, &c)| c)
+            .map(|(a, _)| a)
+            .sum();
+        loop {
+            if tau_prime * a0 < self.threshold {
+                return self.exact_steps(t, t_end, a0, rng, obs, s);
+            }
+            let tau_critical = if a0c > 0.0 {
+                exp1(rng) / a0c
+            } else {
+                f64::INFINITY
+            };
+            let (mut tau, mut one_critical) = if tau_prime < tau_critical {
+                (tau_prime, false)
+            } else {
+                (tau_critical, true)
+            };
+            // A leap ends at t_end and at the observer's next sample time, so that the sample
+            // is the state at that time, not the state before a leap across it.
+            let stop = t_end.min(obs.sample_after(t));
+            if t + tau > stop {
+                tau = stop - t;
+                one_critical = false;
+            }
+            self.draw_firings(tau, one_critical, a0c, rng);
+            let n = self.kernel.species;
+            if (0..n).any(|i| self.x[i] + self.dx[i] < 0) {
+                tau_prime /= 2.0;
+                continue;
+            }
+            let t_new = t + tau;
+            s.events += self.apply(t_new, obs)?;
+            s.leaps += 1;
+            return Ok(Progress::At(t_new));
+        }
+    }
+
+    /// Step 5: Poisson(a_j·τ) firings of every non-critical reaction and, with
+    /// `one_critical`, one firing of a critical reaction chosen with probability a_j/a₀c.
+    fn draw_firings<R: Rng + ?Sized>(
+        &mut self,
+        tau: f64,
+        one_critical: bool,
+        a0c: f64,
+        rng: &mut R,
+    ) {
+        self.clear();
+        for j in 0..self.props.len() {
+            let a = self.props[j];
+            if self.critical[j] || a <= 0.0 {
+                continue;
+            }
+            let k = match Poisson::new(a * tau) {
+                Ok(p) => p.sample(rng) as u64,
+                Err(_) => 0,
+            };
+            if k > 0 {
+                self.add_firings(j, k);
+            }
+        }
+        if one_critical {
+            let target = uniform(rng) * a0c;
+            let mut acc = 0.0;
+            let mut pick = None;
+            for (j, (&a, &c)) in self.props.iter().zip(&self.critical).enumerate() {
+                if c && a > 0.0 {
+                    acc += a;
+                    pick = Some(j);
+                    if acc > target {
+                        break;
+                    }
+                }
+            }
+            if let Some(j) = pick {
+                self.add_firings(j, 1);
+            }
+        }
     }
 
     /// Applies `counts` firings (already in `dx`) at `t_new`, reporting them to `obs`.
@@ -144,155 +396,5 @@ impl<'k> Tau<'k> {
         for &(i, d) in self.kernel.change(j) {
             self.dx[i as usize] += d * k as i64;
         }
-    }
-
-    /// Runs one trajectory from `x0` over [0, `t_end`], reporting to `obs`.
-    pub fn run<R: Rng + ?Sized, O: Observer>(
-        &mut self,
-        x0: &[i64],
-        t_end: f64,
-        rng: &mut R,
-        obs: &mut O,
-    ) -> Result<TauSummary> {
-        let k = self.kernel;
-        let n = k.species;
-        if x0.len() != n {
-            return Err(Error::Internal(format!(
-                "initial state has {} counts for {n} species",
-                x0.len()
-            )));
-        }
-        if let Some(i) = x0.iter().position(|&v| !(0..=MAX_COUNT).contains(&v)) {
-            return Err(Error::usage(format!(
-                "initial count {} of species `{}` is outside 0 ..= {MAX_COUNT}",
-                x0[i],
-                k.species_name(i)
-            )));
-        }
-        self.x[..n].copy_from_slice(x0);
-        obs.start(&self.x[..n]);
-        let mut s = TauSummary::default();
-        let mut t = 0.0;
-        'run: while t < t_end {
-            let a0 = self.propensities(t)?;
-            if a0 == 0.0 {
-                s.absorbed_at = Some(t);
-                break;
-            }
-            self.plan
-                .mark_critical(&self.x[..n], &self.props, N_CRITICAL, &mut self.critical);
-            let mut tau1 = self.plan.tau_prime(
-                &self.x[..n],
-                &self.props,
-                &self.critical,
-                self.epsilon,
-                &mut self.mu,
-                &mut self.sigma2,
-            );
-            for (j, &a) in self.props.iter().enumerate() {
-                if !self.critical[j] && a > 0.0 {
-                    tau1 = tau1.min(LAMBDA_MAX / a);
-                }
-            }
-            loop {
-                if tau1 * a0 < self.threshold {
-                    // Exact direct-method steps (step 3).
-                    let mut a0 = a0;
-                    for step in 0..EXACT_BURST {
-                        if step > 0 {
-                            a0 = self.propensities(t)?;
-                        }
-                        if a0 == 0.0 {
-                            s.absorbed_at = Some(t);
-                            break 'run;
-                        }
-                        let t_new = t + exp1(rng) / a0;
-                        if t_new > t_end {
-                            break 'run;
-                        }
-                        let target = uniform(rng) * a0;
-                        let mut acc = 0.0;
-                        let mut j = self.props.iter().rposition(|&a| a > 0.0).unwrap_or(0);
-                        for (c, &a) in self.props.iter().enumerate() {
-                            acc += a;
-                            if acc > target && a > 0.0 {
-                                j = c;
-                                break;
-                            }
-                        }
-                        self.clear();
-                        self.add_firings(j, 1);
-                        s.events += self.apply(t_new, obs)?;
-                        s.exact_steps += 1;
-                        t = t_new;
-                    }
-                    continue 'run;
-                }
-                let a0c: f64 = self
-                    .props
-                    .iter()
-                    .zip(&self.critical)
-                    .filter(|(_, &c)| c)
-                    .map(|(a, _)| a)
-                    .sum();
-                let tau2 = if a0c > 0.0 {
-                    exp1(rng) / a0c
-                } else {
-                    f64::INFINITY
-                };
-                let (mut tau, mut one_critical) = if tau1 < tau2 {
-                    (tau1, false)
-                } else {
-                    (tau2, true)
-                };
-                if t + tau > t_end {
-                    tau = t_end - t;
-                    one_critical = false;
-                }
-                self.clear();
-                for j in 0..self.props.len() {
-                    let a = self.props[j];
-                    if self.critical[j] || a <= 0.0 {
-                        continue;
-                    }
-                    let lambda = a * tau;
-                    let k = match Poisson::new(lambda) {
-                        Ok(p) => p.sample(rng) as u64,
-                        Err(_) => 0,
-                    };
-                    if k > 0 {
-                        self.add_firings(j, k);
-                    }
-                }
-                if one_critical {
-                    let target = uniform(rng) * a0c;
-                    let mut acc = 0.0;
-                    let mut pick = None;
-                    for (j, (&a, &c)) in self.props.iter().zip(&self.critical).enumerate() {
-                        if c && a > 0.0 {
-                            acc += a;
-                            pick = Some(j);
-                            if acc > target {
-                                break;
-                            }
-                        }
-                    }
-                    if let Some(j) = pick {
-                        self.add_firings(j, 1);
-                    }
-                }
-                if (0..n).any(|i| self.x[i] + self.dx[i] < 0) {
-                    tau1 /= 2.0;
-                    continue;
-                }
-                let t_new = t + tau;
-                s.events += self.apply(t_new, obs)?;
-                s.leaps += 1;
-                t = t_new;
-                continue 'run;
-            }
-        }
-        obs.finish(t_end, &self.x[..n]);
-        Ok(s)
     }
 }

@@ -48,14 +48,20 @@ impl Overrides {
     }
 }
 
-/// Reads, parses and compiles the network file at `path`.
+/// Reads, parses and compiles the network file at `path` (SBML for `.xml` and `.sbml`).
 pub fn load(path: &str, overrides: &Overrides) -> Result<Network, Error> {
+    if crate::sbml::is_sbml_path(path) {
+        return crate::sbml::load(path, overrides);
+    }
     let bytes = std::fs::read(path).map_err(|e| Error::io(path, e))?;
     load_source(path, &bytes, overrides)
 }
 
-/// Parses and compiles `bytes` as the network file called `file`.
+/// Parses and compiles `bytes` as the network file called `file` (SBML for `.xml` and `.sbml`).
 pub fn load_source(file: &str, bytes: &[u8], overrides: &Overrides) -> Result<Network, Error> {
+    if crate::sbml::is_sbml_path(file) {
+        return crate::sbml::load_source(file, bytes, overrides);
+    }
     let ast = parser::parse(file, bytes).map_err(Error::Input)?;
     compile(&ast, overrides).map_err(Error::Input)
 }

@@ -175,6 +175,42 @@ impl Network {
         }
     }
 
+    /// The species that only accumulate: not clamped, changed by some step, read by none (no
+    /// reactant of any step, in no law) and in no conservation law. Such a species has no
+    /// steady level, but it cannot affect the rest of the network either, so the rest can be
+    /// stationary while it grows: its accumulation rate is the figure to report.
+    pub fn outputs(&self) -> Vec<usize> {
+        let mut read = vec![false; self.species.len()];
+        for r in &self.reactions {
+            for i in r.reads() {
+                read[i] = true;
+            }
+        }
+        let changed = |i: usize| {
+            self.reactions
+                .iter()
+                .any(|r| r.change.iter().any(|c| c.0 == i))
+        };
+        let in_law = |i: usize| self.conservation_laws.iter().any(|l| l[i] != 0);
+        (0..self.species.len())
+            .filter(|&i| !self.species[i].clamped && !read[i] && !in_law(i) && changed(i))
+            .collect()
+    }
+
+    /// This network with `held` species treated as clamped at their initial amount (their
+    /// changes removed), for analyses of the stationary part of a network whose outputs
+    /// accumulate. Nothing reads an output, so every other species behaves as before.
+    pub fn holding(&self, held: &[usize]) -> Network {
+        let mut net = self.clone();
+        for &i in held {
+            net.species[i].clamped = true;
+        }
+        for r in &mut net.reactions {
+            r.change.retain(|c| !held.contains(&c.0));
+        }
+        net
+    }
+
     /// Initial concentrations x₀/Ω (counts without a volume).
     pub fn initial_concentrations(&self) -> Vec<f64> {
         self.species

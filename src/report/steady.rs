@@ -24,13 +24,37 @@ fn eigen_text(z: &nalgebra::Complex<f64>) -> String {
 /// The JSON document of CONTRACT §3 for `steady`, with extras.
 pub fn json(net: &Network, st: &Steady) -> Value {
     let mut state = Map::new();
+    let accumulates = |i: usize| st.outputs.iter().any(|o| o.species == i);
     for (i, s) in net.species.iter().enumerate() {
+        // A species that only accumulates has no steady level: its rate is under `outputs`.
+        let count = if accumulates(i) {
+            Value::Null
+        } else {
+            jnum(st.counts[i])
+        };
+        let molar_count = if accumulates(i) {
+            Value::Null
+        } else {
+            molar(net, st.counts[i])
+        };
         state.insert(
             s.name.clone(),
             json!({
-                "count": jnum(st.counts[i]),
-                "molar": molar(net, st.counts[i]),
+                "count": count,
+                "molar": molar_count,
                 "clamped": s.clamped,
+                "accumulates": accumulates(i),
+            }),
+        );
+    }
+    let mut outputs = Map::new();
+    for o in &st.outputs {
+        outputs.insert(
+            net.species[o.species].name.clone(),
+            json!({
+                "rate_per_s": jnum(o.rate_per_s),
+                "rate_molar_per_s": molar(net, o.rate_per_s),
+                "ensemble_rate_per_s": Value::Null,
             }),
         );
     }
@@ -70,6 +94,7 @@ pub fn json(net: &Network, st: &Steady) -> Value {
         "volume_l": net.volume_l,
         "state": state,
         "fluxes": fluxes,
+        "outputs": outputs,
         "residual": jnum(st.residual.max_abs_per_s),
         "residual_molar": molar(net, st.residual.max_abs_per_s),
         "residual_relative": jnum(st.residual.relative),
@@ -100,6 +125,15 @@ pub fn table(net: &Network, st: &Steady) -> String {
     head.push("held");
     let mut t = Table::new(&head);
     for (i, s) in net.species.iter().enumerate() {
+        if let Some(o) = st.outputs.iter().find(|o| o.species == i) {
+            let mut row = vec![s.name.clone(), format!("+{}/s", num(o.rate_per_s))];
+            if with_volume {
+                row.push(format!("+{}/s", num(o.rate)));
+            }
+            row.push("accumulates".into());
+            t.row(row);
+            continue;
+        }
         let mut row = vec![s.name.clone(), num(st.counts[i])];
         if with_volume {
             row.push(num(st.conc[i]));
@@ -112,6 +146,11 @@ pub fn table(net: &Network, st: &Steady) -> String {
         t.row(row);
     }
     out.push_str(&t.render());
+    if !st.outputs.is_empty() {
+        out.push_str(
+            "(a species that nothing consumes or reads only accumulates: the steady state is that of the rest, and its rate is shown)\n",
+        );
+    }
     out.push('\n');
     let mut head = vec!["reaction", "step", "flux (molecules/s)"];
     if with_volume {

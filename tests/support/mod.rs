@@ -2,4 +2,5 @@
 #![allow(dead_code)]
 
 pub mod cli;
-pub mod cme;
+pub mod sbml_stochastic;
+pub mod sbml_suite;

@@ -477,10 +477,11 @@ pub fn solve(net: &Network, opts: &SteadyOptions) -> Result<Steady> {
     st.outputs = outputs
         .iter()
         .map(|&i| {
-            let rate: f64 = net.stoichiometry[i]
+            let rate: f64 = net
+                .stoichiometry
+                .row(i)
                 .iter()
-                .zip(&st.rates)
-                .map(|(&s, v)| s as f64 * v)
+                .map(|&(j, s)| s as f64 * st.rates[j])
                 .sum();
             Accumulation {
                 species: i,

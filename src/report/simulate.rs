@@ -218,3 +218,128 @@ pub fn csv(net: &Network, r: &EnsembleResult) -> String {
     }
     out
 }
+
+/// A time course to draw: at each grid time, a level per species.
+#[derive(Clone, Copy, Debug)]
+pub enum Course<'a> {
+    /// A replicate ensemble: the mean across replicates, with its SD as a band.
+    Ensemble(&'a EnsembleResult),
+    /// A deterministic time course (the ODE): `counts[p][i]` is species i at `times[p]`, in
+    /// molecules; drawn as lines without bands.
+    Deterministic {
+        times: &'a [f64],
+        counts: &'a [Vec<f64>],
+    },
+}
+
+impl<'a> From<&'a EnsembleResult> for Course<'a> {
+    fn from(r: &'a EnsembleResult) -> Course<'a> {
+        Course::Ensemble(r)
+    }
+}
+
+/// The species a time course shows unless told otherwise: every species that is not clamped.
+pub fn default_species(net: &Network) -> Vec<usize> {
+    (0..net.species.len())
+        .filter(|&i| !net.species[i].clamped)
+        .collect()
+}
+
+/// The unit a time axis reads best in for a run to `t_end` seconds: seconds up to 10 min,
+/// minutes up to 10 h, hours beyond; with its length in seconds.
+fn time_unit(t_end: f64) -> (&'static str, f64) {
+    if t_end <= 600.0 {
+        ("s", 1.0)
+    } else if t_end <= 36_000.0 {
+        ("min", 60.0)
+    } else {
+        ("h", 3600.0)
+    }
+}
+
+/// The time course of `species` (indices into `net.species`, in the order given) as an SVG
+/// chart: a line per species through its level at every grid time, in molecules, and for an
+/// ensemble of two or more replicates a band of mean ± SD.
+pub fn svg(net: &Network, course: Course, species: &[usize]) -> String {
+    use super::plot::{AxisSpec, Chart, Dash, Interval, Point, Series};
+    let (times, title, banded) = match course {
+        Course::Ensemble(r) => {
+            let n = r.spec.replicates;
+            let what = if n >= 2 {
+                format!("mean ± SD of {n} replicates")
+            } else {
+                "one trajectory".to_string()
+            };
+            let title = format!("{}: time course, {what} ({})", net.file, r.spec.method.name());
+            (r.grid_times.as_slice(), title, n >= 2)
+        }
+        Course::Deterministic { times, .. } => (
+            times,
+            format!("{}: deterministic time course (ODE)", net.file),
+            false,
+        ),
+    };
+    let t_end = times.iter().copied().fold(0.0, f64::max);
+    let (unit, per) = time_unit(t_end);
+    let series = species
+        .iter()
+        .filter(|&&i| i < net.species.len())
+        .map(|&i| {
+            let points: Vec<Point> = times
+                .iter()
+                .enumerate()
+                .map(|(p, &t)| match course {
+                    Course::Ensemble(r) => {
+                        let w = &r.grid[p][i];
+                        let pt = Point::new(t / per, w.mean());
+                        if banded {
+                            pt.with_interval(w.mean() - w.sd(), w.mean() + w.sd())
+                        } else {
+                            pt
+                        }
+                    }
+                    Course::Deterministic { counts, .. } => Point::new(
+                        t / per,
+                        counts.get(p).and_then(|c| c.get(i)).copied().unwrap_or(f64::NAN),
+                    ),
+                })
+                .collect();
+            let sp = &net.species[i];
+            let clamped = if sp.clamped { ", clamped" } else { "" };
+            let name = if banded {
+                format!("{} (mean ± SD{clamped})", sp.name)
+            } else if clamped.is_empty() {
+                sp.name.clone()
+            } else {
+                format!("{} (clamped)", sp.name)
+            };
+            Series {
+                line: Some(Dash::Solid),
+                interval: if banded { Interval::Band } else { Interval::None },
+                ..Series::new(name, points)
+            }
+        })
+        .collect();
+    let notes = if banded {
+        vec!["bands: mean ± 1 SD across replicates at each grid time".to_string()]
+    } else {
+        Vec::new()
+    };
+    Chart {
+        title,
+        x: AxisSpec {
+            label: format!("time ({unit})"),
+            log: false,
+            from_zero: true,
+        },
+        y: AxisSpec {
+            label: "count (molecules)".into(),
+            log: false,
+            from_zero: true,
+        },
+        categories: Vec::new(),
+        series,
+        notes,
+    }
+    .render()
+}

@@ -85,6 +85,9 @@ pub struct Vary {
     pub count: Option<usize>,
     /// The values of a list spec.
     pub list: Vec<f64>,
+    /// The unit the file wrote for `name` (`molecules` for a count written bare), which a
+    /// value without a unit is read in; `None` for a bare param.
+    pub file_unit: Option<String>,
 }
 
 impl Vary {
@@ -110,6 +113,7 @@ impl Vary {
             to: 0.0,
             count: None,
             list: Vec::new(),
+            file_unit: file_unit(name, ast),
         };
         match kind.trim() {
             "lin" | "log" => {
@@ -249,6 +253,32 @@ impl Vary {
     pub fn unit_text(&self) -> Option<&str> {
         self.unit.as_ref().map(|u| u.text.as_str())
     }
+}
+
+/// The unit text the file wrote after the value of `name` (the volume, a param or a
+/// species); `molecules` for a species amount written bare; `None` for a bare param or where
+/// the file's text does not show it (an imported SBML model, whose amounts are counts).
+fn file_unit(name: &str, ast: &Ast) -> Option<String> {
+    let (lit, species) = ast.items.iter().find_map(|item| match item {
+        Item::Volume(lit) if name == "volume" => Some((lit, false)),
+        Item::Param { name: n, value, .. } if n.text == name => Some((value, false)),
+        Item::Species {
+            name: n, amount, ..
+        } if n.text == name => Some((amount, true)),
+        _ => None,
+    })?;
+    if lit.bare || lit.quantity.dim == Dim::COUNT {
+        return species.then(|| "molecules".to_string());
+    }
+    let line = ast.source.lines().nth((lit.span.line as usize).checked_sub(1)?)?;
+    let text: String = line
+        .chars()
+        .skip((lit.span.col as usize).saturating_sub(1))
+        .take(lit.span.len as usize)
+        .collect();
+    // The literal must read back as the same number and unit (a `.crn` line, not XML).
+    let w = written(&text).ok()?;
+    (w.unit.is_some() && w.canonical == lit.quantity.value).then(|| unit_text(&text))
 }
 
 /// What `name` is in the network file.

@@ -1,6 +1,6 @@
 //! Reports of `copyloop sweep` and `copyloop merge`, and the document of the `initial` task.
 
-pub mod svg;
+pub mod response;
 
 use super::jnum;
 use crate::network::Network;

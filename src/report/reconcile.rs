@@ -309,7 +309,7 @@ pub fn svg(net: &Network, r: &Reconciliation) -> String {
     Chart {
         title: format!("{}: motif output fluxes", net.file),
         x: AxisSpec {
-            label: "carrier motif (carrier·ligand → output)".into(),
+            label: "carrier motif (carrier·ligand → output step)".into(),
             log: false,
             from_zero: false,
         },

@@ -4,3 +4,4 @@
 pub mod cli;
 pub mod cme;
 pub mod sbml_suite;
+pub mod svg;

@@ -73,7 +73,7 @@ impl Scale {
     }
 
     /// Round tick values inside the range: on a log axis the powers of ten (every k-th when
-    /// there are many), with 2× and 5× added when fewer than two decades show; otherwise
+    /// there are many), with 2× and 5× added when fewer than three show; otherwise
     /// 1, 2 or 5 times a power of ten apart.
     pub fn ticks(&self) -> Vec<f64> {
         if self.log {
@@ -81,7 +81,7 @@ impl Scale {
             let a = self.lo.log10().floor() as i32;
             let b = self.hi.log10().ceil() as i32;
             let decades: Vec<f64> = (a..=b).map(|k| 10f64.powi(k)).filter(inside).collect();
-            if decades.len() >= 2 {
+            if decades.len() >= 3 {
                 let stride = decades.len().div_ceil(8);
                 return decades.into_iter().step_by(stride).collect();
             }
@@ -126,18 +126,20 @@ pub fn domain(values: impl Iterator<Item = f64>, log: bool, from_zero: bool, pad
     }
 }
 
-/// About `n` round ticks inside [lo, hi]: multiples of a step of 1, 2 or 5 times a power of ten
-/// (common practice). Ticks are computed as k·step, so 0 is exactly 0.
+/// About `n` round ticks inside [lo, hi] (at most n + 2): multiples of the finest step of 1, 2
+/// or 5 times a power of ten that gives no more (common practice). Ticks are computed as
+/// k·step, so 0 is exactly 0.
 pub fn nice_ticks(lo: f64, hi: f64, n: usize) -> Vec<f64> {
     let raw = (hi - lo) / n.max(1) as f64;
     if !(raw > 0.0 && raw.is_finite()) {
         return if lo.is_finite() { vec![lo] } else { Vec::new() };
     }
     let mag = 10f64.powf(raw.log10().floor());
+    let count = |step: f64| ((hi / step + 1e-9).floor() - (lo / step - 1e-9).ceil()) as usize + 1;
     let step = [1.0, 2.0, 5.0, 10.0]
         .iter()
         .map(|m| m * mag)
-        .find(|&s| s >= raw * (1.0 - 1e-9))
+        .find(|&s| count(s) <= n + 2)
         .unwrap_or(10.0 * mag);
     let first = (lo / step - 1e-9).ceil() as i64;
     let last = (hi / step + 1e-9).floor() as i64;
@@ -168,7 +170,9 @@ mod tests {
     #[test]
     fn linear_ticks_are_round() {
         assert_eq!(nice_ticks(0.0, 10.0, 5), vec![0.0, 2.0, 4.0, 6.0, 8.0, 10.0]);
-        assert_eq!(nice_ticks(-0.3, 0.32, 5), vec![-0.2, 0.0, 0.2]);
+        let labels: Vec<String> = nice_ticks(-0.3, 0.32, 5).iter().map(|&v| label(v)).collect();
+        assert_eq!(labels, ["-0.3", "-0.2", "-0.1", "0", "0.1", "0.2", "0.3"]);
+        assert_eq!(nice_ticks(6.0, 136.0, 5), vec![20.0, 40.0, 60.0, 80.0, 100.0, 120.0]);
         // 3 × 0.1 is 0.30000000000000004 in binary floating point; its label reads 0.3.
         let t = nice_ticks(0.0, 0.35, 5);
         let labels: Vec<String> = t.iter().map(|&v| label(v)).collect();
@@ -181,6 +185,7 @@ mod tests {
     fn log_ticks_are_decades_or_their_multiples() {
         assert_eq!(scale(1.0, 1000.0, true).ticks(), vec![1.0, 10.0, 100.0, 1000.0]);
         assert_eq!(scale(3.0, 40.0, true).ticks(), vec![5.0, 10.0, 20.0]);
+        assert_eq!(scale(30.0, 2000.0, true).ticks(), vec![50.0, 100.0, 200.0, 500.0, 1000.0, 2000.0]);
         let many = scale(1e-12, 1e12, true).ticks();
         assert!(many.len() <= 9 && many.len() >= 5, "{many:?}");
         let narrow = scale(1.1, 1.3, true).ticks();

@@ -112,6 +112,16 @@ impl Canvas {
         let _ = writeln!(self.out, r#"<g class="{}">"#, esc(class));
     }
 
+    /// Opens a group whose shapes are drawn with crisp edges (tiles that must meet without
+    /// seams).
+    pub fn open_crisp(&mut self, class: &str) {
+        let _ = writeln!(
+            self.out,
+            r#"<g class="{}" shape-rendering="crispEdges">"#,
+            esc(class)
+        );
+    }
+
     pub fn close(&mut self) {
         self.out.push_str("</g>\n");
     }
@@ -173,8 +183,8 @@ impl Canvas {
         self.finish_shape(&head, "circle", tip);
     }
 
-    /// A path through `points` in absolute coordinates: `M` starts each sub-path in `breaks`
-    /// (indices into `points`, 0 implied), `L` joins the rest; `closed` closes each sub-path.
+    /// A path of sub-paths (`runs`) in absolute coordinates: `M` starts each, `L` joins the
+    /// rest, `closed` closes each. A run with a non-finite point is left out.
     pub fn path(&mut self, class: &str, runs: &[Vec<(f64, f64)>], closed: bool, paint: Paint) {
         let mut d = String::new();
         for run in runs {

@@ -5,13 +5,13 @@
 use super::axis::{label, AxisSpec, Scale};
 use super::canvas::{Anchor, Canvas, Paint};
 use super::ramp::series_colour;
-use super::text::width;
+use super::text::{fit, width};
 
 /// Marker shapes, distinct in outline as well as colour.
 #[derive(Clone, Copy, Debug, PartialEq, Eq)]
 pub enum Marker {
     Circle,
-    /// An open circle.
+    /// An open circle, wide enough to show a filled marker inside it.
     Ring,
     Square,
     Diamond,
@@ -118,6 +118,10 @@ const POINT_LABEL_SIZE: f64 = 10.0;
 const LEGEND_ROW: f64 = 20.0;
 const SWATCH: f64 = 26.0;
 const BAND_OPACITY: f64 = 0.2;
+/// Half the room a marker takes (the widest, the ring, has radius 6.5).
+const MARK: f64 = 7.0;
+/// The legend's widest share of the page; longer names are set smaller.
+const LEGEND_MAX: f64 = 0.4 * WIDTH;
 
 /// A box in pixels: (x0, y0, x1, y1).
 type Bounds = (f64, f64, f64, f64);
@@ -138,13 +142,14 @@ struct Layout {
 
 impl Chart {
     fn layout(&self) -> Layout {
-        let legend_w = self
+        let legend_w = (self
             .series
             .iter()
             .map(|s| width(&s.name, LEGEND_SIZE))
             .fold(0.0, f64::max)
             + SWATCH
-            + 26.0;
+            + 26.0)
+            .min(LEGEND_MAX);
         let legend_h = self.series.len() as f64 * LEGEND_ROW + 16.0;
         let ys = self.series.iter().flat_map(|s| {
             s.points.iter().flat_map(|p| {
@@ -206,14 +211,8 @@ impl Chart {
     pub fn render(&self) -> String {
         let l = self.layout();
         let mut k = Canvas::new(WIDTH, l.height);
-        k.text(
-            "title",
-            (WIDTH / 2.0, 26.0),
-            &self.title,
-            TITLE_SIZE,
-            Anchor::Middle,
-            false,
-        );
+        let size = fit(&self.title, TITLE_SIZE, WIDTH - 20.0);
+        k.text("title", (WIDTH / 2.0, 26.0), &self.title, size, Anchor::Middle, false);
         self.frame(&mut k, &l);
         let mut markers: Vec<Bounds> = Vec::new();
         let mut labels: Vec<(f64, f64, &str)> = Vec::new();
@@ -243,6 +242,8 @@ impl Chart {
                 k.text("x-tick", (px, y1 + 18.0), &label(t), TICK_SIZE, Anchor::Middle, false);
             }
         } else {
+            let spacing = (x1 - x0) / self.categories.len() as f64;
+            let room = spacing * l.category_rows as f64 * 0.95;
             for (c, name) in self.categories.iter().enumerate() {
                 let Some(px) = l.x.px(c as f64) else { continue };
                 let row = (c % l.category_rows) as f64;
@@ -251,7 +252,7 @@ impl Chart {
                     "x-tick",
                     (px, y1 + 18.0 + 16.0 * row),
                     name,
-                    TICK_SIZE,
+                    fit(name, TICK_SIZE, room),
                     Anchor::Middle,
                     false,
                 );
@@ -259,10 +260,13 @@ impl Chart {
         }
         k.rect("frame", (x0, y0), (x1 - x0, y1 - y0), Paint::stroke("#333333", 1.0), None);
         let below = y1 + 18.0 * l.category_rows as f64 + 22.0;
-        k.text("x-label", ((x0 + x1) / 2.0, below), &self.x.label, LABEL_SIZE, Anchor::Middle, false);
-        k.text("y-label", (18.0, (y0 + y1) / 2.0), &self.y.label, LABEL_SIZE, Anchor::Middle, true);
+        let size = fit(&self.x.label, LABEL_SIZE, x1 - x0);
+        k.text("x-label", ((x0 + x1) / 2.0, below), &self.x.label, size, Anchor::Middle, false);
+        let size = fit(&self.y.label, LABEL_SIZE, y1 - y0);
+        k.text("y-label", (18.0, (y0 + y1) / 2.0), &self.y.label, size, Anchor::Middle, true);
         for (n, note) in self.notes.iter().enumerate() {
-            k.text("note", (x0, below + 17.0 + 15.0 * n as f64), note, 10.5, Anchor::Start, false);
+            let size = fit(note, 10.5, WIDTH - x0 - 10.0);
+            k.text("note", (x0, below + 17.0 + 15.0 * n as f64), note, size, Anchor::Start, false);
         }
     }
 
@@ -296,11 +300,12 @@ impl Chart {
             if let Some(m) = s.marker {
                 marker(k, "swatch", m, (cx, cy), colour);
             }
+            let size = fit(&s.name, LEGEND_SIZE, WIDTH - (sx + SWATCH + 8.0) - 12.0);
             k.text(
                 "legend-label",
                 (sx + SWATCH + 8.0, cy + 4.0),
                 &s.name,
-                LEGEND_SIZE,
+                size,
                 Anchor::Start,
                 false,
             );
@@ -369,7 +374,7 @@ fn draw_series<'s>(
         }
         if let Some(m) = s.marker {
             marker(k, "marker", m, (x, y), colour);
-            markers.push((x - 5.0, y - 5.0, x + 5.0, y + 5.0));
+            markers.push((x - MARK, y - MARK, x + MARK, y + MARK));
         }
         if let Some(t) = &p.label {
             labels.push((x, y, t));
@@ -425,11 +430,8 @@ fn marker(k: &mut Canvas, class: &str, m: Marker, (x, y): (f64, f64), colour: &s
         Marker::Ring => k.circle(
             class,
             (x, y),
-            4.5,
-            Paint {
-                fill: Some("white"),
-                ..Paint::stroke(colour, 1.8)
-            },
+            6.5,
+            Paint::stroke(colour, 1.8),
             None,
         ),
         Marker::Square => k.rect(class, (x - 4.0, y - 4.0), (8.0, 8.0), fill, None),
@@ -467,20 +469,20 @@ fn place_labels(k: &mut Canvas, l: &Layout, labels: &[(f64, f64, &str)], markers
     let size = POINT_LABEL_SIZE;
     let (ax0, ay0, ax1, ay1) = l.area;
     let spots: [(f64, f64, Anchor); 8] = [
-        (7.0, 4.0, Anchor::Start),
-        (-7.0, 4.0, Anchor::End),
-        (0.0, -9.0, Anchor::Middle),
-        (0.0, 16.0, Anchor::Middle),
-        (6.0, -7.0, Anchor::Start),
-        (6.0, 14.0, Anchor::Start),
-        (-6.0, -7.0, Anchor::End),
-        (-6.0, 14.0, Anchor::End),
+        (9.0, 4.0, Anchor::Start),
+        (-9.0, 4.0, Anchor::End),
+        (0.0, -10.0, Anchor::Middle),
+        (0.0, 18.0, Anchor::Middle),
+        (8.0, -8.0, Anchor::Start),
+        (8.0, 16.0, Anchor::Start),
+        (-8.0, -8.0, Anchor::End),
+        (-8.0, 16.0, Anchor::End),
     ];
     let mut placed: Vec<Bounds> = Vec::new();
     k.open("point-labels");
     for &(x, y, text) in labels {
         let w = width(text, size);
-        let own = (x - 5.0, y - 5.0, x + 5.0, y + 5.0);
+        let own = (x - MARK, y - MARK, x + MARK, y + MARK);
         let mut best: Option<(usize, f64, f64, Anchor, Bounds)> = None;
         for &(dx, dy, anchor) in &spots {
             let (tx, ty) = (x + dx, y + dy);

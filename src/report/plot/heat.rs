@@ -4,7 +4,7 @@
 use super::axis::{label, nice_ticks, AxisSpec, Scale};
 use super::canvas::{Anchor, Canvas, Paint};
 use super::ramp::{hex, ramp, MISSING, RAMP};
-use super::text::width;
+use super::text::{fit, width};
 
 /// A rectangle of the grid, in data units, with its value (`None`: no value there).
 #[derive(Clone, Debug, PartialEq)]
@@ -127,8 +127,9 @@ impl HeatMap {
         let left = 28.0 + tick_w + 10.0;
         let x = Scale::fit(&self.x, xs, pad, left, right);
         let mut k = Canvas::new(WIDTH, HEIGHT);
-        k.text("title", (WIDTH / 2.0, 26.0), &self.title, 15.0, Anchor::Middle, false);
-        k.open("cells");
+        let size = fit(&self.title, 15.0, WIDTH - 20.0);
+        k.text("title", (WIDTH / 2.0, 26.0), &self.title, size, Anchor::Middle, false);
+        k.open_crisp("cells");
         for c in &self.cells {
             let (Some(xa), Some(xb), Some(ya), Some(yb)) =
                 (x.px(c.x[0]), x.px(c.x[1]), y.px(c.y[1]), y.px(c.y[0]))
@@ -176,10 +177,13 @@ impl HeatMap {
         }
         k.rect("frame", (left, TOP), (right - left, bottom - TOP), ink, None);
         let below = bottom + 40.0;
-        k.text("x-label", ((left + right) / 2.0, below), &self.x.label, LABEL_SIZE, Anchor::Middle, false);
-        k.text("y-label", (18.0, (TOP + bottom) / 2.0), &self.y.label, LABEL_SIZE, Anchor::Middle, true);
+        let size = fit(&self.x.label, LABEL_SIZE, right - left);
+        k.text("x-label", ((left + right) / 2.0, below), &self.x.label, size, Anchor::Middle, false);
+        let size = fit(&self.y.label, LABEL_SIZE, bottom - TOP);
+        k.text("y-label", (18.0, (TOP + bottom) / 2.0), &self.y.label, size, Anchor::Middle, true);
         for (n, note) in self.notes.iter().enumerate() {
-            k.text("note", (left, below + 17.0 + 15.0 * n as f64), note, 10.5, Anchor::Start, false);
+            let size = fit(note, 10.5, WIDTH - left - 10.0);
+            k.text("note", (left, below + 17.0 + 15.0 * n as f64), note, size, Anchor::Start, false);
         }
     }
 
@@ -213,11 +217,12 @@ impl HeatMap {
             k.rect("missing-key", (x, bottom + 10.0), (BAR_W, 10.0), Paint::fill(MISSING), None);
             k.text("missing-label", (x + BAR_W + 6.0, bottom + 19.0), "no value", TICK_SIZE, Anchor::Start, false);
         }
+        let size = fit(&self.bar_label, LABEL_SIZE, bottom - TOP);
         k.text(
             "bar-label",
             (WIDTH - 12.0, (TOP + bottom) / 2.0),
             &self.bar_label,
-            LABEL_SIZE,
+            size,
             Anchor::Middle,
             true,
         );

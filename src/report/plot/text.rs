@@ -32,6 +32,16 @@ pub fn width(s: &str, size: f64) -> f64 {
     s.chars().count() as f64 * ADVANCE_EM * size
 }
 
+/// The font size, at most `size`, at which `s` fits in `room` pixels (never below 6 px).
+pub fn fit(s: &str, size: f64, room: f64) -> f64 {
+    let w = width(s, size);
+    if w <= room {
+        size
+    } else {
+        (size * room / w).max(6.0)
+    }
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
@@ -56,5 +66,8 @@ mod tests {
         assert_eq!(width("", 12.0), 0.0);
         assert!(width("H·G", 12.0) < width("H·G → HG", 12.0));
         assert!((width("abcd", 10.0) - 24.0).abs() < 1e-12);
+        assert_eq!(fit("abcd", 10.0, 100.0), 10.0);
+        assert!((width("abcdefghij", fit("abcdefghij", 12.0, 50.0)) - 50.0).abs() < 1e-9);
+        assert_eq!(fit("abcdefghij", 12.0, 10.0), 6.0, "never below 6 px");
     }
 }

@@ -25,7 +25,14 @@ fn ticks(p: &Plot, class: &str) -> Vec<(f64, f64)> {
         .map(|n| {
             let v: f64 = n.text().unwrap().parse().expect("a numeric tick label");
             let at = |a: &str| n.attribute(a).unwrap().parse::<f64>().unwrap();
-            (v, if class == "x-tick" { at("x") } else { at("y") - 4.0 })
+            (
+                v,
+                if class == "x-tick" {
+                    at("x")
+                } else {
+                    at("y") - 4.0
+                },
+            )
         })
         .collect()
 }
@@ -83,7 +90,10 @@ fn time_course_of_an_ensemble_draws_mean_and_sd_bands_where_the_axes_say() {
         assert_eq!(count(s, "band"), 1, "one band per species");
         assert_eq!(count(s, "line"), 1, "one line per species");
         assert_eq!(count(s, "marker"), 0);
-        let line = s.descendants().find(|n| n.attribute("class") == Some("line")).unwrap();
+        let line = s
+            .descendants()
+            .find(|n| n.attribute("class") == Some("line"))
+            .unwrap();
         let pts = path_points(line.attribute("d").unwrap());
         assert_eq!(pts.len(), r.grid_times.len(), "a vertex per grid time");
         for (k, &(px, py)) in pts.iter().enumerate() {
@@ -91,20 +101,42 @@ fn time_course_of_an_ensemble_draws_mean_and_sd_bands_where_the_axes_say() {
             assert!((px - x(r.grid_times[k] / 60.0)).abs() < 0.05, "time at {k}");
             assert!((py - y(w.mean())).abs() < 0.05, "mean at {k}");
         }
-        let band = s.descendants().find(|n| n.attribute("class") == Some("band")).unwrap();
+        let band = s
+            .descendants()
+            .find(|n| n.attribute("class") == Some("band"))
+            .unwrap();
         let outline = path_points(band.attribute("d").unwrap());
-        assert_eq!(outline.len(), 2 * r.grid_times.len(), "upper and lower edge");
+        assert_eq!(
+            outline.len(),
+            2 * r.grid_times.len(),
+            "upper and lower edge"
+        );
         let last = r.grid_times.len() - 1;
         let w = &r.grid[last][i];
-        assert!((outline[last].1 - y(w.mean() + w.sd())).abs() < 0.05, "mean + SD");
-        assert!((outline[last + 1].1 - y(w.mean() - w.sd())).abs() < 0.05, "mean − SD");
+        assert!(
+            (outline[last].1 - y(w.mean() + w.sd())).abs() < 0.05,
+            "mean + SD"
+        );
+        assert!(
+            (outline[last + 1].1 - y(w.mean() - w.sd())).abs() < 0.05,
+            "mean − SD"
+        );
     }
     let frame = p.bounds("frame");
     let legend = p.bounds("legend-frame");
-    assert!(legend.0 > frame.2, "the legend stands beside the plot area, not over it");
+    assert!(
+        legend.0 > frame.2,
+        "the legend stands beside the plot area, not over it"
+    );
     let pixels = render(&text);
-    assert!(pixels_of(&pixels, series_colour(0), 8) > 100, "A's line is drawn");
-    assert!(pixels_of(&pixels, series_colour(1), 8) > 100, "C's line is drawn");
+    assert!(
+        pixels_of(&pixels, series_colour(0), 8) > 100,
+        "A's line is drawn"
+    );
+    assert!(
+        pixels_of(&pixels, series_colour(1), 8) > 100,
+        "C's line is drawn"
+    );
     support::svg::keep("time_course", &text, &pixels);
 }
 
@@ -138,7 +170,11 @@ fn deterministic_time_course_draws_lines_without_bands() {
         counts: &counts,
     };
     let p2_text = report::simulate::svg(&net, course, &[0]);
-    assert_eq!(parse(&p2_text).text("x-label"), "time (h)", "20 h reads in hours");
+    assert_eq!(
+        parse(&p2_text).text("x-label"),
+        "time (h)",
+        "20 h reads in hours"
+    );
     let pixels = render(&text);
     assert!(pixels_of(&pixels, series_colour(0), 8) > 100);
     support::svg::keep("time_course_ode", &text, &pixels);
@@ -165,12 +201,20 @@ fn noise_plot_labels_every_point_with_species_and_volume_and_shows_intervals() {
     let drawn: Vec<_> = r
         .volumes
         .iter()
-        .flat_map(|v| v.species.iter().filter(|s| !s.clamped && s.mean > 0.0 && s.cv > 0.0))
+        .flat_map(|v| {
+            v.species
+                .iter()
+                .filter(|s| !s.clamped && s.mean > 0.0 && s.cv > 0.0)
+        })
         .collect();
     assert_eq!(drawn.len(), 6, "R, RL, Q at two volumes");
     let series = p.series();
     assert_eq!(count(&series[0], "marker"), drawn.len());
-    assert_eq!(count(&series[0], "error-bar"), drawn.len(), "every CV has its interval");
+    assert_eq!(
+        count(&series[0], "error-bar"),
+        drawn.len(),
+        "every CV has its interval"
+    );
     assert_eq!(count(&series[1], "marker"), drawn.len());
     assert_eq!(count(&series[2], "line"), 1, "the Poisson line");
     let mut labels = p.texts("point-label");
@@ -182,9 +226,15 @@ fn noise_plot_labels_every_point_with_species_and_volume_and_shows_intervals() {
     // The Poisson line lies at CV = 1/√N on the log–log axes read from the ticks.
     let x = mapping(&ticks(&p, "x-tick"), true);
     let y = mapping(&ticks(&p, "y-tick"), true);
-    let poisson = series[2].descendants().find(|n| n.attribute("class") == Some("line")).unwrap();
+    let poisson = series[2]
+        .descendants()
+        .find(|n| n.attribute("class") == Some("line"))
+        .unwrap();
     let ends = path_points(poisson.attribute("d").unwrap());
-    let n0 = drawn.iter().map(|s| s.mean).chain(drawn.iter().map(|s| s.lna_mean));
+    let n0 = drawn
+        .iter()
+        .map(|s| s.mean)
+        .chain(drawn.iter().map(|s| s.lna_mean));
     let lo = n0.fold(f64::INFINITY, f64::min);
     assert!((ends[0].0 - x(lo)).abs() < 0.2 && (ends[0].1 - y(1.0 / lo.sqrt())).abs() < 0.2);
     // Labels do not overlap each other (estimated extents, 0.6 em a character).
@@ -209,7 +259,10 @@ fn noise_plot_labels_every_point_with_species_and_volume_and_shows_intervals() {
         }
     }
     let pixels = render(&text);
-    assert!(pixels_of(&pixels, series_colour(0), 8) > 30, "ensemble markers drawn");
+    assert!(
+        pixels_of(&pixels, series_colour(0), 8) > 30,
+        "ensemble markers drawn"
+    );
     support::svg::keep("noise", &text, &pixels);
 }
 
@@ -242,7 +295,12 @@ step gone H -> 0 @ 0.01
 
 #[test]
 fn reconcile_plot_sets_predictions_beside_the_ensemble_with_error_bars() {
-    let net = load_source("two_motifs.crn", TWO_MOTIFS.as_bytes(), &Overrides::default()).unwrap();
+    let net = load_source(
+        "two_motifs.crn",
+        TWO_MOTIFS.as_bytes(),
+        &Overrides::default(),
+    )
+    .unwrap();
     let opts = copyloop::reconcile::Options {
         replicates: 8,
         threads: Some(1),
@@ -255,11 +313,19 @@ fn reconcile_plot_sets_predictions_beside_the_ensemble_with_error_bars() {
     assert_eq!(n, 3, "an enzyme, a receptor and a carrier motif");
     let text = report::reconcile::svg(&net, &r);
     let p = parse(&text);
-    assert_eq!(p.text("x-label"), "carrier motif (carrier·ligand → output step)");
+    assert_eq!(
+        p.text("x-label"),
+        "carrier motif (carrier·ligand → output step)"
+    );
     assert!(p.text("y-label").starts_with("output flux (molecules/s"));
     assert_eq!(
         p.legend(),
-        ["ensemble mean (95 % CI)", "Langmuir form", "total QSSA", "ODE steady state"]
+        [
+            "ensemble mean (95 % CI)",
+            "Langmuir form",
+            "total QSSA",
+            "ODE steady state"
+        ]
     );
     let names: Vec<String> = r
         .motifs
@@ -271,7 +337,11 @@ fn reconcile_plot_sets_predictions_beside_the_ensemble_with_error_bars() {
     assert_eq!(count(&series[0], "marker"), n);
     assert_eq!(count(&series[0], "error-bar"), n);
     assert_eq!(count(&series[1], "marker"), n);
-    let tqssa = r.motifs.iter().filter(|m| m.predicted.tqssa_per_s.is_some()).count();
+    let tqssa = r
+        .motifs
+        .iter()
+        .filter(|m| m.predicted.tqssa_per_s.is_some())
+        .count();
     assert_eq!(count(&series[2], "marker"), tqssa);
     assert_eq!(count(&series[3], "marker"), n);
     // At each category the four markers stand apart: none hides another.
@@ -294,12 +364,17 @@ fn reconcile_plot_sets_predictions_beside_the_ensemble_with_error_bars() {
                 .collect()
         })
         .collect();
-    for k in 0..n {
-        let (e, l, o) = (xs[0][k], xs[1][k], xs[3][k]);
-        assert!(l - e > 10.0 && o - l > 10.0, "offsets at motif {k}: {e} {l} {o}");
+    for (k, ((&e, &l), &o)) in xs[0].iter().zip(&xs[1]).zip(&xs[3]).enumerate() {
+        assert!(
+            l - e > 10.0 && o - l > 10.0,
+            "offsets at motif {k}: {e} {l} {o}"
+        );
     }
     let pixels = render(&text);
-    assert!(pixels_of(&pixels, series_colour(1), 8) > 20, "Langmuir markers drawn");
+    assert!(
+        pixels_of(&pixels, series_colour(1), 8) > 20,
+        "Langmuir markers drawn"
+    );
     support::svg::keep("reconcile", &text, &pixels);
 }
 
@@ -320,7 +395,12 @@ fn run_sweep(args: &[&str], dir: &std::path::Path, name: &str) -> String {
     ]);
     let refs: Vec<&str> = all.iter().map(String::as_str).collect();
     let o = support::cli::run(&refs);
-    assert_eq!(o.status.code(), Some(0), "{}", String::from_utf8_lossy(&o.stderr));
+    assert_eq!(
+        o.status.code(),
+        Some(0),
+        "{}",
+        String::from_utf8_lossy(&o.stderr)
+    );
     std::fs::read_to_string(svg).unwrap()
 }
 
@@ -342,8 +422,14 @@ fn sweep_line_names_the_varied_value_with_the_file_unit_and_a_free_species() {
         .iter()
         .map(|m| m.attribute("cx").unwrap().parse().unwrap())
         .collect();
-    for (k, want) in [1e6, 1e6 * 10f64.sqrt(), 1e7, 1e7 * 10f64.sqrt(), 1e8].iter().enumerate() {
-        assert!((marks[k] - x(*want)).abs() < 0.05, "point {k} on the log axis");
+    for (k, want) in [1e6, 1e6 * 10f64.sqrt(), 1e7, 1e7 * 10f64.sqrt(), 1e8]
+        .iter()
+        .enumerate()
+    {
+        assert!(
+            (marks[k] - x(*want)).abs() < 0.05,
+            "point {k} on the log axis"
+        );
     }
     let pixels = render(&text);
     assert!(pixels_of(&pixels, series_colour(0), 8) > 50);
@@ -354,7 +440,12 @@ fn sweep_line_names_the_varied_value_with_the_file_unit_and_a_free_species() {
 fn sweep_heat_map_has_a_cell_per_point_and_a_named_colour_bar() {
     let dir = tempfile::tempdir().unwrap();
     let text = run_sweep(
-        &["--vary", "volume=log:0.5pL..4pL:4", "--vary", "koff=lin:0.1..0.4:5"],
+        &[
+            "--vary",
+            "volume=log:0.5pL..4pL:4",
+            "--vary",
+            "koff=lin:0.1..0.4:5",
+        ],
         dir.path(),
         "heat",
     );
@@ -375,7 +466,10 @@ fn sweep_heat_map_has_a_cell_per_point_and_a_named_colour_bar() {
         .sum();
     let f = p.bounds("frame");
     let frame = (f.2 - f.0) * (f.3 - f.1);
-    assert!((area - frame).abs() < 0.002 * frame, "cells {area} frame {frame}");
+    assert!(
+        (area - frame).abs() < 0.002 * frame,
+        "cells {area} frame {frame}"
+    );
     let pixels = render(&text);
     // The darkest and the lightest stop of the ramp are both on the page (bar and cells).
     assert!(pixels_of(&pixels, "#440154", 6) > 20);

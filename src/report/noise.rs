@@ -191,7 +191,10 @@ pub fn svg(report: &NoiseReport) -> String {
     let xs = ensemble.iter().chain(&lna).map(|p| p.x);
     let (lo, hi) = xs.fold((f64::INFINITY, 0.0f64), |(a, b), x| (a.min(x), b.max(x)));
     let poisson = if lo.is_finite() {
-        vec![Point::new(lo, 1.0 / lo.sqrt()), Point::new(hi, 1.0 / hi.sqrt())]
+        vec![
+            Point::new(lo, 1.0 / lo.sqrt()),
+            Point::new(hi, 1.0 / hi.sqrt()),
+        ]
     } else {
         Vec::new()
     };

@@ -258,7 +258,9 @@ pub fn svg(net: &Network, r: &Reconciliation) -> String {
         .motifs
         .iter()
         .enumerate()
-        .map(|(k, m)| at(k, m.ensemble.mean_per_s).with_interval(m.ensemble.ci95[0], m.ensemble.ci95[1]))
+        .map(|(k, m)| {
+            at(k, m.ensemble.mean_per_s).with_interval(m.ensemble.ci95[0], m.ensemble.ci95[1])
+        })
         .collect();
     let predicted = |f: &dyn Fn(&MotifReport) -> Option<f64>| -> Vec<Point> {
         r.motifs
@@ -277,7 +279,10 @@ pub fn svg(net: &Network, r: &Reconciliation) -> String {
         Series {
             marker: Some(Marker::Square),
             offset: -0.08,
-            ..Series::new("Langmuir form", predicted(&|m| Some(m.predicted.langmuir_per_s)))
+            ..Series::new(
+                "Langmuir form",
+                predicted(&|m| Some(m.predicted.langmuir_per_s)),
+            )
         },
         Series {
             marker: Some(Marker::Diamond),
@@ -287,7 +292,10 @@ pub fn svg(net: &Network, r: &Reconciliation) -> String {
         Series {
             marker: Some(Marker::Triangle),
             offset: 0.24,
-            ..Series::new("ODE steady state", predicted(&|m| Some(m.predicted.ode_per_s)))
+            ..Series::new(
+                "ODE steady state",
+                predicted(&|m| Some(m.predicted.ode_per_s)),
+            )
         },
     ];
     let values: Vec<f64> = series
@@ -297,11 +305,15 @@ pub fn svg(net: &Network, r: &Reconciliation) -> String {
         .collect();
     let (lo, hi) = values
         .iter()
-        .fold((f64::INFINITY, f64::NEG_INFINITY), |(a, b), &y| (a.min(y), b.max(y)));
+        .fold((f64::INFINITY, f64::NEG_INFINITY), |(a, b), &y| {
+            (a.min(y), b.max(y))
+        });
     let log = lo > 0.0 && hi / lo > 30.0;
     let mut notes = Vec::new();
     if r.motifs.iter().any(|m| m.predicted.tqssa_per_s.is_none()) {
-        notes.push("no total-QSSA marker where the ligand is clamped (it equals the Langmuir form)".into());
+        notes.push(
+            "no total-QSSA marker where the ligand is clamped (it equals the Langmuir form)".into(),
+        );
     }
     if r.motifs.is_empty() {
         notes.push("no carrier motif found".into());
@@ -314,7 +326,10 @@ pub fn svg(net: &Network, r: &Reconciliation) -> String {
             from_zero: false,
         },
         y: AxisSpec {
-            label: format!("output flux (molecules/s{})", if log { ", log scale" } else { "" }),
+            label: format!(
+                "output flux (molecules/s{})",
+                if log { ", log scale" } else { "" }
+            ),
             log,
             from_zero: false,
         },

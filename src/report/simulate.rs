@@ -270,7 +270,11 @@ pub fn svg(net: &Network, course: Course, species: &[usize]) -> String {
             } else {
                 "one trajectory".to_string()
             };
-            let title = format!("{}: time course, {what} ({})", net.file, r.spec.method.name());
+            let title = format!(
+                "{}: time course, {what} ({})",
+                net.file,
+                r.spec.method.name()
+            );
             (r.grid_times.as_slice(), title, n >= 2)
         }
         Course::Deterministic { times, .. } => (
@@ -300,7 +304,11 @@ pub fn svg(net: &Network, course: Course, species: &[usize]) -> String {
                     }
                     Course::Deterministic { counts, .. } => Point::new(
                         t / per,
-                        counts.get(p).and_then(|c| c.get(i)).copied().unwrap_or(f64::NAN),
+                        counts
+                            .get(p)
+                            .and_then(|c| c.get(i))
+                            .copied()
+                            .unwrap_or(f64::NAN),
                     ),
                 })
                 .collect();
@@ -315,7 +323,11 @@ pub fn svg(net: &Network, course: Course, species: &[usize]) -> String {
             };
             Series {
                 line: Some(Dash::Solid),
-                interval: if banded { Interval::Band } else { Interval::None },
+                interval: if banded {
+                    Interval::Band
+                } else {
+                    Interval::None
+                },
                 ..Series::new(name, points)
             }
         })

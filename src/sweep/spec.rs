@@ -270,7 +270,10 @@ fn file_unit(name: &str, ast: &Ast) -> Option<String> {
     if lit.bare || lit.quantity.dim == Dim::COUNT {
         return species.then(|| "molecules".to_string());
     }
-    let line = ast.source.lines().nth((lit.span.line as usize).checked_sub(1)?)?;
+    let line = ast
+        .source
+        .lines()
+        .nth((lit.span.line as usize).checked_sub(1)?)?;
     let text: String = line
         .chars()
         .skip((lit.span.col as usize).saturating_sub(1))

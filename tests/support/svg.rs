@@ -18,7 +18,10 @@ pub struct Plot<'a> {
 pub fn parse(text: &str) -> Plot<'_> {
     let doc = Document::parse(text).expect("the SVG is well-formed XML");
     let root = doc.root_element();
-    assert!(root.has_tag_name(("http://www.w3.org/2000/svg", "svg")), "root is svg");
+    assert!(
+        root.has_tag_name(("http://www.w3.org/2000/svg", "svg")),
+        "root is svg"
+    );
     let vb: Vec<f64> = root
         .attribute("viewBox")
         .expect("a view box")
@@ -165,7 +168,9 @@ impl<'a> Plot<'a> {
                     Some("end") => (-len, 0.0),
                     _ => (0.0, len),
                 };
-                if n.attribute("transform").is_some_and(|t| t.starts_with("rotate(-90")) {
+                if n.attribute("transform")
+                    .is_some_and(|t| t.starts_with("rotate(-90"))
+                {
                     // Read upwards: the text runs from y − a up to y − b.
                     inside(&what, x - size, y - b);
                     inside(&what, x, y - a);
@@ -213,7 +218,11 @@ pub fn render(text: &str) -> resvg::tiny_skia::Pixmap {
     let size = tree.size().to_int_size();
     let mut pixmap =
         resvg::tiny_skia::Pixmap::new(size.width(), size.height()).expect("a non-empty picture");
-    resvg::render(&tree, resvg::tiny_skia::Transform::default(), &mut pixmap.as_mut());
+    resvg::render(
+        &tree,
+        resvg::tiny_skia::Transform::default(),
+        &mut pixmap.as_mut(),
+    );
     let warnings: Vec<String> = WARNINGS
         .lock()
         .unwrap()
@@ -233,7 +242,11 @@ pub fn pixels_of(p: &resvg::tiny_skia::Pixmap, hex: &str, tolerance: u8) -> usiz
         .iter()
         .filter(|px| {
             let got = [px.red(), px.green(), px.blue()];
-            px.alpha() == 255 && got.iter().zip(want).all(|(g, w)| g.abs_diff(w) <= tolerance)
+            px.alpha() == 255
+                && got
+                    .iter()
+                    .zip(want)
+                    .all(|(g, w)| g.abs_diff(w) <= tolerance)
         })
         .count()
 }
@@ -244,6 +257,7 @@ pub fn keep(name: &str, svg: &str, p: &resvg::tiny_skia::Pixmap) {
     if let Ok(dir) = std::env::var("COPYLOOP_PLOTS_DIR") {
         let dir = std::path::Path::new(&dir);
         std::fs::write(dir.join(format!("{name}.svg")), svg).expect("write the SVG");
-        p.save_png(dir.join(format!("{name}.png"))).expect("write the PNG");
+        p.save_png(dir.join(format!("{name}.png")))
+            .expect("write the PNG");
     }
 }

@@ -47,7 +47,7 @@ impl Scale {
     /// The pixel of `v`: `None` when `v` is not finite, or ≤ 0 on a log axis.
     pub fn px(&self, v: f64) -> Option<f64> {
         let (a, b, x) = if self.log {
-            if !(v > 0.0) {
+            if v.is_nan() || v <= 0.0 {
                 return None;
             }
             (self.lo.log10(), self.hi.log10(), v.log10())
@@ -100,7 +100,12 @@ impl Scale {
 /// The data range of `values` widened to a drawable one: padded by `pad` of its width (in
 /// log₁₀ on a log axis), from 0 when asked and every value is ≥ 0, and opened up around a
 /// single value. (0, 1) — or (1, 10) on a log axis — when there is no value.
-pub fn domain(values: impl Iterator<Item = f64>, log: bool, from_zero: bool, pad: f64) -> (f64, f64) {
+pub fn domain(
+    values: impl Iterator<Item = f64>,
+    log: bool,
+    from_zero: bool,
+    pad: f64,
+) -> (f64, f64) {
     let (lo, hi) = values
         .filter(|v| v.is_finite() && (!log || *v > 0.0))
         .fold((f64::INFINITY, f64::NEG_INFINITY), |(a, b), v| {
@@ -169,10 +174,19 @@ mod tests {
     // Round ticks are multiples of 1, 2 or 5 × 10^k (common practice).
     #[test]
     fn linear_ticks_are_round() {
-        assert_eq!(nice_ticks(0.0, 10.0, 5), vec![0.0, 2.0, 4.0, 6.0, 8.0, 10.0]);
-        let labels: Vec<String> = nice_ticks(-0.3, 0.32, 5).iter().map(|&v| label(v)).collect();
+        assert_eq!(
+            nice_ticks(0.0, 10.0, 5),
+            vec![0.0, 2.0, 4.0, 6.0, 8.0, 10.0]
+        );
+        let labels: Vec<String> = nice_ticks(-0.3, 0.32, 5)
+            .iter()
+            .map(|&v| label(v))
+            .collect();
         assert_eq!(labels, ["-0.3", "-0.2", "-0.1", "0", "0.1", "0.2", "0.3"]);
-        assert_eq!(nice_ticks(6.0, 136.0, 5), vec![20.0, 40.0, 60.0, 80.0, 100.0, 120.0]);
+        assert_eq!(
+            nice_ticks(6.0, 136.0, 5),
+            vec![20.0, 40.0, 60.0, 80.0, 100.0, 120.0]
+        );
         // 3 × 0.1 is 0.30000000000000004 in binary floating point; its label reads 0.3.
         let t = nice_ticks(0.0, 0.35, 5);
         let labels: Vec<String> = t.iter().map(|&v| label(v)).collect();
@@ -183,9 +197,15 @@ mod tests {
 
     #[test]
     fn log_ticks_are_decades_or_their_multiples() {
-        assert_eq!(scale(1.0, 1000.0, true).ticks(), vec![1.0, 10.0, 100.0, 1000.0]);
+        assert_eq!(
+            scale(1.0, 1000.0, true).ticks(),
+            vec![1.0, 10.0, 100.0, 1000.0]
+        );
         assert_eq!(scale(3.0, 40.0, true).ticks(), vec![5.0, 10.0, 20.0]);
-        assert_eq!(scale(30.0, 2000.0, true).ticks(), vec![50.0, 100.0, 200.0, 500.0, 1000.0, 2000.0]);
+        assert_eq!(
+            scale(30.0, 2000.0, true).ticks(),
+            vec![50.0, 100.0, 200.0, 500.0, 1000.0, 2000.0]
+        );
         let many = scale(1e-12, 1e12, true).ticks();
         assert!(many.len() <= 9 && many.len() >= 5, "{many:?}");
         let narrow = scale(1.1, 1.3, true).ticks();
@@ -195,7 +215,10 @@ mod tests {
     #[test]
     fn mapping_is_linear_in_the_axis_quantity() {
         let s = scale(10.0, 1000.0, true);
-        assert!((s.px(100.0).unwrap() - 50.0).abs() < 1e-9, "100 midway on log");
+        assert!(
+            (s.px(100.0).unwrap() - 50.0).abs() < 1e-9,
+            "100 midway on log"
+        );
         assert_eq!(s.px(0.0), None);
         assert_eq!(s.px(-1.0), None);
         assert_eq!(s.px_clamped(0.0), Some(0.0));
@@ -214,7 +237,10 @@ mod tests {
     #[test]
     fn domains_are_padded_and_never_empty() {
         assert_eq!(domain([].into_iter(), false, false, 0.05), (0.0, 1.0));
-        assert_eq!(domain([f64::NAN].into_iter(), true, false, 0.05), (1.0, 10.0));
+        assert_eq!(
+            domain([f64::NAN].into_iter(), true, false, 0.05),
+            (1.0, 10.0)
+        );
         let (lo, hi) = domain([5.0].into_iter(), false, false, 0.05);
         assert!(lo < 5.0 && hi > 5.0);
         let (lo, hi) = domain([2.0, 12.0].into_iter(), false, true, 0.05);

@@ -168,7 +168,14 @@ impl Canvas {
     }
 
     /// A circle, with an optional tooltip.
-    pub fn circle(&mut self, class: &str, centre: (f64, f64), r: f64, paint: Paint, tip: Option<&str>) {
+    pub fn circle(
+        &mut self,
+        class: &str,
+        centre: (f64, f64),
+        r: f64,
+        paint: Paint,
+        tip: Option<&str>,
+    ) {
         if !finite(&[centre.0, centre.1, r]) {
             return;
         }
@@ -192,7 +199,13 @@ impl Canvas {
                 continue;
             }
             for (k, p) in run.iter().enumerate() {
-                let _ = write!(d, "{}{},{} ", if k == 0 { "M" } else { "L" }, c(p.0), c(p.1));
+                let _ = write!(
+                    d,
+                    "{}{},{} ",
+                    if k == 0 { "M" } else { "L" },
+                    c(p.0),
+                    c(p.1)
+                );
             }
             if closed {
                 d.push_str("Z ");
@@ -211,7 +224,15 @@ impl Canvas {
     }
 
     /// A text at (x, y) (the baseline), optionally turned a quarter to read upwards.
-    pub fn text(&mut self, class: &str, at: (f64, f64), text: &str, size: f64, anchor: Anchor, upright: bool) {
+    pub fn text(
+        &mut self,
+        class: &str,
+        at: (f64, f64),
+        text: &str,
+        size: f64,
+        anchor: Anchor,
+        upright: bool,
+    ) {
         if !finite(&[at.0, at.1]) {
             return;
         }
@@ -241,7 +262,11 @@ impl Canvas {
             esc(id)
         );
         for (t, colour) in stops {
-            let _ = write!(self.out, r#"<stop offset="{}" stop-color="{colour}"/>"#, c(*t));
+            let _ = write!(
+                self.out,
+                r#"<stop offset="{}" stop-color="{colour}"/>"#,
+                c(*t)
+            );
         }
         self.out.push_str("</linearGradient></defs>\n");
     }
@@ -274,9 +299,20 @@ mod tests {
         k.line("a", (0.0, f64::NAN), (1.0, 1.0), Paint::stroke("#000", 1.0));
         k.circle("b", (f64::INFINITY, 1.0), 2.0, Paint::fill("#000"), None);
         k.rect("c", (1.0, 1.0), (-2.0, 3.0), Paint::fill("#000"), None);
-        k.path("d", &[vec![(0.0, 0.0), (f64::NAN, 1.0)]], false, Paint::stroke("#000", 1.0));
+        k.path(
+            "d",
+            &[vec![(0.0, 0.0), (f64::NAN, 1.0)]],
+            false,
+            Paint::stroke("#000", 1.0),
+        );
         k.text("e", (f64::NAN, 1.0), "x", 12.0, Anchor::Start, false);
-        k.circle("kept", (10.0, 10.0), 2.0, Paint::fill("#000"), Some("a < b"));
+        k.circle(
+            "kept",
+            (10.0, 10.0),
+            2.0,
+            Paint::fill("#000"),
+            Some("a < b"),
+        );
         k.text("kept", (5.0, 5.0), "H & G", 12.0, Anchor::Middle, true);
         let svg = k.finish();
         let doc = roxmltree::Document::parse(&svg).expect("well-formed");

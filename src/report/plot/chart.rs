@@ -189,7 +189,10 @@ impl Chart {
                 to: right,
             }
         } else {
-            let xs = self.series.iter().flat_map(|s| s.points.iter().map(|p| p.x));
+            let xs = self
+                .series
+                .iter()
+                .flat_map(|s| s.points.iter().map(|p| p.x));
             Scale::fit(&self.x, xs, 0.03, left, right)
         };
         let y = Scale {
@@ -212,7 +215,14 @@ impl Chart {
         let l = self.layout();
         let mut k = Canvas::new(WIDTH, l.height);
         let size = fit(&self.title, TITLE_SIZE, WIDTH - 20.0);
-        k.text("title", (WIDTH / 2.0, 26.0), &self.title, size, Anchor::Middle, false);
+        k.text(
+            "title",
+            (WIDTH / 2.0, 26.0),
+            &self.title,
+            size,
+            Anchor::Middle,
+            false,
+        );
         self.frame(&mut k, &l);
         let mut markers: Vec<Bounds> = Vec::new();
         let mut labels: Vec<(f64, f64, &str)> = Vec::new();
@@ -232,14 +242,28 @@ impl Chart {
             let Some(py) = l.y.px(t) else { continue };
             k.line("grid", (x0, py), (x1, py), grid);
             k.line("tick", (x0 - 5.0, py), (x0, py), ink);
-            k.text("y-tick", (x0 - 8.0, py + 4.0), &label(t), TICK_SIZE, Anchor::End, false);
+            k.text(
+                "y-tick",
+                (x0 - 8.0, py + 4.0),
+                &label(t),
+                TICK_SIZE,
+                Anchor::End,
+                false,
+            );
         }
         if self.categories.is_empty() {
             for t in l.x.ticks() {
                 let Some(px) = l.x.px(t) else { continue };
                 k.line("grid", (px, y0), (px, y1), grid);
                 k.line("tick", (px, y1), (px, y1 + 5.0), ink);
-                k.text("x-tick", (px, y1 + 18.0), &label(t), TICK_SIZE, Anchor::Middle, false);
+                k.text(
+                    "x-tick",
+                    (px, y1 + 18.0),
+                    &label(t),
+                    TICK_SIZE,
+                    Anchor::Middle,
+                    false,
+                );
             }
         } else {
             let spacing = (x1 - x0) / self.categories.len() as f64;
@@ -258,15 +282,42 @@ impl Chart {
                 );
             }
         }
-        k.rect("frame", (x0, y0), (x1 - x0, y1 - y0), Paint::stroke("#333333", 1.0), None);
+        k.rect(
+            "frame",
+            (x0, y0),
+            (x1 - x0, y1 - y0),
+            Paint::stroke("#333333", 1.0),
+            None,
+        );
         let below = y1 + 18.0 * l.category_rows as f64 + 22.0;
         let size = fit(&self.x.label, LABEL_SIZE, x1 - x0);
-        k.text("x-label", ((x0 + x1) / 2.0, below), &self.x.label, size, Anchor::Middle, false);
+        k.text(
+            "x-label",
+            ((x0 + x1) / 2.0, below),
+            &self.x.label,
+            size,
+            Anchor::Middle,
+            false,
+        );
         let size = fit(&self.y.label, LABEL_SIZE, y1 - y0);
-        k.text("y-label", (18.0, (y0 + y1) / 2.0), &self.y.label, size, Anchor::Middle, true);
+        k.text(
+            "y-label",
+            (18.0, (y0 + y1) / 2.0),
+            &self.y.label,
+            size,
+            Anchor::Middle,
+            true,
+        );
         for (n, note) in self.notes.iter().enumerate() {
             let size = fit(note, 10.5, WIDTH - x0 - 10.0);
-            k.text("note", (x0, below + 17.0 + 15.0 * n as f64), note, size, Anchor::Start, false);
+            k.text(
+                "note",
+                (x0, below + 17.0 + 15.0 * n as f64),
+                note,
+                size,
+                Anchor::Start,
+                false,
+            );
         }
     }
 
@@ -278,7 +329,13 @@ impl Chart {
         let x = l.legend_x;
         let h = self.series.len() as f64 * LEGEND_ROW + 8.0;
         let w = WIDTH - x - 6.0;
-        k.rect("legend-frame", (x, TOP), (w, h), Paint::stroke("#bbbbbb", 1.0), None);
+        k.rect(
+            "legend-frame",
+            (x, TOP),
+            (w, h),
+            Paint::stroke("#bbbbbb", 1.0),
+            None,
+        );
         for (i, s) in self.series.iter().enumerate() {
             let colour = series_colour(i);
             let cy = TOP + 14.0 + LEGEND_ROW * i as f64;
@@ -427,13 +484,7 @@ fn marker(k: &mut Canvas, class: &str, m: Marker, (x, y): (f64, f64), colour: &s
     };
     match m {
         Marker::Circle => k.circle(class, (x, y), 4.5, fill, None),
-        Marker::Ring => k.circle(
-            class,
-            (x, y),
-            6.5,
-            Paint::stroke(colour, 1.8),
-            None,
-        ),
+        Marker::Ring => k.circle(class, (x, y), 6.5, Paint::stroke(colour, 1.8), None),
         Marker::Square => k.rect(class, (x - 4.0, y - 4.0), (8.0, 8.0), fill, None),
         Marker::Diamond => k.path(
             class,

@@ -128,7 +128,14 @@ impl HeatMap {
         let x = Scale::fit(&self.x, xs, pad, left, right);
         let mut k = Canvas::new(WIDTH, HEIGHT);
         let size = fit(&self.title, 15.0, WIDTH - 20.0);
-        k.text("title", (WIDTH / 2.0, 26.0), &self.title, size, Anchor::Middle, false);
+        k.text(
+            "title",
+            (WIDTH / 2.0, 26.0),
+            &self.title,
+            size,
+            Anchor::Middle,
+            false,
+        );
         k.open_crisp("cells");
         for c in &self.cells {
             let (Some(xa), Some(xb), Some(ya), Some(yb)) =
@@ -168,22 +175,63 @@ impl HeatMap {
         for t in x.ticks() {
             let Some(px) = x.px(t) else { continue };
             k.line("tick", (px, bottom), (px, bottom + 5.0), ink);
-            k.text("x-tick", (px, bottom + 18.0), &label(t), TICK_SIZE, Anchor::Middle, false);
+            k.text(
+                "x-tick",
+                (px, bottom + 18.0),
+                &label(t),
+                TICK_SIZE,
+                Anchor::Middle,
+                false,
+            );
         }
         for t in y.ticks() {
             let Some(py) = y.px(t) else { continue };
             k.line("tick", (left - 5.0, py), (left, py), ink);
-            k.text("y-tick", (left - 8.0, py + 4.0), &label(t), TICK_SIZE, Anchor::End, false);
+            k.text(
+                "y-tick",
+                (left - 8.0, py + 4.0),
+                &label(t),
+                TICK_SIZE,
+                Anchor::End,
+                false,
+            );
         }
-        k.rect("frame", (left, TOP), (right - left, bottom - TOP), ink, None);
+        k.rect(
+            "frame",
+            (left, TOP),
+            (right - left, bottom - TOP),
+            ink,
+            None,
+        );
         let below = bottom + 40.0;
         let size = fit(&self.x.label, LABEL_SIZE, right - left);
-        k.text("x-label", ((left + right) / 2.0, below), &self.x.label, size, Anchor::Middle, false);
+        k.text(
+            "x-label",
+            ((left + right) / 2.0, below),
+            &self.x.label,
+            size,
+            Anchor::Middle,
+            false,
+        );
         let size = fit(&self.y.label, LABEL_SIZE, bottom - TOP);
-        k.text("y-label", (18.0, (TOP + bottom) / 2.0), &self.y.label, size, Anchor::Middle, true);
+        k.text(
+            "y-label",
+            (18.0, (TOP + bottom) / 2.0),
+            &self.y.label,
+            size,
+            Anchor::Middle,
+            true,
+        );
         for (n, note) in self.notes.iter().enumerate() {
             let size = fit(note, 10.5, WIDTH - left - 10.0);
-            k.text("note", (left, below + 17.0 + 15.0 * n as f64), note, size, Anchor::Start, false);
+            k.text(
+                "note",
+                (left, below + 17.0 + 15.0 * n as f64),
+                note,
+                size,
+                Anchor::Start,
+                false,
+            );
         }
     }
 
@@ -205,7 +253,14 @@ impl HeatMap {
         for &t in ticks {
             let Some(py) = s.px(t) else { continue };
             k.line("tick", (x + BAR_W, py), (x + BAR_W + 4.0, py), ink);
-            k.text("bar-tick", (x + BAR_W + 7.0, py + 4.0), &label(t), TICK_SIZE, Anchor::Start, false);
+            k.text(
+                "bar-tick",
+                (x + BAR_W + 7.0, py + 4.0),
+                &label(t),
+                TICK_SIZE,
+                Anchor::Start,
+                false,
+            );
         }
         let missing = self
             .cells
@@ -214,8 +269,21 @@ impl HeatMap {
             .chain(self.dots.iter().map(|d| d.value))
             .any(|v| !v.is_some_and(f64::is_finite));
         if missing {
-            k.rect("missing-key", (x, bottom + 10.0), (BAR_W, 10.0), Paint::fill(MISSING), None);
-            k.text("missing-label", (x + BAR_W + 6.0, bottom + 19.0), "no value", TICK_SIZE, Anchor::Start, false);
+            k.rect(
+                "missing-key",
+                (x, bottom + 10.0),
+                (BAR_W, 10.0),
+                Paint::fill(MISSING),
+                None,
+            );
+            k.text(
+                "missing-label",
+                (x + BAR_W + 6.0, bottom + 19.0),
+                "no value",
+                TICK_SIZE,
+                Anchor::Start,
+                false,
+            );
         }
         let size = fit(&self.bar_label, LABEL_SIZE, bottom - TOP);
         k.text(

@@ -92,7 +92,10 @@ mod tests {
         let mut last = f64::NEG_INFINITY;
         for k in 0..=200 {
             let l = lightness(ramp(k as f64 / 200.0));
-            assert!(l > last, "L* rises along the ramp (at {k}/200: {l} after {last})");
+            assert!(
+                l > last,
+                "L* rises along the ramp (at {k}/200: {l} after {last})"
+            );
             last = l;
         }
         assert_eq!(ramp(-1.0), RAMP[0]);

@@ -54,10 +54,17 @@ mod tests {
             e,
             "a&lt;b &amp; &quot;c&quot; &apos;d&apos; \u{fffd}\u{fffd}e&gt;\u{fffd}"
         );
-        let doc = format!(r#"<svg xmlns="http://www.w3.org/2000/svg" a="{e}"><text>{e}</text></svg>"#);
+        let doc =
+            format!(r#"<svg xmlns="http://www.w3.org/2000/svg" a="{e}"><text>{e}</text></svg>"#);
         let parsed = roxmltree::Document::parse(&doc).expect("well-formed");
-        let text = parsed.descendants().find(|n| n.has_tag_name("text")).unwrap();
-        assert_eq!(text.text(), Some("a<b & \"c\" 'd' \u{fffd}\u{fffd}e>\u{fffd}"));
+        let text = parsed
+            .descendants()
+            .find(|n| n.has_tag_name("text"))
+            .unwrap();
+        assert_eq!(
+            text.text(),
+            Some("a<b & \"c\" 'd' \u{fffd}\u{fffd}e>\u{fffd}")
+        );
         assert_eq!(parsed.root_element().attribute("a"), text.text());
     }
 

@@ -48,8 +48,16 @@ fn unit(parts: &[String]) -> Option<&'static str> {
         Some("firings")
     } else if matches!(
         key,
-        "mean" | "sd" | "stderr" | "count" | "initial_count" | "lna_mean" | "exact_mean"
-            | "ensemble_mean" | "deterministic" | "observed"
+        "mean"
+            | "sd"
+            | "stderr"
+            | "count"
+            | "initial_count"
+            | "lna_mean"
+            | "exact_mean"
+            | "ensemble_mean"
+            | "deterministic"
+            | "observed"
     ) {
         Some("molecules")
     } else if matches!(key, "variance" | "lna_variance" | "exact_variance") {
@@ -68,7 +76,11 @@ fn metric_label(pointer: &str) -> String {
         (3, "time_average") => format!("{}: time average, {}", s(1), s(2).replace('_', " ")),
         (3, "state") => format!("{}: steady {}", s(1), s(2).replace('_', " ")),
         (3, "fluxes") => format!("{}: steady flux", s(1)),
-        (3, "firings") => format!("{}: firings in the window, {}", s(1), s(2).replace('_', " ")),
+        (3, "firings") => format!(
+            "{}: firings in the window, {}",
+            s(1),
+            s(2).replace('_', " ")
+        ),
         (5, "volumes") if s(2) == "species" => {
             let at = match s(1).parse::<usize>() {
                 Ok(0) | Err(_) => String::new(),
@@ -170,7 +182,13 @@ fn edges(values: &[f64], log: bool) -> Vec<f64> {
 fn tip(ax: &Axis, ay: &Axis, v: &[f64], z: Option<f64>) -> String {
     let num = crate::numbers::short;
     let z = z.map_or("no value".to_string(), num);
-    format!("{} = {}, {} = {}: {z}", ax.name, num(v[0]), ay.name, num(v[1]))
+    format!(
+        "{} = {}, {} = {}: {z}",
+        ax.name,
+        num(v[0]),
+        ay.name,
+        num(v[1])
+    )
 }
 
 fn heat_map(r: &Response, title: String, notes: Vec<String>) -> String {
@@ -230,22 +248,37 @@ mod tests {
     fn grid_cells_tile_the_axis() {
         assert_eq!(edges(&[1.0, 2.0, 4.0], false), vec![0.5, 1.5, 3.0, 5.0]);
         let l = edges(&[1.0, 100.0], true);
-        assert!((l[1] - 10.0).abs() < 1e-9, "geometric midpoint on a log axis");
+        assert!(
+            (l[1] - 10.0).abs() < 1e-9,
+            "geometric midpoint on a log axis"
+        );
     }
 
     #[test]
     fn figures_are_named_with_their_units() {
         assert_eq!(metric_label("/final/H/mean"), "H: final mean [molecules]");
-        assert_eq!(metric_label("/final/H/mean_molar"), "H: final mean molar [M]");
-        assert_eq!(metric_label("/state/H/count"), "H: steady count [molecules]");
-        assert_eq!(metric_label("/fluxes/clear/per_s"), "clear: steady flux [molecules/s]");
+        assert_eq!(
+            metric_label("/final/H/mean_molar"),
+            "H: final mean molar [M]"
+        );
+        assert_eq!(
+            metric_label("/state/H/count"),
+            "H: steady count [molecules]"
+        );
+        assert_eq!(
+            metric_label("/fluxes/clear/per_s"),
+            "clear: steady flux [molecules/s]"
+        );
         assert_eq!(metric_label("/volumes/0/species/H/fano"), "H: fano");
         assert_eq!(metric_label("/volumes/1/species/H/cv"), "H: cv at volume 2");
         assert_eq!(
             metric_label("/motifs/0/ensemble/mean_per_s"),
             "motif 1: ensemble mean per s [molecules/s]"
         );
-        assert_eq!(metric_label("/firings/bind/rate_per_s"), "bind: firings in the window, rate per s [/s]");
+        assert_eq!(
+            metric_label("/firings/bind/rate_per_s"),
+            "bind: firings in the window, rate per s [/s]"
+        );
         assert_eq!(metric_label("/omega"), "/omega");
         assert_eq!(metric_label("/final/a~1b/sd"), "a/b: final sd [molecules]");
     }

@@ -476,3 +476,61 @@ fn sweep_heat_map_has_a_cell_per_point_and_a_named_colour_bar() {
     assert!(pixels_of(&pixels, "#fde725", 6) > 20);
     support::svg::keep("sweep_heat", &text, &pixels);
 }
+
+#[test]
+fn heat_map_of_a_scattered_design_draws_a_dot_per_point_and_greys_missing_values() {
+    use copyloop::sweep::{Axis, Response};
+    let axis = |name: &str, log: bool| Axis {
+        name: name.into(),
+        unit: None,
+        file_unit: Some("nM".into()),
+        log,
+        grid: Vec::new(),
+    };
+    // A made-up Latin hypercube of 7 points, one of which failed.
+    let points: Vec<(Vec<f64>, Option<f64>)> = (0..7)
+        .map(|k| {
+            let (a, b) = (1.0 + k as f64, 10f64.powf(k as f64 / 3.0));
+            (vec![a, b], (k != 3).then(|| a * b))
+        })
+        .collect();
+    let r = Response {
+        axes: vec![axis("A", false), axis("B & <C>", true)],
+        metric: "/final/A/mean".into(),
+        task: "simulate".into(),
+        points,
+    };
+    let text = report::sweep::response::svg(&r);
+    let p = parse(&text);
+    assert_eq!(p.text("x-label"), "A [nM]");
+    assert_eq!(
+        p.text("y-label"),
+        "B & <C> [nM]",
+        "names are escaped and read back"
+    );
+    assert_eq!(p.text("bar-label"), "A: final mean [molecules]");
+    assert_eq!(p.all("dot").len(), 7);
+    assert_eq!(p.text("missing-label"), "no value");
+    assert!(p.text("note").starts_with("1 of 7 points have no value"));
+    let pixels = render(&text);
+    assert!(
+        pixels_of(&pixels, "#d0d0d0", 2) > 20,
+        "the failed point is grey"
+    );
+    support::svg::keep("sweep_lhs", &text, &pixels);
+}
+
+#[test]
+#[should_panic(expected = "resvg rejects the SVG")]
+fn the_renderer_check_fails_on_a_file_resvg_rejects() {
+    render("<svg xmlns=\"http://www.w3.org/2000/svg\" width=\"10\" height=\"10\"><rect></svg>");
+}
+
+#[test]
+#[should_panic(expected = "resvg warned")]
+fn the_renderer_check_fails_on_a_warning() {
+    render(concat!(
+        r#"<svg xmlns="http://www.w3.org/2000/svg" width="10" height="10">"#,
+        r#"<path d="M 1,1 L 5,q" stroke="black"/></svg>"#
+    ));
+}

@@ -455,6 +455,25 @@ mod tests {
     }
 
     #[test]
+    fn the_unit_the_file_wrote_is_recorded_for_plots() {
+        let unit = |s: &str| vary(s).unwrap().file_unit;
+        assert_eq!(unit("kon=log:1e5..1e7:3").as_deref(), Some("/M/s"));
+        assert_eq!(unit("koff=list:1").as_deref(), Some("/s"));
+        assert_eq!(unit("H=list:1").as_deref(), Some("nM"));
+        assert_eq!(unit("E=list:1").as_deref(), Some("molecules"));
+        assert_eq!(
+            unit("C=list:1").as_deref(),
+            Some("molecules"),
+            "a bare amount"
+        );
+        assert_eq!(unit("volume=list:1 fL").as_deref(), Some("pL"));
+        let bare =
+            parser::parse("b.crn", b"param k = 3\nspecies A = 1\nstep d A -> 0 @ k\n").unwrap();
+        let v = Vary::parse("k=list:1", &bare).unwrap();
+        assert_eq!(v.file_unit, None, "a bare param has no unit to show");
+    }
+
+    #[test]
     fn units_follow_the_network_language() {
         let v = vary("H=lin:10 nM..1 uM:3").unwrap();
         assert_eq!(v.unit_text(), Some("nM"));

@@ -93,10 +93,16 @@ impl<'a> Plot<'a> {
         self.all("series")
     }
 
-    /// The legend's names, in order.
+    /// The legend's names, in order; the legend must stand beside the plot area, never over
+    /// the data.
     pub fn legend(&self) -> Vec<String> {
         let legend = self.all("legend");
         assert_eq!(legend.len(), 1, "one legend");
+        let (frame, box_) = (self.bounds("frame"), self.bounds("legend-frame"));
+        assert!(
+            box_.0 > frame.2,
+            "legend {box_:?} beside the plot area {frame:?}"
+        );
         legend[0]
             .descendants()
             .filter(|n| has_class(n, "legend-label"))

@@ -143,7 +143,8 @@ impl Canvas {
         );
     }
 
-    /// A rectangle, with an optional tooltip (`<title>`).
+    /// A rectangle, with an optional tooltip (`<title>`); one of no area is left out (it
+    /// would draw nothing, and renderers reject it).
     pub fn rect(
         &mut self,
         class: &str,
@@ -152,7 +153,7 @@ impl Canvas {
         paint: Paint,
         tip: Option<&str>,
     ) {
-        if !finite(&[at.0, at.1, size.0, size.1]) || size.0 < 0.0 || size.1 < 0.0 {
+        if !finite(&[at.0, at.1, size.0, size.1]) || size.0 <= 0.0 || size.1 <= 0.0 {
             return;
         }
         let head = format!(

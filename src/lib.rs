@@ -33,6 +33,7 @@
 
 pub mod cli;
 pub mod deterministic;
+pub mod distribution;
 pub mod ensemble;
 pub mod error;
 pub mod kernel;

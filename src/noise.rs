@@ -19,6 +19,7 @@
 //! copyloop shortened its own times to stay within its event budget.
 
 use crate::deterministic::{self, solve, SteadyOptions};
+use crate::distribution;
 use crate::ensemble;
 use crate::network::{Network, Overrides};
 use crate::serial::{by_name, molar, Named};
@@ -72,7 +73,8 @@ pub struct SpeciesNoise {
     pub lna_mean: f64,
     pub lna_variance: f64,
     pub lna_cv: f64,
-    /// From the exact stationary distribution where the network fits (not yet computed: null).
+    /// From the exact stationary distribution where the network fits a finite state
+    /// projection ([`crate::distribution::stationary_beside`]); null elsewhere.
     pub exact_mean: Option<f64>,
     pub exact_variance: Option<f64>,
     pub exact_fano: Option<f64>,
@@ -121,6 +123,11 @@ pub struct VolumeNoise {
     pub wall_seconds: f64,
     /// Why the LNA columns are missing, if they are.
     pub lna_note: Option<String>,
+    /// The exact stationary law's boundary probability and projection size, where it fits.
+    pub exact_truncation_error: Option<f64>,
+    pub exact_states: Option<usize>,
+    /// Why the exact columns are missing, if they are.
+    pub exact_note: Option<String>,
 }
 
 /// Everything `copyloop noise` reports.
@@ -192,6 +199,10 @@ fn at_volume(net: &Network, opts: &Options) -> Result<VolumeNoise> {
         Ok(l) => (Some(l), None),
         Err(e) => (None, Some(e.to_string())),
     };
+    let (exact, exact_note) = match distribution::stationary_beside(net, opts.threads) {
+        Ok(e) => (Some(e), None),
+        Err(e) => (None, Some(e.to_string())),
+    };
     let plan = stationary::plan(
         net,
         Some(&steady),
@@ -230,6 +241,7 @@ fn at_volume(net: &Network, opts: &Options) -> Result<VolumeNoise> {
                 Some(l) => (l.mean[i], l.variance[i], l.cv[i]),
                 None => (steady.counts[i], f64::NAN, f64::NAN),
             };
+            let law = exact.as_ref().and_then(|e| e.species.get(&s.name));
             SpeciesNoise {
                 name: s.name.clone(),
                 clamped: s.clamped,
@@ -245,9 +257,9 @@ fn at_volume(net: &Network, opts: &Options) -> Result<VolumeNoise> {
                 lna_mean,
                 lna_variance,
                 lna_cv,
-                exact_mean: None,
-                exact_variance: None,
-                exact_fano: None,
+                exact_mean: law.map(|l| l.mean),
+                exact_variance: law.map(|l| l.variance),
+                exact_fano: law.map(|l| l.fano),
                 mean_molar: molar(mo.mean.value, omega),
                 lna_mean_molar: molar(lna_mean, omega),
             }
@@ -263,5 +275,8 @@ fn at_volume(net: &Network, opts: &Options) -> Result<VolumeNoise> {
         events_total: ens.events_total,
         wall_seconds: ens.wall_seconds,
         lna_note,
+        exact_truncation_error: exact.as_ref().map(|e| e.truncation_error),
+        exact_states: exact.as_ref().map(|e| e.states),
+        exact_note,
     })
 }

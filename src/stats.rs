@@ -924,14 +924,14 @@ mod tests {
 
     #[test]
     fn t_quantiles_match_tables() {
-        // Two-sided 95 % points of Student's t, standard t tables [M]; 2.306004 for 8 dof as
-        // given in DESIGN.md (standard t tables).
+        // Two-sided 95 % points of Student's t (standard t tables; recomputed with scipy in
+        // tests/reference/tables.py [C]): 2.306004 for 8 dof.
         assert!((t_quantile(0.975, 8.0) - 2.306004).abs() < 1e-6);
         assert!((t_quantile(0.975, 1.0) - 12.7062).abs() < 5e-5);
         assert!((t_quantile(0.975, 2.0) - 4.3027).abs() < 5e-5);
         assert!((t_quantile(0.975, 30.0) - 2.0423).abs() < 5e-5);
         assert!((t_quantile(0.995, 10.0) - 3.1693).abs() < 5e-5);
-        // Symmetry and the normal limit z_{0.975} = 1.959964 (normal tables [M]).
+        // Symmetry and the normal limit z_{0.975} = 1.959964 (tests/reference/tables.py [C]).
         assert!((t_quantile(0.025, 8.0) + 2.306004).abs() < 1e-6);
         assert!((t_quantile(0.975, 1e9) - 1.959964).abs() < 1e-6);
         assert!((t_quantile(0.975, f64::INFINITY) - 1.959964).abs() < 1e-6);
@@ -1066,7 +1066,7 @@ mod tests {
         let r = chi_square_gof(&[10, 20, 30, 40], &[0.25; 4]).unwrap();
         assert!((r.statistic - 20.0).abs() < 1e-12);
         assert_eq!(r.dof, 3);
-        // χ²₃ 95 % point 7.8147 (standard χ² tables [M]): p = 0.05 there.
+        // χ²₃ 95 % point 7.8147 (standard χ² tables; tests/reference/tables.py [C]): p = 0.05.
         assert!((chi_square_sf(7.8147, 3) - 0.05).abs() < 1e-5);
     }
 
@@ -1161,7 +1161,7 @@ mod tests {
     #[test]
     fn kolmogorov_distribution_table_values() {
         // Asymptotic critical values of the Kolmogorov distribution (Smirnov 1948 table;
-        // standard KS tables [M]): P(K > 1.2238) = 0.10, P(K > 1.3581) = 0.05,
+        // standard KS tables; scipy's kstwobign in tests/reference/tables.py [C]): P(K > 1.2238) = 0.10, P(K > 1.3581) = 0.05,
         // P(K > 1.6276) = 0.01.
         assert!((kolmogorov_sf(1.2238) - 0.10).abs() < 1e-4);
         assert!((kolmogorov_sf(1.3581) - 0.05).abs() < 1e-4);

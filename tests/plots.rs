@@ -534,3 +534,61 @@ fn the_renderer_check_fails_on_a_warning() {
         r#"<path d="M 1,1 L 5,q" stroke="black"/></svg>"#
     ));
 }
+
+// Immigration–death (DSMTS 002-01: 0 -> X at 1/s, X -> 0 at 0.1/s from X = 0): X(t) is
+// Poisson with mean 10(1 − e^(−0.1 t)) (McQuarrie 1967 [verified]).
+#[test]
+fn distribution_plot_draws_the_exact_law_where_the_axes_say_beside_the_histogram() {
+    let dir = tempfile::tempdir().unwrap();
+    let svg = dir.path().join("d.svg");
+    let fixture = format!(
+        "{}/tests/fixtures/dsmts/dsmts-002-01.crn",
+        env!("CARGO_MANIFEST_DIR")
+    );
+    let o = support::cli::run(&[
+        "distribution",
+        &fixture,
+        "--t-end",
+        "20",
+        "--grid",
+        "3",
+        "--species",
+        "X",
+        "--svg",
+        svg.to_str().unwrap(),
+        "--svg-times",
+        "20",
+        "--ensemble",
+        "100",
+    ]);
+    assert_eq!(
+        o.status.code(),
+        Some(0),
+        "{}",
+        String::from_utf8_lossy(&o.stderr)
+    );
+    let text = std::fs::read_to_string(&svg).unwrap();
+    let p = parse(&text);
+    assert_eq!(p.text("x-label"), "X (molecules)");
+    assert_eq!(p.text("y-label"), "probability");
+    assert_eq!(p.legend(), ["t = 20 s exact", "t = 20 s, 100 runs"]);
+    let series = p.series();
+    assert_eq!(count(&series[0], "line"), 1);
+    assert!(count(&series[1], "marker") > 5, "the histogram's bins");
+    let x = mapping(&ticks(&p, "x-tick"), false);
+    let y = mapping(&ticks(&p, "y-tick"), false);
+    let line = series[0]
+        .descendants()
+        .find(|n| n.attribute("class") == Some("line"))
+        .unwrap();
+    let mu = 10.0 * (1.0 - (-2.0f64).exp());
+    let mut pmf = (-mu).exp();
+    for (k, &(px, py)) in path_points(line.attribute("d").unwrap()).iter().enumerate() {
+        assert!((px - x(k as f64)).abs() < 0.05, "k = {k}");
+        assert!((py - y(pmf)).abs() < 0.05, "p({k})");
+        pmf *= mu / (k + 1) as f64;
+    }
+    let pixels = render(&text);
+    assert!(pixels_of(&pixels, series_colour(0), 8) > 50);
+    support::svg::keep("distribution", &text, &pixels);
+}

@@ -1,5 +1,6 @@
 //! `copyloop simulate FILE --t-end T`: a replicate ensemble of one network.
 
+use crate::distribution::{self, compare};
 use crate::ensemble::{self, EnsembleSpec, Method};
 use crate::error::{Error, Result};
 use crate::network::{load, Overrides};
@@ -54,6 +55,10 @@ pub struct SimulateArgs {
     /// Print one JSON document instead of the table
     #[arg(long)]
     pub json: bool,
+    /// Compare the grid with the exact distribution (finite state projection, where the
+    /// network fits): the Z and Y statistics of the discrete stochastic test suite
+    #[arg(long)]
+    pub exact: bool,
 }
 
 impl SimulateArgs {
@@ -93,7 +98,26 @@ pub(crate) fn document(a: &SimulateArgs, p: &crate::sweep::Point) -> Result<serd
     };
     let result = ensemble::run(p.net, &spec)
         .map_err(|e| super::values::with_flags(e, super::values::SIMULATE_FLAGS))?;
-    Ok(report::simulate::json(p.net, &result))
+    let mut doc = report::simulate::json(p.net, &result);
+    if a.exact {
+        report::simulate::add_exact_json(&mut doc, &exact(p.net, &result, Some(p.threads)));
+    }
+    Ok(doc)
+}
+
+/// `--exact`: the grid against the transient law, with the defaults of `copyloop distribution`.
+fn exact(
+    net: &crate::Network,
+    result: &ensemble::EnsembleResult,
+    threads: Option<usize>,
+) -> std::result::Result<compare::ExactComparison, String> {
+    let opts = distribution::Options {
+        threads,
+        ..distribution::Options::default()
+    };
+    distribution::transient(net, &result.grid_times, &opts)
+        .map(|law| compare::compare(net, &law, result))
+        .map_err(|e| e.to_string())
 }
 
 pub fn run(a: &SimulateArgs) -> Result<()> {
@@ -102,13 +126,22 @@ pub fn run(a: &SimulateArgs) -> Result<()> {
     let net = load(&a.file, &Overrides::default())?;
     super::print_warnings(&net);
     let result = ensemble::run(&net, &spec)?;
+    let exact = a.exact.then(|| exact(&net, &result, a.threads));
     if let Some(path) = &a.out {
         std::fs::write(path, report::simulate::csv(&net, &result))
             .map_err(|e| Error::io(path.clone(), e))?;
     }
     if a.json {
-        super::print_json(&report::simulate::json(&net, &result))
+        let mut doc = report::simulate::json(&net, &result);
+        if let Some(e) = &exact {
+            report::simulate::add_exact_json(&mut doc, e);
+        }
+        super::print_json(&doc)
     } else {
-        super::print_stdout(&report::simulate::table(&net, &result))
+        let mut text = report::simulate::table(&net, &result);
+        if let Some(e) = &exact {
+            text.push_str(&report::simulate::exact_table(e));
+        }
+        super::print_stdout(&text)
     }
 }

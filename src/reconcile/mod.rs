@@ -23,6 +23,7 @@ pub mod observe;
 pub mod verdict;
 
 use crate::deterministic::{langmuir, solve, Steady, SteadyOptions};
+use crate::distribution;
 use crate::ensemble::{self, EnsembleResult, EnsembleSpec};
 use crate::network::{compile::Override, motif_chains, MotifKind, Network, Overrides};
 use crate::serial::{by_name, molar, Named};
@@ -222,6 +223,19 @@ pub struct MotifReport {
     pub qssa_parameter: f64,
     /// z of (first half − second half) of the window's flux.
     pub halves_z: f64,
+    /// The exact stationary mean flux of the output step (finite state projection), where the
+    /// network fits one; null elsewhere.
+    pub exact: Option<ExactFlux>,
+}
+
+/// A motif's exact stationary output flux beside the predictions and the ensemble.
+#[derive(Clone, Debug, Serialize)]
+pub struct ExactFlux {
+    pub mean_per_s: f64,
+    /// (exact − Langmuir)/Langmuir: the low-copy shift of the mean flux, exactly.
+    pub langmuir_relative_difference: f64,
+    /// (ensemble − exact)/exact.
+    pub ensemble_relative_difference: f64,
 }
 
 /// A chain of motifs in series, reconciled end to end.
@@ -383,6 +397,11 @@ pub struct Reconciliation {
     pub tolerance: f64,
     pub events_total: u64,
     pub wall_seconds: f64,
+    /// The exact stationary law's boundary probability and projection size, or why there is
+    /// none.
+    pub exact_truncation_error: Option<f64>,
+    pub exact_states: Option<usize>,
+    pub exact_note: Option<String>,
 }
 
 /// Runs the reconciliation of `net`.
@@ -407,8 +426,28 @@ pub fn reconcile(net: &Network, opts: &Options) -> Result<Reconciliation> {
     };
     validate_plan(&plan)?;
     let (ens, replicates) = run_ensemble(net, &plan, opts)?;
+    let (exact, exact_note) = if net.motifs.is_empty() {
+        (None, None)
+    } else {
+        match distribution::stationary_beside(net, opts.threads) {
+            Ok(e) => (Some(e), None),
+            Err(e) => (None, Some(e.to_string())),
+        }
+    };
     let motifs: Vec<MotifReport> = (0..net.motifs.len())
-        .map(|m| motif_report(net, m, &ens, &steady, opts))
+        .map(|m| {
+            let mut r = motif_report(net, m, &ens, &steady, opts);
+            let label = &net.reactions[net.motifs[m].output].label;
+            r.exact = exact.as_ref().and_then(|e| e.fluxes.get(label)).map(|&f| {
+                let l = r.predicted.langmuir_per_s;
+                ExactFlux {
+                    mean_per_s: f,
+                    langmuir_relative_difference: (f - l) / l,
+                    ensemble_relative_difference: (r.ensemble.mean_per_s - f) / f,
+                }
+            });
+            r
+        })
         .collect();
     let chains = motif_chains(net)
         .into_iter()
@@ -439,6 +478,9 @@ pub fn reconcile(net: &Network, opts: &Options) -> Result<Reconciliation> {
         tolerance: opts.tolerance,
         events_total: ens.events_total,
         wall_seconds: ens.wall_seconds,
+        exact_truncation_error: exact.as_ref().map(|e| e.truncation_error),
+        exact_states: exact.as_ref().map(|e| e.states),
+        exact_note,
     })
 }
 
@@ -618,6 +660,7 @@ fn motif_report(
         tolerance: opts.tolerance,
         qssa_parameter: carrier_total / (ligand_level + k),
         halves_z,
+        exact: None,
     }
 }
 

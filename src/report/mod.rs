@@ -2,6 +2,7 @@
 //! Reports only format; they compute nothing.
 
 pub mod check;
+pub mod distribution;
 pub mod noise;
 pub mod plot;
 pub mod reconcile;

@@ -88,6 +88,9 @@ pub fn table(report: &NoiseReport) -> String {
             "LNA mean",
             "LNA variance",
             "LNA CV",
+            "exact mean",
+            "exact variance",
+            "exact Fano",
         ]);
         let mark = if v.plan.coverage().reliable {
             ""
@@ -104,6 +107,9 @@ pub fn table(report: &NoiseReport) -> String {
                 num(s.lna_mean),
                 num(s.lna_variance),
                 num(s.lna_cv),
+                s.exact_mean.map_or("-".into(), num),
+                s.exact_variance.map_or("-".into(), num),
+                s.exact_fano.map_or("-".into(), num),
             ]);
         }
         out.push_str(&t.render());
@@ -120,6 +126,14 @@ pub fn table(report: &NoiseReport) -> String {
         }
         if let Some(n) = &v.lna_note {
             out.push_str(&format!("  linear noise approximation unavailable: {n}\n"));
+        }
+        match (&v.exact_note, v.exact_truncation_error, v.exact_states) {
+            (Some(n), _, _) => out.push_str(&format!("  exact columns unavailable: {n}\n")),
+            (None, Some(e), Some(states)) => out.push_str(&format!(
+                "  exact: stationary master equation on {states} states (finite state projection, boundary probability {})\n",
+                num(e)
+            )),
+            _ => {}
         }
         out.push('\n');
     }

@@ -85,6 +85,7 @@ pub fn table(net: &Network, r: &Reconciliation) -> String {
             "verdict",
             "ODE",
             "verdict",
+            "exact",
         ]);
         for m in &r.motifs {
             let v = &m.verdicts;
@@ -101,9 +102,18 @@ pub fn table(net: &Network, r: &Reconciliation) -> String {
                 v.tqssa.as_ref().map_or("-".into(), judged),
                 num(m.predicted.ode_per_s),
                 judged(&v.ode),
+                m.exact.as_ref().map_or("-".into(), |e| num(e.mean_per_s)),
             ]);
         }
         out.push_str(&t.render());
+        match (&r.exact_note, r.exact_states) {
+            (Some(n), _) => out.push_str(&format!("  exact column unavailable: {n}\n")),
+            (None, Some(states)) => out.push_str(&format!(
+                "  exact: stationary master equation on {states} states (finite state projection, boundary probability {})\n",
+                num(r.exact_truncation_error.unwrap_or(0.0))
+            )),
+            _ => {}
+        }
         for m in &r.motifs {
             let v = &m.verdicts;
             let named = [

@@ -461,7 +461,8 @@ pub(crate) fn sync_dir(path: &str) {
 mod tests {
     use super::*;
 
-    // FNV-1a 64 test vectors from the FNV reference test suite [M]: "" → cbf29ce484222325,
+    // FNV-1a 64 test vectors (FNV reference suite; recomputed in tests/reference/tables.py
+    // [C]): "" → cbf29ce484222325,
     // "a" → af63dc4c8601ec8c, "foobar" → 85944171f73967e8.
     // Two sweeps given one --out: the second is refused while the first holds the file, and
     // the first's lines stay whole.

@@ -2,6 +2,5 @@
 #![allow(dead_code)]
 
 pub mod cli;
-pub mod cme;
 pub mod sbml_suite;
 pub mod svg;

@@ -491,7 +491,7 @@ fn heat_map_of_a_scattered_design_draws_a_dot_per_point_and_greys_missing_values
     let points: Vec<(Vec<f64>, Option<f64>)> = (0..7)
         .map(|k| {
             let (a, b) = (1.0 + k as f64, 10f64.powf(k as f64 / 3.0));
-            (vec![a, b], (k != 3).then(|| a * b))
+            (vec![a, b], (k != 3).then_some(a * b))
         })
         .collect();
     let r = Response {

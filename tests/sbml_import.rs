@@ -469,6 +469,158 @@ fn what_the_network_cannot_hold_yet_is_refused_with_the_reason() {
     assert!(msg.contains("<rateRule> `p`: not supported yet"), "{msg}");
 }
 
+// --- mole-based models: the volume scale ---------------------------------------------------
+
+/// A Level 3 model in mole and litre with one compartment `cell` of `size` litres; `rest` holds
+/// the unit definitions, species, parameters and reactions.
+fn molar(size: &str, rest: &str) -> String {
+    format!(
+        r#"<?xml version="1.0" encoding="UTF-8"?>
+<sbml xmlns="http://www.sbml.org/sbml/level3/version2/core" level="3" version="2">
+  <model id="m" substanceUnits="mole" volumeUnits="litre" timeUnits="second" extentUnits="mole">
+    <listOfUnitDefinitions>
+      <unitDefinition id="per_nM_per_s"><listOfUnits>
+        <unit kind="mole" exponent="-1" scale="-9" multiplier="1"/>
+        <unit kind="litre" exponent="1" scale="0" multiplier="1"/>
+        <unit kind="second" exponent="-1" scale="0" multiplier="1"/>
+      </listOfUnits></unitDefinition>
+      <unitDefinition id="per_s"><listOfUnits>
+        <unit kind="second" exponent="-1" scale="0" multiplier="1"/>
+      </listOfUnits></unitDefinition>
+      <unitDefinition id="nM"><listOfUnits>
+        <unit kind="mole" exponent="1" scale="-9" multiplier="1"/>
+        <unit kind="litre" exponent="-1" scale="0" multiplier="1"/>
+      </listOfUnits></unitDefinition>
+    </listOfUnitDefinitions>
+    <listOfCompartments>
+      <compartment id="cell" spatialDimensions="3" size="{size}" constant="true"/>
+    </listOfCompartments>
+    {rest}
+  </model>
+</sbml>
+"#
+    )
+}
+
+fn molar_species(id: &str, conc: f64) -> String {
+    format!(
+        r#"<species id="{id}" compartment="cell" initialConcentration="{conc}" hasOnlySubstanceUnits="false" boundaryCondition="false" constant="false"/>"#
+    )
+}
+
+fn reaction(id: &str, reactants: &[&str], law: &str, locals: &str) -> String {
+    let refs: String = reactants
+        .iter()
+        .map(|s| format!(r#"<speciesReference species="{s}" stoichiometry="1" constant="true"/>"#))
+        .collect();
+    format!(
+        r#"<reaction id="{id}" reversible="false"><listOfReactants>{refs}</listOfReactants>
+           <kineticLaw>{MATH}{law}</math>{locals}</kineticLaw></reaction>"#
+    )
+}
+
+#[test]
+fn a_mole_based_model_gets_its_compartment_as_the_volume() {
+    // 1 fL; A = 10 nM, B = 5 nM: Ω = N_A·1e-15 = 6.02214076e8 per mol/L, so A rounds to 6 and B
+    // to 3 molecules [C]. kon = 0.002 /nM/s = 2e6 /M/s by its unit; c = k/Ω for A + B [C].
+    let rest = format!(
+        r#"<listOfSpecies>{}{}</listOfSpecies>
+        <listOfParameters><parameter id="kon" value="0.002" units="per_nM_per_s" constant="true"/>
+          <parameter id="K" value="4" units="nM" constant="true"/></listOfParameters>
+        <listOfReactions>{}{}</listOfReactions>"#,
+        molar_species("A", 1e-8),
+        molar_species("B", 5e-9),
+        reaction(
+            "bind",
+            &["A", "B"],
+            "<apply><times/><ci>cell</ci><ci>kon</ci><ci>A</ci><ci>B</ci></apply>",
+            ""
+        ),
+        reaction(
+            "clear",
+            &["A"],
+            "<apply><divide/><apply><times/><ci>cell</ci><ci>k</ci><ci>K</ci><ci>A</ci></apply><apply><plus/><ci>K</ci><ci>A</ci></apply></apply>",
+            r#"<listOfLocalParameters><localParameter id="k" value="0.5" units="per_s"/></listOfLocalParameters>"#,
+        ),
+    );
+    let doc = molar("1e-15", &rest);
+    let net = sbml::load_source("m.xml", doc.as_bytes(), &Default::default()).unwrap();
+    assert_eq!(net.volume_l, Some(1e-15));
+    let omega = 6.022_140_76e8;
+    assert!((net.omega - omega).abs() < 1e-6);
+    assert_eq!(net.initial_state(), vec![6, 3]);
+    let bind = &net.reactions[0];
+    let c = bind.stochastic_constant().unwrap();
+    assert!((c - 2e6 / omega).abs() < 1e-15 * c, "{c}");
+    // clear: cell·k·K·A/(K + A) is not mass action; in mol/L/s it is (cell·k·K·A/(K + A))/cell,
+    // propensity Ω·k·K·[A]/(K + [A]) with [A] = 6/Ω, K = 4e-9 mol/L [C].
+    let a = net.propensities()[1].eval(&[6, 3]);
+    let want = omega * 0.5 * 4e-9 * (6.0 / omega) / (4e-9 + 6.0 / omega);
+    assert!((a - want).abs() < 1e-12 * want, "{a} vs {want}");
+}
+
+#[test]
+fn mole_based_models_the_network_cannot_hold_are_not_supported_yet() {
+    let law = "<apply><times/><ci>cell</ci><ci>k</ci><ci>A</ci></apply>";
+    let cases = [
+        // a parameter without units: the law's dimension cannot be checked
+        (
+            molar(
+                "1e-15",
+                &format!(
+                    r#"<listOfSpecies>{}</listOfSpecies><listOfParameters><parameter id="k" value="1" constant="true"/></listOfParameters><listOfReactions>{}</listOfReactions>"#,
+                    molar_species("A", 1e-8),
+                    reaction("r", &["A"], &law.replace("<ci>A</ci>", "<apply><power/><ci>A</ci><cn>2</cn></apply>"), "")
+                ),
+            ),
+            "mole-based model whose counts or units",
+        ),
+        // a litre of 1 M: 6e23 molecules, more than copyloop counts
+        (
+            molar("1", &format!("<listOfSpecies>{}</listOfSpecies>", molar_species("A", 1.0))),
+            "more than copyloop can count",
+        ),
+        // minutes
+        (
+            molar("1e-15", &format!("<listOfSpecies>{}</listOfSpecies>", molar_species("A", 1e-8)))
+                .replace(r#"timeUnits="second""#, r#"timeUnits="minute_u""#)
+                .replace("<listOfUnitDefinitions>", r#"<listOfUnitDefinitions><unitDefinition id="minute_u"><listOfUnits><unit kind="second" exponent="1" scale="0" multiplier="60"/></listOfUnits></unitDefinition>"#),
+            "is not the second",
+        ),
+        // two compartments
+        (
+            molar("1e-15", &format!("<listOfSpecies>{}</listOfSpecies>", molar_species("A", 1e-8)))
+                .replace("</listOfCompartments>", r#"<compartment id="out" spatialDimensions="3" size="1e-12" constant="true"/></listOfCompartments>"#),
+            "more than one compartment",
+        ),
+    ];
+    for (doc, part) in cases {
+        let (code, msg) = check_file(doc.as_bytes());
+        assert_eq!(code, Some(2), "{msg}");
+        assert!(
+            msg.contains("not supported yet") && msg.contains(part),
+            "{part}: {msg}"
+        );
+    }
+}
+
+#[test]
+fn numbers_with_units_are_read_in_their_units() {
+    // 0 -> A at cell · 2 nM/s (a cn with sbml:units): propensity Ω·2e-9 = 1.2044 /s [C].
+    let rest = format!(
+        r#"<listOfSpecies>{}</listOfSpecies><listOfReactions>
+        <reaction id="make" reversible="false"><listOfProducts><speciesReference species="A" stoichiometry="1" constant="true"/></listOfProducts>
+        <kineticLaw><math xmlns="http://www.w3.org/1998/Math/MathML" xmlns:sbml="http://www.sbml.org/sbml/level3/version2/core">
+          <apply><times/><ci>cell</ci><apply><times/><cn sbml:units="nM">2</cn><cn sbml:units="per_s">1</cn></apply></apply>
+        </math></kineticLaw></reaction></listOfReactions>"#,
+        molar_species("A", 0.0)
+    );
+    let doc = molar("1e-15", &rest);
+    let net = sbml::load_source("m.xml", doc.as_bytes(), &Default::default()).unwrap();
+    let a = net.propensities()[0].eval(&[0]);
+    assert!((a - 2e-9 * 6.022_140_76e8).abs() < 1e-12, "{a}");
+}
+
 // --- malformed files -----------------------------------------------------------------------
 
 /// `check` on `text` exits with 2, and its message holds each of `parts`.

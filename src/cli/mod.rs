@@ -5,6 +5,7 @@
 
 mod check;
 mod distribution;
+mod export;
 mod merge;
 mod noise;
 mod reconcile;
@@ -58,6 +59,9 @@ pub enum Command {
     /// Merge sweep shards into one sweep file, ordered by point
     #[command(after_help = CAUTION)]
     Merge(merge::MergeArgs),
+    /// Write the network as SBML Level 3 Version 2
+    #[command(after_help = CAUTION)]
+    Export(export::ExportArgs),
 }
 
 /// Runs one parsed command line.
@@ -77,6 +81,7 @@ pub fn run(cli: Cli) -> Result<()> {
         Command::Distribution(a) => distribution::run(&a),
         Command::Sweep(a) => sweep::run(a),
         Command::Merge(a) => merge::run(&a),
+        Command::Export(a) => export::run(&a),
     }
 }
 

@@ -9,16 +9,24 @@
 use super::error::{ErrorKind, SbmlError};
 use super::math::{Math, MathKind};
 use super::model::{FunctionDefinition, Model};
-use std::collections::HashMap;
+use std::collections::{HashMap, HashSet};
 
 /// Largest formula an expansion may produce.
 pub const MAX_NODES: usize = 1_000_000;
 
-/// Replaces every call of a function definition in the model's formulas by the expanded body.
-/// The definitions themselves are kept, with their bodies expanded.
-pub fn expand(model: &mut Model) -> Result<(), SbmlError> {
+/// Replaces every call of a function definition in the model's formulas by the expanded body,
+/// except, in kinetic laws, calls of the definitions in `keep` (functions the network evaluates
+/// itself; their arguments are expanded). The definitions themselves are kept, with their
+/// bodies expanded.
+pub fn expand(model: &mut Model, keep: &HashSet<String>) -> Result<(), SbmlError> {
     let defs = model.function_definitions.clone();
+    let laws: Vec<Option<Math>> = model
+        .reactions
+        .iter()
+        .map(|r| r.kinetic_law.as_ref().and_then(|k| k.math.clone()))
+        .collect();
     let mut ex = Expander {
+        keep: &HashSet::new(),
         index: defs
             .iter()
             .enumerate()
@@ -39,6 +47,17 @@ pub fn expand(model: &mut Model) -> Result<(), SbmlError> {
             *m = ex.expand(m)?;
         }
     }
+    if keep.is_empty() {
+        return Ok(());
+    }
+    ex.keep = keep;
+    for (r, law) in model.reactions.iter_mut().zip(laws) {
+        if let (Some(k), Some(law)) = (&mut r.kinetic_law, law) {
+            if has_call(&law) {
+                k.math = Some(ex.expand(&law)?);
+            }
+        }
+    }
     Ok(())
 }
 
@@ -50,6 +69,8 @@ fn has_call(m: &Math) -> bool {
 
 struct Expander<'d> {
     defs: &'d [FunctionDefinition],
+    /// Functions whose calls stay as they are.
+    keep: &'d HashSet<String>,
     index: HashMap<&'d str, usize>,
     /// Expanded bodies, filled on first use.
     bodies: Vec<Option<Math>>,
@@ -85,6 +106,9 @@ impl Expander<'_> {
 
     fn expand(&mut self, m: &Math) -> Result<Math, SbmlError> {
         let kind = match &m.kind {
+            MathKind::Call(name, args) if self.keep.contains(name) => {
+                MathKind::Call(name.clone(), self.all(args)?)
+            }
             MathKind::Call(name, args) => return self.call(m, name, args),
             MathKind::Apply(op, a) => MathKind::Apply(*op, self.all(a)?),
             MathKind::Piecewise { pieces, otherwise } => MathKind::Piecewise {
@@ -101,7 +125,7 @@ impl Expander<'_> {
                 MathKind::Delay(Box::new(self.expand(x)?), Box::new(self.expand(d)?))
             }
             MathKind::RateOf(x) => MathKind::RateOf(Box::new(self.expand(x)?)),
-            other => other.clone(),
+            _ => return Ok(m.clone()),
         };
         Ok(Math::new(kind, m.loc))
     }
@@ -201,7 +225,7 @@ fn substitute(body: &Math, params: &[String], args: &[Math]) -> Math {
             Box::new(substitute(d, params, args)),
         ),
         MathKind::RateOf(x) => MathKind::RateOf(Box::new(substitute(x, params, args))),
-        other => other.clone(),
+        _ => return body.clone(),
     };
     Math::new(kind, body.loc)
 }

@@ -2,31 +2,70 @@
 //!
 //! The model is written as the network compiler's own syntax tree and compiled by it, so an
 //! imported model is the same kind of network as a `.crn` file (sweeps and overrides address
-//! its parameters and species by SBML id). The network is in molecule counts without a volume:
-//! species amounts are counts, and a kinetic law — the reaction's rate in amount per time —
-//! evaluated on counts is the propensity, the convention of the discrete stochastic models test
-//! suite (Evans, Gillespie & Wilkinson 2008, Bioinformatics 24:285). A species whose symbol is
-//! a concentration is written as its count divided by its compartment's size, so the law keeps
-//! its meaning in both the stochastic and the deterministic reading.
+//! its parameters and species by SBML id). Two scales:
 //!
-//! Laws that are a constant times one count of each distinct reactant (`k·A·B`, `k·A`, `k`)
-//! become mass-action reactions with that constant as the stochastic constant; both readings are
-//! unchanged by this. Every other law stays a law. Boundary and constant species are clamped;
-//! a boundary species is not listed as a reactant of a law, so it never gates one.
+//! - **Counts**: substance units `item` or `dimensionless`. The network has no volume; amounts
+//!   are molecule counts and a kinetic law — the reaction's rate in amount per time — evaluated
+//!   on counts is the propensity, the convention of the discrete stochastic models test suite
+//!   (Evans, Gillespie & Wilkinson 2008, Bioinformatics 24:285). A species whose symbol is a
+//!   concentration is written as its count divided by its compartment's size.
+//! - **Volume**: substance unit `mole`, one compartment of V litres, time in seconds (every
+//!   unit exactly these). The network gets that volume, Ω = N_A·V, and the model's units are
+//!   copyloop's canonical ones: concentrations in mol/L, amounts in mol (a count is amount·N_A),
+//!   parameters converted by the units they declare. A law L in mol/s is the network law L/V in
+//!   mol/L/s, whose propensity is Ω·L/V = N_A·L: the same convention, amounts being counts/N_A.
+//!   A law written `V · E` (the compartment as a factor of the product) becomes E itself.
+//!
+//! Laws that are a constant times one of each distinct reactant (`k·A·B`, `k·A`, `k`) become
+//! mass-action reactions with that constant (the stochastic constant in counts, the macroscopic
+//! one in a volume); both readings are unchanged by this. Every other law stays a law (`k·A²`
+//! stays `k·A²`) — unless the reaction carries copyloop's own reading ([`Reading`], written by
+//! the exporter): then a law that is exactly the deterministic law of that reading's constant
+//! is compiled as copyloop's mass action with that constant (for `2 A → …`, propensity
+//! c·A(A−1)/2). A reading that does not match the law is ignored with a warning; a reaction
+//! marked `<copyloop:law/>` keeps its law as a law. Calls of a
+//! function definition that is one of the network language's own functions stay calls of it.
+//! Boundary and constant species are clamped; a boundary species is not listed as a reactant
+//! of a law, so it never gates one (except in a law step marked `<copyloop:law/>`, which
+//! copyloop gates by all its reactants, as it does its own law steps).
 //!
 //! What the network cannot hold yet is refused with [`ErrorKind::NotYet`]: rules, events,
-//! `time` in laws, non-integer amounts or stoichiometries, mole-based substance units,
-//! conversion factors, reversible reactions with a general law, and MathML operators beyond
-//! `+ − × ÷ ^ exp ln min max`.
+//! `time` in laws, non-integer amounts or stoichiometries in counts, other substance units,
+//! conversion factors, reversible reactions with a general law, MathML operators beyond
+//! `+ − × ÷ ^ exp ln min max`, and a volume-scale model whose units do not check.
 
+use super::builtins::{self, Builtin};
 use super::error::{ErrorKind, Loc, SbmlError};
 use super::initial::{initial_values, symbol_is_amount, InitialValues};
 use super::math::{Math, MathKind, Op, SBML_AVOGADRO};
-use super::model::{Document, Model, Reaction, Symbol};
-use crate::error::{Error, Span};
+use super::model::{Document, Model, Reaction, Reading, ReadingConstant, ReadingKind, Symbol};
+use super::monomial::{Factor, Monomial};
+use super::units;
+use crate::error::{Diagnostic, Error, Span};
 use crate::network::parser::{Ast, BinOp, Expr, Item, Literal, Name, Operand, Rate, Step, Term};
-use crate::network::{compile, Kinetics, Network, Overrides, Quantity};
+use crate::network::units::{macroscopic_constant, omega, stochastic_constant};
+use crate::network::{compile, Dim, Kinetics, Network, Overrides, Quantity};
 use std::collections::HashMap;
+
+/// The scale an SBML model is read at.
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub enum Scale {
+    /// Amounts are molecule counts; no volume.
+    Counts,
+    /// Amounts in mol, in the one compartment (by index) of `litres` L.
+    Volume { compartment: usize, litres: f64 },
+}
+
+/// The syntax tree of a model and what goes with it.
+#[derive(Clone, Debug)]
+pub struct Mapped {
+    pub ast: Ast,
+    pub scale: Scale,
+    /// Each law's formula as copyloop reads it, by reaction id, for display.
+    pub shown: HashMap<String, String>,
+    /// Readings that were ignored, and the like.
+    pub warnings: Vec<SbmlError>,
+}
 
 /// Compiles `doc` (read from `file`, whose text is `text`) with `overrides`.
 pub fn network(
@@ -36,28 +75,32 @@ pub fn network(
     overrides: &Overrides,
 ) -> Result<Network, Error> {
     let diag = |e: SbmlError| Error::Input(vec![e.diagnostic(file, text)]);
-    let ast = ast(file, text, doc).map_err(diag)?;
-    let mut net = compile(&ast, overrides).map_err(Error::Input)?;
-    // Show each law as the SBML formula it came from.
-    let shown: HashMap<&str, String> = doc
-        .model
-        .reactions
-        .iter()
-        .filter_map(|r| {
-            Some((
-                r.id.as_str(),
-                r.kinetic_law.as_ref()?.math.as_ref()?.to_string(),
-            ))
-        })
-        .collect();
+    let mapped = ast(file, text, doc).map_err(diag)?;
+    let mut net = compile(&mapped.ast, overrides).map_err(|d| match mapped.scale {
+        Scale::Counts => Error::Input(d),
+        Scale::Volume { .. } => Error::Input(d.into_iter().map(units_not_yet).collect()),
+    })?;
     for r in &mut net.reactions {
         if let Kinetics::Law { law, .. } = &mut r.kinetics {
-            if let Some(t) = shown.get(r.label.as_str()) {
+            if let Some(t) = mapped.shown.get(r.label.as_str()) {
                 law.text = t.clone();
             }
         }
     }
+    net.warnings
+        .extend(mapped.warnings.iter().map(|w| w.diagnostic(file, text)));
     Ok(net)
+}
+
+/// A compile error of a volume-scale model: its units do not check in the network compiler,
+/// which reads such models with their declared units until the network extension reads laws
+/// without dimensions.
+fn units_not_yet(mut d: Diagnostic) -> Diagnostic {
+    d.message = format!(
+        "not supported yet: a mole-based model whose counts or units the network cannot hold yet (it reads such a model in molecule counts, with the units the model declares; the rest arrives with the network extension): {}",
+        d.message
+    );
+    d
 }
 
 fn not_yet(element: &str, id: Option<&str>, loc: Loc, message: impl Into<String>) -> SbmlError {
@@ -95,6 +138,15 @@ fn bare(value: f64, loc: Loc) -> Literal {
     }
 }
 
+fn literal(q: Quantity, unit_factor: f64, loc: Loc) -> Literal {
+    Literal {
+        quantity: q,
+        bare: false,
+        unit_factor,
+        span: span(loc),
+    }
+}
+
 fn name(text: &str, loc: Loc) -> Name {
     Name {
         text: text.to_string(),
@@ -103,11 +155,24 @@ fn name(text: &str, loc: Loc) -> Name {
 }
 
 /// The network compiler's syntax tree for the model.
-pub fn ast(file: &str, text: &str, doc: &Document) -> Result<Ast, SbmlError> {
+pub fn ast(file: &str, text: &str, doc: &Document) -> Result<Mapped, SbmlError> {
     let m = &doc.model;
     supported(doc)?;
     let values = initial_values(m)?;
+    let scale = scale(doc, &values)?;
     let mut items = Vec::new();
+    if let Scale::Volume {
+        compartment,
+        litres,
+    } = scale
+    {
+        let c = &m.compartments[compartment];
+        items.push(Item::Volume(literal(
+            Quantity::new(litres, Dim::VOLUME),
+            1.0,
+            c.loc,
+        )));
+    }
     for (i, s) in m.species.iter().enumerate() {
         let Some(amount) = values.species[i] else {
             return Err(invalid(
@@ -125,48 +190,88 @@ pub fn ast(file: &str, text: &str, doc: &Document) -> Result<Ast, SbmlError> {
                 format!("the initial amount {amount} is not a finite number of at least 0"),
             ));
         }
-        if amount.fract() != 0.0 {
-            return Err(not_yet(
-                "species",
-                Some(&s.id),
-                s.loc,
-                format!("the initial amount {amount} is not a whole number of molecules (real-valued amounts arrive with the network extension)"),
-            ));
-        }
+        let amount = match scale {
+            Scale::Counts if amount.fract() != 0.0 => {
+                return Err(not_yet(
+                    "species",
+                    Some(&s.id),
+                    s.loc,
+                    format!("the initial amount {amount} is not a whole number of molecules (real-valued amounts arrive with the network extension)"),
+                ));
+            }
+            Scale::Counts => bare(amount, s.loc),
+            // mol in V litres: a concentration in mol/L, rounded to whole molecules by the
+            // compiler.
+            Scale::Volume { litres, .. } => {
+                literal(Quantity::new(amount / litres, Dim::CONC), 1.0, s.loc)
+            }
+        };
         items.push(Item::Species {
             name: name(&s.id, s.loc),
-            amount: bare(amount, s.loc),
+            amount,
             clamped: s.boundary_condition || s.constant,
         });
     }
+    let mut param_dims = vec![Dim::NONE; m.parameters.len()];
     for (i, p) in m.parameters.iter().enumerate() {
-        if let Some(v) = values.parameters[i] {
-            if !v.is_finite() {
-                return Err(not_yet(
-                    "parameter",
-                    Some(&p.id),
-                    p.loc,
-                    format!("the value {v} is not a finite number"),
-                ));
-            }
-            items.push(Item::Param {
-                name: name(&p.id, p.loc),
-                value: bare(v, p.loc),
-            });
+        let Some(v) = values.parameters[i] else {
+            continue;
+        };
+        if !v.is_finite() {
+            return Err(not_yet(
+                "parameter",
+                Some(&p.id),
+                p.loc,
+                format!("the value {v} is not a finite number"),
+            ));
         }
+        let value = match (scale, &p.units) {
+            (Scale::Volume { .. }, Some(u)) => {
+                let (dim, f) = units::canonical(m, doc.level, u)
+                    .map_err(|e| not_yet("parameter", Some(&p.id), p.loc, e))?;
+                param_dims[i] = dim;
+                if dim.is_none() && f == 1.0 {
+                    // A pure number, as a bare number of the network language is.
+                    bare(v, p.loc)
+                } else {
+                    literal(Quantity::new(v * f, dim), f, p.loc)
+                }
+            }
+            _ => bare(v, p.loc),
+        };
+        items.push(Item::Param {
+            name: name(&p.id, p.loc),
+            value,
+        });
     }
     let cx = Context {
         m,
+        level: doc.level,
         values: &values,
         symbols: m.symbols(),
+        scale,
+        param_dims,
+        builtins: builtins::recognised(m),
     };
+    let mut shown = HashMap::new();
+    let mut warnings = Vec::new();
     for (j, r) in m.reactions.iter().enumerate() {
-        items.push(Item::Step(cx.step(j, r)?));
+        let (step, text, warning) = cx.step(j, r)?;
+        if let Some(t) = text {
+            shown.insert(r.id.clone(), t);
+        }
+        warnings.extend(warning);
+        items.push(Item::Step(step));
     }
-    Ok(Ast {
-        file: file.to_string(),
-        source: text.to_string(),
-        items,
+    Ok(Mapped {
+        ast: Ast {
+            file: file.to_string(),
+            source: text.to_string(),
+            items,
+        },
+        scale,
+        shown,
+        warnings,
     })
 }
 
@@ -210,45 +315,132 @@ fn supported(doc: &Document) -> Result<(), SbmlError> {
                 format!("the conversion factor `{cf}`"),
             ));
         }
-        if !substance_is_items(m, doc.level, s.substance_units.as_deref()) {
-            return Err(not_yet(
-                "species",
-                Some(&s.id),
-                s.loc,
-                "substance units that are not items or dimensionless, or not declared (mole-based amounts are converted with the network extension)",
-            ));
-        }
     }
     Ok(())
 }
 
-/// Whether the substance unit of a species (its own, else the model's, else Level 2's default
-/// `substance`, which is mole unless the model redefines it) counts items. A Level 3 model that
-/// declares no substance unit has amounts of no known unit, which are not read as counts.
-fn substance_is_items(m: &Model, level: u32, own: Option<&str>) -> bool {
+/// What a species' substance unit counts.
+enum Substance {
+    Items,
+    Mole,
+    Other,
+    /// A Level 3 model that declares none.
+    Undeclared,
+}
+
+/// The substance unit of species `own` (its own, else the model's, else Level 2's default
+/// `substance`, which is mole unless the model redefines it). A Level 3 model that declares no
+/// substance unit has amounts of no known unit.
+fn substance(m: &Model, level: u32, own: Option<&str>) -> Substance {
     let default = (level == 2).then_some("substance");
     let Some(unit) = own.or(m.substance_units.as_deref()).or(default) else {
-        return false;
+        return Substance::Undeclared;
     };
-    if let Some(d) = m.unit_definitions.iter().find(|d| d.id == unit) {
-        return matches!(d.units.as_slice(), [u] if (u.kind == "item" || u.kind == "dimensionless")
-            && u.exponent == 1.0 && u.multiplier * 10f64.powi(u.scale) == 1.0);
+    match units::canonical(m, level, unit) {
+        Ok((d, f)) if (d == Dim::COUNT || d.is_none()) && f == 1.0 => Substance::Items,
+        Ok((d, f)) if d == Dim::CONC.times(Dim::VOLUME) && f == 1.0 => Substance::Mole,
+        _ => Substance::Other,
     }
-    matches!(unit, "item" | "dimensionless")
+}
+
+/// The scale of the model (see the module docs).
+fn scale(doc: &Document, values: &InitialValues) -> Result<Scale, SbmlError> {
+    let m = &doc.model;
+    let level = doc.level;
+    let kinds: Vec<Substance> = m
+        .species
+        .iter()
+        .map(|s| substance(m, level, s.substance_units.as_deref()))
+        .collect();
+    let other = |s: &super::model::Species, why: &str| {
+        not_yet("species", Some(&s.id), s.loc, why.to_string())
+    };
+    const UNITS: &str = "substance units that are not items, dimensionless or mole (other amounts are converted with the network extension)";
+    const UNDECLARED: &str = "amounts of no declared substance unit (Level 3 has no default; they are read with the network extension)";
+    if let Some(k) = kinds.iter().position(|k| matches!(k, Substance::Other)) {
+        return Err(other(&m.species[k], UNITS));
+    }
+    if let Some(k) = kinds
+        .iter()
+        .position(|k| matches!(k, Substance::Undeclared))
+    {
+        return Err(other(&m.species[k], UNDECLARED));
+    }
+    let Some(k) = kinds.iter().position(|k| matches!(k, Substance::Mole)) else {
+        return Ok(Scale::Counts);
+    };
+    if let Some(j) = kinds.iter().position(|k| matches!(k, Substance::Items)) {
+        return Err(other(
+            &m.species[j.max(k)],
+            "species counted in items beside species in mole (mixed substance units arrive with the network extension)",
+        ));
+    }
+    let [c] = m.compartments.as_slice() else {
+        return Err(other(
+            &m.species[k],
+            "mole-based amounts in more than one compartment (they arrive with the network extension)",
+        ));
+    };
+    let c_err = |why: String| not_yet("compartment", Some(&c.id), c.loc, why);
+    if c.spatial_dimensions != Some(3.0) {
+        return Err(c_err(
+            "mole-based amounts in a compartment whose spatialDimensions is not 3 (other compartments arrive with the network extension)".into(),
+        ));
+    }
+    let default = (level == 2).then_some("volume");
+    let Some(unit) = c.units.as_deref().or(m.volume_units.as_deref()).or(default) else {
+        return Err(c_err(
+            "the compartment's volume unit is not declared".into(),
+        ));
+    };
+    match units::canonical(m, level, unit) {
+        Ok((d, f)) if d == Dim::VOLUME && f == 1.0 => {}
+        _ => return Err(c_err(format!("the volume unit `{unit}` is not the litre"))),
+    }
+    if level == 3 {
+        if let Some(t) = &m.time_units {
+            match units::canonical(m, level, t) {
+                Ok((d, f)) if d == Dim::TIME && f == 1.0 => {}
+                _ => {
+                    return Err(not_yet(
+                        "model",
+                        m.id.as_deref(),
+                        m.loc,
+                        format!("the time unit `{t}` is not the second"),
+                    ))
+                }
+            }
+        }
+    }
+    match values.compartments[0] {
+        Some(v) if v > 0.0 && v.is_finite() => Ok(Scale::Volume {
+            compartment: 0,
+            litres: v,
+        }),
+        _ => Err(c_err("the compartment has no positive, finite size".into())),
+    }
 }
 
 struct Context<'m> {
     m: &'m Model,
+    level: u32,
     values: &'m InitialValues,
     symbols: HashMap<&'m str, Symbol>,
+    scale: Scale,
+    /// Each global parameter's dimension as the syntax tree gives it.
+    param_dims: Vec<Dim>,
+    builtins: HashMap<String, Builtin>,
 }
 
-/// A law in monomial form: factor · Π params^power · Π species, each species once.
-struct Monomial {
-    factor: f64,
-    params: Vec<(usize, i32)>,
-    species: Vec<usize>,
+/// A kinetic law's local parameter: its value in canonical units, with its dimension when it
+/// declares a unit in a volume-scale model.
+#[derive(Clone, Copy)]
+struct Local {
+    value: Option<Quantity>,
+    loc: Loc,
 }
+
+type Locals<'a> = HashMap<&'a str, Local>;
 
 impl Context<'_> {
     fn species_index(&self, id: &str) -> usize {
@@ -269,6 +461,13 @@ impl Context<'_> {
                 .events
                 .iter()
                 .any(|e| e.assignments.iter().any(|a| a.variable == id))
+    }
+
+    fn volume(&self) -> Option<f64> {
+        match self.scale {
+            Scale::Counts => None,
+            Scale::Volume { litres, .. } => Some(litres),
+        }
     }
 
     /// One side of a reaction: (species, whole stoichiometry) in file order.
@@ -319,7 +518,29 @@ impl Context<'_> {
         Ok(out)
     }
 
-    fn step(&self, j: usize, r: &Reaction) -> Result<Step, SbmlError> {
+    fn locals<'r>(&self, r: &'r Reaction) -> Result<Locals<'r>, SbmlError> {
+        let mut out = HashMap::new();
+        for p in r.kinetic_law.iter().flat_map(|k| &k.local_parameters) {
+            let value = match (self.scale, p.value, &p.units) {
+                (_, None, _) => None,
+                (Scale::Volume { .. }, Some(v), Some(u)) => {
+                    let (dim, f) = units::canonical(self.m, self.level, u)
+                        .map_err(|e| not_yet("localParameter", Some(&p.id), p.loc, e))?;
+                    Some(Quantity::new(v * f, dim))
+                }
+                (_, Some(v), _) => Some(Quantity::bare(v)),
+            };
+            out.insert(p.id.as_str(), Local { value, loc: p.loc });
+        }
+        Ok(out)
+    }
+
+    /// Returns the step, the law's formula for display (law steps), and a warning.
+    fn step(
+        &self,
+        j: usize,
+        r: &Reaction,
+    ) -> Result<(Step, Option<String>, Option<SbmlError>), SbmlError> {
         let law = r
             .kinetic_law
             .as_ref()
@@ -332,12 +553,7 @@ impl Context<'_> {
                     "the reaction has no kinetic law, so its rate is undefined",
                 )
             })?;
-        let locals: HashMap<&str, (Option<f64>, Loc)> = r
-            .kinetic_law
-            .iter()
-            .flat_map(|k| &k.local_parameters)
-            .map(|p| (p.id.as_str(), (p.value, p.loc)))
-            .collect();
+        let locals = self.locals(r)?;
         let reactants = self.side(j, r, false)?;
         let products = self.side(j, r, true)?;
         let term = |&(i, n, loc): &(usize, u32, Loc)| Term {
@@ -345,29 +561,36 @@ impl Context<'_> {
             species: name(&self.m.species[i].id, loc),
             span: span(loc),
         };
-        let mass = self.monomial(law, &locals)?.filter(|mo| {
-            let mut want: Vec<usize> = reactants.iter().filter(|e| e.1 == 1).map(|e| e.0).collect();
-            let mut got = mo.species.clone();
-            want.sort_unstable();
-            got.sort_unstable();
-            reactants.iter().all(|e| e.1 == 1)
-                && want == got
-                && mo.factor >= 0.0
-                && mo.factor.is_finite()
-        });
-        let forward = match mass {
-            Some(Monomial { factor, params, .. }) if params.is_empty() => {
-                Rate::Constant(Operand::Literal(bare(factor, law.loc)))
-            }
-            Some(Monomial { factor, params, .. })
-                if factor == 1.0 && params.len() == 1 && params[0].1 == 1 =>
-            {
-                Rate::Constant(Operand::Param(name(
-                    &self.m.parameters[params[0].0].id,
-                    law.loc,
-                )))
-            }
-            _ => {
+        let coeffs: Vec<(usize, u32)> = reactants.iter().map(|e| (e.0, e.1)).collect();
+        let mono = Monomial::of(law, &|x| self.factor(x, &locals));
+        let mut warning = None;
+        let from_reading = match &r.reading {
+            None => None,
+            Some(reading) => match self.reading_rate(reading, mono.as_ref(), &coeffs, law.loc) {
+                Ok(rate) => Some(rate),
+                Err(why) => {
+                    warning = Some(SbmlError::new(
+                        ErrorKind::Ignored {
+                            message: format!(
+                                "copyloop's reading of this reaction is ignored and its law read as written: {why}"
+                            ),
+                        },
+                        "massAction",
+                        Some(&r.id),
+                        reading.loc,
+                    ));
+                    None
+                }
+            },
+        };
+        let standard = || {
+            (!r.keeps_law)
+                .then(|| self.mass_action(mono.as_ref(), &coeffs, law.loc))
+                .flatten()
+        };
+        let forward = match from_reading.or_else(standard) {
+            Some(rate) => rate,
+            None => {
                 if r.reversible {
                     return Err(not_yet(
                         "reaction",
@@ -376,29 +599,298 @@ impl Context<'_> {
                         "a reversible reaction whose law is not mass action (its net rate needs the deterministic reading)",
                     ));
                 }
-                Rate::Law(self.expr(law, &locals, &r.id)?)
+                Rate::Law(self.law(law, &locals, &r.id)?)
             }
         };
         // A boundary species is never consumed; leaving it out of a law's reactants keeps it from
-        // gating the law.
+        // gating the law (except in copyloop's own law steps, gated by every listed reactant).
         let is_law = matches!(forward, Rate::Law(_));
-        let shown: Vec<Term> = reactants
+        let shown_terms: Vec<Term> = reactants
             .iter()
-            .filter(|e| !(is_law && self.m.species[e.0].boundary_condition))
+            .filter(|e| r.keeps_law || !(is_law && self.m.species[e.0].boundary_condition))
             .map(term)
             .collect();
-        Ok(Step {
-            label: name(&r.id, r.loc),
-            reactants: shown,
-            products: products.iter().map(term).collect(),
-            reversible: false,
-            forward,
-            reverse: None,
-            span: span(r.loc),
+        let text = is_law.then(|| self.shown(law));
+        Ok((
+            Step {
+                label: name(&r.id, r.loc),
+                reactants: shown_terms,
+                products: products.iter().map(term).collect(),
+                reversible: false,
+                forward,
+                reverse: None,
+                span: span(r.loc),
+            },
+            text,
+            warning,
+        ))
+    }
+
+    /// What a leaf of a law is, as a factor of a monomial, in the scale's units.
+    fn factor(&self, m: &Math, locals: &Locals) -> Option<Factor> {
+        match &m.kind {
+            MathKind::Number(v) => Some(Factor::Number(self.number(*v, m)?.value)),
+            MathKind::Avogadro => Some(Factor::Number(SBML_AVOGADRO)),
+            MathKind::Ident(id) => {
+                if let Some(l) = locals.get(id.as_str()) {
+                    return l.value.map(|q| Factor::Number(q.value));
+                }
+                match self.symbols.get(id.as_str())? {
+                    Symbol::Compartment(k) => Some(Factor::Compartment(*k)),
+                    Symbol::Parameter(p) => Some(Factor::Parameter(*p)),
+                    Symbol::Species(i) => Some(Factor::Species(*i)),
+                    _ => None,
+                }
+            }
+            _ => None,
+        }
+    }
+
+    /// A `cn`'s value in the scale's units (with its unit's dimension in a volume).
+    fn number(&self, v: f64, m: &Math) -> Option<Quantity> {
+        match (self.scale, &m.units) {
+            (Scale::Volume { .. }, Some(u)) => units::canonical(self.m, self.level, u)
+                .ok()
+                .map(|(d, f)| Quantity::new(v * f, d)),
+            _ => Some(Quantity::bare(v)),
+        }
+    }
+
+    /// The constant of a monomial law as a deterministic rate constant: per volume, in mol/L
+    /// and seconds, at the volume scale (law/V); in counts and seconds at the counts scale
+    /// (species read as concentrations divided by their compartment's size).
+    fn constant(&self, mono: &Monomial) -> Option<f64> {
+        let mut k = mono.number;
+        for &(p, e) in &mono.parameters {
+            k *= self.param_value(p)?.powi(e);
+        }
+        match self.scale {
+            Scale::Counts => {
+                for &(c, e) in &mono.compartments {
+                    k *= self.values.compartments[c]?.powi(e);
+                }
+                for &(i, e) in &mono.species {
+                    if !symbol_is_amount(self.m, i) {
+                        let c = self
+                            .m
+                            .compartments
+                            .iter()
+                            .position(|c| c.id == self.m.species[i].compartment)?;
+                        k *= (1.0 / self.values.compartments[c]?).powi(e);
+                    }
+                }
+            }
+            Scale::Volume { litres, .. } => {
+                // The one compartment's power: its own, one per amount-read species factor,
+                // and −1 for the division by V.
+                let amounts: i32 = mono
+                    .species
+                    .iter()
+                    .filter(|e| symbol_is_amount(self.m, e.0))
+                    .map(|e| e.1)
+                    .sum();
+                let v_power = mono.compartments.iter().map(|c| c.1).sum::<i32>() + amounts - 1;
+                if v_power != 0 {
+                    k *= litres.powi(v_power);
+                }
+            }
+        }
+        Some(k)
+    }
+
+    /// A global parameter's value in canonical units at the volume scale.
+    fn param_value(&self, p: usize) -> Option<f64> {
+        let v = self.values.parameters[p]?;
+        match (&self.m.parameters[p].units, self.scale) {
+            (Some(u), Scale::Volume { .. }) => units::canonical(self.m, self.level, u)
+                .ok()
+                .map(|(_, f)| v * f),
+            _ => Some(v),
+        }
+    }
+
+    /// Mass action read from a law that is a constant times one of each distinct reactant.
+    fn mass_action(
+        &self,
+        mono: Option<&Monomial>,
+        coeffs: &[(usize, u32)],
+        loc: Loc,
+    ) -> Option<Rate> {
+        let mono = mono?;
+        if !coeffs.iter().all(|e| e.1 == 1) {
+            return None;
+        }
+        let mut want: Vec<(usize, i32)> = coeffs.iter().map(|e| (e.0, 1)).collect();
+        let mut got = mono.species.clone();
+        want.sort_unstable();
+        got.sort_unstable();
+        if want != got {
+            return None;
+        }
+        let k = self.constant(mono)?;
+        if !(k >= 0.0 && k.is_finite()) {
+            return None;
+        }
+        let order = coeffs.len() as u32;
+        let molar = Dim::mass_action_molar(order);
+        // k is the one parameter itself: the law is that parameter times the reactants.
+        let rest = Monomial {
+            parameters: Vec::new(),
+            ..mono.clone()
+        };
+        if let [(p, 1)] = mono.parameters.as_slice() {
+            let fits = match self.scale {
+                Scale::Counts => true,
+                Scale::Volume { .. } => self.param_dims[*p] == molar,
+            };
+            if fits && self.constant(&rest) == Some(1.0) {
+                return Some(Rate::Constant(Operand::Param(name(
+                    &self.m.parameters[*p].id,
+                    loc,
+                ))));
+            }
+        }
+        if !mono.parameters.is_empty() {
+            return None;
+        }
+        Some(Rate::Constant(Operand::Literal(match self.scale {
+            Scale::Counts => bare(k, loc),
+            Scale::Volume { .. } => literal(Quantity::new(k, molar), 1.0, loc),
+        })))
+    }
+
+    /// The mass-action rate copyloop's reading names, if the law is its deterministic law.
+    fn reading_rate(
+        &self,
+        reading: &Reading,
+        mono: Option<&Monomial>,
+        coeffs: &[(usize, u32)],
+        loc: Loc,
+    ) -> Result<Rate, String> {
+        let mono = mono.ok_or("the law is not a constant times its reactants")?;
+        let mut want: Vec<(usize, i32)> = coeffs.iter().map(|e| (e.0, e.1 as i32)).collect();
+        let mut got = mono.species.clone();
+        want.sort_unstable();
+        got.sort_unstable();
+        if want != got {
+            return Err("the law's species and powers are not the reaction's reactants".into());
+        }
+        let nu: Vec<u32> = coeffs.iter().map(|e| e.1).collect();
+        let order: u32 = nu.iter().sum();
+        let k_law = self
+            .constant(mono)
+            .ok_or("the law's constant has no value")?;
+        let om = self.volume().map_or(1.0, omega);
+        let (value, operand_dim, p) = match &reading.constant {
+            ReadingConstant::Value(v) => (*v, None, None),
+            ReadingConstant::Parameter(id) => match self.symbols.get(id.as_str()) {
+                Some(Symbol::Parameter(p)) => (
+                    self.param_value(*p)
+                        .ok_or(format!("parameter `{id}` has no value"))?,
+                    Some(self.param_dims[*p]),
+                    Some(id.as_str()),
+                ),
+                _ => return Err(format!("`{id}` is not a global parameter")),
+            },
+        };
+        let k_reading = match reading.kind {
+            ReadingKind::Macroscopic => value,
+            ReadingKind::Stochastic => macroscopic_constant(value, &nu, om),
+        };
+        if !(k_reading >= 0.0 && k_reading.is_finite()) {
+            return Err(format!("the constant {value} is not finite and at least 0"));
+        }
+        if (k_law - k_reading).abs() > 1e-12 * k_reading.abs() {
+            return Err(format!(
+                "the law's rate constant {k_law} is not the reading's {k_reading}"
+            ));
+        }
+        let molar = Dim::mass_action_molar(order);
+        let count = Dim::mass_action_count(order);
+        let unit_free = stochastic_constant(1.0, &nu, 1.0) == 1.0;
+        match (self.scale, reading.kind, operand_dim, p) {
+            (Scale::Volume { .. }, ReadingKind::Macroscopic, Some(d), Some(id)) if d == molar => {
+                Ok(Rate::Constant(Operand::Param(name(id, loc))))
+            }
+            (Scale::Volume { .. }, ReadingKind::Stochastic, Some(d), Some(id))
+                if d.is_none() || d == count =>
+            {
+                Ok(Rate::Constant(Operand::Param(name(id, loc))))
+            }
+            (Scale::Counts, ReadingKind::Stochastic, Some(_), Some(id)) => {
+                Ok(Rate::Constant(Operand::Param(name(id, loc))))
+            }
+            (Scale::Counts, ReadingKind::Macroscopic, Some(_), Some(id)) if unit_free => {
+                Ok(Rate::Constant(Operand::Param(name(id, loc))))
+            }
+            (_, _, Some(_), Some(id)) => Err(format!(
+                "parameter `{id}`'s unit is not that of a {} constant of order {order}",
+                reading.kind.name()
+            )),
+            (Scale::Volume { .. }, ReadingKind::Macroscopic, ..) => Ok(Rate::Constant(
+                Operand::Literal(literal(Quantity::new(value, molar), 1.0, loc)),
+            )),
+            (Scale::Counts, ReadingKind::Macroscopic, ..) => Ok(Rate::Constant(Operand::Literal(
+                bare(stochastic_constant(value, &nu, 1.0), loc),
+            ))),
+            (_, ReadingKind::Stochastic, ..) => {
+                Ok(Rate::Constant(Operand::Literal(bare(value, loc))))
+            }
+        }
+    }
+
+    /// The law as a rate per volume: at the volume scale, `V · E` gives E, any other law L
+    /// gives L / V (`false`: the division is still to be made); at the counts scale the law.
+    fn per_volume<'l>(&self, law: &'l Math) -> (&'l Math, bool) {
+        let Scale::Volume { compartment, .. } = self.scale else {
+            return (law, true);
+        };
+        let c = &self.m.compartments[compartment].id;
+        if let MathKind::Apply(Op::Times, args) = &law.kind {
+            let is_c = |a: &Math| matches!(&a.kind, MathKind::Ident(x) if x == c);
+            if let [a, b] = args.as_slice() {
+                if is_c(a) && !is_c(b) {
+                    return (b, true);
+                }
+            }
+        }
+        (law, false)
+    }
+
+    /// The law's formula as the network reads it (per volume at the volume scale).
+    fn shown(&self, law: &Math) -> String {
+        match (self.per_volume(law), self.scale) {
+            ((body, true), _) => body.to_string(),
+            ((body, false), Scale::Volume { compartment, .. }) => {
+                let c = &self.m.compartments[compartment].id;
+                let v = Math::new(MathKind::Ident(c.clone()), law.loc);
+                Math::new(MathKind::Apply(Op::Divide, vec![body.clone(), v]), law.loc).to_string()
+            }
+            ((body, false), Scale::Counts) => body.to_string(),
+        }
+    }
+
+    /// The law as the network compiler's expression (per volume at the volume scale).
+    fn law(&self, law: &Math, locals: &Locals, owner: &str) -> Result<Expr, SbmlError> {
+        let (body, divided) = self.per_volume(law);
+        let e = self.expr(body, locals, owner)?;
+        Ok(match (divided, self.volume()) {
+            (false, Some(v)) => Expr::Binary(
+                BinOp::Div,
+                Box::new(e),
+                Box::new(Expr::Number(literal(
+                    Quantity::new(v, Dim::VOLUME),
+                    1.0,
+                    law.loc,
+                ))),
+                span(law.loc),
+            ),
+            _ => e,
         })
     }
 
-    /// The size of a species' compartment, when its symbol is a concentration.
+    /// The size of a species' compartment at the counts scale, when its symbol is a
+    /// concentration.
     fn divisor(&self, i: usize, loc: Loc) -> Result<Option<f64>, SbmlError> {
         if symbol_is_amount(self.m, i) {
             return Ok(None);
@@ -424,107 +916,30 @@ impl Context<'_> {
         }
     }
 
-    /// The law as a monomial in the species counts, if it is one.
-    fn monomial(
-        &self,
-        m: &Math,
-        locals: &HashMap<&str, (Option<f64>, Loc)>,
-    ) -> Result<Option<Monomial>, SbmlError> {
-        let one = || Monomial {
-            factor: 1.0,
-            params: Vec::new(),
-            species: Vec::new(),
-        };
-        let times = |mut a: Monomial, b: Monomial| {
-            a.factor *= b.factor;
-            for (p, k) in b.params {
-                match a.params.iter_mut().find(|e| e.0 == p) {
-                    Some(e) => e.1 += k,
-                    None => a.params.push((p, k)),
-                }
-            }
-            a.params.retain(|e| e.1 != 0);
-            a.species.extend(b.species);
-            a
-        };
-        Ok(Some(match &m.kind {
-            MathKind::Number(v) => Monomial {
-                factor: *v,
-                ..one()
-            },
-            MathKind::Avogadro => Monomial {
-                factor: SBML_AVOGADRO,
-                ..one()
-            },
-            MathKind::Ident(id) => {
-                if let Some((v, _)) = locals.get(id.as_str()) {
-                    return Ok(v.map(|v| Monomial { factor: v, ..one() }));
-                }
-                match self.symbols.get(id.as_str()) {
-                    Some(Symbol::Compartment(k)) => match self.values.compartments[*k] {
-                        Some(v) => Monomial { factor: v, ..one() },
-                        None => return Ok(None),
-                    },
-                    Some(Symbol::Parameter(p)) => Monomial {
-                        params: vec![(*p, 1)],
-                        ..one()
-                    },
-                    Some(Symbol::Species(i)) => {
-                        let d = self.divisor(*i, m.loc)?;
-                        Monomial {
-                            factor: d.map_or(1.0, |v| 1.0 / v),
-                            species: vec![*i],
-                            ..one()
-                        }
-                    }
-                    _ => return Ok(None),
-                }
-            }
-            MathKind::Apply(Op::Times, args) => {
-                let mut acc = one();
-                for a in args {
-                    match self.monomial(a, locals)? {
-                        Some(x) => acc = times(acc, x),
-                        None => return Ok(None),
-                    }
-                }
-                acc
-            }
-            MathKind::Apply(Op::Divide, args) => {
-                let (Some(a), Some(b)) = (
-                    self.monomial(&args[0], locals)?,
-                    self.monomial(&args[1], locals)?,
-                ) else {
-                    return Ok(None);
-                };
-                if !b.species.is_empty() || b.factor == 0.0 {
-                    return Ok(None);
-                }
-                let inv = Monomial {
-                    factor: 1.0 / b.factor,
-                    params: b.params.iter().map(|&(p, k)| (p, -k)).collect(),
-                    species: Vec::new(),
-                };
-                times(a, inv)
-            }
-            _ => return Ok(None),
-        }))
-    }
-
-    /// The law as the network compiler's expression.
-    fn expr(
-        &self,
-        m: &Math,
-        locals: &HashMap<&str, (Option<f64>, Loc)>,
-        owner: &str,
-    ) -> Result<Expr, SbmlError> {
+    /// A formula as the network compiler's expression.
+    fn expr(&self, m: &Math, locals: &Locals, owner: &str) -> Result<Expr, SbmlError> {
         let s = span(m.loc);
         let num = |v: f64| Expr::Number(bare(v, m.loc));
+        let quantity = |q: Quantity| {
+            if q.dim.is_none() {
+                num(q.value)
+            } else {
+                Expr::Number(literal(q, 1.0, m.loc))
+            }
+        };
         let bin = |op: BinOp, a: Expr, b: Expr| Expr::Binary(op, Box::new(a), Box::new(b), s);
         let call = |f: &str, a: Vec<Expr>| Expr::Call(name(f, m.loc), a, s);
         let unsupported = |what: String| Err(not_yet(element_of(m), Some(owner), m.loc, what));
         Ok(match &m.kind {
-            MathKind::Number(v) => num(*v),
+            MathKind::Number(v) => match self.number(*v, m) {
+                Some(q) => quantity(q),
+                None => {
+                    return unsupported(format!(
+                        "the unit `{}` of this number",
+                        m.units.as_deref().unwrap_or("")
+                    ))
+                }
+            },
             MathKind::Boolean(_) => return unsupported("truth values in a kinetic law".into()),
             MathKind::Avogadro => num(SBML_AVOGADRO),
             MathKind::Time => {
@@ -533,29 +948,34 @@ impl Context<'_> {
                 )
             }
             MathKind::Ident(id) => {
-                if let Some((v, loc)) = locals.get(id.as_str()) {
-                    return match v {
-                        Some(v) => Ok(num(*v)),
+                if let Some(l) = locals.get(id.as_str()) {
+                    return match l.value {
+                        Some(q) => Ok(quantity(q)),
                         None => Err(invalid(
                             "localParameter",
                             Some(id),
-                            *loc,
+                            l.loc,
                             "the local parameter has no value",
                         )),
                     };
                 }
                 match self.symbols.get(id.as_str()) {
-                    Some(Symbol::Compartment(k)) => match self.values.compartments[*k] {
-                        Some(v) => num(v),
-                        None => {
-                            return Err(invalid(
-                                "ci",
-                                Some(owner),
-                                m.loc,
-                                format!("compartment `{id}` has no size"),
-                            ))
+                    Some(Symbol::Compartment(k)) => {
+                        match (self.scale, self.values.compartments[*k]) {
+                            (Scale::Volume { litres, .. }, _) => {
+                                quantity(Quantity::new(litres, Dim::VOLUME))
+                            }
+                            (Scale::Counts, Some(v)) => num(v),
+                            (Scale::Counts, None) => {
+                                return Err(invalid(
+                                    "ci",
+                                    Some(owner),
+                                    m.loc,
+                                    format!("compartment `{id}` has no size"),
+                                ))
+                            }
                         }
-                    },
+                    }
                     Some(Symbol::Parameter(p)) => {
                         if self.values.parameters[*p].is_none() {
                             return Err(invalid(
@@ -569,9 +989,16 @@ impl Context<'_> {
                     }
                     Some(Symbol::Species(i)) => {
                         let x = Expr::Name(name(id, m.loc));
-                        match self.divisor(*i, m.loc)? {
-                            Some(v) => bin(BinOp::Div, x, num(v)),
-                            None => x,
+                        match self.scale {
+                            Scale::Counts => match self.divisor(*i, m.loc)? {
+                                Some(v) => bin(BinOp::Div, x, num(v)),
+                                None => x,
+                            },
+                            // The species loads its concentration; its amount is that times V.
+                            Scale::Volume { litres, .. } if symbol_is_amount(self.m, *i) => {
+                                bin(BinOp::Mul, x, quantity(Quantity::new(litres, Dim::VOLUME)))
+                            }
+                            Scale::Volume { .. } => x,
                         }
                     }
                     _ => {
@@ -596,7 +1023,9 @@ impl Context<'_> {
                 match op {
                     Op::Plus => fold(BinOp::Add, 0.0, a),
                     Op::Times => fold(BinOp::Mul, 1.0, a),
-                    Op::Minus if a.len() == 1 => Expr::Neg(Box::new(a.into_iter().next().unwrap()), s),
+                    Op::Minus if a.len() == 1 => {
+                        Expr::Neg(Box::new(a.into_iter().next().unwrap()), s)
+                    }
                     Op::Minus => fold(BinOp::Sub, 0.0, a),
                     Op::Divide => fold(BinOp::Div, 1.0, a),
                     Op::Power => fold(BinOp::Pow, 1.0, a),
@@ -613,9 +1042,19 @@ impl Context<'_> {
                     }
                 }
             }
+            MathKind::Call(f, args) => match self.builtins.get(f) {
+                Some(b) => {
+                    let a: Vec<Expr> = args
+                        .iter()
+                        .map(|x| self.expr(x, locals, owner))
+                        .collect::<Result<_, _>>()?;
+                    call(b.name(), a)
+                }
+                None => unreachable!("calls other than the network's functions are expanded"),
+            },
             MathKind::Piecewise { .. } => return unsupported("piecewise in a kinetic law".into()),
-            MathKind::Call(..) | MathKind::Delay(..) | MathKind::RateOf(..) => {
-                unreachable!("calls are expanded and delay/rateOf refused before mapping")
+            MathKind::Delay(..) | MathKind::RateOf(..) => {
+                unreachable!("delay and rateOf are refused before mapping")
             }
         })
     }

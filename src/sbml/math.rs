@@ -25,6 +25,9 @@ pub const MAX_DEPTH: usize = 256;
 /// §3.4.6) [verified: the specification text].
 pub const SBML_AVOGADRO: f64 = 6.022_141_79e23;
 
+/// Namespaces of SBML Level 3 (core and packages) start with this.
+pub const SBML_L3_NS_PREFIX: &str = "http://www.sbml.org/sbml/level3/";
+
 const TIME_URL: &str = "http://www.sbml.org/sbml/symbols/time";
 const AVOGADRO_URL: &str = "http://www.sbml.org/sbml/symbols/avogadro";
 const DELAY_URL: &str = "http://www.sbml.org/sbml/symbols/delay";
@@ -35,6 +38,10 @@ const RATE_OF_URL: &str = "http://www.sbml.org/sbml/symbols/rateOf";
 pub struct Math {
     pub kind: MathKind,
     pub loc: Loc,
+    /// The unit of a number (Level 3 `<cn sbml:units="…">`): a unit definition's id or a base
+    /// unit.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub units: Option<String>,
 }
 
 #[derive(Clone, Debug, PartialEq, Serialize)]
@@ -225,7 +232,40 @@ impl Op {
 
 impl Math {
     pub fn new(kind: MathKind, loc: Loc) -> Math {
-        Math { kind, loc }
+        Math {
+            kind,
+            loc,
+            units: None,
+        }
+    }
+
+    /// Whether two formulas are the same tree (places ignored).
+    pub fn same(&self, other: &Math) -> bool {
+        let shallow = match (&self.kind, &other.kind) {
+            (MathKind::Apply(a, x), MathKind::Apply(b, y)) => a == b && x.len() == y.len(),
+            (MathKind::Call(a, x), MathKind::Call(b, y)) => a == b && x.len() == y.len(),
+            (
+                MathKind::Piecewise {
+                    pieces: p,
+                    otherwise: o,
+                },
+                MathKind::Piecewise {
+                    pieces: q,
+                    otherwise: r,
+                },
+            ) => p.len() == q.len() && o.is_some() == r.is_some(),
+            (MathKind::Delay(..), MathKind::Delay(..))
+            | (MathKind::RateOf(_), MathKind::RateOf(_)) => true,
+            (MathKind::Number(a), MathKind::Number(b)) => a.to_bits() == b.to_bits(),
+            (a, b) => a == b,
+        };
+        shallow
+            && self.units == other.units
+            && self
+                .children()
+                .iter()
+                .zip(other.children())
+                .all(|(a, b)| a.same(b))
     }
 
     pub fn number(v: f64, loc: Loc) -> Math {
@@ -403,7 +443,18 @@ impl Reader<'_, '_> {
         let loc = self.loc(node);
         let name = xml::name(node);
         let kind = match name {
-            "cn" => MathKind::Number(self.number(node)?),
+            "cn" => {
+                let mut m = Math::number(self.number(node)?, loc);
+                m.units = node
+                    .attributes()
+                    .find(|a| {
+                        a.name() == "units"
+                            && a.namespace()
+                                .is_some_and(|n| n.starts_with(SBML_L3_NS_PREFIX))
+                    })
+                    .map(|a| a.value().trim().to_string());
+                return Ok(m);
+            }
             "ci" => MathKind::Ident(self.ident(node)?),
             "csymbol" => match self.csymbol_url(node)? {
                 TIME_URL => MathKind::Time,
@@ -749,7 +800,7 @@ fn write_math(m: &Math, f: &mut fmt::Formatter<'_>, outer: u8) -> fmt::Result {
         write!(f, "(")?;
     }
     match &m.kind {
-        MathKind::Number(v) => write!(f, "{v}")?,
+        MathKind::Number(v) => write!(f, "{}", super::write::exact(*v))?,
         MathKind::Boolean(b) => write!(f, "{b}")?,
         MathKind::Ident(s) => write!(f, "{s}")?,
         MathKind::Time => write!(f, "time")?,
@@ -777,8 +828,9 @@ fn write_math(m: &Math, f: &mut fmt::Formatter<'_>, outer: u8) -> fmt::Result {
                         if i > 0 {
                             write!(f, "{sym}")?;
                         }
-                        // Left-associative: the right operand of - / ^ binds tighter.
-                        let right = i > 0 && matches!(op, Op::Minus | Op::Divide | Op::Power);
+                        // Read left to right: a later operand of the same precedence is
+                        // bracketed, so the text is the tree (a * (b / c) stays so).
+                        let right = i > 0;
                         let left_pow = i == 0 && *op == Op::Power;
                         write_math(x, f, p + u8::from(right || left_pow))?;
                     }

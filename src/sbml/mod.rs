@@ -10,15 +10,20 @@
 //! refused with the construct, the element's id and its line, never replaced by a different
 //! model. Every step before `map.rs` is independent of the network representation.
 
+pub mod builtins;
 pub mod error;
 pub mod eval;
+pub mod export;
 pub mod functions;
 pub mod initial;
 pub mod map;
 pub mod math;
 pub mod model;
+pub mod monomial;
 pub mod read;
+pub mod units;
 pub mod validate;
+pub mod write;
 pub mod xml;
 
 pub use error::{Construct, ErrorKind, Loc, SbmlError};
@@ -56,7 +61,8 @@ pub fn import(bytes: &[u8]) -> Result<Import, Vec<SbmlError>> {
         errors.truncate(MAX_ERRORS);
         return Err(errors);
     }
-    functions::expand(&mut document.model).map_err(|e| vec![e])?;
+    let keep = builtins::recognised(&document.model).into_keys().collect();
+    functions::expand(&mut document.model, &keep).map_err(|e| vec![e])?;
     Ok(Import { document, warnings })
 }
 
@@ -68,7 +74,9 @@ pub fn syntax_tree(file: &str, bytes: &[u8]) -> Result<crate::network::parser::A
         Error::Input(errs.iter().map(|e| e.diagnostic(file, &text)).collect())
     };
     let imported = import(bytes).map_err(diagnostics)?;
-    map::ast(file, &text, &imported.document).map_err(|e| diagnostics(vec![e]))
+    map::ast(file, &text, &imported.document)
+        .map(|m| m.ast)
+        .map_err(|e| diagnostics(vec![e]))
 }
 
 /// Reads the SBML file at `path` and compiles it to a network.

@@ -54,6 +54,8 @@ pub struct Model {
     pub constraints: Vec<Constraint>,
     pub reactions: Vec<Reaction>,
     pub events: Vec<Event>,
+    /// The text of the model's `notes` (for people; nothing reads it).
+    pub notes: Option<String>,
     pub loc: Loc,
 }
 
@@ -93,6 +95,7 @@ pub struct Compartment {
     pub size: Option<f64>,
     pub units: Option<String>,
     pub constant: bool,
+    pub notes: Option<String>,
     pub loc: Loc,
 }
 
@@ -118,6 +121,7 @@ pub struct Species {
     /// Nothing changes it.
     pub constant: bool,
     pub conversion_factor: Option<String>,
+    pub notes: Option<String>,
     pub loc: Loc,
 }
 
@@ -128,6 +132,7 @@ pub struct Parameter {
     pub value: Option<f64>,
     pub units: Option<String>,
     pub constant: bool,
+    pub notes: Option<String>,
     pub loc: Loc,
 }
 
@@ -175,7 +180,61 @@ pub struct Reaction {
     pub products: Vec<SpeciesReference>,
     pub modifiers: Vec<ModifierReference>,
     pub kinetic_law: Option<KineticLaw>,
+    /// copyloop's reading of the reaction, from its annotation.
+    pub reading: Option<Reading>,
+    /// copyloop's annotation `<copyloop:law/>`: the law is run as written, even where it is a
+    /// constant times the reactants (the exporter marks every law step so).
+    pub keeps_law: bool,
+    pub notes: Option<String>,
     pub loc: Loc,
+}
+
+/// The namespace of copyloop's annotations.
+pub const COPYLOOP_NS: &str = "urn:copyloop:sbml:1";
+
+/// copyloop's own reading of a mass-action reaction, written by the exporter as
+/// `<copyloop:massAction constant="…" reading="…"/>` in the reaction's annotation.
+///
+/// The kinetic law states the deterministic rate by the standard (for `2 A → …`,
+/// compartment·k·[A]²); this states how copyloop runs the reaction stochastically: mass action,
+/// propensity c·Π C(xᵢ, νᵢ), with `constant` its rate constant read as `kind` says. The importer
+/// uses it only where the law is that constant's deterministic law.
+#[derive(Clone, Debug, PartialEq, Serialize)]
+pub struct Reading {
+    pub constant: ReadingConstant,
+    pub kind: ReadingKind,
+    /// The propensity in molecule counts, as text for people (`propensity` attribute).
+    pub propensity: Option<String>,
+    pub loc: Loc,
+}
+
+/// Where a reading's rate constant is.
+#[derive(Clone, Debug, PartialEq, Serialize)]
+#[serde(rename_all = "snake_case")]
+pub enum ReadingConstant {
+    /// A global parameter, by id.
+    Parameter(String),
+    /// A number.
+    Value(f64),
+}
+
+/// How a reading's rate constant is read.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize)]
+#[serde(rename_all = "snake_case")]
+pub enum ReadingKind {
+    /// The macroscopic constant k, in mol/L and seconds: c = k·Π(νᵢ!)/Ω^(m−1).
+    Macroscopic,
+    /// The stochastic constant c itself, in molecules and seconds.
+    Stochastic,
+}
+
+impl ReadingKind {
+    pub fn name(self) -> &'static str {
+        match self {
+            ReadingKind::Macroscopic => "macroscopic",
+            ReadingKind::Stochastic => "stochastic",
+        }
+    }
 }
 
 #[derive(Clone, Debug, Serialize)]

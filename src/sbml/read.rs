@@ -301,6 +301,57 @@ impl<'a> Reader<'_, 'a> {
         }
     }
 
+    /// The text of `n`'s `<notes>`, whitespace collapsed.
+    fn notes(&self, n: Node) -> Option<String> {
+        let notes =
+            xml::elements(n).find(|c| xml::name(*c) == "notes" && xml::ns(*c) == self.ns)?;
+        let text: Vec<&str> = notes
+            .descendants()
+            .filter(|d| d.is_text())
+            .flat_map(|d| d.text().unwrap_or("").split_whitespace())
+            .collect();
+        (!text.is_empty()).then(|| text.join(" "))
+    }
+
+    /// The element `name` of copyloop's namespace in `n`'s `<annotation>`.
+    fn copyloop_element<'i>(&self, n: Node<'a, 'i>, name: &str) -> Option<Node<'a, 'i>> {
+        xml::elements(n)
+            .filter(|c| xml::name(*c) == "annotation" && xml::ns(*c) == self.ns)
+            .flat_map(xml::elements)
+            .find(|c| xml::ns(*c) == COPYLOOP_NS && xml::name(*c) == name)
+    }
+
+    /// copyloop's reading in `n`'s `<annotation>`, if it has one.
+    fn reading(&self, n: Node, id: Option<&str>) -> Result<Option<Reading>, SbmlError> {
+        let Some(a) = self.copyloop_element(n, "massAction") else {
+            return Ok(None);
+        };
+        let constant = self
+            .str_attr(a, "constant")
+            .ok_or_else(|| self.missing(a, "constant", id))?;
+        let constant = match parse_double(&constant) {
+            Some(v) => ReadingConstant::Value(v),
+            None if is_sid(&constant) => ReadingConstant::Parameter(constant),
+            None => {
+                return Err(self.bad(a, "constant", &constant, "a parameter id or a number", id))
+            }
+        };
+        let kind = match self.str_attr(a, "reading").as_deref() {
+            Some("macroscopic") => ReadingKind::Macroscopic,
+            Some("stochastic") => ReadingKind::Stochastic,
+            Some(other) => {
+                return Err(self.bad(a, "reading", other, "macroscopic or stochastic", id))
+            }
+            None => return Err(self.missing(a, "reading", id)),
+        };
+        Ok(Some(Reading {
+            constant,
+            kind,
+            propensity: self.str_attr(a, "propensity"),
+            loc: self.loc(a),
+        }))
+    }
+
     /// The formula in the `<math>` child of `n`, if there is one.
     fn math(&self, n: Node, id: Option<&str>) -> Result<Option<Math>, SbmlError> {
         match self.math_node(n, id)? {
@@ -377,6 +428,7 @@ impl<'a> Reader<'_, 'a> {
         let mut m = Model {
             id: id.clone(),
             name: self.str_attr(n, "name"),
+            notes: self.notes(n),
             loc: self.loc(n),
             ..Model::default()
         };
@@ -553,6 +605,7 @@ impl<'a> Reader<'_, 'a> {
             size,
             units: self.str_attr(n, "units"),
             constant: self.flag(n, "constant", idr, true)?,
+            notes: self.notes(n),
             loc: self.loc(n),
             id,
         })
@@ -592,6 +645,7 @@ impl<'a> Reader<'_, 'a> {
             } else {
                 None
             },
+            notes: self.notes(n),
             loc: self.loc(n),
             id,
         })
@@ -622,6 +676,7 @@ impl<'a> Reader<'_, 'a> {
             value: self.f64_attr(n, "value", idr)?,
             units: self.str_attr(n, "units"),
             constant,
+            notes: self.notes(n),
             loc: self.loc(n),
             id,
         })
@@ -669,6 +724,9 @@ impl<'a> Reader<'_, 'a> {
             products: Vec::new(),
             modifiers: Vec::new(),
             kinetic_law: None,
+            reading: self.reading(n, idr)?,
+            keeps_law: self.copyloop_element(n, "law").is_some(),
+            notes: self.notes(n),
             loc: self.loc(n),
             id: id.clone(),
         };

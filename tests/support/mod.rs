@@ -2,5 +2,6 @@
 #![allow(dead_code)]
 
 pub mod cli;
+pub mod sbml_stochastic;
 pub mod sbml_suite;
 pub mod svg;

@@ -151,6 +151,12 @@ pub fn outcome(path: &Path) -> Outcome {
         Err(e) => first(&[e]),
         Ok(_) => match sbml::load_source(&file, &bytes, &Overrides::default()) {
             Ok(_) => Outcome::Imported,
+            Err(copyloop::Error::Input(d))
+                if d.iter()
+                    .all(|d| d.message.starts_with("not supported yet: ")) =>
+            {
+                Outcome::NotYet(d[0].message.clone())
+            }
             Err(e) => Outcome::Error(e.to_string()),
         },
     }

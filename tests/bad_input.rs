@@ -65,7 +65,7 @@ fn catalogue() -> Vec<Case> {
         case("missing arrow", "species A = 1\nspecies B = 1\nstep s A B @ 1\n", 3, 10, "expected `->` or `<->`"),
         case("missing reverse rate", "species A = 1\nspecies B = 0\nstep s A <-> B @ 1\n", 3, 19, "reverse rate"),
         case("two rates on a one-way step", "species A = 1\nstep s A -> 0 @ 1, 2\n", 2, 18, "one-way"),
-        case("unknown statement", "spec A = 1\n", 1, 1, "expected `volume`, `species`, `param` or `step`"),
+        case("unknown statement", "spec A = 1\n", 1, 1, "expected `volume`, `compartment`, `species`"),
         case("missing equals sign", "species A 1\n", 1, 11, "expected `=`"),
         case("bad coefficient", "species A = 1\nstep s 0.5 A -> 0 @ 1\n", 2, 8, "not a valid coefficient"),
         case("half-life on a second-order step", "species A = 1\nspecies B = 1\nstep s A + B -> 0 @ half-life 3 s\n", 3, 21, "first-order"),

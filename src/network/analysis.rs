@@ -1,7 +1,7 @@
 //! Structure of a compiled network: stoichiometry matrix, dependency graph, conservation laws
 //! and carrier motifs.
 
-use super::parser::{Ast, Expr, Item, Operand, Rate};
+use super::parser::{Ast, DoseEnd, Expr, Item, Operand, Rate};
 use super::{units, Kinetics, Network};
 use crate::error::Diagnostic;
 
@@ -478,15 +478,49 @@ fn names_in(e: &Expr, out: &mut Vec<String>) {
 pub fn usage_warnings(net: &mut Network, ast: &Ast) {
     let mut used: Vec<String> = Vec::new();
     let mut in_laws: Vec<String> = Vec::new();
+    let operand = |o: &Operand, used: &mut Vec<String>| {
+        if let Operand::Param(n) = o {
+            used.push(n.text.clone());
+        }
+    };
     for item in &ast.items {
+        match item {
+            Item::Dose(d) => {
+                used.push(d.species.text.clone());
+                for o in [Some(&d.amount), Some(&d.at), d.every.as_ref()]
+                    .into_iter()
+                    .flatten()
+                {
+                    operand(o, &mut used);
+                }
+                match &d.end {
+                    Some(DoseEnd::Until(o)) | Some(DoseEnd::Times(o)) => operand(o, &mut used),
+                    None => {}
+                }
+            }
+            Item::Infuse(f) => {
+                used.push(f.species.text.clone());
+                for o in [&f.rate, &f.from, &f.to] {
+                    operand(o, &mut used);
+                }
+            }
+            Item::When(w) => {
+                names_in(&w.condition, &mut used);
+                for a in &w.assignments {
+                    used.push(a.target.text.clone());
+                    names_in(&a.value, &mut used);
+                }
+            }
+            _ => {}
+        }
         let Item::Step(s) = item else { continue };
         for rate in std::iter::once(&s.forward).chain(s.reverse.as_ref()) {
             match rate {
                 Rate::Law(e) => names_in(e, &mut in_laws),
-                Rate::Constant(Operand::Param(n))
-                | Rate::HalfLife(Operand::Param(n), _)
-                | Rate::Kd(Operand::Param(n), _) => used.push(n.text.clone()),
-                _ => {}
+                Rate::Constant(o)
+                | Rate::HalfLife(o, _)
+                | Rate::Kd(o, _)
+                | Rate::Clearance(o, _) => operand(o, &mut used),
             }
         }
         for t in s.reactants.iter().chain(&s.products) {

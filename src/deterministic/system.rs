@@ -87,6 +87,20 @@ impl<'a> System<'a> {
         self.free.iter().map(|&i| self.template[i]).collect()
     }
 
+    /// Slot of species `i` among the free species, if it is free.
+    pub fn slot(&self, i: usize) -> Option<usize> {
+        self.free.binary_search(&i).ok()
+    }
+
+    /// The state value of species `i` (counts/Ω): `y` for a free one, the fixed value for a
+    /// clamped one.
+    pub fn value(&self, y: &[f64], i: usize) -> f64 {
+        match self.slot(i) {
+            Some(k) => y[k],
+            None => self.template[i],
+        }
+    }
+
     /// The free part of a vector over all species.
     pub fn restrict(&self, full: &[f64]) -> Vec<f64> {
         self.free.iter().map(|&i| full[i]).collect()
@@ -109,10 +123,20 @@ impl<'a> System<'a> {
 
     /// Reaction rates at free state `y` and time `t`.
     pub fn rates_at(&self, t: f64, y: &[f64]) -> Vec<f64> {
+        self.rates_with(t, y, &self.params)
+    }
+
+    /// Reaction rates at free state `y`, time `t` and param values `params`.
+    pub fn rates_with(&self, t: f64, y: &[f64], params: &[f64]) -> Vec<f64> {
         let full = self.embed(y);
         (0..self.m())
-            .map(|j| self.net.rate::<f64>(j, |i| full[i], &self.params, t))
+            .map(|j| self.net.rate::<f64>(j, |i| full[i], params, t))
             .collect()
+    }
+
+    /// dy/dt with param values `params`.
+    pub fn rhs_with(&self, t: f64, y: &[f64], params: &[f64]) -> Vec<f64> {
+        self.rhs_from_rates(&self.rates_with(t, y, params))
     }
 
     /// dy/dt = S·v(y) on the free species, at t = 0.
@@ -127,7 +151,7 @@ impl<'a> System<'a> {
 
     /// ∂(dy/dt)/∂t at (t, y): one dual-number pass with the clock as the variable, over the
     /// reactions whose rate depends on time.
-    pub fn time_derivative(&self, t: f64, y: &[f64]) -> Vec<f64> {
+    pub fn time_derivative(&self, t: f64, y: &[f64], params: &[f64]) -> Vec<f64> {
         let full = self.embed(y);
         let mut f = vec![0.0; self.n()];
         for (j, ch) in self.changes.iter().enumerate() {
@@ -136,12 +160,7 @@ impl<'a> System<'a> {
             }
             let dv = self
                 .net
-                .rate::<Dual>(
-                    j,
-                    |i| Dual::constant(full[i]),
-                    &self.params,
-                    Dual::variable(t),
-                )
+                .rate::<Dual>(j, |i| Dual::constant(full[i]), params, Dual::variable(t))
                 .d;
             for &(k, d) in ch {
                 f[k] += d * dv;
@@ -181,6 +200,11 @@ impl<'a> System<'a> {
 
     /// The exact Jacobian at time `t`.
     pub fn jacobian_at(&self, t: f64, y: &[f64]) -> DMatrix<f64> {
+        self.jacobian_with(t, y, &self.params)
+    }
+
+    /// The exact Jacobian at time `t` with param values `params`.
+    pub fn jacobian_with(&self, t: f64, y: &[f64], params: &[f64]) -> DMatrix<f64> {
         let n = self.n();
         let full = self.embed(y);
         let mut jac = DMatrix::zeros(n, n);
@@ -198,7 +222,7 @@ impl<'a> System<'a> {
                                 Dual::constant(full[i])
                             }
                         },
-                        &self.params,
+                        params,
                         Dual::constant(t),
                     )
                     .d;

@@ -13,6 +13,14 @@
 //!    τ'' is the shorter, exactly one critical reaction fires;
 //! 6. a leap that would make a count negative is rejected and τ' halved.
 //!
+//! Breakpoints and triggers (doses, law edges, events; see [`super::timeline`]): a leap never
+//! crosses the next breakpoint (it is shortened to end there, and exact steps stop there); a
+//! leap after which a state trigger would change its value is rejected and τ' halved, down
+//! to exact steps, which are followed by the trigger check, so the event fires at the state
+//! where it becomes true. Propensities that vary smoothly with time are taken at the middle
+//! of a leap; exact steps draw them by thinning against an interval bound, as the direct
+//! method does.
+//!
 //! Guarantees: counts never go negative; clamped species never change. Tau-leaping is
 //! approximate: its bias is controlled by ε (0.03 by default) and measured against the exact
 //! method in the tests. `auto` is the same machinery with `threshold` = 100: it leaps only where
@@ -22,8 +30,10 @@ use super::compiled::CompiledKernel;
 use super::leap::{LeapPlan, N_CRITICAL};
 use super::observe::Observer;
 use super::rng::{exp1, uniform};
+use super::timeline::{Counts, Timeline};
 use crate::error::{Error, Result};
-use crate::network::{Network, MAX_COUNT};
+use crate::network::expr::just_after;
+use crate::network::{Interval, Network, TimeUse, MAX_COUNT};
 use rand::Rng;
 use rand_distr::{Distribution, Poisson};
 
@@ -61,6 +71,11 @@ pub struct Tau<'k> {
     sigma2: Vec<f64>,
     counts: Vec<u64>,
     dx: Vec<i64>,
+    timeline: Option<Timeline<'k>>,
+    /// Window of the thinning bound (networks whose laws vary smoothly with time), and the
+    /// shortest it may become.
+    horizon: f64,
+    horizon_floor: f64,
 }
 
 impl<'k> Tau<'k> {
@@ -80,6 +95,10 @@ impl<'k> Tau<'k> {
             sigma2: vec![0.0; n],
             counts: vec![0; m],
             dx: vec![0; n + 1],
+            timeline: (!kernel.inputs().is_empty() || kernel.time_use() == TimeUse::Smooth)
+                .then(|| Timeline::new(kernel.inputs())),
+            horizon: 0.0,
+            horizon_floor: 0.0,
         }
     }
 
@@ -88,11 +107,13 @@ impl<'k> Tau<'k> {
         &self.x[..self.kernel.species]
     }
 
-    /// Propensities at the current state and their sum; an error for a bad law value.
+    /// Propensities at the current state at time `t` and their sum; an error for a bad law
+    /// value.
     fn propensities(&mut self, t: f64) -> Result<f64> {
         let mut a0 = 0.0;
+        let params = self.timeline.as_ref().map_or(&[][..], |tl| tl.params());
         for j in 0..self.props.len() {
-            let a = self.kernel.propensity(j, &self.x);
+            let a = self.kernel.propensity_at(j, &self.x, params, t);
             if !(0.0..f64::INFINITY).contains(&a) {
                 return Err(self.kernel.bad_propensity(j, a, t));
             }
@@ -134,6 +155,138 @@ impl<'k> Tau<'k> {
         Ok(events)
     }
 
+    /// The next breakpoint if it is at or before `t_end`, else ∞.
+    fn next_break(&self, t_end: f64) -> f64 {
+        match self.timeline.as_ref() {
+            Some(tl) if tl.next() <= t_end => tl.next(),
+            _ => f64::INFINITY,
+        }
+    }
+
+    /// The longest τ ≤ `tau` (by halving) over which every smoothly time-varying propensity
+    /// stays within ε of its value at t, relative to the total a₀ (its interval enclosure over
+    /// [t, t + τ] is at most ε·a₀ wide): the leap condition applied to the clock.
+    fn smooth_cap(&self, t: f64, tau: f64) -> f64 {
+        let k = self.kernel;
+        let params = self.timeline.as_ref().map_or(&[][..], |tl| tl.params());
+        let a0: f64 = self.props.iter().sum();
+        let mut tau = tau;
+        for _ in 0..64 {
+            let wide = k.smooth_channels().iter().any(|&j| {
+                let v =
+                    k.interval_propensity(j as usize, &self.x, params, Interval::new(t, t + tau));
+                !(v.hi - v.lo <= self.epsilon * a0)
+            });
+            if !wide {
+                break;
+            }
+            tau /= 2.0;
+        }
+        tau
+    }
+
+    /// Moves the run to breakpoint `brk` and applies it.
+    fn to_break<O: Observer>(&mut self, brk: f64, obs: &mut O) -> Result<()> {
+        let n = self.kernel.species;
+        if brk >= obs.due() {
+            obs.reach(brk, &self.x[..n]);
+        }
+        if let Some(tl) = self.timeline.as_mut() {
+            tl.breakpoint(
+                brk,
+                &mut Counts {
+                    x: &mut self.x[..n],
+                    obs,
+                },
+            )?;
+        }
+        Ok(())
+    }
+
+    /// After an exact step at `t`: the events of triggers it changed.
+    fn after_change<O: Observer>(&mut self, t: f64, obs: &mut O) -> Result<()> {
+        let n = self.kernel.species;
+        if let Some(tl) = self.timeline.as_mut() {
+            if tl.changed(t, |i| self.x[i] as f64) {
+                tl.settle(
+                    t,
+                    &mut Counts {
+                        x: &mut self.x[..n],
+                        obs,
+                    },
+                )?;
+            }
+        }
+        Ok(())
+    }
+
+    /// One exact step by thinning over [t, hi] (see [`super::direct`]'s thinning loop):
+    /// the event's time and channel, or `None` when the window ends first. `self.props`
+    /// holds the propensities at t, whose total is `a0`.
+    fn thinned<R: Rng + ?Sized>(
+        &mut self,
+        t: f64,
+        hi: f64,
+        a0: f64,
+        rng: &mut R,
+    ) -> Result<Option<(f64, usize)>> {
+        let k = self.kernel;
+        let params = self.timeline.as_ref().map_or(&[][..], |tl| tl.params());
+        let smooth = k.smooth_channels();
+        let mut bound = 0.0;
+        for (j, &a) in self.props.iter().enumerate() {
+            bound += if smooth.contains(&(j as u32)) {
+                let v = k.interval_propensity(j, &self.x, params, Interval::new(t, hi));
+                if v.hi >= 0.0 {
+                    v.hi
+                } else {
+                    f64::INFINITY
+                }
+            } else {
+                a
+            };
+        }
+        if !bound.is_finite() {
+            if hi - t < 1e-12 * hi.abs().max(1.0) {
+                return Err(Error::usage(format!(
+                    "the time-varying propensities have no finite bound near t = {t} s"
+                )));
+            }
+            self.horizon = (hi - t) / 8.0;
+            return self.thinned(t, t + self.horizon, a0, rng);
+        }
+        if bound > 1.5 * a0 && hi - t > self.horizon_floor {
+            self.horizon = (hi - t) / 2.0;
+        } else if bound < 1.1 * a0 {
+            self.horizon *= 2.0;
+        }
+        let bound = bound * (1.0 + 1e-9);
+        let mut c = t;
+        while bound > 0.0 {
+            c += exp1(rng) / bound;
+            if c >= hi {
+                break;
+            }
+            for &j in smooth {
+                let j = j as usize;
+                let a = k.propensity_at(j, &self.x, params, c);
+                if !(0.0..f64::INFINITY).contains(&a) {
+                    return Err(k.bad_propensity(j, a, c));
+                }
+                self.props[j] = a;
+            }
+            let target = uniform(rng) * bound;
+            let mut acc = 0.0;
+            for (j, &a) in self.props.iter().enumerate() {
+                acc += a;
+                if acc > target && a > 0.0 {
+                    return Ok(Some((c, j)));
+                }
+            }
+        }
+        Ok(None)
+    }
+
     fn clear(&mut self) {
         self.counts.iter_mut().for_each(|c| *c = 0);
         self.dx.iter_mut().for_each(|d| *d = 0);
@@ -169,13 +322,29 @@ impl<'k> Tau<'k> {
                 k.species_name(i)
             )));
         }
+        k.check_simulable()?;
         self.x[..n].copy_from_slice(x0);
         obs.start(&self.x[..n]);
+        if let Some(tl) = self.timeline.as_mut() {
+            tl.start(&mut Counts {
+                x: &mut self.x[..n],
+                obs: &mut *obs,
+            })?;
+        }
+        let smooth = k.time_use() == TimeUse::Smooth;
+        self.horizon = t_end / 100.0;
+        self.horizon_floor = t_end * 1e-9;
         let mut s = TauSummary::default();
         let mut t = 0.0;
         'run: while t < t_end {
-            let a0 = self.propensities(t)?;
-            if a0 == 0.0 {
+            let brk = self.next_break(t_end);
+            let a0 = self.propensities(just_after(t))?;
+            if a0 == 0.0 && !smooth {
+                if brk.is_finite() {
+                    self.to_break(brk, obs)?;
+                    t = brk;
+                    continue;
+                }
                 s.absorbed_at = Some(t);
                 break;
             }
@@ -195,36 +364,67 @@ impl<'k> Tau<'k> {
                 }
             }
             loop {
-                if tau1 * a0 < self.threshold {
-                    // Exact direct-method steps (step 3).
+                if smooth {
+                    // A rejected leap left the propensities of its midpoint.
+                    self.propensities(just_after(t))?;
+                }
+                if tau1 * a0 < self.threshold || (smooth && a0 == 0.0) {
+                    // Exact direct-method steps (step 3), stopping at the next breakpoint.
                     let mut a0 = a0;
                     for step in 0..EXACT_BURST {
-                        if step > 0 {
-                            a0 = self.propensities(t)?;
+                        if step > 0 || smooth {
+                            a0 = self.propensities(just_after(t))?;
                         }
-                        if a0 == 0.0 {
-                            s.absorbed_at = Some(t);
-                            break 'run;
-                        }
-                        let t_new = t + exp1(rng) / a0;
-                        if t_new > t_end {
-                            break 'run;
-                        }
-                        let target = uniform(rng) * a0;
-                        let mut acc = 0.0;
-                        let mut j = self.props.iter().rposition(|&a| a > 0.0).unwrap_or(0);
-                        for (c, &a) in self.props.iter().enumerate() {
-                            acc += a;
-                            if acc > target && a > 0.0 {
-                                j = c;
-                                break;
+                        let brk = self.next_break(t_end);
+                        let (t_new, j) = if smooth {
+                            let hi = brk.min(t_end).min(t + self.horizon);
+                            match self.thinned(t, hi, a0, rng)? {
+                                Some(fired) => fired,
+                                None => {
+                                    t = hi;
+                                    if hi == brk {
+                                        self.to_break(brk, obs)?;
+                                    }
+                                    continue 'run;
+                                }
                             }
-                        }
+                        } else {
+                            if a0 == 0.0 {
+                                if brk.is_finite() {
+                                    self.to_break(brk, obs)?;
+                                    t = brk;
+                                    continue 'run;
+                                }
+                                s.absorbed_at = Some(t);
+                                break 'run;
+                            }
+                            let t_new = t + exp1(rng) / a0;
+                            if t_new >= brk {
+                                self.to_break(brk, obs)?;
+                                t = brk;
+                                continue 'run;
+                            }
+                            if t_new > t_end {
+                                break 'run;
+                            }
+                            let target = uniform(rng) * a0;
+                            let mut acc = 0.0;
+                            let mut j = self.props.iter().rposition(|&a| a > 0.0).unwrap_or(0);
+                            for (c, &a) in self.props.iter().enumerate() {
+                                acc += a;
+                                if acc > target && a > 0.0 {
+                                    j = c;
+                                    break;
+                                }
+                            }
+                            (t_new, j)
+                        };
                         self.clear();
                         self.add_firings(j, 1);
                         s.events += self.apply(t_new, obs)?;
                         s.exact_steps += 1;
                         t = t_new;
+                        self.after_change(t, obs)?;
                     }
                     continue 'run;
                 }
@@ -248,6 +448,28 @@ impl<'k> Tau<'k> {
                 if t + tau > t_end {
                     tau = t_end - t;
                     one_critical = false;
+                }
+                if smooth {
+                    let capped = self.smooth_cap(t, tau);
+                    if capped < tau {
+                        if capped * a0 < self.threshold {
+                            // Too short to pay: exact steps instead.
+                            tau1 = capped;
+                            continue;
+                        }
+                        tau = capped;
+                        one_critical = false;
+                    }
+                }
+                // Never leap across a breakpoint.
+                let at_break = t + tau >= brk;
+                if at_break {
+                    tau = brk - t;
+                    one_critical = false;
+                }
+                if smooth {
+                    // Smoothly varying propensities at the middle of the leap.
+                    self.propensities(t + 0.5 * tau)?;
                 }
                 self.clear();
                 for j in 0..self.props.len() {
@@ -286,9 +508,22 @@ impl<'k> Tau<'k> {
                     continue;
                 }
                 let t_new = t + tau;
+                if let Some(tl) = self.timeline.as_ref() {
+                    let (x, dx) = (&self.x, &self.dx);
+                    if k.inputs().has_state_triggers()
+                        && tl.changed(t_new, |i| (x[i] + dx[i]) as f64)
+                    {
+                        // The leap would change a trigger: redo it shorter.
+                        tau1 = tau / 2.0;
+                        continue;
+                    }
+                }
                 s.events += self.apply(t_new, obs)?;
                 s.leaps += 1;
                 t = t_new;
+                if at_break {
+                    self.to_break(brk, obs)?;
+                }
                 continue 'run;
             }
         }

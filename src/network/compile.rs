@@ -756,10 +756,14 @@ impl<'a> Compiler<'a> {
                     Some(e) => e.1 += t.coefficient,
                     None => out.push((*i, t.coefficient)),
                 },
-                Some(Named::Param(_)) | Some(Named::Compartment(_)) => {
+                Some(other) => {
+                    let what = match other {
+                        Named::Param(_) => "a param",
+                        _ => "a compartment",
+                    };
                     self.error(
                         t.species.span,
-                        format!("`{}` is not a species", t.species.text),
+                        format!("`{}` is {what}, not a species", t.species.text),
                     );
                     ok = false;
                 }

@@ -505,6 +505,22 @@ impl Propensity {
         }
     }
 
+    /// An interval enclosing the propensity at state `x` over the times `time` (interval
+    /// arithmetic on the same program; see [`Interval`]).
+    pub fn eval_interval(&self, x: &[i64], params: &[f64], time: Interval) -> Interval {
+        match self {
+            Propensity::Law {
+                law, scale, needs, ..
+            } => {
+                if needs.iter().any(|&(i, n)| x[i] < n) {
+                    return Interval::point(0.0);
+                }
+                law.eval(|i| Interval::point(x[i] as f64), params, time) * Interval::point(*scale)
+            }
+            _ => Interval::point(self.eval_at(x, params, time.lo)),
+        }
+    }
+
     /// The propensity at state `x` with the run's param values `params` at time `t`.
     #[inline(always)]
     pub fn eval_at(&self, x: &[i64], params: &[f64], t: f64) -> f64 {

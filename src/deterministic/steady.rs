@@ -170,6 +170,30 @@ impl Steady {
     }
 }
 
+/// A steady state is a fixed point of autonomous rate equations: a network driven in time
+/// (doses, infusions, events, time in a law) has none, and a periodic drive settles, if at
+/// all, on a stationary cycle rather than a point.
+fn refuse_time_forcing(net: &Network) -> Result<()> {
+    let Some(what) = net.time_forcing() else {
+        return Ok(());
+    };
+    let msg = if net.periodic_drive() {
+        format!(
+            "{}: {what} with a periodic drive: its long-run behaviour is a stationary cycle, \
+             not a point, so it has no steady state; follow the cycle with `simulate --method \
+             ode` over several periods, or an ensemble with `simulate`",
+            net.file
+        )
+    } else {
+        format!(
+            "{}: the network is driven in time ({what}), so no steady state of its rate \
+             equations describes it; follow it with `simulate --method ode` or `simulate`",
+            net.file
+        )
+    };
+    Err(Error::usage(msg))
+}
+
 /// Everything Newton needs that does not change between iterations.
 struct Ctx<'s, 'a> {
     sys: &'s System<'a>,
@@ -452,6 +476,7 @@ fn slowest_time(ev: &[Complex<f64>]) -> f64 {
 
 /// Finds the steady state reached from the network's initial state.
 pub fn solve(net: &Network, opts: &SteadyOptions) -> Result<Steady> {
+    refuse_time_forcing(net)?;
     let sys = System::new(net);
     let y0 = sys.initial();
     let red = Reduction::new(&sys);

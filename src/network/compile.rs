@@ -92,7 +92,8 @@ pub fn compile(ast: &Ast, overrides: &Overrides) -> Result<Network, Vec<Diagnost
     c.varying_params();
     c.declarations();
     let mut reactions = c.steps();
-    reactions.extend(c.infusions());
+    let (infused, infusions) = c.infusions(reactions.len());
+    reactions.extend(infused);
     let doses = c.doses();
     let events = c.events();
     c.conflicts(&doses, &events);
@@ -131,6 +132,7 @@ pub fn compile(ast: &Ast, overrides: &Overrides) -> Result<Network, Vec<Diagnost
         params,
         reactions,
         doses,
+        infusions,
         events,
         stoichiometry: Vec::new(),
         dependents: Vec::new(),

@@ -15,7 +15,7 @@
 use super::compile::{Compiler, Named};
 use super::expr::{self, Checks, Law, Resolved, TimeUse};
 use super::parser::{BinOp, DoseEnd, Expr, Item, Literal, Name, Operand};
-use super::schedule::{Assignment, Dose, Event, Target, TimeSeq};
+use super::schedule::{Assignment, Dose, Event, Infusion, Target, TimeSeq};
 use super::units::{Dim, Quantity};
 use super::{Kinetics, Reaction, Reading, MAX_COUNT};
 use crate::error::Span;
@@ -245,10 +245,12 @@ impl<'a> Compiler<'a> {
         out
     }
 
-    /// The `infuse` lines, as zero-order reactions switched on over their windows.
-    pub(super) fn infusions(&mut self) -> Vec<Reaction> {
+    /// The `infuse` lines, as zero-order reactions switched on over their windows (numbered
+    /// from `first`, the number of reactions before them).
+    pub(super) fn infusions(&mut self, first: usize) -> (Vec<Reaction>, Vec<Infusion>) {
         let ast = self.ast;
         let mut out = Vec::new();
+        let mut list = Vec::new();
         for item in &ast.items {
             let Item::Infuse(f) = item else { continue };
             let Some(i) = self.input_species(&f.species, "an infusion") else {
@@ -278,6 +280,14 @@ impl<'a> Compiler<'a> {
             let text = format!("{} molecules/s for {} s <= time < {} s", rate, from, to);
             let law = window_law(rate, from, to, f.span, &text, self.volume_l.is_none());
             let comp = self.species[i].compartment;
+            list.push(Infusion {
+                reaction: first + out.len(),
+                species: i,
+                rate,
+                from,
+                to,
+                span: f.span,
+            });
             out.push(self.reaction(
                 label,
                 &[],
@@ -287,7 +297,7 @@ impl<'a> Compiler<'a> {
                 comp,
             ));
         }
-        out
+        (out, list)
     }
 
     /// An infusion rate in molecules per second.

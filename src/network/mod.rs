@@ -20,7 +20,7 @@ pub mod units;
 pub use analysis::{law_text, motif_chains, Motif, MotifKind};
 pub use compile::{compile, load, load_source, Override, Overrides};
 pub use expr::{Dual, Interval, Law, Scalar, TimeUse};
-pub use schedule::{Assignment, Dose, Event, Target, TimeSeq};
+pub use schedule::{Assignment, Dose, Event, Infusion, Target, TimeSeq};
 pub use units::{Dim, Quantity, AVOGADRO};
 
 use crate::error::{Diagnostic, Span};
@@ -55,6 +55,8 @@ pub struct Network {
     pub reactions: Vec<Reaction>,
     /// Scheduled bolus inputs.
     pub doses: Vec<Dose>,
+    /// Zero-order inputs over windows of time (each also a reaction).
+    pub infusions: Vec<Infusion>,
     /// Triggered events, in declaration order.
     pub events: Vec<Event>,
     /// Net stoichiometry, species × reactions (products minus reactants, as written; rows of

@@ -71,6 +71,18 @@ pub struct Dose {
     pub span: Span,
 }
 
+/// A zero-order input over a window of time (`infuse`): reaction `reaction` makes `species`
+/// at `rate` molecules per second for `from` ≤ t < `to`.
+#[derive(Clone, Debug, PartialEq)]
+pub struct Infusion {
+    pub reaction: usize,
+    pub species: usize,
+    pub rate: f64,
+    pub from: f64,
+    pub to: f64,
+    pub span: Span,
+}
+
 /// What an event assignment writes.
 #[derive(Clone, Copy, Debug, PartialEq, Eq)]
 pub enum Target {

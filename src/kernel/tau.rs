@@ -466,6 +466,11 @@ impl<'k> Tau<'k> {
                 if at_break {
                     tau = brk - t;
                     one_critical = false;
+                    if tau * a0 < self.threshold {
+                        // Cut short by the breakpoint, the leap no longer pays: exact steps.
+                        tau1 = tau;
+                        continue;
+                    }
                 }
                 if smooth {
                     // Smoothly varying propensities at the middle of the leap.

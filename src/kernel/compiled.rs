@@ -295,10 +295,19 @@ impl CompiledKernel {
 
     /// An error if the network's counts cannot be simulated stochastically.
     pub fn check_simulable(&self) -> Result<()> {
-        match &self.refusal {
-            Some(why) => Err(Error::usage(format!("{}: {why}", self.file))),
-            None => Ok(()),
+        if let Some(why) = &self.refusal {
+            return Err(Error::usage(format!("{}: {why}", self.file)));
         }
+        if let Some(e) = self.inputs.smooth_trigger() {
+            return Err(Error::usage(format!(
+                "{}:{}: the trigger of event `{}` varies smoothly with time, so it can turn \
+                 true between two reaction events; stochastic runs support triggers on the \
+                 state and on comparisons of `time` with fixed times (use `simulate --method \
+                 ode`)",
+                self.file, e.span.line, e.label
+            )));
+        }
+        Ok(())
     }
 
     /// As [`CompiledKernel::propensity`] without bounds checks, except that a law value that

@@ -91,7 +91,10 @@ impl Inputs {
             law_edges,
             params0: net.initial_params(),
             state_triggers: (0..net.events.len())
-                .filter(|&e| net.events[e].reads_state())
+                .filter(|&e| {
+                    let ev = &net.events[e];
+                    ev.reads_state() || ev.trigger.time == crate::network::TimeUse::Smooth
+                })
                 .collect(),
             species: net.species.iter().map(|s| s.name.clone()).collect(),
         }
@@ -102,9 +105,18 @@ impl Inputs {
         self.doses.is_empty() && self.events.is_empty() && self.law_edges.is_empty()
     }
 
-    /// Whether some trigger reads species (runs check it after every change).
+    /// Whether some trigger reads species or varies smoothly with time (runs check it after
+    /// every change; the ODE engine after every step).
     pub fn has_state_triggers(&self) -> bool {
         !self.state_triggers.is_empty()
+    }
+
+    /// The first event whose trigger varies smoothly with time (it can turn true between two
+    /// reaction events, which a stochastic run cannot see).
+    pub fn smooth_trigger(&self) -> Option<&Event> {
+        self.events
+            .iter()
+            .find(|e| e.trigger.time == crate::network::TimeUse::Smooth)
     }
 
     /// The params' initial values.
@@ -432,5 +444,156 @@ impl<O: super::observe::Observer> EventState for Counts<'_, O> {
 
     fn params_changed(&mut self, t: f64, p: &[f64]) {
         self.obs.params(t, p);
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::network::expr::{self, Checks};
+    use crate::network::parser::{parse, Item, Rate};
+    use crate::network::{load_source, Network, Overrides};
+
+    /// Counts held as reals, for the tests.
+    struct Plain(Vec<f64>);
+
+    impl EventState for Plain {
+        fn count(&self, i: usize) -> f64 {
+            self.0[i]
+        }
+        fn set_count(&mut self, _t: f64, i: usize, c: f64) -> std::result::Result<(), String> {
+            self.0[i] = c;
+            Ok(())
+        }
+    }
+
+    fn net(src: &str) -> Network {
+        load_source("t.crn", src.as_bytes(), &Overrides::default()).unwrap()
+    }
+
+    /// A program of the constant value `v` (seconds, or a number).
+    fn constant(v: f64) -> crate::network::Law {
+        let ast = parse("c.crn", format!("step r 0 -> X @ law {v}\n").as_bytes()).unwrap();
+        let Item::Step(s) = &ast.items[0] else {
+            panic!()
+        };
+        let Rate::Law(e) = &s.forward else { panic!() };
+        expr::compile(e, "c", &|_| None, Checks::none()).unwrap()
+    }
+
+    const TWO: &str = "species X = 0\nspecies Y = 1\nstep s X -> 0 @ 0\n";
+
+    // SBML L3V2 core §4.12.4 [M]: with a delay, the assignments execute at trigger time +
+    // delay; with useValuesFromTriggerTime the values are those at the trigger.
+    #[test]
+    fn delayed_execution_with_values_at_trigger_or_execution() {
+        for at_trigger in [true, false] {
+            let mut n = net(&format!("{TWO}when time >= 10 s : X = Y\n"));
+            n.events[0].delay = Some(constant(2.0));
+            n.events[0].values_at_trigger = at_trigger;
+            let inputs = Inputs::new(&n);
+            let mut tl = Timeline::new(&inputs);
+            let mut st = Plain(vec![0.0, 1.0]);
+            tl.start(&mut st).unwrap();
+            assert_eq!(tl.next(), 10.0);
+            tl.breakpoint(10.0, &mut st).unwrap();
+            assert_eq!((st.0[0], tl.next()), (0.0, 12.0));
+            st.0[1] = 7.0;
+            tl.breakpoint(12.0, &mut st).unwrap();
+            assert_eq!(st.0[0], if at_trigger { 1.0 } else { 7.0 });
+            assert_eq!(tl.next(), f64::INFINITY);
+        }
+    }
+
+    // SBML §4.12.2 [M]: a non-persistent event whose trigger turns false before the delay has
+    // passed does not execute; a persistent one does.
+    #[test]
+    fn persistence_decides_a_pending_execution() {
+        for persistent in [true, false] {
+            let mut n = net(&format!("{TWO}when X >= 5 : Y = 9\n"));
+            n.events[0].delay = Some(constant(2.0));
+            n.events[0].persistent = persistent;
+            let inputs = Inputs::new(&n);
+            let mut tl = Timeline::new(&inputs);
+            let mut st = Plain(vec![0.0, 1.0]);
+            tl.start(&mut st).unwrap();
+            st.0[0] = 6.0;
+            assert!(tl.changed(1.0, |i| st.0[i]));
+            tl.settle(1.0, &mut st).unwrap();
+            assert_eq!(tl.next(), 3.0);
+            st.0[0] = 0.0;
+            assert!(tl.changed(2.0, |i| st.0[i]));
+            tl.settle(2.0, &mut st).unwrap();
+            if persistent {
+                assert_eq!(tl.next(), 3.0);
+                tl.breakpoint(3.0, &mut st).unwrap();
+                assert_eq!(st.0[1], 9.0);
+            } else {
+                assert_eq!(tl.next(), f64::INFINITY);
+                assert_eq!(st.0[1], 1.0);
+            }
+        }
+    }
+
+    // SBML §4.12.7 [M]: events executing at one instant run in decreasing priority; the
+    // `.crn` rule for ties is declaration order.
+    #[test]
+    fn priorities_order_simultaneous_events() {
+        for (p1, p2, last) in [(Some(1.0), Some(5.0), 1.0), (Some(5.0), Some(1.0), 2.0), (None, None, 2.0)] {
+            let mut n = net(&format!(
+                "{TWO}when time >= 10 s : X = 1\nwhen time >= 10 s : Y = 0\n"
+            ));
+            // The second event sets X too (a conflict the `.crn` compiler refuses; SBML orders
+            // it by priority).
+            n.events[1].assignments[0].target = crate::network::Target::Species(0);
+            n.events[1].assignments[0].value = constant(2.0);
+            n.events[0].priority = p1.map(constant);
+            n.events[1].priority = p2.map(constant);
+            let inputs = Inputs::new(&n);
+            let mut tl = Timeline::new(&inputs);
+            let mut st = Plain(vec![0.0, 1.0]);
+            tl.start(&mut st).unwrap();
+            tl.breakpoint(10.0, &mut st).unwrap();
+            assert_eq!(st.0[0], last, "priorities {p1:?}, {p2:?}");
+        }
+    }
+
+    // One event can trigger another at the same instant (SBML §4.12 [M]); a cascade without
+    // end is stopped with an error.
+    #[test]
+    fn cascades_and_runaway_cascades() {
+        let n = net(&format!("{TWO}when time >= 10 s : X = 10\nwhen X >= 10 : Y = 5\n"));
+        let inputs = Inputs::new(&n);
+        let mut tl = Timeline::new(&inputs);
+        let mut st = Plain(vec![0.0, 1.0]);
+        tl.start(&mut st).unwrap();
+        tl.breakpoint(10.0, &mut st).unwrap();
+        assert_eq!(st.0, vec![10.0, 5.0]);
+        let n = net(&format!(
+            "{TWO}dose X += 1 molecules at 1 s\nwhen X > 0 : X = 0\nwhen X < 1 : X = 1\n"
+        ));
+        let inputs = Inputs::new(&n);
+        let mut tl = Timeline::new(&inputs);
+        let mut st = Plain(vec![0.0, 1.0]);
+        tl.start(&mut st).unwrap();
+        let e = tl.breakpoint(1.0, &mut st).unwrap_err().to_string();
+        assert!(e.contains("keep triggering one another"), "{e}");
+    }
+
+    // A trigger that is true at t = 0 fires then only when its initial value is false
+    // (SBML initialValue; `.crn` `at start`).
+    #[test]
+    fn initial_value_decides_a_firing_at_the_start() {
+        for (at_start, fired) in [(true, 9.0), (false, 1.0)] {
+            let n = net(&format!(
+                "{TWO}when Y > 0 : Y = 9{}\n",
+                if at_start { " at start" } else { "" }
+            ));
+            let inputs = Inputs::new(&n);
+            let mut tl = Timeline::new(&inputs);
+            let mut st = Plain(vec![0.0, 1.0]);
+            tl.start(&mut st).unwrap();
+            assert_eq!(st.0[1], fired);
+        }
     }
 }

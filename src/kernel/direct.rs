@@ -62,7 +62,7 @@ pub struct Direct<'k> {
     x: Vec<i64>,
     selector: Selector,
     /// The network's doses, law edges and events, where it has any.
-    timeline: Option<Timeline<'k>>,
+    timeline: Option<Box<Timeline<'k>>>,
     /// Propensities of the thinning loop (networks whose laws vary smoothly with time).
     thin: Vec<f64>,
 }
@@ -89,7 +89,7 @@ impl<'k> Direct<'k> {
             kernel,
             x: kernel.state_buffer(&kernel.x0),
             selector,
-            timeline: (!inputs.is_empty() || smooth).then(|| Timeline::new(inputs)),
+            timeline: (!inputs.is_empty() || smooth).then(|| Box::new(Timeline::new(inputs))),
             thin: if smooth { vec![0.0; m] } else { Vec::new() },
         }
     }
@@ -149,7 +149,7 @@ impl<'k> Direct<'k> {
             t_end,
             rng,
             obs,
-            tl: self.timeline.as_mut(),
+            tl: self.timeline.as_deref_mut(),
         };
         if k.time_use() == TimeUse::Smooth {
             return run_thinned(k, x, &mut self.thin, run);
@@ -878,15 +878,15 @@ fn run_thinned<R: Rng + Clone, O: Observer>(
         let params = tl.params();
         let mut bound = 0.0;
         let mut now = 0.0;
-        for j in 0..m {
+        for (j, aj) in a.iter_mut().enumerate().take(m) {
             if smooth.contains(&(j as u32)) {
-                a[j] = checked(k, j, k.propensity_at(j, x, params, t), t)?;
+                *aj = checked(k, j, k.propensity_at(j, x, params, t), t)?;
                 let v = k.interval_propensity(j, x, params, Interval::new(t, hi));
                 bound += if v.hi >= 0.0 { v.hi } else { f64::INFINITY };
             } else {
-                bound += a[j];
+                bound += *aj;
             }
-            now += a[j];
+            now += *aj;
         }
         if !bound.is_finite() {
             if hi - t < 1e-12 * t_end.max(1.0) {

@@ -175,7 +175,7 @@ impl<'k> Tau<'k> {
             let wide = k.smooth_channels().iter().any(|&j| {
                 let v =
                     k.interval_propensity(j as usize, &self.x, params, Interval::new(t, t + tau));
-                !(v.hi - v.lo <= self.epsilon * a0)
+                v.hi - v.lo > self.epsilon * a0 || (v.hi - v.lo).is_nan()
             });
             if !wide {
                 break;
@@ -186,7 +186,7 @@ impl<'k> Tau<'k> {
     }
 
     /// Moves the run to breakpoint `brk` and applies it.
-    fn to_break<O: Observer>(&mut self, brk: f64, obs: &mut O) -> Result<()> {
+    fn move_to_break<O: Observer>(&mut self, brk: f64, obs: &mut O) -> Result<()> {
         let n = self.kernel.species;
         if brk >= obs.due() {
             obs.reach(brk, &self.x[..n]);
@@ -262,10 +262,13 @@ impl<'k> Tau<'k> {
         }
         let bound = bound * (1.0 + 1e-9);
         let mut c = t;
-        while bound > 0.0 {
+        if bound <= 0.0 {
+            return Ok(None);
+        }
+        loop {
             c += exp1(rng) / bound;
             if c >= hi {
-                break;
+                return Ok(None);
             }
             for &j in smooth {
                 let j = j as usize;
@@ -284,7 +287,6 @@ impl<'k> Tau<'k> {
                 }
             }
         }
-        Ok(None)
     }
 
     fn clear(&mut self) {
@@ -341,7 +343,7 @@ impl<'k> Tau<'k> {
             let a0 = self.propensities(just_after(t))?;
             if a0 == 0.0 && !smooth {
                 if brk.is_finite() {
-                    self.to_break(brk, obs)?;
+                    self.move_to_break(brk, obs)?;
                     t = brk;
                     continue;
                 }
@@ -383,7 +385,7 @@ impl<'k> Tau<'k> {
                                 None => {
                                     t = hi;
                                     if hi == brk {
-                                        self.to_break(brk, obs)?;
+                                        self.move_to_break(brk, obs)?;
                                     }
                                     continue 'run;
                                 }
@@ -391,7 +393,7 @@ impl<'k> Tau<'k> {
                         } else {
                             if a0 == 0.0 {
                                 if brk.is_finite() {
-                                    self.to_break(brk, obs)?;
+                                    self.move_to_break(brk, obs)?;
                                     t = brk;
                                     continue 'run;
                                 }
@@ -400,7 +402,7 @@ impl<'k> Tau<'k> {
                             }
                             let t_new = t + exp1(rng) / a0;
                             if t_new >= brk {
-                                self.to_break(brk, obs)?;
+                                self.move_to_break(brk, obs)?;
                                 t = brk;
                                 continue 'run;
                             }
@@ -527,7 +529,7 @@ impl<'k> Tau<'k> {
                 s.leaps += 1;
                 t = t_new;
                 if at_break {
-                    self.to_break(brk, obs)?;
+                    self.move_to_break(brk, obs)?;
                 }
                 continue 'run;
             }

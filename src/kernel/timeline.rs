@@ -425,7 +425,7 @@ impl<O: super::observe::Observer> EventState for Counts<'_, O> {
 
     fn set_count(&mut self, t: f64, i: usize, count: f64) -> std::result::Result<(), String> {
         let n = count.round();
-        if !(n >= 0.0) {
+        if n.is_nan() || n < 0.0 {
             return Err(format!("the count would be {count}, below 0"));
         }
         if n > crate::network::MAX_COUNT as f64 {
@@ -539,7 +539,11 @@ mod tests {
     // `.crn` rule for ties is declaration order.
     #[test]
     fn priorities_order_simultaneous_events() {
-        for (p1, p2, last) in [(Some(1.0), Some(5.0), 1.0), (Some(5.0), Some(1.0), 2.0), (None, None, 2.0)] {
+        for (p1, p2, last) in [
+            (Some(1.0), Some(5.0), 1.0),
+            (Some(5.0), Some(1.0), 2.0),
+            (None, None, 2.0),
+        ] {
             let mut n = net(&format!(
                 "{TWO}when time >= 10 s : X = 1\nwhen time >= 10 s : Y = 0\n"
             ));
@@ -562,7 +566,9 @@ mod tests {
     // end is stopped with an error.
     #[test]
     fn cascades_and_runaway_cascades() {
-        let n = net(&format!("{TWO}when time >= 10 s : X = 10\nwhen X >= 10 : Y = 5\n"));
+        let n = net(&format!(
+            "{TWO}when time >= 10 s : X = 10\nwhen X >= 10 : Y = 5\n"
+        ));
         let inputs = Inputs::new(&n);
         let mut tl = Timeline::new(&inputs);
         let mut st = Plain(vec![0.0, 1.0]);

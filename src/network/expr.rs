@@ -1030,7 +1030,7 @@ impl Ctx<'_> {
                     "pulse",
                 )?;
                 if let (Some(p), Some(w)) = (typed[1].constant, typed[2].constant) {
-                    if !(p > 0.0) || !(0.0..=p).contains(&w) {
+                    if p.is_nan() || p <= 0.0 || !(0.0..=p).contains(&w) {
                         return err(
                             span,
                             format!(

@@ -114,8 +114,12 @@ pub fn json(net: &Network) -> Value {
                 "compartment": compartment_of(net, r.compartment),
                 "transport": r.transport,
             });
-            if let crate::network::Kinetics::Law { law, .. } = &r.kinetics {
-                v["law"] = json!(law.text);
+            match &r.kinetics {
+                crate::network::Kinetics::Law { law, .. } => v["law"] = json!(law.text),
+                crate::network::Kinetics::MassAction {
+                    follows: Some(f), ..
+                } => v["follows"] = json!(net.params[f.param].name),
+                _ => {}
             }
             v
         })
@@ -252,6 +256,12 @@ pub fn table(net: &Network) -> String {
                 }
             }
             crate::network::Kinetics::Law { law, .. } => format!("law {}", law.text),
+        };
+        let rate = match &r.kinetics {
+            crate::network::Kinetics::MassAction {
+                follows: Some(f), ..
+            } => format!("{rate}, follows `{}`", net.params[f.param].name),
+            _ => rate,
         };
         let rate = if r.transport {
             format!("{rate}, transport")

@@ -3,7 +3,7 @@
 //! to t = 10: time per replicate for each method, one thread.
 
 use copyloop::kernel::rng::replicate_rng;
-use copyloop::kernel::tau::Tau;
+use copyloop::kernel::tau::{Switch, Tau};
 use copyloop::kernel::{CompiledKernel, Direct};
 use copyloop::network::{load_source, Overrides};
 use criterion::{criterion_group, criterion_main, Criterion};
@@ -27,7 +27,7 @@ fn bench(c: &mut Criterion) {
         })
     });
     g.bench_function("tau_eps_0.03", |b| {
-        let mut t = Tau::new(&kernel, &net, 0.03, false);
+        let mut t = Tau::new(&kernel, &net, 0.03, Switch::Tau);
         b.iter(|| {
             r += 1;
             t.run(&x0, 10.0, &mut replicate_rng(1, r), &mut ()).unwrap()

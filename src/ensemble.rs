@@ -20,10 +20,11 @@
 use crate::error::{Error, Result};
 use crate::kernel::observe::grid_times;
 use crate::kernel::rng::replicate_rng;
-use crate::kernel::tau::Tau;
+use crate::kernel::tau::{Switch, Tau};
 use crate::kernel::{CompiledKernel, Direct, Integrals, RecordSpec, Recorder};
 use crate::network::Network;
-use crate::stats::Welford;
+use crate::numbers::plain;
+use crate::stats::{Bivariate, Welford};
 use std::time::Instant;
 
 /// Replicates per block, the unit of work and of merging.
@@ -31,6 +32,17 @@ pub const BLOCK: u64 = 16;
 
 /// Blocks per thread in one wave of parallel work.
 const WAVE_PER_THREAD: usize = 8;
+
+/// Memory the block accumulators of one wave may take, in bytes (at least one block per
+/// thread is always in flight).
+const WAVE_MEMORY: usize = 512 << 20;
+
+/// Most grid points an ensemble records (each costs one count per species per thread, and one
+/// accumulator per species in every block in flight).
+pub const MAX_GRID_POINTS: usize = 1_000_000;
+
+/// Most worker threads an ensemble starts.
+pub const MAX_THREADS: usize = 1024;
 
 /// The default ε of `tau` and `auto` (`--epsilon`).
 pub const DEFAULT_EPSILON: f64 = 0.03;
@@ -104,39 +116,63 @@ impl EnsembleSpec {
         }
     }
 
-    /// Checks every value; a bad one is a usage error naming the option.
+    /// Checks every value; a bad one is an [`Error::Invalid`] naming the field.
     pub fn validate(&self) -> Result<()> {
         if !(self.t_end > 0.0 && self.t_end.is_finite()) {
-            return Err(Error::usage(format!(
-                "--t-end must be a finite time above 0 seconds, got {}",
-                self.t_end
-            )));
+            return Err(Error::invalid(
+                "t_end",
+                format!(
+                    "the end time must be a finite time above 0 s, got {} s",
+                    plain(self.t_end)
+                ),
+            ));
         }
         if self.replicates == 0 {
-            return Err(Error::usage("--replicates must be at least 1"));
+            return Err(Error::invalid(
+                "replicates",
+                "at least 1 replicate is needed",
+            ));
         }
-        if self.grid_points < 2 {
-            return Err(Error::usage(format!(
-                "--grid must be at least 2 (the points 0 and t-end), got {}",
-                self.grid_points
-            )));
+        if !(2..=MAX_GRID_POINTS).contains(&self.grid_points) {
+            return Err(Error::invalid(
+                "grid_points",
+                format!(
+                    "the grid needs 2 to {MAX_GRID_POINTS} points (0 and the end time included), got {}",
+                    self.grid_points
+                ),
+            ));
         }
         if !(self.window >= 0.0 && self.window < self.t_end) {
-            return Err(Error::usage(format!(
-                "--window must satisfy 0 <= window < t-end ({}), got {}",
-                self.t_end, self.window
-            )));
+            return Err(Error::invalid(
+                "window",
+                format!(
+                    "the measurement window must start at or after 0 s and before the end time ({} s), got {} s",
+                    plain(self.t_end),
+                    plain(self.window)
+                ),
+            ));
         }
-        if self.threads == Some(0) {
-            return Err(Error::usage("--threads must be at least 1"));
+        match self.threads {
+            Some(0) => return Err(Error::invalid("threads", "at least 1 thread is needed")),
+            Some(n) if n > MAX_THREADS => {
+                return Err(Error::invalid(
+                    "threads",
+                    format!("at most {MAX_THREADS} threads, got {n}"),
+                ))
+            }
+            _ => {}
         }
         match self.method {
             Method::Tau { epsilon } | Method::Auto { epsilon }
                 if !(epsilon > 0.0 && epsilon < 1.0) =>
             {
-                Err(Error::usage(format!(
-                    "--epsilon must lie strictly between 0 and 1, got {epsilon}"
-                )))
+                Err(Error::invalid(
+                    "epsilon",
+                    format!(
+                        "ε must lie strictly between 0 and 1, got {}",
+                        plain(epsilon)
+                    ),
+                ))
             }
             _ => Ok(()),
         }
@@ -154,6 +190,10 @@ pub struct EnsembleResult {
     pub time_average: Vec<Welford>,
     /// Within-replicate variance over the window, ∫x² dt / T − (∫x dt / T)², per replicate.
     pub within_variance: Vec<Welford>,
+    /// Pairs (∫x dt / T, ∫x² dt / T) over the window, per replicate: the time average and the
+    /// time-averaged square, with their covariance (for intervals on variances and Fano
+    /// factors).
+    pub time_moments: Vec<Bivariate>,
     /// Firings of each reaction in [window, t_end].
     pub firings: Vec<Welford>,
     /// Firings of each reaction in [window, (window + t_end)/2).
@@ -161,6 +201,9 @@ pub struct EnsembleResult {
     /// First-half minus second-half firings of each reaction, per replicate (a stationary
     /// window has mean 0).
     pub half_difference: Vec<Welford>,
+    /// Net change of each species over the window, x(t_end) − x(window), per replicate (0 for
+    /// clamped species): with the window length, the accumulation rate of an output.
+    pub window_change: Vec<Welford>,
     /// Grid times 0 … t_end.
     pub grid_times: Vec<f64>,
     /// `grid[p][i]`: count of species i at grid point p.
@@ -192,9 +235,13 @@ impl EnsembleResult {
             (&mut self.firings, &other.firings),
             (&mut self.firings_first_half, &other.firings_first_half),
             (&mut self.half_difference, &other.half_difference),
+            (&mut self.window_change, &other.window_change),
         ];
         for (a, b) in pairs {
             a.iter_mut().zip(b).for_each(|(a, b)| a.merge(b));
+        }
+        for (a, b) in self.time_moments.iter_mut().zip(&other.time_moments) {
+            a.merge(b);
         }
         for (a, b) in self.grid.iter_mut().zip(&other.grid) {
             a.iter_mut().zip(b).for_each(|(a, b)| a.merge(b));
@@ -230,9 +277,11 @@ struct Partial {
     final_state: Vec<Welford>,
     time_average: Vec<Welford>,
     within_variance: Vec<Welford>,
+    time_moments: Vec<Bivariate>,
     firings: Vec<Welford>,
     firings_first_half: Vec<Welford>,
     half_difference: Vec<Welford>,
+    window_change: Vec<Welford>,
     grid: Vec<Vec<Welford>>,
     varying: Vec<usize>,
     grid_params: Vec<Vec<Welford>>,
@@ -253,9 +302,11 @@ impl Partial {
             final_state: vec![Welford::new(); species],
             time_average: vec![Welford::new(); species],
             within_variance: vec![Welford::new(); species],
+            time_moments: vec![Bivariate::new(); species],
             firings: vec![Welford::new(); reactions],
             firings_first_half: vec![Welford::new(); reactions],
             half_difference: vec![Welford::new(); reactions],
+            window_change: vec![Welford::new(); species],
             grid: vec![vec![Welford::new(); species]; points],
             finals: Vec::new(),
             events: 0,
@@ -265,13 +316,30 @@ impl Partial {
         }
     }
 
-    fn push(&mut self, (rec, int): &(Recorder, Integrals), last: &[i64], keep_final: bool) {
+    fn push(
+        &mut self,
+        kernel: &CompiledKernel,
+        (rec, int): &(Recorder, Integrals),
+        last: &[i64],
+        keep_final: bool,
+    ) {
         let t = int.window_length();
+        let mut change = vec![0i64; last.len()];
+        for (j, &n) in rec.firings().iter().enumerate() {
+            for &(i, d) in kernel.change(j) {
+                change[i as usize] += d * n as i64;
+            }
+        }
+        for (w, c) in self.window_change.iter_mut().zip(change) {
+            w.push(c as f64);
+        }
         for (i, &v) in last.iter().enumerate() {
             self.final_state[i].push(v as f64);
             let mean = int.x()[i] / t;
+            let square = int.x2()[i] / t;
             self.time_average[i].push(mean);
-            self.within_variance[i].push((int.x2()[i] / t - mean * mean).max(0.0));
+            self.time_moments[i].push(mean, square);
+            self.within_variance[i].push(within_variance(mean, square));
         }
         for (j, (&n, &h)) in rec
             .firings()
@@ -300,6 +368,9 @@ impl Partial {
     }
 
     fn merge(&mut self, o: Partial) {
+        for (a, b) in self.time_moments.iter_mut().zip(&o.time_moments) {
+            a.merge(b);
+        }
         let pairs = [
             (&mut self.final_state, &o.final_state),
             (&mut self.time_average, &o.time_average),
@@ -307,6 +378,7 @@ impl Partial {
             (&mut self.firings, &o.firings),
             (&mut self.firings_first_half, &o.firings_first_half),
             (&mut self.half_difference, &o.half_difference),
+            (&mut self.window_change, &o.window_change),
         ];
         for (a, b) in pairs {
             a.iter_mut().zip(b).for_each(|(a, b)| a.merge(b));
@@ -322,6 +394,19 @@ impl Partial {
         self.leaps += o.leaps;
         self.exact_steps += o.exact_steps;
         self.absorbed += o.absorbed;
+    }
+}
+
+/// The variance within one replicate's window, ⟨x²⟩ − ⟨x⟩², from its time average and time-
+/// averaged square. A difference below the rounding of the two terms (64 ulps of ⟨x⟩²) is
+/// indistinguishable from 0 in f64 and is reported as 0, so that a count that never moves has
+/// variance 0, not rounding noise.
+fn within_variance(mean: f64, square: f64) -> f64 {
+    let v = square - mean * mean;
+    if v <= 64.0 * f64::EPSILON * mean * mean {
+        0.0
+    } else {
+        v
     }
 }
 
@@ -366,7 +451,7 @@ fn run_block(
             }
         };
         part.absorbed += u64::from(absorbed);
-        part.push(&ws.observers, state, spec.keep_finals);
+        part.push(kernel, &ws.observers, state, spec.keep_finals);
         if let Some(b) = bar {
             b.inc(1);
         }
@@ -399,9 +484,11 @@ pub fn run(net: &Network, spec: &EnsembleSpec) -> Result<EnsembleResult> {
         final_state: total.final_state,
         time_average: total.time_average,
         within_variance: total.within_variance,
+        time_moments: total.time_moments,
         firings: total.firings,
         firings_first_half: total.firings_first_half,
         half_difference: total.half_difference,
+        window_change: total.window_change,
         grid_times,
         grid: total.grid,
         varying_params: total.varying,
@@ -432,7 +519,12 @@ fn run_blocks(
 ) -> Result<Partial> {
     use rayon::prelude::*;
     let blocks = spec.replicates.div_ceil(BLOCK);
-    let wave = (rayon::current_num_threads() * WAVE_PER_THREAD) as u64;
+    // A wave holds one block's accumulators per block in flight: fewer blocks per thread when
+    // the grid makes them large (the results do not depend on the wave size).
+    let threads = rayon::current_num_threads();
+    let block_bytes = (spec.grid_points * kernel.species).max(1) * std::mem::size_of::<Welford>();
+    let by_memory = (WAVE_MEMORY / block_bytes).max(threads);
+    let wave = (threads * WAVE_PER_THREAD).min(by_memory) as u64;
     let mut total = Partial::new(kernel, spec.grid_points);
     let mut start = 0u64;
     while start < blocks {
@@ -444,10 +536,10 @@ fn run_blocks(
                     sim: match spec.method {
                         Method::Direct => Sim::Direct(Direct::new(kernel)),
                         Method::Tau { epsilon } => {
-                            Sim::Tau(Box::new(Tau::new(kernel, net, epsilon, false)))
+                            Sim::Tau(Box::new(Tau::new(kernel, net, epsilon, Switch::Tau)))
                         }
                         Method::Auto { epsilon } => {
-                            Sim::Tau(Box::new(Tau::new(kernel, net, epsilon, true)))
+                            Sim::Tau(Box::new(Tau::new(kernel, net, epsilon, Switch::Auto)))
                         }
                     },
                     observers: (

@@ -54,6 +54,12 @@ impl Diagnostic {
             .lines()
             .nth(span.line.saturating_sub(1) as usize)
             .unwrap_or("");
+        Diagnostic::on_line(file, line, span, message)
+    }
+
+    /// A diagnostic at `span`, given the text of its line (for callers that index the lines
+    /// once instead of scanning the file for every message).
+    pub fn on_line(file: &str, line: &str, span: Span, message: impl Into<String>) -> Diagnostic {
         let (snippet, snippet_col) = excerpt(line, span.col as usize);
         Diagnostic {
             file: file.to_string(),
@@ -127,6 +133,10 @@ pub enum Error {
     /// A bad command-line value or a request that cannot be met with this input.
     #[error("error: {0}")]
     Usage(String),
+    /// A job's option that cannot be used: which one (the library's field name, e.g.
+    /// `t_end`), and why. The command line names its own flag instead of the field.
+    #[error("error: {field}: {reason}")]
+    Invalid { field: &'static str, reason: String },
     /// A file that cannot be read or written.
     #[error("error: {path}: {source}")]
     Io {
@@ -152,13 +162,21 @@ impl Error {
     /// Process exit status: 2 for bad input, 1 for internal failures.
     pub fn exit_code(&self) -> i32 {
         match self {
-            Error::Input(_) | Error::Usage(_) | Error::Io { .. } => 2,
+            Error::Input(_) | Error::Usage(_) | Error::Invalid { .. } | Error::Io { .. } => 2,
             Error::Internal(_) => 1,
         }
     }
 
     pub fn usage(msg: impl Into<String>) -> Error {
         Error::Usage(msg.into())
+    }
+
+    /// An invalid option value, by field name.
+    pub fn invalid(field: &'static str, reason: impl Into<String>) -> Error {
+        Error::Invalid {
+            field,
+            reason: reason.into(),
+        }
     }
 
     pub fn io(path: impl Into<String>, source: std::io::Error) -> Error {

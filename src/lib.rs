@@ -33,13 +33,17 @@
 
 pub mod cli;
 pub mod deterministic;
+pub mod distribution;
 pub mod ensemble;
 pub mod error;
 pub mod kernel;
 pub mod network;
 pub mod noise;
+pub mod numbers;
 pub mod reconcile;
 pub mod report;
+pub mod sbml;
+pub mod serial;
 pub mod stationary;
 pub mod stats;
 pub mod sweep;

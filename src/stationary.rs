@@ -11,28 +11,94 @@
 use crate::deterministic::Steady;
 use crate::ensemble::EnsembleSpec;
 use crate::network::Network;
+use serde::Serialize;
 
 /// Burn-in in units of the slowest relaxation time.
 pub const BURN_IN_TAUS: f64 = 5.0;
 /// Measurement window in units of the slowest relaxation time.
 pub const WINDOW_TAUS: f64 = 20.0;
+/// Fewest relaxation times of burn-in and of window for stationary figures to be trusted: after
+/// a burn-in of 3τ, e^(−3) ≈ 5 % of a start-up offset in the mean and e^(−6) ≈ 0.25 % of the
+/// missing variance remain (linear relaxation; common practice).
+pub const RELIABLE_TAUS: f64 = 3.0;
+
+/// Where replicates start.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize)]
+#[serde(rename_all = "snake_case")]
+pub enum Start {
+    /// The deterministic steady state rounded to whole molecules, conservation laws kept.
+    SteadyState,
+    /// The file's initial state.
+    InitialState,
+}
+
+impl Start {
+    /// The words the reports use.
+    pub fn describe(self) -> &'static str {
+        match self {
+            Start::SteadyState => "steady state",
+            Start::InitialState => "initial state",
+        }
+    }
+}
+
+/// Why copyloop measured over a shorter stretch than its rule asks.
+#[derive(Clone, Copy, Debug, PartialEq, Serialize)]
+pub struct Shortening {
+    /// The burn-in and end time the rule asked for (s).
+    pub full_burn_in: f64,
+    pub full_t_end: f64,
+    /// Events each replicate may spend (at the steady state's event rate).
+    pub event_budget: f64,
+}
 
 /// Where and how long replicates run.
 #[derive(Clone, Debug, PartialEq)]
 pub struct Plan {
     /// Initial counts of every species.
     pub start: Vec<i64>,
-    /// `"steady state"` or `"initial state"`.
-    pub started_from: &'static str,
+    pub started_from: Start,
     /// Slowest relaxation time τ (s), infinite when no free species relaxes.
     pub relaxation_time: f64,
     pub burn_in: f64,
     pub t_end: f64,
     /// Whether the burn-in was chosen by copyloop rather than given.
     pub burn_in_found: bool,
+    /// Set when copyloop chose the times and cut them to stay within its event budget.
+    pub shortened: Option<Shortening>,
+}
+
+/// How many relaxation times a plan's burn-in and window cover.
+#[derive(Clone, Copy, Debug, PartialEq, Serialize)]
+pub struct Coverage {
+    /// burn-in/τ and (t_end − burn-in)/τ (null where τ is unknown).
+    pub burn_in_relaxation_times: Option<f64>,
+    pub window_relaxation_times: Option<f64>,
+    /// Both at least [`RELIABLE_TAUS`]; false also where τ is unknown.
+    pub reliable: bool,
 }
 
 impl Plan {
+    /// The burn-in and window in relaxation times, and whether they are long enough for
+    /// stationary figures ([`RELIABLE_TAUS`] each).
+    pub fn coverage(&self) -> Coverage {
+        let tau = self.relaxation_time;
+        if !(tau.is_finite() && tau > 0.0) {
+            return Coverage {
+                burn_in_relaxation_times: None,
+                window_relaxation_times: None,
+                reliable: false,
+            };
+        }
+        let b = self.burn_in / tau;
+        let w = (self.t_end - self.burn_in) / tau;
+        Coverage {
+            burn_in_relaxation_times: Some(b),
+            window_relaxation_times: Some(w),
+            reliable: b >= RELIABLE_TAUS && w >= RELIABLE_TAUS,
+        }
+    }
+
     /// The exact ensemble that measures this plan: replicates `first ..` of `seed`, each
     /// starting at [`Plan::start`], measured over [burn-in, t_end], with no grid beyond its ends.
     pub fn ensemble(
@@ -54,6 +120,33 @@ impl Plan {
             initial: Some(self.start.clone()),
             ..EnsembleSpec::new(self.t_end)
         }
+    }
+}
+
+/// The plan as reports show it: `burn_in`, `t_end`, `shortened` and its `reason` (null, or
+/// `"event_budget"` with the times the rule asked for), where replicates started, the
+/// relaxation time and the coverage.
+impl Serialize for Plan {
+    fn serialize<S: serde::Serializer>(&self, s: S) -> Result<S::Ok, S::Error> {
+        use serde::ser::SerializeMap;
+        let mut m = s.serialize_map(None)?;
+        m.serialize_entry("burn_in", &self.burn_in)?;
+        m.serialize_entry("t_end", &self.t_end)?;
+        m.serialize_entry("shortened", &self.shortened.is_some())?;
+        m.serialize_entry("reason", &self.shortened.map(|_| "event_budget"))?;
+        if let Some(sh) = &self.shortened {
+            m.serialize_entry("full_burn_in", &sh.full_burn_in)?;
+            m.serialize_entry("full_t_end", &sh.full_t_end)?;
+            m.serialize_entry("event_budget", &sh.event_budget)?;
+        }
+        m.serialize_entry("burn_in_found", &self.burn_in_found)?;
+        m.serialize_entry("started_from", &self.started_from)?;
+        m.serialize_entry("relaxation_time", &self.relaxation_time)?;
+        let c = self.coverage();
+        m.serialize_entry("burn_in_relaxation_times", &c.burn_in_relaxation_times)?;
+        m.serialize_entry("window_relaxation_times", &c.window_relaxation_times)?;
+        m.serialize_entry("reliable", &c.reliable)?;
+        m.end()
     }
 }
 
@@ -124,16 +217,22 @@ pub fn plan(
     let tau = steady.map_or(f64::INFINITY, relaxation_time);
     let start = steady.and_then(|s| integer_start(net, s));
     let started_from = if start.is_some() {
-        "steady state"
+        Start::SteadyState
     } else {
-        "initial state"
+        Start::InitialState
     };
     let start = start.unwrap_or_else(|| net.initial_state());
     // Without a finite relaxation time, fall back to 100 s of burn-in and 400 s of window.
     let mut tau_or = if tau.is_finite() { tau } else { 20.0 };
     let rate: f64 = steady.map_or(0.0, |s| s.fluxes_per_s.iter().map(|f| f.abs()).sum());
     let wanted = (BURN_IN_TAUS + WINDOW_TAUS) * tau_or * rate;
+    let mut shortened = None;
     if burn_in.is_none() && t_end.is_none() && wanted > max_events {
+        shortened = Some(Shortening {
+            full_burn_in: BURN_IN_TAUS * tau_or,
+            full_t_end: (BURN_IN_TAUS + WINDOW_TAUS) * tau_or,
+            event_budget: max_events,
+        });
         tau_or *= max_events / wanted;
     }
     let found = burn_in.is_none();
@@ -149,6 +248,7 @@ pub fn plan(
         burn_in,
         t_end,
         burn_in_found: found,
+        shortened,
     }
 }
 

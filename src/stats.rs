@@ -152,6 +152,114 @@ impl FromIterator<f64> for Welford {
     }
 }
 
+/// Running means, variances and covariance of a stream of pairs (x, y).
+///
+/// The bivariate form of [`Welford`]: with δx = x − x̄ₙ₋₁, the co-moment updates as
+/// Cₙ = Cₙ₋₁ + δx·(y − ȳₙ) (Welford 1962 [M]), and two accumulators merge with
+/// C = C_a + C_b + δx·δy·n_a·n_b/n (Chan, Golub & LeVeque 1979 [M]). Sample covariance
+/// C/(n − 1).
+#[derive(Clone, Debug, Default, PartialEq, Serialize, Deserialize)]
+pub struct Bivariate {
+    x: Welford,
+    y: Welford,
+    c: f64,
+}
+
+impl Bivariate {
+    /// An empty accumulator.
+    pub fn new() -> Self {
+        Self::default()
+    }
+
+    /// Adds one pair.
+    pub fn push(&mut self, x: f64, y: f64) {
+        let dx = x - self.x.mean;
+        self.x.push(x);
+        self.y.push(y);
+        self.c += dx * (y - self.y.mean);
+    }
+
+    /// Combines another accumulator into this one, as if all its pairs had been pushed.
+    pub fn merge(&mut self, other: &Bivariate) {
+        if other.x.n == 0 {
+            return;
+        }
+        if self.x.n == 0 {
+            *self = other.clone();
+            return;
+        }
+        let (na, nb) = (self.x.n as f64, other.x.n as f64);
+        let (dx, dy) = (other.x.mean - self.x.mean, other.y.mean - self.y.mean);
+        self.c += other.c + dx * dy * (na * nb / (na + nb));
+        self.x.merge(&other.x);
+        self.y.merge(&other.y);
+    }
+
+    /// The x values alone.
+    pub fn x(&self) -> &Welford {
+        &self.x
+    }
+
+    /// The y values alone.
+    pub fn y(&self) -> &Welford {
+        &self.y
+    }
+
+    /// Sample covariance C/(n − 1) (NaN for n < 2).
+    pub fn covariance(&self) -> f64 {
+        if self.x.n < 2 {
+            f64::NAN
+        } else {
+            self.c / (self.x.n - 1) as f64
+        }
+    }
+}
+
+/// The variance of a stationary quantity from R replicates' window averages m_r and time-
+/// averaged squares q_r (the pairs of `b`): by the law of total variance,
+/// Var(X) = E[q_r − m_r²] + Var(m_r), estimated without bias by (q̄ − m̄²) + s²_m/R
+/// (common practice); never negative.
+pub fn total_variance(b: &Bivariate) -> f64 {
+    let r = b.x().count() as f64;
+    let m = b.x().mean();
+    let between = if r > 1.0 { b.x().variance() / r } else { 0.0 };
+    (b.y().mean() - m * m + between).max(0.0)
+}
+
+/// An estimate of a smooth function f(x̄, ȳ) of two means, with its delta-method standard
+/// error and Student-t 95 % interval.
+///
+/// SE² = gᵀ·Σ·g / n with g = (∂f/∂x̄, ∂f/∂ȳ) at the means and Σ the sample covariance matrix
+/// of (x, y) (the delta method: e.g. Casella & Berger 2002, Statistical Inference, §5.5.4
+/// [M]); the interval is f ± t_{0.975, n−1}·SE.
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub struct DeltaEstimate {
+    pub value: f64,
+    pub stderr: f64,
+    pub ci95: [f64; 2],
+}
+
+impl DeltaEstimate {
+    /// f at the means of `b`, given f's value there and its gradient `grad` = (∂f/∂x̄, ∂f/∂ȳ).
+    pub fn new(b: &Bivariate, value: f64, grad: [f64; 2]) -> DeltaEstimate {
+        let n = b.x.count();
+        let var = grad[0] * grad[0] * b.x.variance()
+            + 2.0 * grad[0] * grad[1] * b.covariance()
+            + grad[1] * grad[1] * b.y.variance();
+        let stderr = (var.max(0.0) / n as f64).sqrt();
+        let half = if n >= 2 {
+            t_quantile(0.975, (n - 1) as f64) * stderr
+        } else {
+            f64::NAN
+        };
+        DeltaEstimate {
+            value,
+            stderr,
+            ci95: [value - half, value + half],
+        }
+    }
+}
+
 // ---------------------------------------------------------------------------------------------
 // Student-t intervals
 // ---------------------------------------------------------------------------------------------
@@ -675,6 +783,56 @@ fn kolmogorov_sf_large(lambda: f64) -> f64 {
 }
 
 #[cfg(test)]
+mod bivariate_tests {
+    use super::*;
+
+    // The streaming covariance and its merge equal the two-pass textbook formula
+    // Σ(x − x̄)(y − ȳ)/(n − 1) (common practice).
+    #[test]
+    fn covariance_matches_two_pass() {
+        let xs: Vec<f64> = (0..50)
+            .map(|i| (i as f64 * 0.37).sin() * 10.0 + 100.0)
+            .collect();
+        let ys: Vec<f64> = xs
+            .iter()
+            .enumerate()
+            .map(|(i, x)| x * x + i as f64)
+            .collect();
+        let n = xs.len() as f64;
+        let (mx, my) = (xs.iter().sum::<f64>() / n, ys.iter().sum::<f64>() / n);
+        let two_pass: f64 = xs
+            .iter()
+            .zip(&ys)
+            .map(|(x, y)| (x - mx) * (y - my))
+            .sum::<f64>()
+            / (n - 1.0);
+        let mut a = Bivariate::new();
+        let mut b = Bivariate::new();
+        for (i, (&x, &y)) in xs.iter().zip(&ys).enumerate() {
+            if i < 17 {
+                a.push(x, y)
+            } else {
+                b.push(x, y)
+            }
+        }
+        a.merge(&b);
+        assert!((a.covariance() - two_pass).abs() < 1e-9 * two_pass.abs());
+        assert!((a.x().mean() - mx).abs() < 1e-12 * mx);
+    }
+
+    // For f = x̄ the delta method reduces to the standard error of the mean s/√n.
+    #[test]
+    fn delta_method_of_a_mean_is_the_standard_error() {
+        let mut b = Bivariate::new();
+        for i in 0..30 {
+            b.push(i as f64, (i * i) as f64);
+        }
+        let d = DeltaEstimate::new(&b, b.x().mean(), [1.0, 0.0]);
+        assert!((d.stderr - b.x().stderr()).abs() < 1e-12);
+    }
+}
+
+#[cfg(test)]
 mod tests {
     use super::*;
     use rand::{RngExt, SeedableRng};
@@ -766,14 +924,14 @@ mod tests {
 
     #[test]
     fn t_quantiles_match_tables() {
-        // Two-sided 95 % points of Student's t, standard t tables [M]; 2.306004 for 8 dof as
-        // given in DESIGN.md (standard t tables).
+        // Two-sided 95 % points of Student's t (standard t tables; recomputed with scipy in
+        // tests/reference/tables.py [C]): 2.306004 for 8 dof.
         assert!((t_quantile(0.975, 8.0) - 2.306004).abs() < 1e-6);
         assert!((t_quantile(0.975, 1.0) - 12.7062).abs() < 5e-5);
         assert!((t_quantile(0.975, 2.0) - 4.3027).abs() < 5e-5);
         assert!((t_quantile(0.975, 30.0) - 2.0423).abs() < 5e-5);
         assert!((t_quantile(0.995, 10.0) - 3.1693).abs() < 5e-5);
-        // Symmetry and the normal limit z_{0.975} = 1.959964 (normal tables [M]).
+        // Symmetry and the normal limit z_{0.975} = 1.959964 (tests/reference/tables.py [C]).
         assert!((t_quantile(0.025, 8.0) + 2.306004).abs() < 1e-6);
         assert!((t_quantile(0.975, 1e9) - 1.959964).abs() < 1e-6);
         assert!((t_quantile(0.975, f64::INFINITY) - 1.959964).abs() < 1e-6);
@@ -908,7 +1066,7 @@ mod tests {
         let r = chi_square_gof(&[10, 20, 30, 40], &[0.25; 4]).unwrap();
         assert!((r.statistic - 20.0).abs() < 1e-12);
         assert_eq!(r.dof, 3);
-        // χ²₃ 95 % point 7.8147 (standard χ² tables [M]): p = 0.05 there.
+        // χ²₃ 95 % point 7.8147 (standard χ² tables; tests/reference/tables.py [C]): p = 0.05.
         assert!((chi_square_sf(7.8147, 3) - 0.05).abs() < 1e-5);
     }
 
@@ -1003,7 +1161,7 @@ mod tests {
     #[test]
     fn kolmogorov_distribution_table_values() {
         // Asymptotic critical values of the Kolmogorov distribution (Smirnov 1948 table;
-        // standard KS tables [M]): P(K > 1.2238) = 0.10, P(K > 1.3581) = 0.05,
+        // standard KS tables; scipy's kstwobign in tests/reference/tables.py [C]): P(K > 1.2238) = 0.10, P(K > 1.3581) = 0.05,
         // P(K > 1.6276) = 0.01.
         assert!((kolmogorov_sf(1.2238) - 0.10).abs() < 1e-4);
         assert!((kolmogorov_sf(1.3581) - 0.05).abs() < 1e-4);

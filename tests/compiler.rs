@@ -205,14 +205,14 @@ proptest! {
         let m = net.reactions.len();
         for law in &net.conservation_laws {
             for j in 0..m {
-                let s: i64 = free.iter().map(|&i| law[i] * net.stoichiometry[i][j]).sum();
+                let s: i64 = free.iter().map(|&i| law[i] * net.stoichiometry.get(i, j)).sum();
                 prop_assert_eq!(s, 0, "{}", text);
             }
             for i in 0..n {
                 if clamped[i] { prop_assert_eq!(law[i], 0); }
             }
         }
-        let s_free: Vec<Vec<f64>> = free.iter().map(|&i| net.stoichiometry[i].iter().map(|&x| x as f64).collect()).collect();
+        let s_free: Vec<Vec<f64>> = free.iter().map(|&i| net.stoichiometry.dense_row(i).iter().map(|&x| x as f64).collect()).collect();
         let expected_dim = free.len() - svd_rank(&s_free, m);
         let laws: Vec<Vec<f64>> = net.conservation_laws.iter().map(|l| free.iter().map(|&i| l[i] as f64).collect()).collect();
         prop_assert_eq!(net.conservation_laws.len(), expected_dim, "{}", text);

@@ -311,3 +311,23 @@ mod random_networks {
         }
     }
 }
+
+// A law that is negative at the steady state is refused as the direct method refuses it
+// (`0 -> A @ 5`, `0 -> A @ law 3 - A`, `A -> 0 @ 1`: the algebraic state A = 4 makes the law
+// −1), with the step's location; before, steady reported the state and a flux of −1.
+#[test]
+fn a_negative_law_at_the_steady_state_is_refused() {
+    let n = copyloop::network::load_source(
+        "neg.crn",
+        b"species A = 0\nstep a 0 -> A @ 5\nstep b 0 -> A @ law 3 - A\nstep d A -> 0 @ 1\n",
+        &copyloop::network::Overrides::default(),
+    )
+    .unwrap();
+    let e = copyloop::deterministic::solve(&n, &Default::default()).unwrap_err();
+    assert_eq!(e.exit_code(), 2);
+    let text = e.to_string();
+    assert!(
+        text.contains("neg.crn:3:1") && text.contains("step `b`"),
+        "{text}"
+    );
+}

@@ -12,7 +12,7 @@
 use copyloop::ensemble::{self, EnsembleSpec, Method};
 use copyloop::kernel::observe::RecordSpec;
 use copyloop::kernel::rng::replicate_rng;
-use copyloop::kernel::tau::Tau;
+use copyloop::kernel::tau::{Switch, Tau};
 use copyloop::kernel::{CompiledKernel, Direct, Observer, Recorder};
 use copyloop::network::{load_source, Network, Overrides, AVOGADRO};
 use copyloop::stats::{chi_square_gof, Welford};
@@ -370,8 +370,8 @@ impl Observer for Log {
 fn tau_fires_a_trigger_at_the_state_that_makes_it_true() {
     let n = net("species X = 0\nstep in 0 -> X @ 2000\nwhen X >= 40 : X = 0\n");
     let k = CompiledKernel::new(&n).unwrap();
-    for auto in [false, true] {
-        let mut tau = Tau::new(&k, &n, 0.03, auto);
+    for switch in [Switch::Tau, Switch::Auto] {
+        let mut tau = Tau::new(&k, &n, 0.03, switch);
         let mut log = Log::default();
         tau.run(&k.x0, 2.0, &mut replicate_rng(107, 0), &mut log)
             .unwrap();
@@ -399,7 +399,7 @@ fn tau_never_leaps_across_a_breakpoint() {
     let j = n.reaction_index("infuse_X").unwrap();
     let mut total = Welford::new();
     for r in 0..400 {
-        let mut tau = Tau::new(&k, &n, 0.03, false);
+        let mut tau = Tau::new(&k, &n, 0.03, Switch::Tau);
         let mut log = Log::default();
         tau.run(&k.x0, 30.0, &mut replicate_rng(108, r), &mut log)
             .unwrap();

@@ -178,7 +178,8 @@ fn bad_options_are_usage_errors() {
     ];
     for spec in bad {
         let err = ensemble::run(&n, &spec).unwrap_err();
-        assert!(matches!(err, Error::Usage(_)), "{spec:?}: {err}");
+        assert!(matches!(err, Error::Invalid { .. }), "{spec:?}: {err}");
+        assert_eq!(err.exit_code(), 2);
     }
     for method in [
         Method::Tau { epsilon: 0.03 },

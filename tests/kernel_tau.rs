@@ -2,7 +2,7 @@
 
 use copyloop::ensemble::{self, EnsembleSpec, Method};
 use copyloop::kernel::rng::replicate_rng;
-use copyloop::kernel::tau::Tau;
+use copyloop::kernel::tau::{Switch, Tau};
 use copyloop::kernel::{CompiledKernel, Observer};
 use copyloop::network::{load_source, Network, Overrides};
 use copyloop::stats::{
@@ -169,7 +169,7 @@ impl Observer for Lowest {
 fn lowest_count(src: &str, seed: u64, t_end: f64, eps: f64) -> i64 {
     let n = net(src);
     let k = CompiledKernel::new(&n).unwrap();
-    let mut tau = Tau::new(&k, &n, eps, false);
+    let mut tau = Tau::new(&k, &n, eps, Switch::Tau);
     let mut obs = Lowest(i64::MAX);
     let x0 = n.initial_state();
     let mut rng = replicate_rng(seed, 0);
@@ -212,5 +212,101 @@ proptest! {
             c[0], c[1], c[2], 10.0 * c[3], c[4]
         );
         prop_assert!(lowest_count(&src, seed, 5.0, eps) >= 0);
+    }
+}
+
+/// Means and Fano factor of species `i` at t_end under `method`, with R replicates.
+fn mean_and_fano(src: &str, method: Method, r: u64, t_end: f64, seed: u64) -> (f64, f64) {
+    let e = finals(&net(src), method, r, t_end, seed);
+    let w = &e.final_state[0];
+    (w.mean(), w.variance() / w.mean())
+}
+
+// Immigration–death from X = 0 is Poisson at every time with mean (k/γ)(1 − e^(−γt))
+// (REFERENCES §2b [C]; Jahnke & Huisinga 2007 [verified]). The first tau kernel leapt from
+// X = 0 straight to t_end (X only produced at first, so nothing bounded the leap) and gave
+// ≈ 1000 at t = 100 and 50.2 at t = 1. Tolerance: 4 SE of the mean (SE = √(mean/R)) and
+// 4·√(2/R) on the Fano factor (REFERENCES §0), the leap bias being far below both here.
+#[test]
+fn immigration_death_from_zero_matches_the_exact_law() {
+    let r = 4000u64;
+    for (src, t, exact) in [
+        (
+            "species X = 0\nstep make 0 -> X @ 10\nstep decay X -> 0 @ 0.1\n",
+            100.0,
+            100.0 * (1.0 - (-10f64).exp()),
+        ),
+        (
+            "species X = 0\nstep make 0 -> X @ 50\nstep decay X -> 0 @ 0.5\n",
+            1.0,
+            100.0 * (1.0 - (-0.5f64).exp()),
+        ),
+    ] {
+        for method in [
+            Method::Tau { epsilon: 0.03 },
+            Method::Auto { epsilon: 0.03 },
+        ] {
+            let (mean, fano) = mean_and_fano(src, method, r, t, 5);
+            let se = (exact / r as f64).sqrt();
+            assert!(
+                (mean - exact).abs() < 4.0 * se,
+                "{method:?} t = {t}: mean {mean} vs exact {exact}"
+            );
+            assert!(
+                (fano - 1.0).abs() < 4.0 * (2.0 / r as f64).sqrt(),
+                "{method:?} t = {t}: Fano {fano}"
+            );
+        }
+    }
+}
+
+// A law that turns negative stops tau and auto with the same error as the direct method
+// (`0 -> A @ 5`, `0 -> A @ law 3 - A`: the law is −1 once A reaches 4); before, tau leapt
+// past it and exited with A ≈ 7.7.
+#[test]
+fn a_negative_law_stops_tau_as_it_stops_direct() {
+    let n = net("species A = 0\nstep a 0 -> A @ 5\nstep b 0 -> A @ law 3 - A\n");
+    for method in [
+        Method::Direct,
+        Method::Tau { epsilon: 0.03 },
+        Method::Auto { epsilon: 0.03 },
+    ] {
+        let spec = EnsembleSpec {
+            method,
+            ..EnsembleSpec::new(1.0)
+        };
+        let err = ensemble::run(&n, &spec).expect_err("the law goes negative");
+        assert_eq!(err.exit_code(), 2, "{method:?}");
+        let text = err.to_string();
+        assert!(
+            text.contains("step `b`") && text.contains("propensity became -"),
+            "{method:?}: {text}"
+        );
+    }
+}
+
+// The bundled gland loop (invented demo numbers) under tau against the exact method at
+// t = 500 s, 100 replicates each: free hormone, bound receptor and messenger within 4
+// combined SE plus 3 % (the leap bias at ε = 0.03). The first tau kernel gave H ≈ 43,000
+// against ≈ 560 and left the receptor unbound.
+#[test]
+fn gland_loop_under_tau_matches_direct() {
+    let src = std::fs::read_to_string("reactions/gland_loop.crn").unwrap();
+    let n = net(&src);
+    let exact = finals(&n, Method::Direct, 100, 500.0, 11);
+    let tau = finals(&n, Method::Tau { epsilon: 0.03 }, 100, 500.0, 12);
+    assert!(tau.leaps > 0);
+    for name in ["H", "HR", "Q"] {
+        let i = n.species_index(name).unwrap();
+        let (e, t) = (&exact.final_state[i], &tau.final_state[i]);
+        let se = (e.stderr().powi(2) + t.stderr().powi(2)).sqrt();
+        assert!(
+            (e.mean() - t.mean()).abs() < 4.0 * se + 0.03 * e.mean(),
+            "{name}: exact {} ± {}, tau {} ± {}",
+            e.mean(),
+            e.stderr(),
+            t.mean(),
+            t.stderr()
+        );
     }
 }

@@ -4,12 +4,14 @@
 //! library's own option types, calls the library, and hands the result to `report`.
 
 mod check;
+mod distribution;
 mod merge;
 mod noise;
 mod reconcile;
 mod simulate;
 mod steady;
 mod sweep;
+mod values;
 
 use crate::error::Result;
 use clap::{Parser, Subcommand};
@@ -46,6 +48,10 @@ pub enum Command {
     /// prediction, optionally at several volumes
     #[command(after_help = CAUTION)]
     Noise(noise::NoiseArgs),
+    /// Exact distributions by finite state projection: marginals, mean, variance, Fano factor
+    /// and p(0) of every species on a time grid, or the stationary law, with an error bound
+    #[command(after_help = CAUTION)]
+    Distribution(distribution::DistributionArgs),
     /// Run a task at many parameter points: resumable, shardable, one JSON line per point
     #[command(after_help = CAUTION)]
     Sweep(sweep::SweepArgs),
@@ -58,10 +64,17 @@ pub enum Command {
 pub fn run(cli: Cli) -> Result<()> {
     match cli.command {
         Command::Check(a) => check::run(&a),
-        Command::Simulate(a) => simulate::run(&a),
+        Command::Simulate(a) => {
+            simulate::run(&a).map_err(|e| values::with_flags(e, values::SIMULATE_FLAGS))
+        }
         Command::Steady(a) => steady::run(&a),
-        Command::Reconcile(a) => reconcile::run(&a),
-        Command::Noise(a) => noise::run(&a),
+        Command::Reconcile(a) => {
+            reconcile::run(&a).map_err(|e| values::with_flags(e, values::STATIONARY_FLAGS))
+        }
+        Command::Noise(a) => {
+            noise::run(&a).map_err(|e| values::with_flags(e, values::STATIONARY_FLAGS))
+        }
+        Command::Distribution(a) => distribution::run(&a),
         Command::Sweep(a) => sweep::run(a),
         Command::Merge(a) => merge::run(&a),
     }

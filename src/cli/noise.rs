@@ -15,11 +15,12 @@ pub struct NoiseArgs {
     /// Replicate trajectories per volume
     #[arg(long, default_value_t = 100)]
     pub replicates: u64,
-    /// End time of each trajectory in seconds (default: burn-in + 20 relaxation times)
-    #[arg(long)]
+    /// End time of each trajectory, e.g. 3600 or 1h (bare: seconds; default: burn-in + 20
+    /// relaxation times)
+    #[arg(long, value_parser = super::values::time, allow_negative_numbers = true)]
     pub t_end: Option<f64>,
     /// Statistics are taken over [burn-in, t-end] (default: 5 relaxation times, reported)
-    #[arg(long)]
+    #[arg(long, value_parser = super::values::time, allow_negative_numbers = true)]
     pub burn_in: Option<f64>,
     /// Repeat at these volumes, amounts kept as concentrations, e.g. 0.1pL,1pL,10pL
     #[arg(long, value_delimiter = ',', value_name = "V1,V2,…")]
@@ -76,25 +77,22 @@ pub(crate) fn document(a: &NoiseArgs, p: &crate::sweep::Point) -> Result<serde_j
         progress: false,
         ..options(a)?
     };
-    Ok(report::noise::json(
-        &p.net.file,
-        p.seed,
-        &noise::noise(p.net, &opts)?,
-    ))
+    let result = noise::noise(p.net, &opts)
+        .map_err(|e| super::values::with_flags(e, super::values::STATIONARY_FLAGS))?;
+    Ok(report::noise::json(&result))
 }
 
 pub fn run(a: &NoiseArgs) -> Result<()> {
     let net = load(&a.file, &Overrides::default())?;
     super::print_warnings(&net);
     let opts = options(a)?;
-    let vols = noise::noise(&net, &opts)?;
+    let result = noise::noise(&net, &opts)?;
     if let Some(path) = &a.svg {
-        std::fs::write(path, report::noise::svg(&net.file, &vols))
-            .map_err(|e| Error::io(path, e))?;
+        std::fs::write(path, report::noise::svg(&result)).map_err(|e| Error::io(path, e))?;
     }
     if a.json {
-        super::print_json(&report::noise::json(&net.file, a.seed, &vols))
+        super::print_json(&report::noise::json(&result))
     } else {
-        super::print_stdout(&report::noise::table(&net.file, &vols))
+        super::print_stdout(&report::noise::table(&result))
     }
 }

@@ -15,11 +15,12 @@ pub struct ReconcileArgs {
     /// Replicate trajectories (the first batch, with --precision)
     #[arg(long, default_value_t = 200)]
     pub replicates: u64,
-    /// End time of each trajectory in seconds (default: burn-in + 20 relaxation times)
-    #[arg(long)]
+    /// End time of each trajectory, e.g. 3600 or 1h (bare: seconds; default: burn-in + 20
+    /// relaxation times)
+    #[arg(long, value_parser = super::values::time, allow_negative_numbers = true)]
     pub t_end: Option<f64>,
     /// Fluxes and levels are measured over [burn-in, t-end] (default: 5 relaxation times)
-    #[arg(long)]
+    #[arg(long, value_parser = super::values::time, allow_negative_numbers = true)]
     pub burn_in: Option<f64>,
     /// Observed steady level NAME=VALUE[±SD], e.g. H=2nM±0.2nM (`+-` may stand for `±`); repeatable
     #[arg(long, value_name = "NAME=VALUE[±SD]")]
@@ -33,6 +34,10 @@ pub struct ReconcileArgs {
     /// Most replicates --precision may use
     #[arg(long, default_value_t = 20_000)]
     pub max_replicates: u64,
+    /// A prediction agrees with the ensemble when the 95 % interval of their relative
+    /// difference lies within ±REL (0.05: 5 %)
+    #[arg(long, default_value_t = reconcile::DEFAULT_TOLERANCE, value_name = "REL")]
+    pub tolerance: f64,
     /// Start every replicate from the file's initial state (default: the rounded steady state)
     #[arg(long)]
     pub from_initial: bool,
@@ -64,11 +69,13 @@ fn options(a: &ReconcileArgs, net: &crate::Network) -> Result<Options> {
         burn_in: a.burn_in,
         precision: a.precision,
         max_replicates: a.max_replicates,
+        tolerance: a.tolerance,
         observations,
         fit: a.fit.clone(),
         from_initial: a.from_initial,
         progress: std::io::stderr().is_terminal(),
     };
+    opts.validate()?;
     Ok(opts)
 }
 
@@ -80,10 +87,9 @@ pub(crate) fn document(a: &ReconcileArgs, p: &crate::sweep::Point) -> Result<ser
         progress: false,
         ..options(a, p.net)?
     };
-    Ok(report::reconcile::json(
-        p.net,
-        &reconcile::reconcile(p.net, &opts)?,
-    ))
+    let result = reconcile::reconcile(p.net, &opts)
+        .map_err(|e| super::values::with_flags(e, super::values::STATIONARY_FLAGS))?;
+    Ok(report::reconcile::json(&result))
 }
 
 pub fn run(a: &ReconcileArgs) -> Result<()> {
@@ -95,7 +101,7 @@ pub fn run(a: &ReconcileArgs) -> Result<()> {
         std::fs::write(path, report::reconcile::svg(&net, &r)).map_err(|e| Error::io(path, e))?;
     }
     if a.json {
-        super::print_json(&report::reconcile::json(&net, &r))
+        super::print_json(&report::reconcile::json(&r))
     } else {
         super::print_stdout(&report::reconcile::table(&net, &r))
     }

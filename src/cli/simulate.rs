@@ -1,5 +1,6 @@
 //! `copyloop simulate FILE --t-end T`: a replicate ensemble of one network.
 
+use crate::distribution::{self, compare};
 use crate::ensemble::{self, EnsembleSpec, Method};
 use crate::error::{Error, Result};
 use crate::network::{load, Overrides};
@@ -26,8 +27,8 @@ pub enum MethodArg {
 pub struct SimulateArgs {
     /// Network file (.crn)
     pub file: String,
-    /// End time of every trajectory, in seconds
-    #[arg(long, value_name = "T")]
+    /// End time of every trajectory: a time such as 600, 10min or 2h (bare: seconds)
+    #[arg(long, value_name = "T", value_parser = super::values::time, allow_negative_numbers = true)]
     pub t_end: f64,
     /// Number of independent trajectories
     #[arg(long, default_value_t = 1, value_name = "N")]
@@ -41,8 +42,8 @@ pub struct SimulateArgs {
     /// Sample points evenly spaced from 0 to T inclusive
     #[arg(long, default_value_t = 101, value_name = "K")]
     pub grid: usize,
-    /// Start of the window for firing counts and time averages, in seconds
-    #[arg(long, default_value_t = 0.0, value_name = "T0")]
+    /// Start of the window for firing counts and time averages (bare: seconds)
+    #[arg(long, default_value = "0", value_name = "T0", value_parser = super::values::time, allow_negative_numbers = true)]
     pub window: f64,
     /// Write the grid (mean and sd of every species at every sample time) as CSV
     #[arg(long, value_name = "F.csv")]
@@ -56,6 +57,10 @@ pub struct SimulateArgs {
     /// Print one JSON document instead of the table
     #[arg(long)]
     pub json: bool,
+    /// Compare the grid with the exact distribution (finite state projection, where the
+    /// network fits): the Z and Y statistics of the discrete stochastic test suite
+    #[arg(long)]
+    pub exact: bool,
 }
 
 impl SimulateArgs {
@@ -88,6 +93,11 @@ impl SimulateArgs {
 
 /// The deterministic time course on the grid this command line asks for.
 fn ode(a: &SimulateArgs, net: &crate::Network) -> Result<(crate::deterministic::Trajectory, f64)> {
+    if a.exact {
+        return Err(Error::usage(
+            "--exact compares an ensemble with the exact distribution; --method ode runs no ensemble",
+        ));
+    }
     let spec = a.spec();
     spec.validate()?;
     let times = crate::kernel::observe::grid_times(spec.t_end, spec.grid_points);
@@ -108,7 +118,28 @@ pub(crate) fn document(a: &SimulateArgs, p: &crate::sweep::Point) -> Result<serd
         progress: false,
         ..a.spec()
     };
-    Ok(report::simulate::json(p.net, &ensemble::run(p.net, &spec)?))
+    let result = ensemble::run(p.net, &spec)
+        .map_err(|e| super::values::with_flags(e, super::values::SIMULATE_FLAGS))?;
+    let mut doc = report::simulate::json(p.net, &result);
+    if a.exact {
+        report::simulate::add_exact_json(&mut doc, &exact(p.net, &result, Some(p.threads)));
+    }
+    Ok(doc)
+}
+
+/// `--exact`: the grid against the transient law, with the defaults of `copyloop distribution`.
+fn exact(
+    net: &crate::Network,
+    result: &ensemble::EnsembleResult,
+    threads: Option<usize>,
+) -> std::result::Result<compare::ExactComparison, String> {
+    let opts = distribution::Options {
+        threads,
+        ..distribution::Options::default()
+    };
+    distribution::transient(net, &result.grid_times, &opts)
+        .map(|law| compare::compare(net, &law, result))
+        .map_err(|e| e.to_string())
 }
 
 pub fn run(a: &SimulateArgs) -> Result<()> {
@@ -129,13 +160,22 @@ pub fn run(a: &SimulateArgs) -> Result<()> {
         };
     }
     let result = ensemble::run(&net, &spec)?;
+    let exact = a.exact.then(|| exact(&net, &result, a.threads));
     if let Some(path) = &a.out {
         std::fs::write(path, report::simulate::csv(&net, &result))
             .map_err(|e| Error::io(path.clone(), e))?;
     }
     if a.json {
-        super::print_json(&report::simulate::json(&net, &result))
+        let mut doc = report::simulate::json(&net, &result);
+        if let Some(e) = &exact {
+            report::simulate::add_exact_json(&mut doc, e);
+        }
+        super::print_json(&doc)
     } else {
-        super::print_stdout(&report::simulate::table(&net, &result))
+        let mut text = report::simulate::table(&net, &result);
+        if let Some(e) = &exact {
+            text.push_str(&report::simulate::exact_table(e));
+        }
+        super::print_stdout(&text)
     }
 }

@@ -96,6 +96,11 @@ pub fn stationary(net: &Network, steady: &Steady) -> Result<Lna> {
             steady.stability.as_str()
         )));
     }
+    // Species that only accumulate are held (as the steady state held them): they do not
+    // fluctuate around a level.
+    let outputs: Vec<usize> = steady.outputs.iter().map(|o| o.species).collect();
+    let held = net.holding(&outputs);
+    let net = if outputs.is_empty() { net } else { &held };
     let sys = System::new(net);
     let red = Reduction::new(&sys);
     let r = red.r();

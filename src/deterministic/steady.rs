@@ -28,6 +28,7 @@ use super::ode::{Integrator, OdeFailure, OdeOptions};
 use super::reduce::Reduction;
 use super::system::System;
 use crate::network::Network;
+use crate::numbers::short;
 use crate::{Error, Result};
 use nalgebra::{Complex, DMatrix, DVector, Schur};
 
@@ -161,6 +162,20 @@ pub struct Steady {
     /// Time integrated (s) and accepted ODE steps, 0 when no integration ran.
     pub integrated_time: f64,
     pub ode_steps: usize,
+    /// The species that only accumulate ([`Network::outputs`]), with their rates at the steady
+    /// state of the rest; their entries in `conc` and `counts` hold their initial amount.
+    pub outputs: Vec<Accumulation>,
+}
+
+/// A species that only accumulates, and how fast.
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub struct Accumulation {
+    pub species: usize,
+    /// d[X]/dt in X's own compartment (concentration per second; molecules per second
+    /// without a volume).
+    pub rate: f64,
+    /// dx/dt in molecules per second.
+    pub rate_per_s: f64,
 }
 
 impl Steady {
@@ -475,18 +490,44 @@ fn slowest_time(ev: &[Complex<f64>]) -> f64 {
 }
 
 /// Finds the steady state reached from the network's initial state.
+///
+/// Species that only accumulate ([`Network::outputs`]) are held at their initial amount while
+/// the rest is solved, and reported with their accumulation rate Σⱼ S_ij·vⱼ at that state.
 pub fn solve(net: &Network, opts: &SteadyOptions) -> Result<Steady> {
     refuse_time_forcing(net)?;
+    let outputs = net.outputs();
+    if outputs.is_empty() {
+        return solve_closed(net, opts);
+    }
+    let mut st = solve_closed(&net.holding(&outputs), opts)?;
+    st.outputs = outputs
+        .iter()
+        .map(|&i| {
+            let rate: f64 = net
+                .stoichiometry
+                .row(i)
+                .iter()
+                .map(|&(j, s)| s as f64 * st.rates[j])
+                .sum();
+            let rate_per_s = rate * net.omega;
+            Accumulation {
+                species: i,
+                rate: rate_per_s / net.species_omega(i),
+                rate_per_s,
+            }
+        })
+        .collect();
+    Ok(st)
+}
+
+fn solve_closed(net: &Network, opts: &SteadyOptions) -> Result<Steady> {
     let sys = System::new(net);
     let y0 = sys.initial();
     let red = Reduction::new(&sys);
     let totals = red.totals(&y0);
     let v0 = sys.rates(&y0);
-    if v0.iter().any(|v| !v.is_finite()) {
-        return Err(Error::usage(format!(
-            "{}: a rate is not a finite number at the initial state, so no steady state can be computed",
-            net.file
-        )));
+    if let Some(j) = v0.iter().position(|v| !v.is_finite()) {
+        return Err(bad_rate(net, j, v0[j], "at the initial state"));
     }
     let g_ref = sys.gross(&v0).into_iter().fold(0.0, f64::max);
     let top0 = y0.iter().fold(0.0f64, |m, x| m.max(x.abs()));
@@ -710,6 +751,11 @@ fn finish(
     let rates = sys.rates(&y);
     let f = sys.rhs_from_rates(&rates);
     let gmax = sys.gross(&rates).into_iter().fold(ctx.g_ref, f64::max);
+    // A law may go negative where mass action cannot; the stochastic kernels refuse such a
+    // rate, and so does the steady state (beyond rounding of the largest turnover).
+    if let Some(j) = (0..rates.len()).find(|&j| rates[j] < -1e-9 * gmax.max(f64::MIN_POSITIVE)) {
+        return Err(bad_rate(net, j, rates[j], "at the steady state"));
+    }
     let max_abs = f.iter().fold(0.0f64, |m, x| m.max(x.abs()));
     let relative = if gmax > 0.0 { max_abs / gmax } else { 0.0 };
     let jr = ctx.red.reduced_jacobian(&sys.jacobian(&y));
@@ -739,6 +785,7 @@ fn finish(
         method,
         integrated_time,
         ode_steps,
+        outputs: Vec::new(),
     })
 }
 
@@ -894,32 +941,38 @@ fn classify(ctx: &Ctx, history: &[Segment], watch: &Watch) -> Option<Reason> {
     None
 }
 
-/// `1234 molecules (2.05 nM)` style amount of a concentration.
-fn amount(net: &Network, conc: f64) -> String {
-    let count = conc * net.omega;
-    match net.volume_l {
-        Some(_) => format!("{} molecules ({} M)", short(count), short(conc)),
+/// `1234 molecules (2.05e-9 M)` style amount of a state value y (counts/Ω), with its
+/// concentration where `own` (Ω_c of the compartment it refers to) is known.
+fn amount(net: &Network, own: Option<f64>, y: f64) -> String {
+    let count = y * net.omega;
+    match own {
+        Some(w) => format!(
+            "{} molecules ({} {})",
+            short(count),
+            short(count / w),
+            net.amount.concentration_unit
+        ),
         None => format!("{} molecules", short(count)),
     }
 }
 
-fn rate_text(net: &Network, rate: f64) -> String {
+/// [`amount`] per second.
+fn rate_text(net: &Network, own: Option<f64>, rate: f64) -> String {
     let count = rate * net.omega;
-    match net.volume_l {
-        Some(_) => format!("{} molecules/s ({} M/s)", short(count), short(rate)),
+    match own {
+        Some(w) => format!(
+            "{} molecules/s ({} {}/s)",
+            short(count),
+            short(count / w),
+            net.amount.concentration_unit
+        ),
         None => format!("{} molecules/s", short(count)),
     }
 }
 
-fn short(x: f64) -> String {
-    if x == 0.0 {
-        "0".into()
-    } else if (1e-3..1e6).contains(&x.abs()) {
-        let s = format!("{x:.4}");
-        s.trim_end_matches('0').trim_end_matches('.').to_string()
-    } else {
-        format!("{x:.3e}")
-    }
+/// Ω of the only compartment, for figures that belong to no one species (a conserved total).
+fn single_omega(net: &Network) -> Option<f64> {
+    (net.compartments.len() == 1).then(|| net.compartments[0].omega)
 }
 
 /// Where the algebraic steady state exists only with a negative concentration: a sentence
@@ -945,7 +998,7 @@ fn negative_root_note(ctx: &Ctx, starts: &[&[f64]]) -> Option<String> {
                 format!(
                     "{} ({})",
                     net.species[ctx.sys.free[k]].name,
-                    amount(net, run.y[k])
+                    amount(net, net.species_molar_omega(ctx.sys.free[k]), run.y[k])
                 )
             })
             .collect();
@@ -966,7 +1019,7 @@ fn negative_root_note(ctx: &Ctx, starts: &[&[f64]]) -> Option<String> {
             note.push_str(&format!(
                 ", so the conserved total {} = {} cannot hold with every amount at least 0.",
                 crate::network::law_text(net, l),
-                amount(net, total)
+                amount(net, single_omega(net), total)
             ));
         } else {
             note.push('.');
@@ -1023,11 +1076,12 @@ fn no_steady_state_because(
     let net = ctx.sys.net;
     let msg = match reason {
         Reason::Growth { slot, rate } => {
-            let name = &net.species[ctx.sys.free[slot]].name;
+            let i = ctx.sys.free[slot];
+            let name = &net.species[i].name;
             let mut m = format!(
                 "{}: no steady state is reached from the initial state: {name} grows without bound (still rising at {} at t = {} s; what makes it outpaces what removes it).",
                 net.file,
-                rate_text(net, rate),
+                rate_text(net, net.species_molar_omega(i), rate),
                 short(t)
             );
             if let Some(note) = negative_root_note(ctx, &[y0]) {
@@ -1041,12 +1095,14 @@ fn no_steady_state_because(
             high,
             period,
         } => {
-            let name = &net.species[ctx.sys.free[slot]].name;
+            let i = ctx.sys.free[slot];
+            let name = &net.species[i].name;
+            let own = net.species_molar_omega(i);
             format!(
                 "{}: no steady state is reached from the initial state: sustained oscillation; {name} keeps swinging between {} and {} (about {} s per cycle at t = {} s).{}",
                 net.file,
-                amount(net, low),
-                amount(net, high),
+                amount(net, own, low),
+                amount(net, own, high),
                 short(period),
                 short(t),
                 candidate_note(net, candidate)
@@ -1056,13 +1112,34 @@ fn no_steady_state_because(
     Error::Usage(msg)
 }
 
+/// A rate that is negative or not finite, located at its step.
+fn bad_rate(net: &Network, j: usize, v: f64, where_: &str) -> Error {
+    let r = &net.reactions[j];
+    let d = crate::error::Diagnostic::at(
+        &net.file,
+        &net.source.source,
+        r.span,
+        format!(
+            "step `{}`: its rate is {} {where_}; a rate must be finite and not negative",
+            r.label,
+            rate_text(net, net.reaction_molar_omega(j), v)
+        ),
+    )
+    .with_help(
+        "check the law for a subtraction or division that can go below zero or blow up \
+         (e.g. write `max(0, 3 - A)` or use sat/inhib)",
+    );
+    Error::Input(vec![d])
+}
+
 fn negative_during_run(ctx: &Ctx, slot: usize, value: f64, t: f64) -> Error {
     let net = ctx.sys.net;
-    let name = &net.species[ctx.sys.free[slot]].name;
+    let i = ctx.sys.free[slot];
+    let name = &net.species[i].name;
     Error::Usage(format!(
         "{}: no steady state is reached from the initial state: {name} becomes negative ({} at t = {} s); a rate law keeps removing it when none is left (write the law so that it vanishes with {name}, e.g. with sat({name}, K)).",
         net.file,
-        amount(net, value),
+        amount(net, net.species_molar_omega(i), value),
         short(t)
     ))
 }
@@ -1101,19 +1178,22 @@ fn no_steady_state(
             ga.total_cmp(&gb)
         });
         let what = match big {
-            Some(k) if y_last[k].abs() > 1e3 * (y0[k].abs() + one) => format!(
-                " {} has reached {} (from {} at the start), which points to unbounded growth.",
-                net.species[ctx.sys.free[k]].name,
-                amount(net, y_last[k]),
-                amount(net, y0[k])
-            ),
+            Some(k) if y_last[k].abs() > 1e3 * (y0[k].abs() + one) => {
+                let own = net.species_molar_omega(ctx.sys.free[k]);
+                format!(
+                    " {} has reached {} (from {} at the start), which points to unbounded growth.",
+                    net.species[ctx.sys.free[k]].name,
+                    amount(net, own, y_last[k]),
+                    amount(net, own, y0[k])
+                )
+            }
             _ => {
                 let f = ctx.sys.rhs(y_last);
                 match (0..f.len()).max_by(|&a, &b| f[a].abs().total_cmp(&f[b].abs())) {
                     Some(k) => format!(
                         " At that time {} is changing at {}.",
                         net.species[ctx.sys.free[k]].name,
-                        rate_text(net, f[k])
+                        rate_text(net, net.species_molar_omega(ctx.sys.free[k]), f[k])
                     ),
                     None => String::new(),
                 }
@@ -1132,7 +1212,7 @@ fn no_steady_state(
         Some(k) => format!(
             "; {} is still changing at {}",
             net.species[ctx.sys.free[k]].name,
-            rate_text(net, f[k])
+            rate_text(net, net.species_molar_omega(ctx.sys.free[k]), f[k])
         ),
         None => String::new(),
     };

@@ -60,7 +60,7 @@ impl Rate {
 
 /// Rows of a flat table: row j is `values[start[j]..start[j+1]]`.
 #[derive(Clone, Debug, PartialEq)]
-struct Rows<T> {
+pub struct Rows<T> {
     start: Vec<u32>,
     values: Vec<T>,
 }
@@ -78,17 +78,20 @@ impl<T: Copy> Rows<T> {
         Ok(Rows { start, values })
     }
 
+    /// Row j.
     #[inline(always)]
-    fn row(&self, j: usize) -> &[T] {
+    pub fn row(&self, j: usize) -> &[T] {
         &self.values[self.start[j] as usize..self.start[j + 1] as usize]
     }
 
+    /// Row j without bounds checks.
+    ///
     /// # Safety
     ///
     /// `j + 1 < start.len()`. `start` is non-decreasing and ends at `values.len()` by
     /// construction.
     #[inline(always)]
-    unsafe fn row_unchecked(&self, j: usize) -> &[T] {
+    pub unsafe fn row_unchecked(&self, j: usize) -> &[T] {
         debug_assert!(j + 1 < self.start.len());
         // SAFETY: see above.
         unsafe {
@@ -97,6 +100,23 @@ impl<T: Copy> Rows<T> {
             self.values.get_unchecked(s..e)
         }
     }
+}
+
+/// The dependency graph is kept as one row of dependents per reaction when that is at most
+/// this many entries per species, reaction and state change on average; beyond, by species.
+pub const WALK_PER_ENTRY: usize = 16;
+
+/// Which propensities an event recomputes (the dependency graph of Gibson & Bruck 2000, J.
+/// Phys. Chem. A 104:1876 [verified]).
+#[derive(Clone, Debug, PartialEq)]
+pub enum Updates {
+    /// Row j: the reactions whose propensity may change when j fires, each once.
+    ByReaction(Rows<u32>),
+    /// Row i: the reactions whose propensity reads species i. An event recomputes the rows of
+    /// the species its change names (a reaction that reads two of them twice). Used where the
+    /// graph by reaction would be far larger than the network (many reactions that change and
+    /// read one species), so that memory stays linear.
+    BySpecies(Rows<u32>),
 }
 
 /// A network compiled for the kernels: flat arrays only.
@@ -111,8 +131,8 @@ pub struct CompiledKernel {
     laws: Vec<Propensity>,
     /// Net change of each reaction: (species, change) for non-clamped species.
     change: Rows<(u32, i64)>,
-    /// Dependency graph: reactions whose propensity may change when j fires.
-    dependents: Rows<u32>,
+    /// Which propensities an event recomputes.
+    updates: Updates,
     small: Option<SmallTables>,
     clamped: Vec<bool>,
     /// Doses, events and the edges of piecewise-constant laws.
@@ -166,21 +186,29 @@ impl CompiledKernel {
             .iter()
             .map(|r| r.change.iter().map(|&(i, d)| (i as u32, d)).collect())
             .collect();
-        let deps: Vec<Vec<u32>> = net
-            .dependents
-            .iter()
-            .map(|d| d.iter().map(|&k| k as u32).collect())
-            .collect();
-        if deps.len() != m {
+        let graph = &net.dependents;
+        if graph.reactions() != m {
             return Err(Error::Internal(
                 "dependency graph does not match the reactions".into(),
             ));
         }
         let change = Rows::new(&changes)?;
-        let dependents = Rows::new(&deps)?;
-        let small = match small {
-            true => Some(SmallTables::new(&rates, &change, &deps, one)?),
-            false => None,
+        let by_reaction =
+            small || graph.walk_size() <= WALK_PER_ENTRY * (n + m + change.values.len());
+        let (updates, small) = if by_reaction {
+            let deps: Vec<Vec<u32>> = (0..m)
+                .map(|j| graph.of(j).into_iter().map(|k| k as u32).collect())
+                .collect();
+            let small = match small {
+                true => Some(SmallTables::new(&rates, &change, &deps, one)?),
+                false => None,
+            };
+            (Updates::ByReaction(Rows::new(&deps)?), small)
+        } else {
+            let readers: Vec<Vec<u32>> = (0..n)
+                .map(|i| graph.readers(i).iter().map(|&k| k as u32).collect())
+                .collect();
+            (Updates::BySpecies(Rows::new(&readers)?), None)
         };
         Ok(CompiledKernel {
             species: n,
@@ -188,7 +216,7 @@ impl CompiledKernel {
             rates,
             laws,
             change,
-            dependents,
+            updates,
             small,
             clamped: net.species.iter().map(|s| s.clamped).collect(),
             inputs: Inputs::new(net),
@@ -371,21 +399,9 @@ impl CompiledKernel {
         unsafe { self.change.row_unchecked(j) }
     }
 
-    /// Reactions whose propensity may change when `j` fires.
-    #[inline(always)]
-    pub fn dependents(&self, j: usize) -> &[u32] {
-        self.dependents.row(j)
-    }
-
-    /// [`CompiledKernel::dependents`] without bounds checks.
-    ///
-    /// # Safety
-    ///
-    /// `j < reactions()`.
-    #[inline(always)]
-    pub unsafe fn dependents_unchecked(&self, j: usize) -> &[u32] {
-        // SAFETY: j < reactions() by the caller's contract; rows are valid by construction.
-        unsafe { self.dependents.row_unchecked(j) }
+    /// Which propensities an event recomputes.
+    pub fn updates(&self) -> &Updates {
+        &self.updates
     }
 
     /// Label of reaction `j`.

@@ -30,7 +30,7 @@
 //! the observer's [`Observer::finish`] fills what remains of the grid. Nothing is allocated in
 //! the event loop.
 
-use super::compiled::{CompiledKernel, DenseTables, SmallTables};
+use super::compiled::{CompiledKernel, DenseTables, SmallTables, Updates};
 use super::observe::Observer;
 use super::rng::uniform;
 use super::select::SumTree;
@@ -470,13 +470,36 @@ impl Channels for Tree<'_> {
         debug_assert!(j < self.k.reactions() && x.len() == self.k.species + 1);
         // SAFETY: j < reactions(); change rows name species < x.len() (construction).
         let over = unsafe { apply(self.k.change_unchecked(j), x, t, obs) };
-        // SAFETY: j < reactions(); dependents are reactions, and x.len() == species + 1.
-        for &d in unsafe { self.k.dependents_unchecked(j) } {
-            let d = d as usize;
-            self.tree
-                .set(d, unsafe { self.k.propensity_unchecked(d, x, params, t) });
-        }
+        let k = self.k;
+        let tree = &mut *self.tree;
+        // SAFETY: j < reactions() and species in change rows are below `species`, the row
+        // counts of the two tables; the rows name reactions, and x.len() == species + 1.
+        updates(k, j, |d| {
+            tree.set(d, unsafe { k.propensity_unchecked(d, x, params, t) })
+        });
         over
+    }
+}
+
+/// Calls `f` with every reaction whose propensity may have changed when `j` fired: its row of
+/// dependents, or the readers of each species it changed (some twice).
+#[inline(always)]
+fn updates(k: &CompiledKernel, j: usize, mut f: impl FnMut(usize)) {
+    match k.updates() {
+        // SAFETY (both arms): j < reactions() = rows of the table by reaction, and change rows
+        // name species < species = rows of the table by species (construction).
+        Updates::ByReaction(rows) => {
+            for &d in unsafe { rows.row_unchecked(j) } {
+                f(d as usize);
+            }
+        }
+        Updates::BySpecies(rows) => {
+            for &(i, _) in unsafe { k.change_unchecked(j) } {
+                for &d in unsafe { rows.row_unchecked(i as usize) } {
+                    f(d as usize);
+                }
+            }
+        }
     }
 }
 
@@ -961,10 +984,16 @@ fn run_thinned<R: Rng + Clone, O: Observer>(
             }
         }
         events += 1;
-        for &d in k.dependents(j) {
-            let d = d as usize;
-            a[d] = checked(k, d, k.propensity_at(d, x, tl.params(), t), t)?;
-        }
+        let mut bad = Ok(());
+        updates(k, j, |d| {
+            if bad.is_ok() {
+                match checked(k, d, k.propensity_at(d, x, tl.params(), t), t) {
+                    Ok(v) => a[d] = v,
+                    Err(e) => bad = Err(e),
+                }
+            }
+        });
+        bad?;
         if tl.changed(t, |i| x[i] as f64) {
             let c = tl.settle(
                 t,

@@ -7,13 +7,20 @@
 //!
 //! - A reaction j is *critical* when a_j > 0 and it could exhaust a reactant within n_c firings:
 //!   L_j = min over species i consumed by j of ⌊x_i/|ν_ij|⌋ < n_c (n_c = 10).
-//! - For each species i consumed by a non-critical reaction,
-//!   μ_i = Σ_j ν_ij a_j and σ²_i = Σ_j ν_ij² a_j over non-critical j, and
+//! - For every species i whose count some propensity reads — a reactant of any reaction,
+//!   critical or not, whatever its count, or a species a `law` reads — with
+//!   μ_i = Σ_j ν_ij a_j and σ²_i = Σ_j ν_ij² a_j over the non-critical j,
 //!   τ' = min_i min( max(εx_i/g_i, 1)/|μ_i|, max(εx_i/g_i, 1)²/σ²_i ),
 //!   where g_i comes from the highest order of reaction in which i is a reactant (HOR):
 //!   HOR 1: g = 1; HOR 2: g = 2, or 2 + 1/(x_i − 1) if that reaction needs two i;
 //!   HOR 3: g = 3, or (3/2)(2 + 1/(x_i − 1)) if it needs two, or 3 + 1/(x_i − 1) + 2/(x_i − 2)
 //!   if it needs three.
+//!
+//! The set of bounded species is the paper's I_rs (every reactant species) widened by the
+//! species that laws read: their propensities change with them as a reactant's does. A species
+//! at count 0 stays in the set: its bound is then one molecule (the max(·, 1)), which keeps a
+//! species that is only being produced from leaping straight past the moment its consumers
+//! switch on.
 
 use crate::network::Network;
 
@@ -36,9 +43,10 @@ pub struct LeapPlan {
     g: Vec<GRule>,
     /// Per reaction, the species it consumes with their (negative) net change.
     consumes: Vec<Vec<(usize, i64)>>,
-    /// Per reaction, its non-clamped reactant species (the set I_rs of the leap condition,
-    /// whatever the sign of their net change: `A -> 2A` bounds A too).
-    reactants: Vec<Vec<usize>>,
+    /// The non-clamped species some propensity reads: reactants of every reaction (the set
+    /// I_rs of the leap condition, whatever the sign of their net change: `A -> 2A` bounds A
+    /// too) and the species laws read.
+    bounded: Vec<usize>,
     /// Per reaction, its net change on non-clamped species.
     change: Vec<Vec<(usize, i64)>>,
 }
@@ -70,21 +78,19 @@ impl LeapPlan {
             .iter()
             .map(|c| c.iter().copied().filter(|&(_, d)| d < 0).collect())
             .collect();
-        let reactants = net
-            .reactions
-            .iter()
-            .map(|r| {
-                r.reactants
-                    .iter()
-                    .map(|&(i, _)| i)
-                    .filter(|&i| !net.species[i].clamped)
-                    .collect()
-            })
+        let mut read = vec![false; net.species.len()];
+        for r in &net.reactions {
+            for i in r.reads() {
+                read[i] = true;
+            }
+        }
+        let bounded = (0..net.species.len())
+            .filter(|&i| read[i] && !net.species[i].clamped)
             .collect();
         LeapPlan {
             g,
             consumes,
-            reactants,
+            bounded,
             change,
         }
     }
@@ -139,9 +145,9 @@ impl LeapPlan {
         }
     }
 
-    /// τ' of the leap condition over the reactant species of the non-critical reactions, using
-    /// `mu` and `sigma2` as scratch (length = species). Infinite when no non-critical reaction
-    /// has a non-clamped reactant.
+    /// τ' of the leap condition over the bounded species (see the module docs), using `mu` and
+    /// `sigma2` as scratch (length = species). Infinite when no non-critical reaction changes a
+    /// bounded species.
     pub fn tau_prime(
         &self,
         x: &[i64],
@@ -164,18 +170,13 @@ impl LeapPlan {
             }
         }
         let mut tau = f64::INFINITY;
-        for (j, reactants) in self.reactants.iter().enumerate() {
-            if critical[j] || props[j] <= 0.0 {
-                continue;
+        for &i in &self.bounded {
+            let bound = (epsilon * x[i] as f64 / self.g(i, x[i])).max(1.0);
+            if mu[i] != 0.0 {
+                tau = tau.min(bound / mu[i].abs());
             }
-            for &i in reactants {
-                let bound = (epsilon * x[i] as f64 / self.g(i, x[i])).max(1.0);
-                if mu[i] != 0.0 {
-                    tau = tau.min(bound / mu[i].abs());
-                }
-                if sigma2[i] > 0.0 {
-                    tau = tau.min(bound * bound / sigma2[i]);
-                }
+            if sigma2[i] > 0.0 {
+                tau = tau.min(bound * bound / sigma2[i]);
             }
         }
         tau
@@ -266,6 +267,65 @@ mod tests {
         assert_eq!(crit, [true, false]);
         assert_eq!(p.firings_left(0, &x), 3);
         assert_eq!(p.firings_left(1, &x), 1000);
+    }
+
+    // A species at 0 that is only being produced still bounds the leap (Cao, Gillespie &
+    // Petzold 2006 [M]: I_rs holds every reactant species): immigration–death 0 -> X at 10,
+    // X -> 0 at 0.1, from X = 0: the decay has a = 0, yet X is its reactant, so the bound is
+    // max(0, 1) = 1 molecule, μ = 10, σ² = 10 and τ' = min(1/10, 1/10) = 0.1 [C by hand].
+    #[test]
+    fn produced_species_at_zero_is_bounded() {
+        let (n, p) = plan(
+            "species X = 0
+step make 0 -> X @ 10
+step decay X -> 0 @ 0.1
+",
+        );
+        let x = [0];
+        let a = props(&n, &x);
+        let mut crit = [false; 2];
+        p.mark_critical(&x, &a, N_CRITICAL, &mut crit);
+        let (mut mu, mut s2) = ([0.0], [0.0]);
+        let tau = p.tau_prime(&x, &a, &crit, 0.03, &mut mu, &mut s2);
+        assert!((tau - 0.1).abs() < 1e-15, "{tau}");
+    }
+
+    // A species whose only consumer is critical is still bounded by its producers: X = 1,
+    // 0 -> X at 50 (non-critical), X -> 0 at 0.5 (critical, L = 1 < 10): μ = 50, σ² = 50,
+    // bound 1, τ' = min(1/50, 1/50) = 0.02 [C by hand].
+    #[test]
+    fn species_consumed_only_by_a_critical_reaction_is_bounded() {
+        let (n, p) = plan(
+            "species X = 1
+step make 0 -> X @ 50
+step decay X -> 0 @ 0.5
+",
+        );
+        let x = [1];
+        let a = props(&n, &x);
+        let mut crit = [false; 2];
+        p.mark_critical(&x, &a, N_CRITICAL, &mut crit);
+        assert_eq!(crit, [false, true]);
+        let (mut mu, mut s2) = ([0.0], [0.0]);
+        let tau = p.tau_prime(&x, &a, &crit, 0.03, &mut mu, &mut s2);
+        assert!((tau - 0.02).abs() < 1e-15, "{tau}");
+    }
+
+    // A species that only a law reads is bounded too (its propensity changes with it): A = 0,
+    // 0 -> A at 5, 0 -> A at law 3 - A: μ = 8, σ² = 8, bound 1, τ' = 1/8 [C by hand].
+    #[test]
+    fn species_read_by_a_law_is_bounded() {
+        let (n, p) = plan(
+            "species A = 0
+step a 0 -> A @ 5
+step b 0 -> A @ law 3 - A
+",
+        );
+        let x = [0];
+        let a = props(&n, &x);
+        let (mut mu, mut s2) = ([0.0], [0.0]);
+        let tau = p.tau_prime(&x, &a, &[false, false], 0.03, &mut mu, &mut s2);
+        assert!((tau - 0.125).abs() < 1e-15, "{tau}");
     }
 
     // Clamped species never limit a leap.

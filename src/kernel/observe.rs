@@ -36,6 +36,13 @@ pub trait Observer {
     /// previous change. Kernels may also call it for earlier changes.
     #[inline(always)]
     fn reach(&mut self, _t: f64, _x: &[i64]) {}
+    /// The first time after `t` at which the observer samples the state (a grid time; ∞:
+    /// none). An approximate kernel ends a leap there, so that the sample shows the state at
+    /// that time rather than the state before a leap across it; exact kernels need not ask.
+    #[inline(always)]
+    fn sample_after(&self, _t: f64) -> f64 {
+        f64::INFINITY
+    }
     /// Channel `j` fires `k` times at time `t`.
     #[inline(always)]
     fn fire(&mut self, _t: f64, _j: usize, _k: u64) {}
@@ -74,6 +81,10 @@ impl<A: Observer, B: Observer> Observer for (A, B) {
         if t >= self.1.due() {
             self.1.reach(t, x);
         }
+    }
+    #[inline(always)]
+    fn sample_after(&self, t: f64) -> f64 {
+        self.0.sample_after(t).min(self.1.sample_after(t))
     }
     #[inline(always)]
     fn fire(&mut self, t: f64, j: usize, k: u64) {
@@ -270,6 +281,14 @@ impl Observer for Recorder {
         if t >= self.due {
             self.catch_up(t, x);
         }
+    }
+
+    /// The first grid time after `t` (a change exactly at a grid time counts in its sample).
+    fn sample_after(&self, t: f64) -> f64 {
+        let rest = &self.grid_times[self.next.min(self.grid_times.len())..];
+        rest.get(rest.partition_point(|&g| g <= t))
+            .copied()
+            .unwrap_or(f64::INFINITY)
     }
 
     #[inline(always)]

@@ -34,6 +34,14 @@ pub fn splitmix64(x: u64) -> u64 {
     z ^ (z >> 31)
 }
 
+/// The master seed of point `i` of a sweep with master seed `seed`: the i-th output of the
+/// SplitMix64 stream started at `seed`, splitmix64(seed + i·γ) with γ = ⌊2⁶⁴/φ⌋ (Steele, Lea
+/// & Flood 2014 [M]), so a point's numbers depend on (seed, i) alone. Its replicates are then
+/// seeded from (point seed, r) by [`replicate_rng`].
+pub fn point_seed(seed: u64, i: u64) -> u64 {
+    splitmix64(seed.wrapping_add(i.wrapping_mul(0x9E37_79B9_7F4A_7C15)))
+}
+
 /// The generator of replicate `replicate` under master seed `seed` (see the module docs).
 pub fn replicate_rng(seed: u64, replicate: u64) -> KernelRng {
     let words = [
@@ -83,8 +91,8 @@ mod tests {
 
     #[test]
     fn splitmix_is_the_published_mixer() {
-        // SplitMix64 seeded with 0 gives 0xE220A8397B1DCDAF as its first output (the value in
-        // the reference implementation by Vigna, prng.di.unimi.it [M]).
+        // SplitMix64 seeded with 0 gives 0xE220A8397B1DCDAF as its first output (the
+        // reference implementation's value, recomputed in tests/reference/tables.py [C]).
         assert_eq!(splitmix64(0), 0xE220_A839_7B1D_CDAF);
     }
 

@@ -1,244 +1,214 @@
-//! Structure of a compiled network: stoichiometry matrix, dependency graph, conservation laws
-//! and carrier motifs.
+//! Structure of a compiled network: stoichiometry matrix, dependency graph, carrier motifs and
+//! warnings about unused declarations. Conservation laws are in [`super::laws`].
+//!
+//! Everything here is built from per-species indices in time and memory linear in the size
+//! of the file (the number of species, reactions and their terms), never in species ×
+//! reactions.
 
 use super::parser::{Ast, DoseEnd, Expr, Item, Operand, Rate};
 use super::{units, Kinetics, Network};
 use crate::error::Diagnostic;
+use std::collections::HashSet;
 
-/// Net stoichiometry S (species × reactions): products minus reactants.
-pub fn stoichiometry(net: &Network) -> Vec<Vec<i64>> {
-    let mut s = vec![vec![0i64; net.reactions.len()]; net.species.len()];
+/// Rows of a flat table: row k is `values[start[k]..start[k + 1]]`.
+#[derive(Clone, Debug, Default, PartialEq)]
+struct Rows<T> {
+    start: Vec<usize>,
+    values: Vec<T>,
+}
+
+impl<T: Copy + Default> Rows<T> {
+    /// Rows from (row, value) pairs; within a row, values keep the order given.
+    fn from_pairs(rows: usize, pairs: &[(usize, T)]) -> Rows<T> {
+        let mut start = vec![0usize; rows + 1];
+        for &(r, _) in pairs {
+            start[r + 1] += 1;
+        }
+        for r in 0..rows {
+            start[r + 1] += start[r];
+        }
+        let mut fill = start.clone();
+        let mut values = vec![T::default(); pairs.len()];
+        for &(r, v) in pairs {
+            values[fill[r]] = v;
+            fill[r] += 1;
+        }
+        Rows { start, values }
+    }
+
+    fn row(&self, r: usize) -> &[T] {
+        &self.values[self.start[r]..self.start[r + 1]]
+    }
+}
+
+/// Net stoichiometry S (species × reactions): products minus reactants, as written (rows of
+/// clamped species show what the reaction would do, although the count is held fixed).
+///
+/// Stored sparse, by reaction and by species, so that its memory grows with the number of
+/// non-zero entries; [`Stoichiometry::dense_row`] and the JSON form give the full matrix.
+#[derive(Clone, Debug, Default, PartialEq)]
+pub struct Stoichiometry {
+    species: usize,
+    reactions: usize,
+    /// Column j: (species, S_ij ≠ 0), by species.
+    by_reaction: Rows<(usize, i64)>,
+    /// Row i: (reaction, S_ij ≠ 0), by reaction.
+    by_species: Rows<(usize, i64)>,
+}
+
+impl Stoichiometry {
+    /// Number of rows (species).
+    pub fn species(&self) -> usize {
+        self.species
+    }
+
+    /// Number of columns (reactions).
+    pub fn reactions(&self) -> usize {
+        self.reactions
+    }
+
+    /// S_ij.
+    pub fn get(&self, i: usize, j: usize) -> i64 {
+        let row = self.by_species.row(i);
+        row.binary_search_by_key(&j, |e| e.0)
+            .map_or(0, |k| row[k].1)
+    }
+
+    /// The non-zero entries of column j: (species, S_ij).
+    pub fn column(&self, j: usize) -> &[(usize, i64)] {
+        self.by_reaction.row(j)
+    }
+
+    /// The non-zero entries of row i: (reaction, S_ij).
+    pub fn row(&self, i: usize) -> &[(usize, i64)] {
+        self.by_species.row(i)
+    }
+
+    /// Row i with one entry per reaction.
+    pub fn dense_row(&self, i: usize) -> Vec<i64> {
+        let mut out = vec![0; self.reactions];
+        for &(j, v) in self.row(i) {
+            out[j] = v;
+        }
+        out
+    }
+}
+
+/// The full matrix, one array per species.
+impl serde::Serialize for Stoichiometry {
+    fn serialize<S: serde::Serializer>(&self, s: S) -> Result<S::Ok, S::Error> {
+        use serde::ser::SerializeSeq;
+        let mut seq = s.serialize_seq(Some(self.species))?;
+        for i in 0..self.species {
+            seq.serialize_element(&self.dense_row(i))?;
+        }
+        seq.end()
+    }
+}
+
+/// Net stoichiometry S of `net` (products minus reactants).
+pub fn stoichiometry(net: &Network) -> Stoichiometry {
+    let mut by_reaction: Vec<(usize, (usize, i64))> = Vec::new();
+    let mut column: Vec<(usize, i64)> = Vec::new();
     for (j, r) in net.reactions.iter().enumerate() {
-        for &(i, n) in &r.reactants {
-            s[i][j] -= n as i64;
-        }
-        for &(i, n) in &r.products {
-            s[i][j] += n as i64;
-        }
-    }
-    s
-}
-
-/// For each reaction j, the reactions k whose propensity reads a species that j changes
-/// (the dependency graph of Gibson & Bruck 2000), sorted.
-pub fn dependency_graph(net: &Network) -> Vec<Vec<usize>> {
-    let reads: Vec<Vec<usize>> = net.reactions.iter().map(|r| r.reads()).collect();
-    net.reactions
-        .iter()
-        .map(|r| {
-            (0..net.reactions.len())
-                .filter(|&k| {
-                    r.change
-                        .iter()
-                        .any(|&(i, _)| reads[k].binary_search(&i).is_ok())
-                })
-                .collect()
-        })
-        .collect()
-}
-
-// ---------------------------------------------------------------------------------------------
-// Conservation laws
-// ---------------------------------------------------------------------------------------------
-
-fn gcd(a: i128, b: i128) -> i128 {
-    let (mut a, mut b) = (a.abs(), b.abs());
-    while b != 0 {
-        (a, b) = (b, a % b);
-    }
-    a
-}
-
-fn normalise(v: &mut [i128]) {
-    let g = v.iter().fold(0, |g, &x| gcd(g, x));
-    if g > 1 {
-        v.iter_mut().for_each(|x| *x /= g);
-    }
-    if v.iter().find(|&&x| x != 0).is_some_and(|&x| x < 0) {
-        v.iter_mut().for_each(|x| *x = -*x);
-    }
-}
-
-/// Rank of integer row vectors by fraction-free elimination (exact).
-fn rank(rows: &[Vec<i128>]) -> usize {
-    let mut m: Vec<Vec<i128>> = rows.to_vec();
-    let cols = m.first().map_or(0, |r| r.len());
-    let mut r = 0;
-    for c in 0..cols {
-        let Some(p) = (r..m.len()).find(|&i| m[i][c] != 0) else {
-            continue;
-        };
-        m.swap(r, p);
-        for i in 0..m.len() {
-            if i != r && m[i][c] != 0 {
-                let (a, b) = (m[r][c], m[i][c]);
-                let pivot = m[r].clone();
-                for (x, y) in m[i].iter_mut().zip(pivot) {
-                    *x = a * *x - b * y;
-                }
-                normalise(&mut m[i]);
+        column.clear();
+        column.extend(r.reactants.iter().map(|&(i, n)| (i, -(n as i64))));
+        column.extend(r.products.iter().map(|&(i, n)| (i, n as i64)));
+        column.sort_unstable_by_key(|e| e.0);
+        let mut k = 0;
+        while k < column.len() {
+            let i = column[k].0;
+            let mut v = 0;
+            while k < column.len() && column[k].0 == i {
+                v += column[k].1;
+                k += 1;
+            }
+            if v != 0 {
+                by_reaction.push((j, (i, v)));
             }
         }
-        r += 1;
     }
-    r
+    let by_species: Vec<(usize, (usize, i64))> =
+        by_reaction.iter().map(|&(j, (i, v))| (i, (j, v))).collect();
+    Stoichiometry {
+        species: net.species.len(),
+        reactions: net.reactions.len(),
+        by_reaction: Rows::from_pairs(net.reactions.len(), &by_reaction),
+        by_species: Rows::from_pairs(net.species.len(), &by_species),
+    }
 }
 
-/// A basis of the integer null space {l : Aᵀl = 0} of the n × m matrix `a` (rows = species),
-/// from the reduced row echelon form of Aᵀ in exact integer arithmetic.
-fn null_space_basis(a: &[Vec<i128>]) -> Vec<Vec<i128>> {
-    let n = a.len();
-    let m = a.first().map_or(0, |r| r.len());
-    let mut t: Vec<Vec<i128>> = (0..m).map(|j| (0..n).map(|i| a[i][j]).collect()).collect();
-    let mut pivots: Vec<(usize, usize)> = Vec::new();
-    let mut r = 0;
-    for c in 0..n {
-        let Some(p) = (r..t.len()).find(|&i| t[i][c] != 0) else {
-            continue;
-        };
-        t.swap(r, p);
-        for i in 0..t.len() {
-            if i != r && t[i][c] != 0 {
-                let (pa, b) = (t[r][c], t[i][c]);
-                let pivot = t[r].clone();
-                for (x, y) in t[i].iter_mut().zip(pivot) {
-                    *x = pa * *x - b * y;
-                }
-                normalise(&mut t[i]);
-            }
-        }
-        pivots.push((r, c));
-        r += 1;
-    }
-    let pivot_cols: Vec<usize> = pivots.iter().map(|p| p.1).collect();
-    let mut basis = Vec::new();
-    for f in (0..n).filter(|c| !pivot_cols.contains(c)) {
-        let lcm = pivots.iter().fold(1i128, |l, &(row, col)| {
-            l / gcd(l, t[row][col]) * t[row][col].abs()
-        });
-        let mut v = vec![0i128; n];
-        v[f] = lcm;
-        for &(row, col) in &pivots {
-            v[col] = -t[row][f] * lcm / t[row][col];
-        }
-        normalise(&mut v);
-        basis.push(v);
-    }
-    basis
+/// The dependency graph of Gibson & Bruck (2000, J. Phys. Chem. A 104:1876 [verified]): reaction
+/// k depends on reaction j when k's propensity reads a species that j changes.
+///
+/// It is kept as its two halves, per species: the reactions that read it, and per reaction the
+/// species it changes. Its size is linear in the network even where the graph itself is not
+/// (40,000 steps that all change and read one species make 1.6·10⁹ edges):
+/// [`DependencyGraph::of`] lists one reaction's dependents, and a kernel for a large network
+/// may walk [`DependencyGraph::changed`] and [`DependencyGraph::readers`] instead.
+#[derive(Clone, Debug, Default, PartialEq)]
+pub struct DependencyGraph {
+    /// Per species, the reactions whose propensity reads it, ascending.
+    readers: Rows<usize>,
+    /// Per reaction, the non-clamped species it changes, ascending.
+    changed: Rows<usize>,
 }
 
-/// Minimal-support semi-positive vectors l ≥ 0 with Aᵀl = 0, by Fourier–Motzkin elimination
-/// over the reaction columns (the classic P-invariant construction; Schuster & Höfer 1991).
-/// Returns `None` if the tableau grows past a fixed size.
-fn semipositive_laws(a: &[Vec<i128>]) -> Option<Vec<Vec<i128>>> {
-    const LIMIT: usize = 4000;
-    let n = a.len();
-    let m = a.first().map_or(0, |r| r.len());
-    // Each row: (remaining columns of A, identity part).
-    let mut rows: Vec<(Vec<i128>, Vec<i128>)> = (0..n)
-        .map(|i| {
-            let mut e = vec![0; n];
-            e[i] = 1;
-            (a[i].clone(), e)
-        })
-        .collect();
-    for j in 0..m {
-        let mut next: Vec<(Vec<i128>, Vec<i128>)> =
-            rows.iter().filter(|r| r.0[j] == 0).cloned().collect();
-        let pos: Vec<&(Vec<i128>, Vec<i128>)> = rows.iter().filter(|r| r.0[j] > 0).collect();
-        let neg: Vec<&(Vec<i128>, Vec<i128>)> = rows.iter().filter(|r| r.0[j] < 0).collect();
-        for p in &pos {
-            for q in &neg {
-                let (wp, wq) = (-q.0[j], p.0[j]);
-                let mut row: Vec<i128> =
-                    p.0.iter().zip(&q.0).map(|(x, y)| wp * x + wq * y).collect();
-                let mut id: Vec<i128> =
-                    p.1.iter().zip(&q.1).map(|(x, y)| wp * x + wq * y).collect();
-                let mut all: Vec<i128> = row.iter().chain(id.iter()).copied().collect();
-                let g = all.iter().fold(0, |g, &x| gcd(g, x));
-                if g > 1 {
-                    all.iter_mut().for_each(|x| *x /= g);
-                    row = all[..m].to_vec();
-                    id = all[m..].to_vec();
-                }
-                next.push((row, id));
-                if next.len() > LIMIT {
-                    return None;
-                }
-            }
-        }
-        // Keep only rows of minimal support.
-        let supports: Vec<Vec<bool>> = next
+impl DependencyGraph {
+    /// Number of reactions.
+    pub fn reactions(&self) -> usize {
+        self.changed.start.len() - 1
+    }
+
+    /// The reactions whose propensity can change when j fires, ascending.
+    pub fn of(&self, j: usize) -> Vec<usize> {
+        let mut out: Vec<usize> = self
+            .changed(j)
             .iter()
-            .map(|r| r.1.iter().map(|&x| x != 0).collect())
+            .flat_map(|&i| self.readers(i).iter().copied())
             .collect();
-        let mut keep = vec![true; next.len()];
-        for i in 0..next.len() {
-            for k in 0..next.len() {
-                if i == k || !keep[k] {
-                    continue;
-                }
-                let sub = supports[k].iter().zip(&supports[i]).all(|(a, b)| !a || *b);
-                if sub && (supports[k] != supports[i] || k < i) {
-                    keep[i] = false;
-                    break;
-                }
-            }
-        }
-        rows = next
-            .into_iter()
-            .zip(keep)
-            .filter_map(|(r, k)| k.then_some(r))
-            .collect();
+        out.sort_unstable();
+        out.dedup();
+        out
     }
-    Some(rows.into_iter().map(|r| r.1).collect())
+
+    /// The reactions whose propensity reads species i, ascending.
+    pub fn readers(&self, i: usize) -> &[usize] {
+        self.readers.row(i)
+    }
+
+    /// The non-clamped species reaction j changes, ascending.
+    pub fn changed(&self, j: usize) -> &[usize] {
+        self.changed.row(j)
+    }
+
+    /// Σ over reactions j of Σ over the species j changes of their readers: the work of
+    /// walking the graph by species once for every reaction (an upper bound on the number of
+    /// edges, which lists each dependent once).
+    pub fn walk_size(&self) -> usize {
+        (0..self.reactions())
+            .map(|j| {
+                self.changed(j)
+                    .iter()
+                    .map(|&i| self.readers(i).len())
+                    .sum::<usize>()
+            })
+            .sum()
+    }
 }
 
-/// Integer vectors l spanning {l : l·S = 0} over the non-clamped species, each with entries for
-/// every species (zero for clamped ones). Semi-positive, minimal-support laws are preferred (so
-/// Michaelis–Menten gives E + C and S + C + P); a basis of the exact null space completes the
-/// set when they do not span it.
-pub fn conservation_laws(net: &Network) -> Vec<Vec<i64>> {
-    let free: Vec<usize> = (0..net.species.len())
-        .filter(|&i| !net.species[i].clamped)
-        .collect();
-    if free.is_empty() {
-        return Vec::new();
+/// The dependency graph of `net`.
+pub fn dependency_graph(net: &Network) -> DependencyGraph {
+    let mut reads: Vec<(usize, usize)> = Vec::new();
+    let mut changed: Vec<(usize, usize)> = Vec::new();
+    for (j, r) in net.reactions.iter().enumerate() {
+        reads.extend(r.reads().into_iter().map(|i| (i, j)));
+        changed.extend(r.change.iter().map(|&(i, _)| (j, i)));
     }
-    let a: Vec<Vec<i128>> = free
-        .iter()
-        .map(|&i| net.stoichiometry[i].iter().map(|&x| x as i128).collect())
-        .collect();
-    let basis = null_space_basis(&a);
-    let dim = basis.len();
-    let mut chosen: Vec<Vec<i128>> = Vec::new();
-    let mut candidates = semipositive_laws(&a).unwrap_or_default();
-    candidates.sort_by_key(|v| {
-        (
-            v.iter().filter(|&&x| x != 0).count(),
-            v.iter().sum::<i128>(),
-        )
-    });
-    for v in candidates.into_iter().chain(basis) {
-        if chosen.len() == dim {
-            break;
-        }
-        let mut trial = chosen.clone();
-        trial.push(v.clone());
-        if rank(&trial) > chosen.len() {
-            chosen.push(v);
-        }
+    DependencyGraph {
+        readers: Rows::from_pairs(net.species.len(), &reads),
+        changed: Rows::from_pairs(net.reactions.len(), &changed),
     }
-    chosen
-        .into_iter()
-        .map(|v| {
-            let mut full = vec![0i64; net.species.len()];
-            for (k, &i) in free.iter().enumerate() {
-                full[i] = v[k] as i64;
-            }
-            full
-        })
-        .collect()
 }
 
 /// `E + C`, `S + C + P`, `P + 2 P2`.
@@ -324,8 +294,19 @@ fn has_product(net: &Network, j: usize, i: usize, n: u32) -> bool {
     net.reactions[j].products.contains(&(i, n))
 }
 
-/// Finds every carrier motif (DESIGN.md, "Carrier motifs").
+/// Finds every carrier motif: a carrier X cycling between free X and one complex C = X·L,
+/// with X + C conserved (see [`Motif`]).
 pub fn motifs(net: &Network) -> Vec<Motif> {
+    let n = net.species.len();
+    let mut pairs: Vec<(usize, usize)> = Vec::new();
+    let mut consumers: Vec<(usize, usize)> = Vec::new();
+    for (j, r) in net.reactions.iter().enumerate() {
+        pairs.extend(r.change.iter().map(|&(i, _)| (i, j)));
+        consumers.extend(r.reactants.iter().map(|&(i, _)| (i, j)));
+    }
+    // Per species, the reactions that change it and the reactions that consume it, ascending.
+    let changing = Rows::from_pairs(n, &pairs);
+    let consuming = Rows::from_pairs(n, &consumers);
     let mut out = Vec::new();
     for (b, bind) in net.reactions.iter().enumerate() {
         let Some(c_on) = mass_action_c(net, b) else {
@@ -341,8 +322,11 @@ pub fn motifs(net: &Network) -> Vec<Motif> {
             continue;
         }
         // Every reaction that changes C must be the bind step, or first order in C alone.
-        let exits: Vec<usize> = (0..net.reactions.len())
-            .filter(|&j| j != b && change_of(net, j, cx) != 0)
+        let exits: Vec<usize> = changing
+            .row(cx)
+            .iter()
+            .copied()
+            .filter(|&j| j != b)
             .collect();
         let clean = exits.iter().all(|&j| {
             net.reactions[j].reactants == [(cx, 1)]
@@ -352,12 +336,19 @@ pub fn motifs(net: &Network) -> Vec<Motif> {
         if !clean {
             continue;
         }
+        // Only reactions that change x or C can break x + C.
         let conserved = |x: usize| {
             !net.species[x].clamped
-                && (0..net.reactions.len())
-                    .all(|j| change_of(net, j, x) + change_of(net, j, cx) == 0)
+                && changing
+                    .row(x)
+                    .iter()
+                    .chain(changing.row(cx))
+                    .all(|&j| change_of(net, j, x) + change_of(net, j, cx) == 0)
         };
-        let signals: Vec<usize> = (0..net.reactions.len())
+        let signals: Vec<usize> = consuming
+            .row(cx)
+            .iter()
+            .copied()
             .filter(|&j| {
                 net.reactions[j].reactants == [(cx, 1)]
                     && has_product(net, j, cx, 1)
@@ -474,19 +465,44 @@ fn names_in(e: &Expr, out: &mut Vec<String>) {
     }
 }
 
+/// The lines of a source text, found once.
+struct Lines<'a> {
+    source: &'a str,
+    starts: Vec<usize>,
+}
+
+impl<'a> Lines<'a> {
+    fn new(source: &'a str) -> Lines<'a> {
+        let mut starts = vec![0];
+        starts.extend(source.match_indices('\n').map(|(k, _)| k + 1));
+        Lines { source, starts }
+    }
+
+    /// Line `line` (1-based) without its line break, as `str::lines` gives it.
+    fn line(&self, line: u32) -> &'a str {
+        let k = line.saturating_sub(1) as usize;
+        let (Some(&a), b) = (self.starts.get(k), self.starts.get(k + 1)) else {
+            return "";
+        };
+        let text = &self.source[a..b.map_or(self.source.len(), |&b| b - 1)];
+        text.strip_suffix('\r').unwrap_or(text)
+    }
+}
+
 /// Warns about params no step uses and species no step touches.
 pub fn usage_warnings(net: &mut Network, ast: &Ast) {
-    let mut used: Vec<String> = Vec::new();
-    let mut in_laws: Vec<String> = Vec::new();
-    let operand = |o: &Operand, used: &mut Vec<String>| {
+    let mut used: HashSet<&str> = HashSet::new();
+    let mut law_names: Vec<String> = Vec::new();
+    let mut input_names: Vec<String> = Vec::new();
+    fn operand<'a>(o: &'a Operand, used: &mut HashSet<&'a str>) {
         if let Operand::Param(n) = o {
-            used.push(n.text.clone());
+            used.insert(&n.text);
         }
-    };
+    }
     for item in &ast.items {
         match item {
             Item::Dose(d) => {
-                used.push(d.species.text.clone());
+                used.insert(&d.species.text);
                 for o in [Some(&d.amount), Some(&d.at), d.every.as_ref()]
                     .into_iter()
                     .flatten()
@@ -499,16 +515,16 @@ pub fn usage_warnings(net: &mut Network, ast: &Ast) {
                 }
             }
             Item::Infuse(f) => {
-                used.push(f.species.text.clone());
+                used.insert(&f.species.text);
                 for o in [&f.rate, &f.from, &f.to] {
                     operand(o, &mut used);
                 }
             }
             Item::When(w) => {
-                names_in(&w.condition, &mut used);
+                names_in(&w.condition, &mut input_names);
                 for a in &w.assignments {
-                    used.push(a.target.text.clone());
-                    names_in(&a.value, &mut used);
+                    used.insert(&a.target.text);
+                    names_in(&a.value, &mut input_names);
                 }
             }
             _ => {}
@@ -516,7 +532,7 @@ pub fn usage_warnings(net: &mut Network, ast: &Ast) {
         let Item::Step(s) = item else { continue };
         for rate in std::iter::once(&s.forward).chain(s.reverse.as_ref()) {
             match rate {
-                Rate::Law(e) => names_in(e, &mut in_laws),
+                Rate::Law(e) => names_in(e, &mut law_names),
                 Rate::Constant(o)
                 | Rate::HalfLife(o, _)
                 | Rate::Kd(o, _)
@@ -524,45 +540,40 @@ pub fn usage_warnings(net: &mut Network, ast: &Ast) {
             }
         }
         for t in s.reactants.iter().chain(&s.products) {
-            used.push(t.species.text.clone());
+            used.insert(&t.species.text);
         }
     }
-    used.extend(in_laws.iter().cloned());
+    used.extend(input_names.iter().map(String::as_str));
+    law_names.sort();
+    law_names.dedup();
+    used.extend(law_names.iter().map(String::as_str));
+    let lines = Lines::new(&ast.source);
+    let at = |span: crate::error::Span, message: String| {
+        Diagnostic::on_line(&ast.file, lines.line(span.line), span, message)
+    };
     let mut warnings = Vec::new();
-    in_laws.sort();
-    in_laws.dedup();
-    for name in in_laws.iter().filter(|n| units::is_unit(n)) {
-        let span = net
-            .species
-            .iter()
-            .map(|s| (&s.name, s.span))
-            .chain(net.params.iter().map(|p| (&p.name, p.span)))
-            .find(|(n, _)| *n == name)
-            .map(|(_, s)| s);
-        if let Some(span) = span {
-            warnings.push(Diagnostic::at(
-                &ast.file,
-                &ast.source,
+    let declared: std::collections::HashMap<&str, crate::error::Span> = net
+        .params
+        .iter()
+        .map(|p| (p.name.as_str(), p.span))
+        .chain(net.species.iter().map(|s| (s.name.as_str(), s.span)))
+        .collect();
+    for name in law_names.iter().filter(|n| units::is_unit(n)) {
+        if let Some(&span) = declared.get(name.as_str()) {
+            warnings.push(at(
                 span,
                 format!("`{name}` is also a unit: right after a number in a law it reads as the unit; write `2 * {name}` there to mean the name"),
             ));
         }
     }
     for p in &net.params {
-        if !used.contains(&p.name) {
-            warnings.push(Diagnostic::at(
-                &ast.file,
-                &ast.source,
-                p.span,
-                format!("param `{}` is never used", p.name),
-            ));
+        if !used.contains(p.name.as_str()) {
+            warnings.push(at(p.span, format!("param `{}` is never used", p.name)));
         }
     }
     for s in &net.species {
-        if !used.contains(&s.name) {
-            warnings.push(Diagnostic::at(
-                &ast.file,
-                &ast.source,
+        if !used.contains(s.name.as_str()) {
+            warnings.push(at(
                 s.span,
                 format!("species `{}` takes part in no step", s.name),
             ));
@@ -614,7 +625,7 @@ mod tests {
         for l in &n.conservation_laws {
             for j in 0..n.reactions.len() {
                 let s: i64 = (0..n.species.len())
-                    .map(|i| l[i] * n.stoichiometry[i][j])
+                    .map(|i| l[i] * n.stoichiometry.get(i, j))
                     .sum();
                 assert_eq!(s, 0);
             }
@@ -655,12 +666,12 @@ mod tests {
     fn dependency_graph_follows_changed_species() {
         let n = net(MM);
         // bind changes E, S, C: every reaction reads one of them.
-        assert_eq!(n.dependents[0], vec![0, 1, 2]);
+        assert_eq!(n.dependents.of(0), vec![0, 1, 2]);
         // cat changes C, E, P: bind reads E, unbind and cat read C.
-        assert_eq!(n.dependents[2], vec![0, 1, 2]);
+        assert_eq!(n.dependents.of(2), vec![0, 1, 2]);
         let n = net("species A = 5\nspecies B = 0\nstep a A -> B @ 1\nstep b 0 -> A @ 2\n");
-        assert_eq!(n.dependents[1], vec![0]);
-        assert_eq!(n.dependents[0], vec![0]);
+        assert_eq!(n.dependents.of(1), vec![0]);
+        assert_eq!(n.dependents.of(0), vec![0]);
     }
 
     #[test]

@@ -16,10 +16,10 @@
 //!   compartments are an error.
 //! - Doses, infusions and `when` events are compiled in [`super::inputs`].
 
-use super::analysis;
 use super::expr::{self, Checks, Resolved};
 use super::parser::{self, Ast, Item, Literal, Operand, Rate, Step, Term};
 use super::units::{self, Dim, Quantity};
+use super::{analysis, laws};
 use super::{
     AmountUnit, Compartment, Follows, Kinetics, Network, Param, Reaction, Reading, Species,
     MAX_COUNT,
@@ -58,14 +58,20 @@ impl Overrides {
     }
 }
 
-/// Reads, parses and compiles the network file at `path`.
+/// Reads, parses and compiles the network file at `path` (SBML for `.xml` and `.sbml`).
 pub fn load(path: &str, overrides: &Overrides) -> Result<Network, Error> {
+    if crate::sbml::is_sbml_path(path) {
+        return crate::sbml::load(path, overrides);
+    }
     let bytes = std::fs::read(path).map_err(|e| Error::io(path, e))?;
     load_source(path, &bytes, overrides)
 }
 
-/// Parses and compiles `bytes` as the network file called `file`.
+/// Parses and compiles `bytes` as the network file called `file` (SBML for `.xml` and `.sbml`).
 pub fn load_source(file: &str, bytes: &[u8], overrides: &Overrides) -> Result<Network, Error> {
+    if crate::sbml::is_sbml_path(file) {
+        return crate::sbml::load_source(file, bytes, overrides);
+    }
     let ast = parser::parse(file, bytes).map_err(Error::Input)?;
     compile(&ast, overrides).map_err(Error::Input)
 }
@@ -134,8 +140,8 @@ pub fn compile(ast: &Ast, overrides: &Overrides) -> Result<Network, Vec<Diagnost
         doses,
         infusions,
         events,
-        stoichiometry: Vec::new(),
-        dependents: Vec::new(),
+        stoichiometry: Default::default(),
+        dependents: Default::default(),
         conservation_laws: Vec::new(),
         motifs: Vec::new(),
         warnings,
@@ -144,7 +150,7 @@ pub fn compile(ast: &Ast, overrides: &Overrides) -> Result<Network, Vec<Diagnost
     };
     net.stoichiometry = analysis::stoichiometry(&net);
     net.dependents = analysis::dependency_graph(&net);
-    net.conservation_laws = analysis::conservation_laws(&net);
+    net.conservation_laws = laws::conservation_laws(&net).map_err(|d| vec![d])?;
     net.motifs = analysis::motifs(&net);
     analysis::usage_warnings(&mut net, ast);
     Ok(net)

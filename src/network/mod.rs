@@ -12,12 +12,13 @@ pub mod analysis;
 pub mod compile;
 pub mod expr;
 mod inputs;
+pub mod laws;
 pub mod lexer;
 pub mod parser;
 pub mod schedule;
 pub mod units;
 
-pub use analysis::{law_text, motif_chains, Motif, MotifKind};
+pub use analysis::{law_text, motif_chains, DependencyGraph, Motif, MotifKind, Stoichiometry};
 pub use compile::{compile, load, load_source, Override, Overrides};
 pub use expr::{Dual, Interval, Law, Scalar, TimeUse};
 pub use schedule::{Assignment, Dose, Event, Infusion, Target, TimeSeq};
@@ -61,9 +62,9 @@ pub struct Network {
     pub events: Vec<Event>,
     /// Net stoichiometry, species × reactions (products minus reactants, as written; rows of
     /// clamped species show what the reaction would do, although the count is held fixed).
-    pub stoichiometry: Vec<Vec<i64>>,
+    pub stoichiometry: Stoichiometry,
     /// For each reaction j, the reactions whose propensity can change when j fires.
-    pub dependents: Vec<Vec<usize>>,
+    pub dependents: DependencyGraph,
     /// Integer vectors l with l·S = 0 over the non-clamped species: l·x is constant in time
     /// between doses and event assignments.
     pub conservation_laws: Vec<Vec<i64>>,
@@ -284,6 +285,22 @@ impl Network {
             .map_or(self.omega, |c| self.compartments[c].omega)
     }
 
+    /// Ω_c of the compartment species `i` sits in (`None` without one): a count over it is
+    /// the species' concentration in its own compartment.
+    pub fn species_molar_omega(&self, i: usize) -> Option<f64> {
+        self.species[i]
+            .compartment
+            .map(|c| self.compartments[c].omega)
+    }
+
+    /// Ω_c of reaction `j`'s compartment (`None` without one): a flux in molecules per second
+    /// over it is the rate in concentration per second of that compartment.
+    pub fn reaction_molar_omega(&self, j: usize) -> Option<f64> {
+        self.reactions[j]
+            .compartment
+            .map(|c| self.compartments[c].omega)
+    }
+
     /// The factor from a count of species `i` to its concentration in its own compartment
     /// (1/Ω_c), where it sits in a compartment with a volume.
     pub fn concentration_factor(&self, i: usize) -> Option<f64> {
@@ -337,6 +354,51 @@ impl Network {
                 law.eval(|i| y(i) * om, params, time) * T::constant(*scale / self.omega)
             }
         }
+    }
+
+    /// The species that only accumulate: not clamped, changed by some step, read by none (no
+    /// reactant of any step, in no law or event) and in no conservation law. Such a species has no
+    /// steady level, but it cannot affect the rest of the network either, so the rest can be
+    /// stationary while it grows: its accumulation rate is the figure to report.
+    pub fn outputs(&self) -> Vec<usize> {
+        let mut read = vec![false; self.species.len()];
+        for r in &self.reactions {
+            for i in r.reads() {
+                read[i] = true;
+            }
+        }
+        for e in &self.events {
+            let laws = std::iter::once(&e.trigger)
+                .chain(&e.delay)
+                .chain(&e.priority)
+                .chain(e.assignments.iter().map(|a| &a.value));
+            for &i in laws.flat_map(|l| &l.species) {
+                read[i] = true;
+            }
+        }
+        let changed = |i: usize| {
+            self.reactions
+                .iter()
+                .any(|r| r.change.iter().any(|c| c.0 == i))
+        };
+        let in_law = |i: usize| self.conservation_laws.iter().any(|l| l[i] != 0);
+        (0..self.species.len())
+            .filter(|&i| !self.species[i].clamped && !read[i] && !in_law(i) && changed(i))
+            .collect()
+    }
+
+    /// This network with `held` species treated as clamped at their initial amount (their
+    /// changes removed), for analyses of the stationary part of a network whose outputs
+    /// accumulate. Nothing reads an output, so every other species behaves as before.
+    pub fn holding(&self, held: &[usize]) -> Network {
+        let mut net = self.clone();
+        for &i in held {
+            net.species[i].clamped = true;
+        }
+        for r in &mut net.reactions {
+            r.change.retain(|c| !held.contains(&c.0));
+        }
+        net
     }
 
     /// Initial deterministic state y₀ = n₀/Ω of every species (the initial amounts as counts

@@ -16,6 +16,20 @@ pub enum FitFailure {
     Failed { at: f64, why: String },
 }
 
+impl std::fmt::Display for FitFailure {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        match self {
+            FitFailure::NoSignChange { lo, hi } => write!(
+                f,
+                "no value between {lo:e} and {hi:e} (canonical units) gives the observed level"
+            ),
+            FitFailure::Failed { at, why } => {
+                write!(f, "the steady state could not be found at {at:e}: {why}")
+            }
+        }
+    }
+}
+
 /// Finds p > 0 with g(p) = 0, searching from `start` outward over at most `decades` decades
 /// each way. `g` may fail (no steady state there); a failure ends the search.
 pub fn root_in_log_space(

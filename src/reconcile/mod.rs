@@ -13,24 +13,27 @@
 //!   where the ligand is not clamped;
 //! - the flux at the deterministic steady state of the full network.
 //!
-//! A prediction is "consistent" when it lies inside the ensemble's Student-t 95 % interval,
-//! widened by the prediction's own numerical error; otherwise it "deviates", and the report
-//! names the causes it can see: the QSSA condition fails, the window was not stationary (its
-//! halves disagree), copy numbers are low, or the interval is wider than asked.
+//! Each prediction gets its own verdict against a practical tolerance ([`verdict`]: agrees,
+//! differs or undecided, with the plain significance test beside it and the causes that could
+//! explain a difference, each with its expected size). The motif's own `verdict` is the
+//! Langmuir form's: the organ-level law in question.
 
 pub mod fit;
 pub mod observe;
+pub mod verdict;
 
 use crate::deterministic::{langmuir, solve, Steady, SteadyOptions};
+use crate::distribution;
 use crate::ensemble::{self, EnsembleResult, EnsembleSpec};
 use crate::network::{compile::Override, motif_chains, MotifKind, Network, Overrides};
-use crate::stationary::{self, Plan};
-use crate::stats::Welford;
+use crate::serial::{by_name, molar, Named};
+use crate::stationary::{self, Plan, Start};
+use crate::stats::{total_variance, Welford};
 use crate::{Error, Result};
 pub use observe::{parse_observation, Observation};
+use serde::Serialize;
+pub use verdict::{Cause, CauseKind, Judgement, Verdict};
 
-/// Below this mean count a carrier or ligand is "low copy number" (DESIGN.md: about 10).
-pub const LOW_COPY: f64 = 10.0;
 /// The sQSSA is taken to fail when X_T/(L_T + K) exceeds this (Segel & Slemrod 1989 ask ≪ 1).
 pub const QSSA_LIMIT: f64 = 0.1;
 /// Two halves of the window disagree when their difference exceeds this many standard errors.
@@ -39,6 +42,8 @@ pub const HALVES_Z: f64 = 4.0;
 pub const PREDICTION_TOLERANCE: f64 = 1e-6;
 /// An observation is consistent when |z| is at most this (two-sided 95 %).
 pub const OBSERVATION_Z: f64 = 1.96;
+/// The default practical tolerance of a verdict (`--tolerance`).
+pub const DEFAULT_TOLERANCE: f64 = 0.05;
 
 /// What the user asked for.
 #[derive(Clone, Debug)]
@@ -52,6 +57,8 @@ pub struct Options {
     pub precision: Option<f64>,
     /// Most replicates `precision` may use.
     pub max_replicates: u64,
+    /// Relative difference within which a prediction agrees with the ensemble.
+    pub tolerance: f64,
     pub observations: Vec<Observation>,
     /// Param to fit to the first observation.
     pub fit: Option<String>,
@@ -70,11 +77,40 @@ impl Default for Options {
             burn_in: None,
             precision: None,
             max_replicates: 20_000,
+            tolerance: DEFAULT_TOLERANCE,
             observations: Vec::new(),
             fit: None,
             from_initial: false,
             progress: false,
         }
+    }
+}
+
+impl Options {
+    /// Checks the values that need no simulation, so a bad one is refused before any run.
+    pub fn validate(&self) -> Result<()> {
+        if self.replicates == 0 {
+            return Err(Error::usage("--replicates must be at least 1"));
+        }
+        if let Some(p) = self.precision {
+            if !(p > 0.0 && p < 1.0) {
+                return Err(Error::usage(format!(
+                    "--precision must lie strictly between 0 and 1, got {p}"
+                )));
+            }
+        }
+        if !(self.tolerance > 0.0 && self.tolerance.is_finite()) {
+            return Err(Error::usage(format!(
+                "--tolerance must be a positive relative difference such as 0.05, got {}",
+                self.tolerance
+            )));
+        }
+        if self.fit.is_some() && self.observations.is_empty() {
+            return Err(Error::usage(
+                "--fit needs an --observe level to fit, e.g. --observe H=2nM±0.2nM",
+            ));
+        }
+        Ok(())
     }
 }
 
@@ -109,123 +145,268 @@ impl Estimate {
     }
 }
 
-#[derive(Clone, Copy, Debug, PartialEq, Eq)]
-pub enum Verdict {
-    Consistent,
-    Deviates,
+/// A flux as the ensemble measured it (molecules/s).
+#[derive(Clone, Copy, Debug, PartialEq, Serialize)]
+pub struct Flux {
+    pub mean_per_s: f64,
+    pub stderr_per_s: f64,
+    pub ci95: [f64; 2],
+    pub replicates: u64,
 }
 
-impl Verdict {
-    pub fn as_str(self) -> &'static str {
-        match self {
-            Verdict::Consistent => "consistent",
-            Verdict::Deviates => "deviates",
-        }
-    }
-
-    fn from(consistent: bool) -> Verdict {
-        if consistent {
-            Verdict::Consistent
-        } else {
-            Verdict::Deviates
+impl From<Estimate> for Flux {
+    fn from(e: Estimate) -> Flux {
+        Flux {
+            mean_per_s: e.mean,
+            stderr_per_s: e.stderr,
+            ci95: e.ci95,
+            replicates: e.n,
         }
     }
 }
 
-/// One carrier motif reconciled.
-#[derive(Clone, Debug)]
-pub struct MotifReport {
-    pub motif: usize,
-    pub kind: MotifKind,
-    pub carrier: String,
-    pub ligand: String,
-    pub output: String,
-    /// K in molecules.
-    pub k_half: f64,
-    /// X_T (molecules).
-    pub carrier_total: f64,
-    /// k_out·X_T (molecules/s).
-    pub capacity_per_s: f64,
-    /// L_T (molecules): clamped level, or stationary mean of free + bound ligand.
-    pub ligand_level: f64,
-    pub ligand_clamped: bool,
-    /// Stationary mean of the free ligand (molecules).
-    pub ligand_free: f64,
+/// The three predictions of a motif's flux (molecules/s).
+#[derive(Clone, Copy, Debug, PartialEq, Serialize)]
+pub struct Predicted {
     pub langmuir_per_s: f64,
     /// `None` where the ligand is clamped (the tQSSA form is then the Langmuir form).
     pub tqssa_per_s: Option<f64>,
     pub ode_per_s: f64,
-    pub ensemble: Estimate,
+}
+
+/// Each prediction's judgement.
+#[derive(Clone, Debug, PartialEq, Serialize)]
+pub struct Verdicts {
+    pub langmuir: Judgement,
+    pub tqssa: Option<Judgement>,
+    pub ode: Judgement,
+}
+
+fn kind_name<S: serde::Serializer>(k: &MotifKind, s: S) -> std::result::Result<S::Ok, S::Error> {
+    s.serialize_str(k.as_str())
+}
+
+/// One carrier motif reconciled.
+#[derive(Clone, Debug, Serialize)]
+pub struct MotifReport {
+    #[serde(skip)]
+    pub motif: usize,
+    pub carrier: String,
+    pub ligand: String,
+    #[serde(serialize_with = "kind_name")]
+    pub kind: MotifKind,
+    /// The output step's label.
+    pub output: String,
+    /// K in molecules.
+    pub k_half: f64,
+    pub k_half_molar: Option<f64>,
+    /// X_T (molecules).
+    pub carrier_total: f64,
+    /// k_out·X_T (molecules/s).
+    pub capacity_per_s: f64,
+    pub capacity_molar_per_s: Option<f64>,
+    /// L_T (molecules): clamped level, or stationary mean of free + bound ligand.
+    pub ligand_level: f64,
+    pub ligand_level_molar: Option<f64>,
+    pub ligand_clamped: bool,
+    /// Stationary mean of the free ligand (molecules).
+    pub ligand_free: f64,
+    pub predicted: Predicted,
+    pub ensemble: Flux,
     /// (ensemble − Langmuir)/Langmuir.
     pub relative_difference: f64,
     /// The Langmuir form's verdict.
     pub verdict: Verdict,
-    pub tqssa_verdict: Option<Verdict>,
-    pub ode_verdict: Verdict,
+    pub verdicts: Verdicts,
+    pub tolerance: f64,
     /// X_T/(L_T + K), the sQSSA validity parameter (Segel & Slemrod 1989).
     pub qssa_parameter: f64,
     /// z of (first half − second half) of the window's flux.
     pub halves_z: f64,
-    pub causes: Vec<String>,
+    /// The exact stationary mean flux of the output step (finite state projection), where the
+    /// network fits one; null elsewhere.
+    pub exact: Option<ExactFlux>,
+}
+
+/// A motif's exact stationary output flux beside the predictions and the ensemble.
+#[derive(Clone, Debug, Serialize)]
+pub struct ExactFlux {
+    pub mean_per_s: f64,
+    /// (exact − Langmuir)/Langmuir: the low-copy shift of the mean flux, exactly.
+    pub langmuir_relative_difference: f64,
+    /// (ensemble − exact)/exact.
+    pub ensemble_relative_difference: f64,
 }
 
 /// A chain of motifs in series, reconciled end to end.
-#[derive(Clone, Debug)]
+#[derive(Clone, Debug, Serialize)]
 pub struct ChainReport {
-    pub stages: Vec<usize>,
+    /// The carriers of the stages, in order.
+    pub stages: Vec<String>,
+    #[serde(skip)]
+    pub stage_motifs: Vec<usize>,
     /// The last stage's flux in the ensemble.
-    pub ensemble: Estimate,
+    pub ensemble: Flux,
     pub ode_per_s: f64,
     /// The last stage's Langmuir form at the deterministic ligand levels of every stage.
     pub langmuir_per_s: f64,
+    /// The end-to-end verdict: the ODE flux of the last stage against the ensemble.
     pub verdict: Verdict,
+    pub verdicts: ChainVerdicts,
 }
 
-/// An observed steady level against the model.
-#[derive(Clone, Debug)]
+/// A chain's judgements.
+#[derive(Clone, Debug, PartialEq, Serialize)]
+pub struct ChainVerdicts {
+    pub ode: Judgement,
+    pub langmuir: Judgement,
+}
+
+/// Whether an observed level fits the model (a z-test with the observation's own SD).
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize)]
+#[serde(rename_all = "snake_case")]
+pub enum Consistency {
+    Consistent,
+    Deviates,
+}
+
+impl Consistency {
+    pub fn as_str(self) -> &'static str {
+        match self {
+            Consistency::Consistent => "consistent",
+            Consistency::Deviates => "deviates",
+        }
+    }
+}
+
+/// An observed steady level against the model (levels in molecules, `_molar` beside them).
+#[derive(Clone, Debug, Serialize)]
 pub struct ObservationReport {
+    pub name: String,
+    #[serde(skip)]
     pub observation: Observation,
+    pub observed: f64,
+    pub sd: f64,
     /// Deterministic steady level (molecules).
     pub deterministic: f64,
+    pub ensemble_mean: f64,
+    pub ci95: [f64; 2],
+    #[serde(skip)]
     pub ensemble: Estimate,
     /// (ensemble mean − observed)/√(sd² + stderr²).
     pub z: f64,
-    pub verdict: Verdict,
+    pub verdict: Consistency,
+    pub observed_molar: Option<f64>,
+    pub sd_molar: Option<f64>,
+    pub deterministic_molar: Option<f64>,
+    pub ensemble_mean_molar: Option<f64>,
+    pub ci95_molar: Option<[f64; 2]>,
     /// d ln(level)/d ln(param) for every positive param, in param order.
+    #[serde(serialize_with = "sensitivity_map")]
     pub sensitivities: Vec<(String, f64)>,
 }
 
+fn sensitivity_map<S: serde::Serializer>(
+    v: &[(String, f64)],
+    s: S,
+) -> std::result::Result<S::Ok, S::Error> {
+    use serde::ser::SerializeMap;
+    let mut m = s.serialize_map(Some(v.len()))?;
+    for (p, x) in v {
+        m.serialize_entry(p, x)?;
+    }
+    m.end()
+}
+
 /// The outcome of `--fit`.
-#[derive(Clone, Debug)]
+#[derive(Clone, Debug, Serialize)]
 pub struct FitReport {
     pub param: String,
     /// The file's value, canonical units.
     pub original: f64,
-    /// The fitted value, or `None` with `why`.
+    /// The fitted value in canonical units, or `None` with `why`.
     pub value: Option<f64>,
+    /// 95 % interval of the fitted value (canonical units): the values whose deterministic level
+    /// is the observation ± 1.96 SD.
+    pub ci95: Option<[f64; 2]>,
     pub why: Option<String>,
     /// The ensemble at the fitted value against the observation.
     pub confirmation: Option<ObservationReport>,
 }
 
+/// A species that only accumulates, deterministic and in the ensemble (molecules/s).
+#[derive(Clone, Debug, PartialEq, Serialize)]
+pub struct OutputRate {
+    #[serde(skip)]
+    pub name: String,
+    pub rate_per_s: f64,
+    pub ensemble_rate_per_s: Option<f64>,
+    pub ensemble_rate_ci95: Option<[f64; 2]>,
+}
+
+impl Named for OutputRate {
+    fn name(&self) -> &str {
+        &self.name
+    }
+}
+
+/// The outputs of a steady state, with the ensemble's accumulation rates where there is one.
+pub fn output_rates(
+    net: &Network,
+    steady: &Steady,
+    ens: Option<&EnsembleResult>,
+) -> Vec<OutputRate> {
+    steady
+        .outputs
+        .iter()
+        .map(|o| {
+            let measured = ens.map(|e| {
+                let w = &e.window_change[o.species];
+                let t = e.window_length();
+                let ci = w.ci95();
+                (w.mean() / t, [ci[0] / t, ci[1] / t])
+            });
+            OutputRate {
+                name: net.species[o.species].name.clone(),
+                rate_per_s: o.rate_per_s,
+                ensemble_rate_per_s: measured.map(|m| m.0),
+                ensemble_rate_ci95: measured.map(|m| m.1),
+            }
+        })
+        .collect()
+}
+
 /// Everything `copyloop reconcile` reports.
-#[derive(Clone, Debug)]
+#[derive(Clone, Debug, Serialize)]
 pub struct Reconciliation {
+    pub file: String,
     pub seed: u64,
-    pub plan: Plan,
-    pub steady: Steady,
     pub replicates: u64,
+    pub plan: Plan,
+    #[serde(skip)]
+    pub steady: Steady,
     pub motifs: Vec<MotifReport>,
     pub chains: Vec<ChainReport>,
     pub observations: Vec<ObservationReport>,
+    /// The first observation's sensitivities.
+    #[serde(serialize_with = "sensitivity_map")]
+    pub sensitivities: Vec<(String, f64)>,
     pub fit: Option<FitReport>,
+    #[serde(serialize_with = "by_name")]
+    pub outputs: Vec<OutputRate>,
+    pub tolerance: f64,
     pub events_total: u64,
     pub wall_seconds: f64,
-    pub notes: Vec<String>,
+    /// The exact stationary law's boundary probability and projection size, or why there is
+    /// none.
+    pub exact_truncation_error: Option<f64>,
+    pub exact_states: Option<usize>,
+    pub exact_note: Option<String>,
 }
 
 /// Runs the reconciliation of `net`.
 pub fn reconcile(net: &Network, opts: &Options) -> Result<Reconciliation> {
+    opts.validate()?;
     let steady = solve(net, &SteadyOptions::default())?;
     let plan = stationary::plan(
         net,
@@ -237,7 +418,7 @@ pub fn reconcile(net: &Network, opts: &Options) -> Result<Reconciliation> {
     let plan = if opts.from_initial {
         Plan {
             start: net.initial_state(),
-            started_from: "initial state",
+            started_from: Start::InitialState,
             ..plan
         }
     } else {
@@ -245,19 +426,32 @@ pub fn reconcile(net: &Network, opts: &Options) -> Result<Reconciliation> {
     };
     validate_plan(&plan)?;
     let (ens, replicates) = run_ensemble(net, &plan, opts)?;
-    let mut notes = Vec::new();
-    if plan.burn_in_found {
-        notes.push(stationary_note(&plan));
-    }
-    if net.motifs.is_empty() {
-        notes.push("no carrier motif found: only observations are reconciled".into());
-    }
+    let (exact, exact_note) = if net.motifs.is_empty() {
+        (None, None)
+    } else {
+        match distribution::stationary_beside(net, opts.threads) {
+            Ok(e) => (Some(e), None),
+            Err(e) => (None, Some(e.to_string())),
+        }
+    };
     let motifs: Vec<MotifReport> = (0..net.motifs.len())
-        .map(|m| motif_report(net, m, &ens, &steady, opts.precision))
+        .map(|m| {
+            let mut r = motif_report(net, m, &ens, &steady, opts);
+            let label = &net.reactions[net.motifs[m].output].label;
+            r.exact = exact.as_ref().and_then(|e| e.fluxes.get(label)).map(|&f| {
+                let l = r.predicted.langmuir_per_s;
+                ExactFlux {
+                    mean_per_s: f,
+                    langmuir_relative_difference: (f - l) / l,
+                    ensemble_relative_difference: (r.ensemble.mean_per_s - f) / f,
+                }
+            });
+            r
+        })
         .collect();
     let chains = motif_chains(net)
         .into_iter()
-        .map(|stages| chain_report(net, stages, &ens, &steady))
+        .map(|stages| chain_report(net, stages, &ens, &steady, opts.tolerance))
         .collect();
     let mut observations = Vec::new();
     for o in &opts.observations {
@@ -265,52 +459,37 @@ pub fn reconcile(net: &Network, opts: &Options) -> Result<Reconciliation> {
     }
     let fit = match (&opts.fit, opts.observations.first()) {
         (Some(p), Some(o)) => Some(fit_param(net, p, o, &plan, opts)?),
-        (Some(_), None) => return Err(Error::usage("--fit needs an --observe level to fit")),
         _ => None,
     };
     Ok(Reconciliation {
+        file: net.file.clone(),
         seed: opts.seed,
+        replicates,
+        sensitivities: observations
+            .first()
+            .map_or(Vec::new(), |o| o.sensitivities.clone()),
+        outputs: output_rates(net, &steady, Some(&ens)),
         plan,
         steady,
-        replicates,
         motifs,
         chains,
         observations,
         fit,
+        tolerance: opts.tolerance,
         events_total: ens.events_total,
         wall_seconds: ens.wall_seconds,
-        notes,
+        exact_truncation_error: exact.as_ref().map(|e| e.truncation_error),
+        exact_states: exact.as_ref().map(|e| e.states),
+        exact_note,
     })
-}
-
-/// How the burn-in and window were chosen, for the report.
-pub fn stationary_note(plan: &Plan) -> String {
-    let num = crate::report::num;
-    let full = stationary::BURN_IN_TAUS * plan.relaxation_time;
-    let how = if (plan.burn_in - full).abs() <= 1e-9 * full {
-        format!(
-            "5 × the slowest relaxation time, {} s",
-            num(plan.relaxation_time)
-        )
-    } else {
-        format!(
-            "shortened from 5 × the slowest relaxation time ({} s) to keep the run within {} events; give --burn-in and --t-end to lengthen it",
-            num(plan.relaxation_time),
-            num(stationary::EVENT_BUDGET)
-        )
-    };
-    format!(
-        "burn-in {} s ({how}); measured over [{}, {}] s, starting from the {}",
-        num(plan.burn_in),
-        num(plan.burn_in),
-        num(plan.t_end),
-        plan.started_from
-    )
 }
 
 fn validate_plan(plan: &Plan) -> Result<()> {
     if !(plan.t_end.is_finite() && plan.t_end > 0.0) {
-        return Err(Error::usage("--t-end must be a finite time above 0"));
+        return Err(Error::usage(format!(
+            "the end time must be a finite time above 0 (it came out as {} s: no finite relaxation time; give --t-end)",
+            plan.t_end
+        )));
     }
     if !(plan.burn_in >= 0.0 && plan.burn_in < plan.t_end) {
         return Err(Error::usage(format!(
@@ -333,17 +512,10 @@ fn run_ensemble(net: &Network, plan: &Plan, opts: &Options) -> Result<(EnsembleR
     let Some(p) = opts.precision else {
         return Ok((ens, used));
     };
-    if !(p > 0.0 && p < 1.0) {
-        return Err(Error::usage(format!(
-            "--precision must lie between 0 and 1, got {p}"
-        )));
-    }
     let wide = |e: &EnsembleResult| {
         net.motifs.iter().any(|m| {
-            let w = &e.firings[m.output];
-            let est = Estimate::of(w, 1.0);
-            let narrow = est.half_width() <= p * est.mean.abs();
-            !narrow
+            let est = Estimate::of(&e.firings[m.output], 1.0);
+            est.half_width() > p * est.mean.abs()
         })
     };
     while wide(&ens) && used < opts.max_replicates {
@@ -355,12 +527,68 @@ fn run_ensemble(net: &Network, plan: &Plan, opts: &Options) -> Result<(EnsembleR
     Ok((ens, used))
 }
 
+/// The causes that could explain a motif's prediction missing the ensemble, with their
+/// expected relative errors (see [`CauseKind`] for each estimate).
+fn motif_causes(
+    net: &Network,
+    m: usize,
+    ens: &EnsembleResult,
+    langmuir: f64,
+    tqssa: Option<f64>,
+    precision: Option<f64>,
+    flux: &Estimate,
+) -> (Vec<Cause>, Vec<Cause>) {
+    let motif = &net.motifs[m];
+    let mut common = Vec::new();
+    let clamped = net.species[motif.ligand].clamped;
+    if !clamped {
+        let l = ens.time_average[motif.ligand].mean();
+        let var = total_variance(&ens.time_moments[motif.ligand]);
+        let k = motif.k_half;
+        if l > 0.0 {
+            common.push(Cause {
+                cause: CauseKind::LowCopyNumber,
+                expected_relative_error: -k * var / (l * (k + l) * (k + l)),
+            });
+        }
+    }
+    let diff = &ens.half_difference[motif.output];
+    let total = ens.firings[motif.output].mean();
+    if diff.stderr() > 0.0 && (diff.mean() / diff.stderr()).abs() > HALVES_Z && total > 0.0 {
+        common.push(Cause {
+            cause: CauseKind::NotStationary,
+            expected_relative_error: diff.mean() / total,
+        });
+    }
+    if let Some(p) = precision {
+        if flux.half_width() > p * flux.mean.abs() && flux.mean != 0.0 {
+            common.push(Cause {
+                cause: CauseKind::TooFewReplicates,
+                expected_relative_error: flux.half_width() / flux.mean.abs(),
+            });
+        }
+    }
+    let mut for_langmuir = common.clone();
+    if let Some(t) = tqssa {
+        if langmuir != 0.0 {
+            for_langmuir.insert(
+                0,
+                Cause {
+                    cause: CauseKind::LigandDepletion,
+                    expected_relative_error: (t - langmuir) / langmuir,
+                },
+            );
+        }
+    }
+    (for_langmuir, common)
+}
+
 fn motif_report(
     net: &Network,
     m: usize,
     ens: &EnsembleResult,
     steady: &Steady,
-    precision: Option<f64>,
+    opts: &Options,
 ) -> MotifReport {
     let motif = &net.motifs[m];
     let window = ens.window_length();
@@ -381,60 +609,32 @@ fn motif_report(
     let flux = Estimate::of(&ens.firings[motif.output], 1.0 / window);
     let tol = |p: f64| PREDICTION_TOLERANCE * p.abs();
     let ode_tol = tol(ode_per_s) + steady.residual.relative * ode_per_s.abs();
-    let verdict = Verdict::from(flux.contains(langmuir_per_s, tol(langmuir_per_s)));
-    let tqssa_verdict = tqssa_per_s.map(|t| Verdict::from(flux.contains(t, tol(t))));
-    let ode_verdict = Verdict::from(flux.contains(ode_per_s, ode_tol));
-    let qssa_parameter = carrier_total / (ligand_level + k);
+    let (langmuir_causes, common) = motif_causes(
+        net,
+        m,
+        ens,
+        langmuir_per_s,
+        tqssa_per_s,
+        opts.precision,
+        &flux,
+    );
+    let judge = |p: f64, numerical: f64, causes: &[Cause]| {
+        verdict::judge(&flux, p, numerical, opts.tolerance, causes)
+    };
+    let verdicts = Verdicts {
+        langmuir: judge(langmuir_per_s, tol(langmuir_per_s), &langmuir_causes),
+        tqssa: tqssa_per_s.map(|t| judge(t, tol(t), &common)),
+        ode: judge(ode_per_s, ode_tol, &common),
+    };
     let diff = &ens.half_difference[motif.output];
     let halves_z = if diff.stderr() > 0.0 {
         diff.mean() / diff.stderr()
     } else {
         0.0
     };
-    let mut causes = Vec::new();
-    let any_deviates = verdict == Verdict::Deviates
-        || tqssa_verdict == Some(Verdict::Deviates)
-        || ode_verdict == Verdict::Deviates;
-    if any_deviates {
-        let depletion = qssa_parameter > QSSA_LIMIT || tqssa_verdict == Some(Verdict::Consistent);
-        if verdict == Verdict::Deviates && !clamped && depletion {
-            causes.push(format!(
-                "the quasi-steady-state condition fails: the Langmuir form counts all ligand as free, \
-                 valid only when X_T/(L_T + K) ≪ 1 (Segel & Slemrod 1989), and here it is {}; \
-                 the total-QSSA form accounts for the bound ligand",
-                crate::report::num(qssa_parameter)
-            ));
-        }
-        if halves_z.abs() > HALVES_Z {
-            causes.push(format!(
-                "not stationary: the flux in the first and second halves of the window differs by {} standard errors; lengthen --burn-in or --t-end",
-                crate::report::num(halves_z.abs())
-            ));
-        }
-        let low: Vec<String> = [
-            (carrier_total, &net.species[motif.carrier].name, "carrier"),
-            (ligand_level, &net.species[motif.ligand].name, "ligand"),
-        ]
-        .iter()
-        .filter(|(n, _, _)| *n < LOW_COPY)
-        .map(|(n, name, role)| format!("{role} {name} ≈ {}", crate::report::num(*n)))
-        .collect();
-        if !low.is_empty() {
-            causes.push(format!(
-                "low copy number ({}): fluctuations shift the mean flux away from the deterministic forms",
-                low.join(", ")
-            ));
-        }
-    }
-    if let Some(p) = precision {
-        if flux.half_width() > p * flux.mean.abs() {
-            causes.push(format!(
-                "too few replicates: the interval half-width is {} of the mean, more than the {} asked",
-                crate::report::num(flux.half_width() / flux.mean.abs()),
-                crate::report::num(p)
-            ));
-        }
-    }
+    // Molar figures in the motif's own compartment: K and the ligand in the binding step's,
+    // the capacity in the output step's.
+    let omega = net.reaction_molar_omega(motif.bind);
     MotifReport {
         motif: m,
         kind: motif.kind,
@@ -442,22 +642,30 @@ fn motif_report(
         ligand: net.species[motif.ligand].name.clone(),
         output: net.reactions[motif.output].label.clone(),
         k_half: k,
+        k_half_molar: molar(k, omega),
         carrier_total,
         capacity_per_s: motif.c_out * carrier_total,
+        capacity_molar_per_s: molar(
+            motif.c_out * carrier_total,
+            net.reaction_molar_omega(motif.output),
+        ),
         ligand_level,
+        ligand_level_molar: molar(ligand_level, net.species_molar_omega(motif.ligand)),
         ligand_clamped: clamped,
         ligand_free,
-        langmuir_per_s,
-        tqssa_per_s,
-        ode_per_s,
-        relative_difference: (flux.mean - langmuir_per_s) / langmuir_per_s,
-        ensemble: flux,
-        verdict,
-        tqssa_verdict,
-        ode_verdict,
-        qssa_parameter,
+        predicted: Predicted {
+            langmuir_per_s,
+            tqssa_per_s,
+            ode_per_s,
+        },
+        ensemble: flux.into(),
+        relative_difference: verdicts.langmuir.relative_difference,
+        verdict: verdicts.langmuir.verdict,
+        verdicts,
+        tolerance: opts.tolerance,
+        qssa_parameter: carrier_total / (ligand_level + k),
         halves_z,
-        causes,
+        exact: None,
     }
 }
 
@@ -466,6 +674,7 @@ fn chain_report(
     stages: Vec<usize>,
     ens: &EnsembleResult,
     steady: &Steady,
+    tolerance: f64,
 ) -> ChainReport {
     let last = &net.motifs[*stages.last().expect("chains have stages")];
     let ensemble = Estimate::of(&ens.firings[last.output], 1.0 / ens.window_length());
@@ -483,10 +692,23 @@ fn chain_report(
         last.k_half,
     );
     let tol = PREDICTION_TOLERANCE * ode_per_s.abs() + steady.residual.relative * ode_per_s.abs();
+    let ode = verdict::judge(&ensemble, ode_per_s, tol, tolerance, &[]);
+    let langmuir = verdict::judge(
+        &ensemble,
+        langmuir_per_s,
+        PREDICTION_TOLERANCE * langmuir_per_s.abs(),
+        tolerance,
+        &[],
+    );
     ChainReport {
-        stages,
-        verdict: Verdict::from(ensemble.contains(ode_per_s, tol)),
-        ensemble,
+        stages: stages
+            .iter()
+            .map(|&s| net.species[net.motifs[s].carrier].name.clone())
+            .collect(),
+        stage_motifs: stages,
+        verdict: ode.verdict,
+        verdicts: ChainVerdicts { ode, langmuir },
+        ensemble: ensemble.into(),
         ode_per_s,
         langmuir_per_s,
     }
@@ -513,12 +735,28 @@ fn observation_report(
     } else {
         Vec::new()
     };
+    let omega = net.species_molar_omega(o.species);
+    let deterministic = steady.counts[o.species];
     Ok(ObservationReport {
+        name: o.name.clone(),
         observation: o.clone(),
-        deterministic: steady.counts[o.species],
+        observed: o.value,
+        sd: o.sd,
+        deterministic,
+        ensemble_mean: ensemble.mean,
+        ci95: ensemble.ci95,
         ensemble,
         z,
-        verdict: Verdict::from(z.abs() <= OBSERVATION_Z),
+        verdict: if z.abs() <= OBSERVATION_Z {
+            Consistency::Consistent
+        } else {
+            Consistency::Deviates
+        },
+        observed_molar: molar(o.value, omega),
+        sd_molar: molar(o.sd, omega),
+        deterministic_molar: molar(deterministic, omega),
+        ensemble_mean_molar: molar(ensemble.mean, omega),
+        ci95_molar: omega.map(|w| [ensemble.ci95[0] / w, ensemble.ci95[1] / w]),
         sensitivities,
     })
 }
@@ -587,29 +825,33 @@ fn fit_param(
     }
     let original = p.value.value;
     let guess = solve(net, &SteadyOptions::default())?;
-    let mut g = |v: f64| -> std::result::Result<f64, String> {
-        level_at(net, name, v, o.species, &guess)
-            .map(|level| level - o.value)
-            .map_err(|e| e.to_string())
+    let root = |target: f64| {
+        let mut g = |v: f64| -> std::result::Result<f64, String> {
+            level_at(net, name, v, o.species, &guess)
+                .map(|level| level - target)
+                .map_err(|e| e.to_string())
+        };
+        fit::root_in_log_space(&mut g, original, 6.0, 1e-10)
     };
-    let found = fit::root_in_log_space(&mut g, original, 6.0, 1e-10);
+    let found = root(o.value);
+    // The level is monotone in the param near the fit, so the values whose level is the
+    // observation ± 1.96 SD bound a 95 % interval (an inversion of the observation's own
+    // interval through the deterministic level).
+    let ci95 = match (&found, o.sd > 0.0) {
+        (Ok(_), true) => {
+            match (
+                root(o.value - OBSERVATION_Z * o.sd),
+                root(o.value + OBSERVATION_Z * o.sd),
+            ) {
+                (Ok(a), Ok(b)) => Some([a.min(b), a.max(b)]),
+                _ => None,
+            }
+        }
+        _ => None,
+    };
     let (value, why) = match found {
         Ok(v) => (Some(v), None),
-        Err(fit::FitFailure::NoSignChange { lo, hi }) => (
-            None,
-            Some(format!(
-                "no value of {name} between {} and {} gives the observed level",
-                crate::report::num(lo),
-                crate::report::num(hi)
-            )),
-        ),
-        Err(fit::FitFailure::Failed { at, why }) => (
-            None,
-            Some(format!(
-                "the steady state could not be found at {name} = {}: {why}",
-                crate::report::num(at)
-            )),
-        ),
+        Err(f) => (None, Some(f.to_string())),
     };
     let confirmation = match value {
         Some(v) => {
@@ -631,6 +873,7 @@ fn fit_param(
         param: name.to_string(),
         original,
         value,
+        ci95,
         why,
         confirmation,
     })

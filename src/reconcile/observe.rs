@@ -1,7 +1,12 @@
 //! Observed steady levels given on the command line: `--observe NAME=VALUE[±SD]`.
+//!
+//! VALUE takes the network language's quantity syntax (`2nM`, `900 molecules`); a bare number
+//! is in the unit the file declared the species with (`species H = 0 nM` makes `H=2` mean
+//! 2 nM), as every option value is.
 
 use crate::error::Error;
-use crate::network::{parser::parse_quantity, Dim, Network, Quantity};
+use crate::network::parser::{parse_quantity, Item};
+use crate::network::{Dim, Network, Quantity};
 
 /// An observed level of one species, in molecules (converted with Ω where a volume is set).
 #[derive(Clone, Debug, PartialEq)]
@@ -14,15 +19,16 @@ pub struct Observation {
     pub sd: f64,
 }
 
-/// A quantity as molecules: a concentration times Ω, or a count.
-fn to_count(q: Quantity, net: &Network, what: &str) -> Result<f64, Error> {
+/// A quantity of species `i` as molecules: a concentration times Ω of its compartment, or a
+/// count.
+fn to_count(q: Quantity, net: &Network, i: usize, what: &str) -> Result<f64, Error> {
     if q.dim == Dim::CONC {
-        if net.volume_l.is_none() {
+        let Some(omega) = net.species_molar_omega(i) else {
             return Err(Error::usage(format!(
                 "{what} is a concentration, but the network has no volume; give it in molecules"
             )));
-        }
-        Ok(q.value * net.omega)
+        };
+        Ok(q.value * omega)
     } else if q.dim == Dim::COUNT || q.dim.is_none() {
         Ok(q.value)
     } else {
@@ -31,6 +37,17 @@ fn to_count(q: Quantity, net: &Network, what: &str) -> Result<f64, Error> {
             q.dim
         )))
     }
+}
+
+/// The factor and dimension of the unit the file wrote for species `name`'s amount (`None`
+/// when it wrote a bare count: molecules).
+fn declared_unit(net: &Network, name: &str) -> Option<(f64, Dim)> {
+    net.source.items.iter().find_map(|item| match item {
+        Item::Species {
+            name: n, amount, ..
+        } if n.text == name && !amount.bare => Some((amount.unit_factor, amount.quantity.dim)),
+        _ => None,
+    })
 }
 
 /// Parses `NAME=VALUE[±SD]` (`+-` may stand for `±`), e.g. `H=2nM±0.2nM` or `Q=900+-30`.
@@ -49,8 +66,14 @@ pub fn parse_observation(text: &str, net: &Network) -> Result<Observation, Error
         Some((v, s)) => (v, Some(s)),
         None => (rest, None),
     };
+    let declared = declared_unit(net, name);
     let (q, unit) = parse_quantity(value.trim()).map_err(|e| bad(&e))?;
-    let level = to_count(q, net, &format!("the observed value of {name}"))?;
+    // A bare value is in the declared unit.
+    let (q, unit) = match (unit, declared) {
+        (None, Some((factor, dim))) => (Quantity::new(q.value * factor, dim), Some(factor)),
+        other => (q, other.0),
+    };
+    let level = to_count(q, net, species, &format!("the observed value of {name}"))?;
     let sd = match sd {
         Some(text) => {
             let (mut s, sd_unit) = parse_quantity(text.trim()).map_err(|e| bad(&e))?;
@@ -58,7 +81,7 @@ pub fn parse_observation(text: &str, net: &Network) -> Result<Observation, Error
             if let (None, Some(factor)) = (sd_unit, unit) {
                 s = Quantity::new(s.value * factor, q.dim);
             }
-            to_count(s, net, &format!("the SD of {name}"))?
+            to_count(s, net, species, &format!("the SD of {name}"))?
         }
         None => 0.0,
     };
@@ -96,6 +119,10 @@ mod tests {
         assert_eq!((o.value, o.sd), (900.0, 30.0));
         let o = parse_observation("Q=900", &n).unwrap();
         assert_eq!(o.sd, 0.0);
+        // A bare value is in the declared unit: H was declared in nM.
+        let o = parse_observation("H=2±0.2", &n).unwrap();
+        assert!((o.value - 2e-9 * n.omega).abs() < 1e-6);
+        assert!((o.sd - 0.2e-9 * n.omega).abs() < 1e-6);
     }
 
     #[test]

@@ -283,7 +283,7 @@ pub fn table(net: &Network) -> String {
     let mut t = Table::new(&head);
     for (i, s) in net.species.iter().enumerate() {
         let mut row = vec![s.name.clone()];
-        row.extend(net.stoichiometry[i].iter().map(|x| x.to_string()));
+        row.extend(net.stoichiometry.dense_row(i).iter().map(|x| x.to_string()));
         t.row(row);
     }
     out.push_str(&t.render());

@@ -1,212 +1,175 @@
 //! The report of `copyloop reconcile`.
 
+use super::num;
 use super::svg::{Chart, Point, Series, Style};
 use super::table::Table;
-use super::{jnum, num};
 use crate::network::Network;
-use crate::reconcile::{Estimate, ObservationReport, Reconciliation};
-use serde_json::{json, Map, Value};
+use crate::reconcile::{Cause, CauseKind, Flux, Judgement, MotifReport, Reconciliation, Verdict};
+use serde_json::Value;
 
-fn interval(e: &Estimate, scale: f64) -> Value {
-    json!([jnum(e.ci95[0] * scale), jnum(e.ci95[1] * scale)])
+/// The JSON document of `reconcile` (the result's own serialisation).
+pub fn json(r: &Reconciliation) -> Value {
+    serde_json::to_value(r).unwrap_or(Value::Null)
 }
 
-fn molar(net: &Network, x: f64) -> Value {
-    net.volume_l.map_or(Value::Null, |_| jnum(x / net.omega))
+fn flux(f: &Flux) -> String {
+    format!(
+        "{} ± {}",
+        num(f.mean_per_s),
+        num((f.ci95[1] - f.ci95[0]) / 2.0)
+    )
 }
 
-fn sensitivity_map(o: &ObservationReport) -> Value {
-    let mut m = Map::new();
-    for (p, s) in &o.sensitivities {
-        m.insert(p.clone(), jnum(*s));
+/// `agrees (+1.2 %)`, with a `*` when the difference is statistically significant.
+fn judged(j: &Judgement) -> String {
+    let d = if j.relative_difference.is_finite() {
+        format!(" ({:+.1} %)", 100.0 * j.relative_difference)
+    } else {
+        String::new()
+    };
+    let star = if j.significant { "*" } else { "" };
+    format!("{}{d}{star}", j.verdict.as_str())
+}
+
+/// A cause in words, with its expected size.
+fn cause_text(c: &Cause, m: &MotifReport) -> String {
+    let size = format!("{:+.2} %", 100.0 * c.expected_relative_error);
+    match c.cause {
+        CauseKind::LigandDepletion => format!(
+            "ligand depletion: the Langmuir form counts all ligand as free, valid when \
+             X_T/(L_T + K) ≪ 1 (Segel & Slemrod 1989); here it is {}, and the total-QSSA form, \
+             which accounts for bound ligand, differs from it by {size}",
+            num(m.qssa_parameter)
+        ),
+        CauseKind::LowCopyNumber => format!(
+            "low copy number: fluctuations of the free ligand ({} molecules on average) shift \
+             the mean of the saturating flux by about {size} (second-order estimate)",
+            num(m.ligand_free)
+        ),
+        CauseKind::NotStationary => format!(
+            "not stationary: the two halves of the window differ by {size} \
+             ({} standard errors); lengthen --burn-in or --t-end",
+            num(m.halves_z.abs())
+        ),
+        CauseKind::TooFewReplicates => format!(
+            "too few replicates: the interval half-width is {size} of the mean, more than \
+             --precision asked"
+        ),
     }
-    Value::Object(m)
-}
-
-fn observation_json(net: &Network, o: &ObservationReport) -> Value {
-    json!({
-        "name": o.observation.name,
-        "observed": jnum(o.observation.value),
-        "sd": jnum(o.observation.sd),
-        "deterministic": jnum(o.deterministic),
-        "ensemble_mean": jnum(o.ensemble.mean),
-        "ci95": interval(&o.ensemble, 1.0),
-        "z": jnum(o.z),
-        "verdict": o.verdict.as_str(),
-        "observed_molar": molar(net, o.observation.value),
-        "sd_molar": molar(net, o.observation.sd),
-        "deterministic_molar": molar(net, o.deterministic),
-        "ensemble_mean_molar": molar(net, o.ensemble.mean),
-        "ci95_molar": net.volume_l.map_or(Value::Null, |_| interval(&o.ensemble, 1.0 / net.omega)),
-        "sensitivities": sensitivity_map(o),
-    })
-}
-
-/// The JSON document of CONTRACT §3 for `reconcile`.
-pub fn json(net: &Network, r: &Reconciliation) -> Value {
-    let motifs: Vec<Value> = r
-        .motifs
-        .iter()
-        .map(|m| {
-            json!({
-                "carrier": m.carrier,
-                "ligand": m.ligand,
-                "kind": m.kind.as_str(),
-                "output": m.output,
-                "k_half": jnum(m.k_half),
-                "k_half_molar": molar(net, m.k_half),
-                "carrier_total": jnum(m.carrier_total),
-                "capacity_per_s": jnum(m.capacity_per_s),
-                "capacity_molar_per_s": molar(net, m.capacity_per_s),
-                "ligand_level": jnum(m.ligand_level),
-                "ligand_level_molar": molar(net, m.ligand_level),
-                "ligand_clamped": m.ligand_clamped,
-                "ligand_free": jnum(m.ligand_free),
-                "predicted": {
-                    "langmuir_per_s": jnum(m.langmuir_per_s),
-                    "tqssa_per_s": m.tqssa_per_s.map(jnum),
-                    "ode_per_s": jnum(m.ode_per_s),
-                },
-                "ensemble": {
-                    "mean_per_s": jnum(m.ensemble.mean),
-                    "stderr_per_s": jnum(m.ensemble.stderr),
-                    "ci95": interval(&m.ensemble, 1.0),
-                    "replicates": m.ensemble.n,
-                },
-                "relative_difference": jnum(m.relative_difference),
-                "verdict": m.verdict.as_str(),
-                "verdicts": {
-                    "langmuir": m.verdict.as_str(),
-                    "tqssa": m.tqssa_verdict.map(|v| v.as_str()),
-                    "ode": m.ode_verdict.as_str(),
-                },
-                "qssa_parameter": jnum(m.qssa_parameter),
-                "halves_z": jnum(m.halves_z),
-                "causes": m.causes,
-            })
-        })
-        .collect();
-    let chains: Vec<Value> = r
-        .chains
-        .iter()
-        .map(|c| {
-            json!({
-                "stages": c.stages.iter().map(|&s| net.species[net.motifs[s].carrier].name.clone()).collect::<Vec<_>>(),
-                "ensemble": {"mean_per_s": jnum(c.ensemble.mean), "stderr_per_s": jnum(c.ensemble.stderr), "ci95": interval(&c.ensemble, 1.0)},
-                "ode_per_s": jnum(c.ode_per_s),
-                "langmuir_per_s": jnum(c.langmuir_per_s),
-                "verdict": c.verdict.as_str(),
-            })
-        })
-        .collect();
-    let observations: Vec<Value> = r
-        .observations
-        .iter()
-        .map(|o| observation_json(net, o))
-        .collect();
-    let sensitivities = r.observations.first().map_or(json!({}), sensitivity_map);
-    let fit = r.fit.as_ref().map(|f| {
-        json!({
-            "param": f.param,
-            "original": jnum(f.original),
-            "value": f.value.map(jnum),
-            "why": f.why,
-            "confirmation": f.confirmation.as_ref().map(|o| observation_json(net, o)),
-        })
-    });
-    json!({
-        "file": net.file,
-        "replicates": r.replicates,
-        "seed": r.seed,
-        "t_end": r.plan.t_end,
-        "burn_in": r.plan.burn_in,
-        "burn_in_found": r.plan.burn_in_found,
-        "relaxation_time": jnum(r.plan.relaxation_time),
-        "started_from": r.plan.started_from,
-        "motifs": motifs,
-        "chains": chains,
-        "observations": observations,
-        "sensitivities": sensitivities,
-        "fit": fit,
-        "events_total": r.events_total,
-        "wall_seconds": r.wall_seconds,
-        "notes": r.notes,
-    })
-}
-
-fn est(e: &Estimate) -> String {
-    format!("{} ± {}", num(e.mean), num(e.half_width()))
 }
 
 /// The readable report.
 pub fn table(net: &Network, r: &Reconciliation) -> String {
-    let mut out = format!(
-        "{}: {} replicates, window [{}, {}] s, started from the {}\n\n",
-        net.file,
-        r.replicates,
-        num(r.plan.burn_in),
-        num(r.plan.t_end),
-        r.plan.started_from
-    );
+    let mut out = format!("{}: {} replicates\n", net.file, r.replicates);
+    for line in super::noise::plan_lines(&r.plan) {
+        out.push_str(&format!("  {line}\n"));
+    }
+    out.push('\n');
     if !r.motifs.is_empty() {
-        out.push_str(
-            "carrier motifs: output flux (molecules/s), ensemble mean ± 95 % half-width\n",
-        );
+        out.push_str(&format!(
+            "carrier motifs: output flux (molecules/s), ensemble mean ± 95 % half-width; each \
+             prediction agrees when the 95 % interval of its relative difference lies within \
+             ±{} % (* marks a statistically significant difference)\n",
+            num(100.0 * r.tolerance)
+        ));
         let mut t = Table::new(&[
             "motif",
             "kind",
             "K (molec.)",
             "L_T (molec.)",
             "capacity",
-            "Langmuir",
-            "tQSSA",
-            "ODE",
             "ensemble",
+            "Langmuir",
             "verdict",
+            "tQSSA",
+            "verdict",
+            "ODE",
+            "verdict",
+            "exact",
         ]);
         for m in &r.motifs {
+            let v = &m.verdicts;
             t.row(vec![
                 format!("{}·{} → {}", m.carrier, m.ligand, m.output),
                 m.kind.as_str().into(),
                 num(m.k_half),
                 num(m.ligand_level),
                 num(m.capacity_per_s),
-                num(m.langmuir_per_s),
-                m.tqssa_per_s.map_or("(clamped)".into(), num),
-                num(m.ode_per_s),
-                est(&m.ensemble),
-                format!(
-                    "{} (tQSSA {}, ODE {})",
-                    m.verdict.as_str(),
-                    m.tqssa_verdict.map_or("-", |v| v.as_str()),
-                    m.ode_verdict.as_str()
-                ),
+                flux(&m.ensemble),
+                num(m.predicted.langmuir_per_s),
+                judged(&v.langmuir),
+                m.predicted.tqssa_per_s.map_or("(clamped)".into(), num),
+                v.tqssa.as_ref().map_or("-".into(), judged),
+                num(m.predicted.ode_per_s),
+                judged(&v.ode),
+                m.exact.as_ref().map_or("-".into(), |e| num(e.mean_per_s)),
             ]);
         }
         out.push_str(&t.render());
+        match (&r.exact_note, r.exact_states) {
+            (Some(n), _) => out.push_str(&format!("  exact column unavailable: {n}\n")),
+            (None, Some(states)) => out.push_str(&format!(
+                "  exact: stationary master equation on {states} states (finite state projection, boundary probability {})\n",
+                num(r.exact_truncation_error.unwrap_or(0.0))
+            )),
+            _ => {}
+        }
         for m in &r.motifs {
-            for c in &m.causes {
-                out.push_str(&format!("  {}·{}: {c}\n", m.carrier, m.ligand));
+            let v = &m.verdicts;
+            let named = [
+                ("Langmuir", Some(&v.langmuir)),
+                ("tQSSA", v.tqssa.as_ref()),
+                ("ODE", Some(&v.ode)),
+            ];
+            for (what, j) in named {
+                let Some(j) = j else { continue };
+                if let (Verdict::Undecided, Some(n)) = (j.verdict, j.replicates_to_decide) {
+                    out.push_str(&format!(
+                        "  {}·{} {what}: undecided; about {n} replicates would decide it\n",
+                        m.carrier, m.ligand
+                    ));
+                }
+                for c in &j.causes {
+                    out.push_str(&format!(
+                        "  {}·{} {what}: {}\n",
+                        m.carrier,
+                        m.ligand,
+                        cause_text(c, m)
+                    ));
+                }
             }
         }
         out.push('\n');
+    } else {
+        out.push_str("no carrier motif found: only observations are reconciled\n\n");
     }
     if !r.chains.is_empty() {
         out.push_str("motifs in series, end to end (last stage's flux, molecules/s)\n");
-        let mut t = Table::new(&["stages", "ODE", "Langmuir", "ensemble", "verdict"]);
+        let mut t = Table::new(&[
+            "stages", "ensemble", "ODE", "verdict", "Langmuir", "verdict",
+        ]);
         for c in &r.chains {
-            let names: Vec<String> = c
-                .stages
-                .iter()
-                .map(|&s| net.species[net.motifs[s].carrier].name.clone())
-                .collect();
             t.row(vec![
-                names.join(" → "),
+                c.stages.join(" → "),
+                flux(&c.ensemble),
                 num(c.ode_per_s),
+                judged(&c.verdicts.ode),
                 num(c.langmuir_per_s),
-                est(&c.ensemble),
-                c.verdict.as_str().into(),
+                judged(&c.verdicts.langmuir),
             ]);
+        }
+        out.push_str(&t.render());
+        out.push('\n');
+    }
+    if !r.outputs.is_empty() {
+        out.push_str("species that only accumulate (molecules/s)\n");
+        let mut t = Table::new(&["species", "deterministic", "ensemble"]);
+        for o in &r.outputs {
+            let ens = match (o.ensemble_rate_per_s, o.ensemble_rate_ci95) {
+                (Some(m), Some(ci)) => format!("{} ± {}", num(m), num((ci[1] - ci[0]) / 2.0)),
+                _ => "-".into(),
+            };
+            t.row(vec![o.name.clone(), num(o.rate_per_s), ens]);
         }
         out.push_str(&t.render());
         out.push('\n');
@@ -216,11 +179,8 @@ pub fn table(net: &Network, r: &Reconciliation) -> String {
     } else {
         "molecules"
     };
-    let scale = if net.volume_l.is_some() {
-        1.0 / net.omega
-    } else {
-        1.0
-    };
+    // Each species in its own compartment.
+    let scale_of = |i: usize| net.species_molar_omega(i).map_or(1.0, |w| 1.0 / w);
     if !r.observations.is_empty() {
         out.push_str(&format!("observed steady levels ({unit})\n"));
         let mut t = Table::new(&[
@@ -232,13 +192,10 @@ pub fn table(net: &Network, r: &Reconciliation) -> String {
             "verdict",
         ]);
         for o in &r.observations {
+            let scale = scale_of(o.observation.species);
             t.row(vec![
-                o.observation.name.clone(),
-                format!(
-                    "{} ± {}",
-                    num(o.observation.value * scale),
-                    num(o.observation.sd * scale)
-                ),
+                o.name.clone(),
+                format!("{} ± {}", num(o.observed * scale), num(o.sd * scale)),
                 num(o.deterministic * scale),
                 format!(
                     "{} ± {}",
@@ -259,7 +216,7 @@ pub fn table(net: &Network, r: &Reconciliation) -> String {
             });
             out.push_str(&format!(
                 "\n  which constant matters for {}: d ln(level)/d ln(param)\n",
-                o.observation.name
+                o.name
             ));
             let mut t = Table::new(&["param", "sensitivity"]);
             for (p, v) in s {
@@ -272,13 +229,21 @@ pub fn table(net: &Network, r: &Reconciliation) -> String {
     if let Some(f) = &r.fit {
         match (f.value, &f.why) {
             (Some(v), _) => {
+                let ci = f.ci95.map_or(String::new(), |c| {
+                    format!(", 95 % interval [{}, {}]", num(c[0]), num(c[1]))
+                });
                 out.push_str(&format!(
-                    "fit: {} = {} (canonical units; the file has {}) makes the deterministic level match\n",
+                    "fit: {} = {}{ci} (canonical units; the file has {}) makes the deterministic level match\n",
                     f.param,
                     num(v),
                     num(f.original)
                 ));
                 if let Some(c) = &f.confirmation {
+                    // The fit is to the first observation.
+                    let scale = r
+                        .observations
+                        .first()
+                        .map_or(1.0, |o| scale_of(o.observation.species));
                     out.push_str(&format!(
                         "  ensemble at the fitted value: {} ± {} {unit}, z = {}, {}\n",
                         num(c.ensemble.mean * scale),
@@ -292,9 +257,6 @@ pub fn table(net: &Network, r: &Reconciliation) -> String {
             (None, None) => {}
         }
         out.push('\n');
-    }
-    for n in &r.notes {
-        out.push_str(&format!("note: {n}\n"));
     }
     out
 }
@@ -316,7 +278,7 @@ pub fn svg(net: &Network, r: &Reconciliation) -> String {
             .map(|(k, m)| {
                 point(
                     k,
-                    m.ensemble.mean,
+                    m.ensemble.mean_per_s,
                     Some((m.ensemble.ci95[0], m.ensemble.ci95[1])),
                 )
             })
@@ -334,9 +296,9 @@ pub fn svg(net: &Network, r: &Reconciliation) -> String {
                 .collect(),
         })
     };
-    add("Langmuir", &|m| Some(m.langmuir_per_s));
-    add("total QSSA", &|m| m.tqssa_per_s);
-    add("ODE steady state", &|m| Some(m.ode_per_s));
+    add("Langmuir", &|m| Some(m.predicted.langmuir_per_s));
+    add("total QSSA", &|m| m.predicted.tqssa_per_s);
+    add("ODE steady state", &|m| Some(m.predicted.ode_per_s));
     Chart {
         title: format!("{}: motif fluxes", net.file),
         x_label: "carrier motif".into(),

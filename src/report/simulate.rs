@@ -436,3 +436,54 @@ pub fn ode_csv(net: &Network, tr: &Trajectory) -> String {
     }
     out
 }
+
+/// Adds the comparison with the exact law under `exact` (null, with `exact_note`, where the
+/// network does not fit a finite state projection).
+pub fn add_exact_json(
+    doc: &mut Value,
+    exact: &Result<crate::distribution::compare::ExactComparison, String>,
+) {
+    let obj = doc.as_object_mut().expect("an object");
+    match exact {
+        Ok(c) => {
+            obj.insert("exact".into(), serde_json::to_value(c).expect("serialises"));
+        }
+        Err(note) => {
+            obj.insert("exact".into(), Value::Null);
+            obj.insert("exact_note".into(), Value::from(note.clone()));
+        }
+    }
+}
+
+/// The comparison with the exact law: per species the largest |Z| and |Y| over the grid and
+/// how many points pass the suite's thresholds (|Z| ≥ 3, |Y| ≥ 5).
+pub fn exact_table(
+    exact: &Result<crate::distribution::compare::ExactComparison, String>,
+) -> String {
+    let c = match exact {
+        Ok(c) => c,
+        Err(note) => return format!("\nexact comparison unavailable: {note}\n"),
+    };
+    let mut out = format!(
+        "\nagainst the exact distribution ({} states, error bound {}): \
+         Z = √n(mean − μ)/σ, Y = √(n/2)(S²/σ² − 1) at each of {} grid times\n",
+        c.states,
+        num(c.truncation_error),
+        c.times.len()
+    );
+    let mut t = Table::new(&["species", "max |Z|", "|Z| ≥ 3", "max |Y|", "|Y| ≥ 5"]);
+    for (name, s) in &c.species.0 {
+        t.row(vec![
+            name.clone(),
+            num(s.max_abs_z),
+            s.z_outside_3.to_string(),
+            num(s.max_abs_y),
+            s.y_outside_5.to_string(),
+        ]);
+    }
+    out.push_str(&t.render());
+    out.push_str(
+        "a correct simulator gives |Z| < 3 at nearly every point (about 1 in 370 by chance) and |Y| < 5\n",
+    );
+    out
+}

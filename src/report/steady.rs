@@ -7,9 +7,28 @@ use crate::network::law_text;
 use crate::network::Network;
 use serde_json::{json, Map, Value};
 
-/// A molar figure beside a count figure: `x/Ω`, or null without a volume.
-fn molar(net: &Network, x: f64) -> Value {
-    net.volume_l.map_or(Value::Null, |_| jnum(x / net.omega))
+/// A molar figure beside a count figure: `x/Ω_c` with `own` the Ω_c of the compartment it
+/// refers to, or null without one.
+fn molar(own: Option<f64>, x: f64) -> Value {
+    own.map_or(Value::Null, |w| jnum(x / w))
+}
+
+/// Ω of the only compartment, for figures of no one species or step (totals, residual).
+fn single(net: &Network) -> Option<f64> {
+    (net.compartments.len() == 1).then(|| net.compartments[0].omega)
+}
+
+/// Ω_c of the one compartment every species of conservation law `l` sits in, if they share
+/// one (a total over several compartments has no single concentration).
+fn law_omega(net: &Network, l: &[i64]) -> Option<f64> {
+    let mut own = l
+        .iter()
+        .enumerate()
+        .filter(|(_, &c)| c != 0)
+        .map(|(i, _)| net.species[i].compartment);
+    let first = own.next()??;
+    own.all(|c| c == Some(first))
+        .then(|| net.compartments[first].omega)
 }
 
 fn eigen_text(z: &nalgebra::Complex<f64>) -> String {
@@ -24,13 +43,37 @@ fn eigen_text(z: &nalgebra::Complex<f64>) -> String {
 /// The JSON document of CONTRACT §3 for `steady`, with extras.
 pub fn json(net: &Network, st: &Steady) -> Value {
     let mut state = Map::new();
+    let accumulates = |i: usize| st.outputs.iter().any(|o| o.species == i);
     for (i, s) in net.species.iter().enumerate() {
+        // A species that only accumulates has no steady level: its rate is under `outputs`.
+        let count = if accumulates(i) {
+            Value::Null
+        } else {
+            jnum(st.counts[i])
+        };
+        let molar_count = if accumulates(i) {
+            Value::Null
+        } else {
+            molar(net.species_molar_omega(i), st.counts[i])
+        };
         state.insert(
             s.name.clone(),
             json!({
-                "count": jnum(st.counts[i]),
-                "molar": molar(net, st.counts[i]),
+                "count": count,
+                "molar": molar_count,
                 "clamped": s.clamped,
+                "accumulates": accumulates(i),
+            }),
+        );
+    }
+    let mut outputs = Map::new();
+    for o in &st.outputs {
+        outputs.insert(
+            net.species[o.species].name.clone(),
+            json!({
+                "rate_per_s": jnum(o.rate_per_s),
+                "rate_molar_per_s": molar(net.species_molar_omega(o.species), o.rate_per_s),
+                "ensemble_rate_per_s": Value::Null,
             }),
         );
     }
@@ -40,7 +83,7 @@ pub fn json(net: &Network, st: &Steady) -> Value {
             r.label.clone(),
             json!({
                 "per_s": jnum(st.fluxes_per_s[j]),
-                "molar_per_s": molar(net, st.fluxes_per_s[j]),
+                "molar_per_s": molar(net.reaction_molar_omega(j), st.fluxes_per_s[j]),
             }),
         );
     }
@@ -56,7 +99,7 @@ pub fn json(net: &Network, st: &Steady) -> Value {
             json!({
                 "law": Value::Object(m),
                 "total": jnum(t * net.omega),
-                "total_molar": molar(net, t * net.omega),
+                "total_molar": molar(law_omega(net, l), t * net.omega),
             })
         })
         .collect();
@@ -70,8 +113,9 @@ pub fn json(net: &Network, st: &Steady) -> Value {
         "volume_l": net.volume_l,
         "state": state,
         "fluxes": fluxes,
+        "outputs": outputs,
         "residual": jnum(st.residual.max_abs_per_s),
-        "residual_molar": molar(net, st.residual.max_abs_per_s),
+        "residual_molar": molar(single(net), st.residual.max_abs_per_s),
         "residual_relative": jnum(st.residual.relative),
         "stable": st.stable(),
         "stability": st.stability.as_str(),
@@ -100,9 +144,21 @@ pub fn table(net: &Network, st: &Steady) -> String {
     head.push("held");
     let mut t = Table::new(&head);
     for (i, s) in net.species.iter().enumerate() {
+        if let Some(o) = st.outputs.iter().find(|o| o.species == i) {
+            let mut row = vec![s.name.clone(), format!("+{}/s", num(o.rate_per_s))];
+            if with_volume {
+                row.push(format!("+{}/s", num(o.rate)));
+            }
+            row.push("accumulates".into());
+            t.row(row);
+            continue;
+        }
         let mut row = vec![s.name.clone(), num(st.counts[i])];
         if with_volume {
-            row.push(num(st.conc[i]));
+            row.push(
+                net.species_molar_omega(i)
+                    .map_or("-".into(), |w| num(st.counts[i] / w)),
+            );
         }
         row.push(if s.clamped {
             "clamped".into()
@@ -112,6 +168,11 @@ pub fn table(net: &Network, st: &Steady) -> String {
         t.row(row);
     }
     out.push_str(&t.render());
+    if !st.outputs.is_empty() {
+        out.push_str(
+            "(a species that nothing consumes or reads only accumulates: the steady state is that of the rest, and its rate is shown)\n",
+        );
+    }
     out.push('\n');
     let mut head = vec!["reaction", "step", "flux (molecules/s)"];
     if with_volume {
@@ -125,7 +186,10 @@ pub fn table(net: &Network, st: &Steady) -> String {
             num(st.fluxes_per_s[j]),
         ];
         if with_volume {
-            row.push(num(st.rates[j]));
+            row.push(
+                net.reaction_molar_omega(j)
+                    .map_or("-".into(), |w| num(st.fluxes_per_s[j] / w)),
+            );
         }
         t.row(row);
     }
@@ -133,10 +197,9 @@ pub fn table(net: &Network, st: &Steady) -> String {
     if !net.conservation_laws.is_empty() {
         out.push_str("\nconserved totals\n");
         for (l, &total) in net.conservation_laws.iter().zip(&st.totals) {
-            let molar = if with_volume {
-                format!(" ({} M)", num(total))
-            } else {
-                String::new()
+            let molar = match law_omega(net, l) {
+                Some(w) => format!(" ({} M)", num(total * net.omega / w)),
+                None => String::new(),
             };
             out.push_str(&format!(
                 "  {} = {} molecules{molar}\n",

@@ -67,7 +67,11 @@ impl Plan {
         seed: u64,
         shard: Option<Shard>,
     ) -> Result<Plan> {
-        let ast = parser::parse(file, &source).map_err(Error::Input)?;
+        let ast = if crate::sbml::is_sbml_path(file) {
+            crate::sbml::syntax_tree(file, &source)?
+        } else {
+            parser::parse(file, &source).map_err(Error::Input)?
+        };
         let vary = specs
             .iter()
             .map(|s| Vary::parse(s, &ast))

@@ -138,6 +138,12 @@ impl Vary {
                             "a range needs at least 2 values; use `list:A` for one value".into(),
                         ));
                     }
+                    if n as u64 > super::design::MAX_POINTS {
+                        return Err(fail(format!(
+                            "{n} values is more than a sweep may have ({})",
+                            super::design::MAX_POINTS
+                        )));
+                    }
                     v.count = Some(n);
                 }
                 if v.scale == Scale::Log && !(v.from > 0.0 && v.to > 0.0) {

@@ -18,7 +18,7 @@ use crate::error::{Error, Result};
 use serde::{Deserialize, Serialize};
 use serde_json::{json, Map, Value};
 use std::fs::{File, OpenOptions};
-use std::io::{BufRead, BufReader, Seek, SeekFrom, Write};
+use std::io::{BufRead, BufReader, Write};
 use std::path::Path;
 use std::sync::{Mutex, MutexGuard};
 
@@ -322,25 +322,22 @@ impl Store {
     /// Starts a new sweep file with `header`. An existing file that is not empty is left alone:
     /// it may hold a night's work (`--resume` continues it).
     pub fn create(path: &str, header: &Header) -> Result<Store> {
-        if std::fs::metadata(path).is_ok_and(|m| m.len() > 0) {
+        let file = open_locked(path)?;
+        let len = file.metadata().map_err(|e| Error::io(path, e))?.len();
+        if len > 0 {
             return Err(Error::usage(format!(
                 "{path} already exists; add --resume to continue that sweep, or remove the file"
             )));
         }
-        Store::start(path, header)
+        Store::start(path, file, header)
     }
 
-    /// Writes the header to a new (or empty) file.
-    fn start(path: &str, header: &Header) -> Result<Store> {
-        let mut file = OpenOptions::new()
-            .create(true)
-            .write(true)
-            .truncate(true)
-            .open(path)
-            .map_err(|e| Error::io(path, e))?;
+    /// Writes the header to a new (or emptied) file this process holds the lock of.
+    fn start(path: &str, mut file: File, header: &Header) -> Result<Store> {
         let mut line = header.line();
         line.push('\n');
-        file.write_all(line.as_bytes())
+        file.set_len(0)
+            .and_then(|_| file.write_all(line.as_bytes()))
             .and_then(|_| file.sync_all())
             .map_err(|e| Error::io(path, e))?;
         sync_dir(path);
@@ -354,12 +351,10 @@ impl Store {
     /// missing or empty file (or one whose only line is a torn header) starts afresh; a torn
     /// last line is cut off; a file of another sweep, or of another shard, is refused.
     pub fn resume(path: &str, header: &Header) -> Result<(Store, Vec<u64>)> {
-        if !Path::new(path).exists() {
-            return Ok((Store::start(path, header)?, Vec::new()));
-        }
+        let file = open_locked(path)?;
         let scan = scan(path, |_, _, _| {})?;
         let Some(found) = scan.header else {
-            return Ok((Store::start(path, header)?, Vec::new()));
+            return Ok((Store::start(path, file, header)?, Vec::new()));
         };
         if found.fingerprint != header.fingerprint {
             return Err(Error::usage(format!(
@@ -383,18 +378,11 @@ impl Store {
                 name(&header.shard)
             )));
         }
-        let file = OpenOptions::new()
-            .write(true)
-            .open(path)
-            .map_err(|e| Error::io(path, e))?;
         if scan.torn {
             file.set_len(scan.good_len)
                 .and_then(|_| file.sync_all())
                 .map_err(|e| Error::io(path, e))?;
         }
-        let mut file = file;
-        file.seek(SeekFrom::End(0))
-            .map_err(|e| Error::io(path, e))?;
         let done = scan.entries.iter().map(|e| e.point).collect();
         Ok((
             Store {
@@ -428,6 +416,27 @@ impl Store {
     }
 }
 
+/// Opens (creating it if missing) the sweep file at `path` for appending, and takes its
+/// exclusive advisory lock for as long as the file stays open, so that a second sweep given
+/// the same `--out` is refused instead of interleaving its lines with the first's. Every write
+/// goes to the end of the file (append mode).
+fn open_locked(path: &str) -> Result<File> {
+    let file = OpenOptions::new()
+        .read(true)
+        .append(true)
+        .create(true)
+        .open(path)
+        .map_err(|e| Error::io(path, e))?;
+    match file.try_lock() {
+        Ok(()) => Ok(file),
+        Err(std::fs::TryLockError::WouldBlock) => Err(Error::usage(format!(
+            "{path} is being written by another copyloop sweep (it holds the file's lock); \
+             wait for it to finish, or give this sweep another --out"
+        ))),
+        Err(std::fs::TryLockError::Error(e)) => Err(Error::io(path, e)),
+    }
+}
+
 /// Syncs the directory holding `path`, so that a newly created file survives a crash (POSIX
 /// leaves the directory entry to the directory's own sync). Best effort: some file systems do
 /// not allow opening a directory.
@@ -445,8 +454,32 @@ pub(crate) fn sync_dir(path: &str) {
 mod tests {
     use super::*;
 
-    // FNV-1a 64 test vectors from the FNV reference test suite [M]: "" → cbf29ce484222325,
+    // FNV-1a 64 test vectors (FNV reference suite; recomputed in tests/reference/tables.py
+    // [C]): "" → cbf29ce484222325,
     // "a" → af63dc4c8601ec8c, "foobar" → 85944171f73967e8.
+    // Two sweeps given one --out: the second is refused while the first holds the file, and
+    // the first's lines stay whole.
+    #[test]
+    fn a_second_writer_is_refused() {
+        let dir = tempfile::tempdir().unwrap();
+        let path = dir.path().join("s.jsonl");
+        let path = path.to_str().unwrap();
+        let src = b"param k = 1\nspecies A = 0\nstep s 0 -> A @ k\n";
+        let ast = crate::network::parser::parse("t.crn", src).unwrap();
+        let vary = crate::sweep::Vary::parse("k=list:1,2", &ast).unwrap();
+        let design = Design::grid(vec![vary], 0).unwrap();
+        let header = Header::new("t.crn", src, &design, "steady", json!({}), None);
+        let first = Store::create(path, &header).unwrap();
+        let e = Store::create(path, &header).unwrap_err();
+        assert!(e.to_string().contains("another copyloop sweep"), "{e}");
+        let e = Store::resume(path, &header).unwrap_err();
+        assert!(e.to_string().contains("another copyloop sweep"), "{e}");
+        drop(first);
+        // Once the first is done the file can be resumed.
+        let (_, done) = Store::resume(path, &header).unwrap();
+        assert!(done.is_empty());
+    }
+
     #[test]
     fn fnv1a_test_vectors() {
         assert_eq!(fnv1a(b""), 0xcbf2_9ce4_8422_2325);

@@ -2,4 +2,4 @@
 #![allow(dead_code)]
 
 pub mod cli;
-pub mod cme;
+pub mod sbml_suite;

@@ -1,0 +1,668 @@
+//! Exact distributions at low copy number: the chemical master equation solved by finite state
+//! projection (Munsky & Khammash 2006, "The finite state projection algorithm for the solution
+//! of the chemical master equation", J. Chem. Phys. 124:044104 [M]).
+//!
+//! The master equation dP/dt = A·P is solved on a finite set J of states. The projected
+//! solution is never above the true one, state by state, and the probability that has left J
+//! by time t bounds the ℓ¹ distance between the two (the finite state projection theorem). J is
+//! grown until that probability is below the tolerance, and every figure is reported with it.
+//!
+//! ```text
+//! space.rs      states reachable from x₀ in a box; conservation laws remove dimensions
+//! generator.rs  A in compressed sparse rows (by destination), one sink per bound
+//! transient.rs  uniformization on the time grid, with its exact series bound
+//! stationary.rs closed classes, then a sparse LU solve of π·A = 0
+//! summary.rs    marginals, mean, variance, Fano factor, p(0), mean reaction fluxes
+//! ```
+//!
+//! Growth: each free, independent species has an upper bound; a transition crossing bound k
+//! goes to sink k, so the leaked probability says which bounds to raise. After a solve whose
+//! leak exceeds the tolerance, every bound whose sink holds more than tolerance/(2·d) (and at
+//! least the one holding most) is raised, and the solve is repeated: the part of the bound
+//! above the initial count grows by half, or by (t_end/t_fail)^(1/2d) (at most 3; d
+//! coordinates) when a transient solve leaked too much already at t_fail, its first grid time
+//! past the tolerance (where it stops early), so that the state count grows by about
+//! √(t_end/t_fail) per round.
+//! Past `max_states` states the request is refused with the count reached.
+//!
+//! Time-dependent inputs fit this structure without change: between breakpoints the generator
+//! is constant and one [`transient::Series`] runs across the interval (its end vector is one
+//! more weighted sum of the same v_k); a dose or a triggered reset is a map of states to
+//! states applied to that vector at its breakpoint, inside the same projection, and the next
+//! interval starts from the result.
+//!
+//! Numerical modules produce no prose: results are typed and serialisable, errors are
+//! [`FspError`].
+
+pub mod compare;
+pub mod generator;
+pub mod space;
+pub mod stationary;
+pub mod summary;
+pub mod transient;
+
+use crate::network::Network;
+use generator::Generator;
+use serde::ser::SerializeMap;
+use serde::{Serialize, Serializer};
+use space::{Projection, Reduction};
+use summary::Columns;
+
+/// Default bound on the projection's error (leaked probability).
+pub const DEFAULT_TOLERANCE: f64 = 1e-6;
+
+/// Approximate bytes a state costs during a transient solve (generator rows of a few
+/// reactions, four probability vectors, coordinates, index table, count columns).
+const BYTES_PER_STATE: u64 = 320;
+
+/// The default state limit: a quarter of the memory available now, at [`BYTES_PER_STATE`] per
+/// state, between 10⁵ and 10⁷.
+pub fn default_max_states() -> usize {
+    let available = std::fs::read_to_string("/proc/meminfo")
+        .ok()
+        .and_then(|m| {
+            m.lines()
+                .find(|l| l.starts_with("MemAvailable:"))
+                .and_then(|l| l.split_whitespace().nth(1)?.parse::<u64>().ok())
+        })
+        .map_or(8 << 30, |kib| kib * 1024);
+    (available / 4 / BYTES_PER_STATE).clamp(100_000, 10_000_000) as usize
+}
+
+/// Largest projection `noise` and `reconcile` solve for their exact columns, and the most
+/// independent coordinates they try (the sparse LU's fill grows fast with the dimension); a
+/// network beyond either gets no exact column, so those commands stay fast beside their
+/// ensembles.
+pub const EMBEDDED_MAX_STATES: usize = 50_000;
+pub const EMBEDDED_MAX_DIMENSIONS: usize = 3;
+
+/// The exact stationary law for the columns beside the ensembles of `noise` and `reconcile`:
+/// default tolerance, at most [`EMBEDDED_MAX_STATES`] states in at most
+/// [`EMBEDDED_MAX_DIMENSIONS`] coordinates.
+pub fn stationary_beside(net: &Network, threads: Option<usize>) -> Result<Stationary, FspError> {
+    let dims = Reduction::new(net).dim();
+    if dims > EMBEDDED_MAX_DIMENSIONS {
+        return Err(FspError::TooManyDimensions {
+            dims,
+            max: EMBEDDED_MAX_DIMENSIONS,
+        });
+    }
+    let opts = Options {
+        max_states: EMBEDDED_MAX_STATES,
+        threads,
+        ..Options::default()
+    };
+    stationary(net, &opts)
+}
+
+/// What a projection is asked for.
+#[derive(Clone, Debug)]
+pub struct Options {
+    /// Bound on the leaked probability (transient) or the boundary probability (stationary).
+    pub tolerance: f64,
+    pub max_states: usize,
+    /// Threads for the sparse products (None: the current pool).
+    pub threads: Option<usize>,
+    /// Species to report (indices); None: all.
+    pub species: Option<Vec<usize>>,
+    /// First bounds of the independent coordinates, in [`ProjectionInfo::bounds`] order (None:
+    /// twice the initial counts, at least the initial count + 10); growth starts from them.
+    pub bounds: Option<Vec<u32>>,
+}
+
+impl Default for Options {
+    fn default() -> Options {
+        Options {
+            tolerance: DEFAULT_TOLERANCE,
+            max_states: default_max_states(),
+            threads: None,
+            species: None,
+            bounds: None,
+        }
+    }
+}
+
+/// Why a projection could not be solved.
+#[derive(Debug, Clone, PartialEq, thiserror::Error)]
+pub enum FspError {
+    /// The projection needed more states than allowed.
+    #[error("the projection needs more than {max} states (it reached {found}{})", leak_text(*.leaked))]
+    TooManyStates {
+        found: usize,
+        max: usize,
+        /// Leaked (or boundary) probability of the last projection solved, if any.
+        leaked: Option<f64>,
+        stationary: bool,
+    },
+    /// More independent coordinates than an exact column beside an ensemble tries.
+    #[error("the network has {dims} independent coordinates; the exact columns are solved for at most {max}")]
+    TooManyDimensions { dims: usize, max: usize },
+    /// The projected chain has more than one closed class away from its boundary.
+    #[error("the chain has {count} closed classes: its long-run law depends on the start")]
+    ClosedClasses { count: usize },
+    /// A rate law gave a negative or non-finite propensity, or a firing would make a count negative.
+    #[error("reaction {reaction} has propensity {value} at {state}")]
+    BadPropensity {
+        reaction: String,
+        state: String,
+        value: f64,
+    },
+    /// The network is driven in time (doses, events, time in a law) or its amounts cannot be
+    /// counted: its chain is not the autonomous one the projection solves.
+    #[error("{0}")]
+    NotAutonomous(String),
+    /// Bad options.
+    #[error("{0}")]
+    Options(String),
+    /// The linear algebra failed.
+    #[error("{0}")]
+    Solver(String),
+}
+
+fn leak_text(leaked: Option<f64>) -> String {
+    leaked.map_or(String::new(), |l| {
+        format!("; the last projection solved still lost probability {l:.3e}")
+    })
+}
+
+impl From<FspError> for crate::Error {
+    fn from(e: FspError) -> crate::Error {
+        match e {
+            FspError::Solver(m) => crate::Error::Internal(m),
+            FspError::TooManyStates { stationary, .. } => {
+                let why = if stationary {
+                    " If the probability keeps moving outward as the projection grows, the process has no stationary law."
+                } else {
+                    ""
+                };
+                crate::Error::usage(format!(
+                    "{e}.{why} Raise --max-states, loosen --tolerance, or estimate with `copyloop simulate` (an ensemble has no state limit)."
+                ))
+            }
+            other => crate::Error::usage(other.to_string()),
+        }
+    }
+}
+
+/// A list of named values that serialises as a JSON object in its own order.
+#[derive(Clone, Debug, PartialEq)]
+pub struct Named<T>(pub Vec<(String, T)>);
+
+impl<T: Serialize> Serialize for Named<T> {
+    fn serialize<S: Serializer>(&self, s: S) -> Result<S::Ok, S::Error> {
+        let mut m = s.serialize_map(Some(self.0.len()))?;
+        for (k, v) in &self.0 {
+            m.serialize_entry(k, v)?;
+        }
+        m.end()
+    }
+}
+
+impl<T> Named<T> {
+    pub fn get(&self, name: &str) -> Option<&T> {
+        self.0.iter().find(|(k, _)| k == name).map(|(_, v)| v)
+    }
+}
+
+/// One species' law on the time grid.
+#[derive(Clone, Debug, Serialize, PartialEq)]
+pub struct SpeciesLaw {
+    pub clamped: bool,
+    pub mean: Vec<f64>,
+    pub variance: Vec<f64>,
+    pub fano: Vec<f64>,
+    pub p_zero: Vec<f64>,
+    /// [p(0), p(1), …] per time.
+    pub marginal: Vec<Vec<f64>>,
+}
+
+/// The bound of one independent coordinate in the final projection.
+#[derive(Clone, Debug, Serialize, PartialEq)]
+pub struct Bound {
+    pub species: String,
+    pub max_count: u32,
+    /// Set by a conservation law: the coordinate cannot exceed it.
+    pub capped: bool,
+}
+
+/// The size and cost of the final projection.
+#[derive(Clone, Debug, Serialize, PartialEq)]
+pub struct ProjectionInfo {
+    pub states: usize,
+    /// Independent coordinates (species left once conservation laws are used).
+    pub dimensions: usize,
+    pub bounds: Vec<Bound>,
+    pub nonzeros: usize,
+    pub generator_bytes: usize,
+    /// Projections solved while growing, the final one included.
+    pub rounds: usize,
+}
+
+/// The transient solution on a time grid.
+#[derive(Clone, Debug, Serialize, PartialEq)]
+pub struct Transient {
+    /// Bound on the ℓ¹ error of the distribution at every reported time (the leaked probability
+    /// at the last time, which is the largest).
+    pub truncation_error: f64,
+    pub truncation_error_by_time: Vec<f64>,
+    /// The part of the bound from cutting the uniformization series.
+    pub series_error: f64,
+    pub states: usize,
+    pub projection: ProjectionInfo,
+    /// Uniformization rate q (per second) and the number of sparse products.
+    pub uniformization_rate: f64,
+    pub products: u64,
+    pub times: Vec<f64>,
+    pub species: Named<SpeciesLaw>,
+}
+
+/// One species' stationary law.
+#[derive(Clone, Debug, Serialize, PartialEq)]
+pub struct SpeciesStationary {
+    pub clamped: bool,
+    pub mean: f64,
+    pub variance: f64,
+    pub fano: f64,
+    pub p_zero: f64,
+    pub marginal: Vec<f64>,
+}
+
+/// The stationary law of the projected chain.
+#[derive(Clone, Debug, Serialize, PartialEq)]
+pub struct Stationary {
+    /// Stationary probability of the states with a transition out of the projection.
+    pub truncation_error: f64,
+    pub states: usize,
+    pub projection: ProjectionInfo,
+    /// States of the closed class the law lives on (the rest are transient).
+    pub class_states: usize,
+    /// ‖A·π‖₁ of the solved law.
+    pub residual: f64,
+    pub species: Named<SpeciesStationary>,
+    /// Mean flux E[a_j(X)] of every reaction, events per second.
+    pub fluxes: Named<f64>,
+}
+
+/// Everything fixed for one network: coordinates, propensities, the species reported.
+struct Setup {
+    first_bounds: Option<Vec<u32>>,
+    red: Reduction,
+    props: Vec<crate::network::Propensity>,
+    species: Vec<usize>,
+    n_species: usize,
+}
+
+impl Setup {
+    fn new(net: &Network, opts: &Options) -> Result<Setup, FspError> {
+        if !(opts.tolerance > 0.0 && opts.tolerance < 1.0) {
+            return Err(FspError::Options(format!(
+                "the tolerance must lie in (0, 1), got {}",
+                opts.tolerance
+            )));
+        }
+        if opts.max_states == 0 || opts.max_states > (u32::MAX / 2) as usize {
+            return Err(FspError::Options(format!(
+                "the state limit must lie in 1..={}, got {}",
+                u32::MAX / 2,
+                opts.max_states
+            )));
+        }
+        if let Some(what) = net.time_forcing() {
+            return Err(FspError::NotAutonomous(format!(
+                "{}: {what} drives the network in time; the finite state projection solves networks whose rates do not depend on time",
+                net.file
+            )));
+        }
+        if let Some(why) = &net.amount.stochastic_refusal {
+            return Err(FspError::NotAutonomous(format!("{}: {why}", net.file)));
+        }
+        let species = opts
+            .species
+            .clone()
+            .unwrap_or_else(|| (0..net.species.len()).collect());
+        let red = Reduction::new(net);
+        if let Some(b) = &opts.bounds {
+            if b.len() != red.dim() {
+                return Err(FspError::Options(format!(
+                    "{} bounds given for {} independent coordinates",
+                    b.len(),
+                    red.dim()
+                )));
+            }
+        }
+        Ok(Setup {
+            first_bounds: opts.bounds.clone(),
+            red,
+            props: net.propensities(),
+            species,
+            n_species: net.species.len(),
+        })
+    }
+
+    /// First bounds: twice the initial count, at least the initial count + 10, never past a
+    /// conservation cap.
+    fn initial_bounds(&self) -> Vec<u32> {
+        if let Some(b) = &self.first_bounds {
+            return b
+                .iter()
+                .zip(&self.red.caps)
+                .map(|(&b, cap)| cap.map_or(b as u64, |c| (b as u64).min(c)) as u32)
+                .collect();
+        }
+        self.red
+            .initial_coords()
+            .iter()
+            .zip(&self.red.caps)
+            .map(|(&x, cap)| {
+                let b = (x as u64 * 2).max(x as u64 + 10);
+                cap.map_or(b, |c| b.min(c)).min(u32::MAX as u64 / 2) as u32
+            })
+            .collect()
+    }
+
+    /// Raises the bounds whose sinks hold more than their share of the tolerance: the part of
+    /// each bound above the initial count is multiplied by `factor` (at least 1.5), plus 4.
+    fn grow(&self, bounds: &mut [u32], sink_mass: &[f64], tolerance: f64, factor: f64) {
+        let x0 = self.red.initial_coords();
+        let d = bounds.len().max(1) as f64;
+        let largest = (0..sink_mass.len()).max_by(|&a, &b| sink_mass[a].total_cmp(&sink_mass[b]));
+        for k in 0..bounds.len() {
+            if sink_mass[k] > tolerance / (2.0 * d) || Some(k) == largest {
+                let (b, x) = (bounds[k] as f64, x0[k] as f64);
+                let mut nb = (x + (b - x) * factor.max(1.5)).ceil() as u64 + 4;
+                if let Some(c) = self.red.caps[k] {
+                    nb = nb.min(c);
+                }
+                bounds[k] = nb.min(u32::MAX as u64 / 2) as u32;
+            }
+        }
+    }
+
+    fn info(&self, net: &Network, bounds: &[u32], g: &Generator, rounds: usize) -> ProjectionInfo {
+        ProjectionInfo {
+            states: g.states,
+            dimensions: self.red.dim(),
+            bounds: self
+                .red
+                .independent
+                .iter()
+                .zip(bounds)
+                .zip(&self.red.caps)
+                .map(|((&i, &b), cap)| Bound {
+                    species: net.species[i].name.clone(),
+                    max_count: b,
+                    capped: cap.is_some_and(|c| b as u64 >= c),
+                })
+                .collect(),
+            nonzeros: g.nonzeros(),
+            generator_bytes: g.bytes(),
+            rounds,
+        }
+    }
+
+    fn project(
+        &self,
+        net: &Network,
+        bounds: &[u32],
+        max: usize,
+        leaked: Option<f64>,
+        stationary: bool,
+    ) -> Result<(Vec<u32>, Generator), FspError> {
+        let p: Projection =
+            space::enumerate(net, &self.red, &self.props, bounds, max).map_err(|e| match e {
+                FspError::TooManyStates { found, max, .. } => FspError::TooManyStates {
+                    found,
+                    max,
+                    leaked,
+                    stationary,
+                },
+                other => other,
+            })?;
+        let g = Generator::new(&p, self.red.dim());
+        Ok((p.coords, g))
+    }
+}
+
+/// Runs `f` on a pool of `threads` threads (or on the current pool).
+fn with_threads<T: Send>(
+    threads: Option<usize>,
+    f: impl FnOnce() -> T + Send,
+) -> Result<T, FspError> {
+    match threads {
+        None => Ok(f()),
+        Some(n) => rayon::ThreadPoolBuilder::new()
+            .num_threads(n.max(1))
+            .build()
+            .map_err(|e| FspError::Solver(format!("thread pool: {e}")))
+            .map(|pool| pool.install(f)),
+    }
+}
+
+/// The distribution of `net` from its initial state at each of `times` (non-decreasing, ≥ 0),
+/// with the projection grown until its leaked probability at the last time is at most the
+/// tolerance.
+pub fn transient(net: &Network, times: &[f64], opts: &Options) -> Result<Transient, FspError> {
+    if times.is_empty()
+        || times.iter().any(|t| !(t.is_finite() && *t >= 0.0))
+        || times.windows(2).any(|w| w[1] < w[0])
+    {
+        return Err(FspError::Options(
+            "the times must be finite, non-negative and non-decreasing".into(),
+        ));
+    }
+    let setup = Setup::new(net, opts)?;
+    let parallel = opts.threads != Some(1);
+    with_threads(opts.threads, || {
+        transient_in(net, times, opts, &setup, parallel)
+    })?
+}
+
+fn transient_in(
+    net: &Network,
+    times: &[f64],
+    opts: &Options,
+    setup: &Setup,
+    parallel: bool,
+) -> Result<Transient, FspError> {
+    let tol = opts.tolerance;
+    let series_budget = 1e-2 * tol / times.len() as f64;
+    let mut bounds = setup.initial_bounds();
+    let mut leaked = None;
+    for round in 1.. {
+        let (coords, g) = setup.project(net, &bounds, opts.max_states, leaked, false)?;
+        let columns = Columns::new(
+            &setup.red,
+            &coords,
+            g.states,
+            &setup.species,
+            setup.n_species,
+        );
+        let mut series = transient::Series::new(&g, &columns, parallel);
+        let p0: Vec<f64> = (0..g.len())
+            .map(|s| if s == 0 { 1.0 } else { 0.0 })
+            .collect();
+        let mut laws: Vec<Vec<summary::Moments>> = vec![Vec::new(); setup.species.len()];
+        let mut by_time = Vec::with_capacity(times.len());
+        let mut series_error = 0.0f64;
+        let mut sinks = Vec::new();
+        let mut failed_at = times[times.len() - 1];
+        let completed = series.run(&p0, times, series_budget, |i, o, tail| {
+            let deficit = (1.0 - o.mass).max(0.0);
+            if deficit > tol {
+                leaked = Some(deficit);
+                failed_at = times[i];
+                sinks = o.sinks.clone();
+                return false;
+            }
+            series_error = series_error.max(tail);
+            by_time.push(deficit);
+            for (k, law) in laws.iter_mut().enumerate() {
+                let end = columns.offsets.get(k + 1).copied().unwrap_or(columns.len);
+                law.push(summary::from_marginal(
+                    &o.marginals[columns.offsets[k]..end],
+                ));
+            }
+            true
+        });
+        if !completed {
+            // Leaking long before the end means the law travels far: grow more, but keep the
+            // state count's growth per round near √(t_end/t_fail) whatever the dimension.
+            let d = setup.red.dim().max(1) as f64;
+            let factor = (times[times.len() - 1] / failed_at)
+                .powf(0.5 / d)
+                .clamp(1.5, 3.0);
+            setup.grow(&mut bounds, &sinks, tol, factor);
+            continue;
+        }
+        let species = setup
+            .species
+            .iter()
+            .zip(laws)
+            .map(|(&i, law)| {
+                (
+                    net.species[i].name.clone(),
+                    SpeciesLaw {
+                        clamped: net.species[i].clamped,
+                        mean: law.iter().map(|m| m.mean).collect(),
+                        variance: law.iter().map(|m| m.variance).collect(),
+                        fano: law.iter().map(|m| m.fano).collect(),
+                        p_zero: law.iter().map(|m| m.p_zero).collect(),
+                        marginal: law.into_iter().map(|m| m.marginal).collect(),
+                    },
+                )
+            })
+            .collect();
+        return Ok(Transient {
+            truncation_error: by_time.iter().copied().fold(0.0, f64::max),
+            truncation_error_by_time: by_time,
+            series_error,
+            states: g.states,
+            projection: setup.info(net, &bounds, &g, round),
+            uniformization_rate: series.rate(),
+            products: series.products,
+            times: times.to_vec(),
+            species: Named(species),
+        });
+    }
+    unreachable!("the loop returns")
+}
+
+/// The stationary law of `net` reached from its initial state, with the projection grown
+/// until the stationary probability of its boundary is at most the tolerance.
+pub fn stationary(net: &Network, opts: &Options) -> Result<Stationary, FspError> {
+    let setup = Setup::new(net, opts)?;
+    with_threads(opts.threads, || stationary_in(net, opts, &setup))?
+}
+
+fn stationary_in(net: &Network, opts: &Options, setup: &Setup) -> Result<Stationary, FspError> {
+    let tol = opts.tolerance;
+    let mut bounds = setup.initial_bounds();
+    let mut leaked = None;
+    let d = setup.red.dim();
+    for round in 1.. {
+        let (coords, g) = setup.project(net, &bounds, opts.max_states, leaked, true)?;
+        // Which sinks each state feeds.
+        let mut feeds: Vec<u64> = vec![0; g.states];
+        for k in 0..g.sinks {
+            let r = g.states + k;
+            for e in g.row_ptr[r]..g.row_ptr[r + 1] {
+                feeds[g.col[e] as usize] |= 1 << k.min(63);
+            }
+        }
+        let classes = stationary::classes(&g);
+        let mut on_edge = vec![false; classes.count];
+        for s in 0..g.states {
+            if feeds[s] != 0 {
+                on_edge[classes.of[s] as usize] = true;
+            }
+        }
+        let closed: Vec<u32> = (0..classes.count as u32)
+            .filter(|&c| classes.closed[c as usize])
+            .collect();
+        let inner: Vec<u32> = closed
+            .iter()
+            .copied()
+            .filter(|&c| !on_edge[c as usize])
+            .collect();
+        if inner.len() > 1 {
+            return Err(FspError::ClosedClasses { count: inner.len() });
+        }
+        if closed.len() > 1 {
+            // Classes closed only because the projection cut their way out: grow past them.
+            let mut mass = vec![0.0; d];
+            for (&c, &f) in classes.of.iter().zip(&feeds) {
+                if closed.contains(&c) && on_edge[c as usize] {
+                    for (k, m) in mass.iter_mut().enumerate() {
+                        if f & (1 << k.min(63)) != 0 {
+                            *m = 1.0;
+                        }
+                    }
+                }
+            }
+            leaked = Some(1.0);
+            setup.grow(&mut bounds, &mass, tol, 1.5);
+            continue;
+        }
+        let (pi, residual) = stationary::solve(&g, &classes, closed[0])?;
+        let mut sink_mass = vec![0.0; d];
+        let mut boundary = 0.0;
+        for s in 0..g.states {
+            if feeds[s] != 0 && pi[s] > 0.0 {
+                boundary += pi[s];
+                for (k, m) in sink_mass.iter_mut().enumerate() {
+                    if feeds[s] & (1 << k.min(63)) != 0 {
+                        *m += pi[s];
+                    }
+                }
+            }
+        }
+        if boundary > tol {
+            leaked = Some(boundary);
+            setup.grow(&mut bounds, &sink_mass, tol, 1.5);
+            continue;
+        }
+        let columns = Columns::new(
+            &setup.red,
+            &coords,
+            g.states,
+            &setup.species,
+            setup.n_species,
+        );
+        let species = setup
+            .species
+            .iter()
+            .zip(&columns.counts)
+            .map(|(&i, counts)| {
+                let m = summary::moments(counts, &pi);
+                (
+                    net.species[i].name.clone(),
+                    SpeciesStationary {
+                        clamped: net.species[i].clamped,
+                        mean: m.mean,
+                        variance: m.variance,
+                        fano: m.fano,
+                        p_zero: m.p_zero,
+                        marginal: m.marginal,
+                    },
+                )
+            })
+            .collect();
+        let flux = summary::fluxes(&setup.red, &coords, &setup.props, &pi, setup.n_species);
+        let fluxes = net
+            .reactions
+            .iter()
+            .zip(flux)
+            .map(|(r, f)| (r.label.clone(), f))
+            .collect();
+        return Ok(Stationary {
+            truncation_error: boundary,
+            states: g.states,
+            projection: setup.info(net, &bounds, &g, round),
+            class_states: classes.of.iter().filter(|&&c| c == closed[0]).count(),
+            residual,
+            species: Named(species),
+            fluxes: Named(fluxes),
+        });
+    }
+    unreachable!("the loop returns")
+}

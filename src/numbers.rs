@@ -1,0 +1,79 @@
+//! Numbers as people read them: one place for every message, table and plot label.
+//!
+//! - [`short`]: four significant digits, for tables and plot ticks (`1235`, `0.001661`,
+//!   `6.022e8`).
+//! - [`plain`]: up to twelve significant digits with trailing zeros dropped, for values a user
+//!   wrote or must copy back (messages, constants): f64 rounding noise such as
+//!   24921.999999999996 reads 24922, and 1e300 reads `1e300`, not 301 digits.
+//!
+//! Both switch to exponent notation outside [1e-3, 1e6) (`short`) or [1e-4, 1e9) (`plain`),
+//! and write NaN and infinities as `nan`, `inf` and `-inf`.
+
+/// Four significant digits (see the module docs).
+pub fn short(x: f64) -> String {
+    sig(x, 4, 1e-3, 1e6)
+}
+
+/// Up to twelve significant digits (see the module docs).
+pub fn plain(x: f64) -> String {
+    sig(x, 12, 1e-4, 1e9)
+}
+
+fn sig(x: f64, digits: usize, lo: f64, hi: f64) -> String {
+    if x.is_nan() {
+        return "nan".into();
+    }
+    if x.is_infinite() {
+        return if x > 0.0 { "inf".into() } else { "-inf".into() };
+    }
+    if x == 0.0 {
+        return "0".into();
+    }
+    let a = x.abs();
+    if !(lo..hi).contains(&a) {
+        let s = format!("{:.*e}", digits - 1, x);
+        let (mantissa, exp) = s.split_once('e').unwrap_or((&s, "0"));
+        return format!("{}e{exp}", trim(mantissa));
+    }
+    let decimals = (digits as i32 - 1 - a.log10().floor() as i32).max(0) as usize;
+    let s = format!("{x:.decimals$}");
+    // Rounding can carry into a new leading digit (9999.6 → 10000): still correct.
+    trim(&s).to_string()
+}
+
+/// Drops trailing zeros after a decimal point, and the point itself.
+fn trim(s: &str) -> &str {
+    if s.contains('.') {
+        s.trim_end_matches('0').trim_end_matches('.')
+    } else {
+        s
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn short_numbers() {
+        assert_eq!(short(1234.5678), "1235");
+        assert_eq!(short(0.5), "0.5");
+        assert_eq!(short(2.0), "2");
+        assert_eq!(short(1.660539e-3), "0.001661");
+        assert_eq!(short(6.02214076e8), "6.022e8");
+        assert_eq!(short(-2.5e-7), "-2.5e-7");
+        assert_eq!(short(f64::NAN), "nan");
+    }
+
+    #[test]
+    fn plain_numbers_hide_rounding_noise_and_huge_digit_strings() {
+        assert_eq!(plain(24921.999999999996), "24922");
+        assert_eq!(plain(0.1 + 0.2), "0.3");
+        assert_eq!(plain(1e300), "1e300");
+        assert_eq!(plain(1.79e308), "1.79e308");
+        assert_eq!(plain(6.02214076e23), "6.02214076e23");
+        assert_eq!(plain(602214076.0), "602214076");
+        assert_eq!(plain(1.5e-9), "1.5e-9");
+        assert_eq!(plain(f64::INFINITY), "inf");
+    }
+}

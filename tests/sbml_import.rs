@@ -1,0 +1,571 @@
+//! SBML import on small models written for this project: level defaults, formulas, function
+//! definitions, the same model in `.crn` and SBML, refusals and malformed files. Expected values
+//! are worked by hand from the formulas in the SBML Level 3 core specification ([C]).
+
+mod support;
+
+use copyloop::sbml::{self, initial::initial_values, Construct, ErrorKind};
+use std::io::Write;
+use support::cli;
+
+/// An SBML Level 3 Version 2 model in item units with one unit compartment `c`; `species`,
+/// `params` and `rest` are spliced in as the lists' contents and the remaining lists.
+fn l3(species: &str, params: &str, rest: &str) -> String {
+    format!(
+        r#"<?xml version="1.0" encoding="UTF-8"?>
+<sbml xmlns="http://www.sbml.org/sbml/level3/version2/core" level="3" version="2">
+  <model id="m" substanceUnits="item">
+    <listOfCompartments>
+      <compartment id="c" spatialDimensions="3" size="1" constant="true"/>
+    </listOfCompartments>
+    <listOfSpecies>{species}</listOfSpecies>
+    <listOfParameters>{params}</listOfParameters>
+    {rest}
+  </model>
+</sbml>
+"#
+    )
+}
+
+const MATH: &str = r#"<math xmlns="http://www.w3.org/1998/Math/MathML">"#;
+
+fn species(id: &str, amount: f64) -> String {
+    format!(
+        r#"<species id="{id}" compartment="c" initialAmount="{amount}" hasOnlySubstanceUnits="true" boundaryCondition="false" constant="false"/>"#
+    )
+}
+
+fn param(id: &str, value: f64) -> String {
+    format!(r#"<parameter id="{id}" value="{value}" constant="true"/>"#)
+}
+
+/// Initial assignments `symbol = mathml`.
+fn assignments(list: &[(&str, &str)]) -> String {
+    let items: String = list
+        .iter()
+        .map(|(s, m)| {
+            format!(r#"<initialAssignment symbol="{s}">{MATH}{m}</math></initialAssignment>"#)
+        })
+        .collect();
+    format!("<listOfInitialAssignments>{items}</listOfInitialAssignments>")
+}
+
+/// The t = 0 value of each parameter of `doc`, by id.
+fn values(doc: &str) -> std::collections::HashMap<String, f64> {
+    let imported = sbml::import(doc.as_bytes()).unwrap_or_else(|e| panic!("{e:?}"));
+    let m = &imported.document.model;
+    let v = initial_values(m).unwrap();
+    m.parameters
+        .iter()
+        .zip(&v.parameters)
+        .map(|(p, x)| (p.id.clone(), x.unwrap()))
+        .collect()
+}
+
+/// The first error of importing `doc`.
+fn first_error(doc: &str) -> sbml::SbmlError {
+    sbml::import(doc.as_bytes())
+        .expect_err("must fail")
+        .remove(0)
+}
+
+/// Writes `text` to a temporary file with extension `.xml` and runs `copyloop check` on it.
+fn check_file(text: &[u8]) -> (Option<i32>, String) {
+    let mut f = tempfile::Builder::new().suffix(".xml").tempfile().unwrap();
+    f.write_all(text).unwrap();
+    let out = cli::run(&["check", f.path().to_str().unwrap()]);
+    (
+        out.status.code(),
+        String::from_utf8_lossy(&out.stderr).into_owned(),
+    )
+}
+
+// --- the same model three ways -------------------------------------------------------------
+
+fn without(mut v: serde_json::Value, keys: &[&str]) -> serde_json::Value {
+    for k in keys {
+        v.as_object_mut().unwrap().remove(*k);
+    }
+    v
+}
+
+#[test]
+fn crn_and_both_sbml_levels_give_identical_json() {
+    let dir = concat!(env!("CARGO_MANIFEST_DIR"), "/tests/sbml/");
+    let files = ["secretion.crn", "secretion.xml", "secretion_l2.xml"].map(|f| format!("{dir}{f}"));
+    let checks: Vec<serde_json::Value> = files
+        .iter()
+        .map(|f| {
+            let mut v = without(cli::json(&["check", f, "--json"]), &["file"]);
+            // The law's display text is the source text in .crn and the formula in SBML.
+            let law = v["reactions"][0].as_object_mut().unwrap().remove("law");
+            assert!(law
+                .unwrap()
+                .as_str()
+                .unwrap()
+                .starts_with("ks * K / (K + H"));
+            v
+        })
+        .collect();
+    assert_eq!(checks[0], checks[1]);
+    assert_eq!(checks[0], checks[2]);
+    let sims: Vec<serde_json::Value> = files
+        .iter()
+        .map(|f| {
+            let args = [
+                "simulate",
+                f,
+                "--t-end",
+                "20",
+                "--replicates",
+                "40",
+                "--seed",
+                "11",
+                "--json",
+            ];
+            without(
+                cli::json(&args),
+                &["file", "wall_seconds", "events_per_second"],
+            )
+        })
+        .collect();
+    assert_eq!(sims[0], sims[1]);
+    assert_eq!(sims[0], sims[2]);
+}
+
+// --- level defaults ------------------------------------------------------------------------
+
+#[test]
+fn level2_fills_in_its_defaults() {
+    let doc = format!(
+        r#"<?xml version="1.0"?>
+<sbml xmlns="http://www.sbml.org/sbml/level2/version4" level="2" version="4">
+  <model>
+    <listOfCompartments><compartment id="c"/><compartment id="point" spatialDimensions="0"/></listOfCompartments>
+    <listOfSpecies><species id="A" compartment="c" initialAmount="3"/></listOfSpecies>
+    <listOfParameters><parameter id="k" value="1"/></listOfParameters>
+    <listOfReactions>
+      <reaction id="r">
+        <listOfReactants><speciesReference species="A"/></listOfReactants>
+        <kineticLaw>{MATH}<apply><times/><ci>k</ci><ci>A</ci></apply></math>
+          <listOfParameters><parameter id="k" value="4"/></listOfParameters>
+        </kineticLaw>
+      </reaction>
+    </listOfReactions>
+    <listOfEvents>
+      <event><trigger>{MATH}<true/></math></trigger>
+        <listOfEventAssignments><eventAssignment variable="A">{MATH}<cn>1</cn></math></eventAssignment></listOfEventAssignments>
+      </event>
+    </listOfEvents>
+  </model>
+</sbml>"#
+    );
+    let d = sbml::import(doc.as_bytes()).unwrap().document;
+    let m = &d.model;
+    assert_eq!((d.level, d.version), (2, 4));
+    // Level 2: size 1 for a compartment with dimensions, none for a 0-D one; constant true.
+    assert_eq!(m.compartments[0].size, Some(1.0));
+    assert_eq!(m.compartments[0].spatial_dimensions, Some(3.0));
+    assert!(m.compartments[0].constant);
+    assert_eq!(m.compartments[1].size, None);
+    let s = &m.species[0];
+    assert!(!s.has_only_substance_units && !s.boundary_condition && !s.constant);
+    assert!(m.parameters[0].constant);
+    let r = &m.reactions[0];
+    assert!(r.reversible && !r.fast);
+    assert_eq!(r.reactants[0].stoichiometry, Some(1.0));
+    let k = r.kinetic_law.as_ref().unwrap();
+    assert_eq!(k.local_parameters[0].id, "k");
+    assert_eq!(k.local_parameters[0].value, Some(4.0));
+    let e = &m.events[0];
+    assert!(e.use_values_from_trigger_time);
+    let t = e.trigger.as_ref().unwrap();
+    assert!(t.persistent && t.initial_value);
+}
+
+#[test]
+fn level3_requires_the_attributes_level2_defaults() {
+    let doc = l3(
+        r#"<species id="A" compartment="c" initialAmount="1" boundaryCondition="false" constant="false"/>"#,
+        "",
+        "",
+    );
+    let e = first_error(&doc);
+    assert_eq!(
+        *e.kind,
+        ErrorKind::MissingAttribute {
+            attribute: "hasOnlySubstanceUnits".into()
+        }
+    );
+    assert_eq!(
+        (e.element.as_str(), e.id.as_deref(), e.loc.line),
+        ("species", Some("A"), 7)
+    );
+}
+
+#[test]
+fn a_local_parameter_shadows_the_global_one() {
+    let rest = format!(
+        r#"<listOfReactions><reaction id="decay" reversible="false">
+        <listOfReactants><speciesReference species="A" stoichiometry="1" constant="true"/></listOfReactants>
+        <kineticLaw>{MATH}<apply><times/><ci>k</ci><ci>A</ci></apply></math>
+          <listOfLocalParameters><localParameter id="k" value="0.25"/></listOfLocalParameters>
+        </kineticLaw></reaction></listOfReactions>"#
+    );
+    let doc = l3(&species("A", 10.0), &param("k", 3.0), &rest);
+    let net = sbml::load_source("m.xml", doc.as_bytes(), &Default::default()).unwrap();
+    // k·A with the local k = 0.25: first order, stochastic constant 0.25.
+    assert_eq!(net.reactions[0].stochastic_constant(), Some(0.25));
+}
+
+#[test]
+fn a_concentration_symbol_is_the_count_over_the_size() {
+    // In a compartment of size 2, `k * A` with A a concentration is k·x_A/2 per unit time:
+    // a law on counts with half the constant ([C]).
+    let doc = l3(
+        r#"<species id="A" compartment="c2" initialAmount="10" hasOnlySubstanceUnits="false" boundaryCondition="false" constant="false"/>"#,
+        &param("k", 3.0),
+        &format!(
+            r#"<listOfReactions><reaction id="decay" reversible="false">
+        <listOfReactants><speciesReference species="A" stoichiometry="1" constant="true"/></listOfReactants>
+        <kineticLaw>{MATH}<apply><times/><ci>k</ci><ci>A</ci></apply></math></kineticLaw>
+        </reaction></listOfReactions>"#
+        ),
+    )
+    .replace(
+        r#"<compartment id="c" spatialDimensions="3" size="1" constant="true"/>"#,
+        r#"<compartment id="c" spatialDimensions="3" size="1" constant="true"/><compartment id="c2" spatialDimensions="3" size="2" constant="true"/>"#,
+    );
+    let net = sbml::load_source("m.xml", doc.as_bytes(), &Default::default()).unwrap();
+    let a = net.propensities()[0].eval(&[10]);
+    assert!((a - 3.0 * 10.0 / 2.0).abs() < 1e-12, "{a}");
+}
+
+// --- formulas ------------------------------------------------------------------------------
+
+#[test]
+fn mathml_numbers_constants_and_operators() {
+    let ids = [
+        "e", "q", "i", "pw", "rt", "lg", "av", "pi", "sem", "tr", "ln", "fl",
+    ];
+    let params: String = ids.iter().map(|id| param(id, 0.0)).collect();
+    let list = [
+        ("e", r#"<cn type="e-notation"> 2 <sep/> -3 </cn>"#),
+        ("q", r#"<cn type="rational"> 1 <sep/> 4 </cn>"#),
+        ("i", r#"<cn type="integer"> -7 </cn>"#),
+        (
+            "pw",
+            r#"<piecewise><piece><cn>1</cn><apply><lt/><cn>3</cn><cn>2</cn></apply></piece>
+                 <piece><cn>2</cn><apply><geq/><cn>3</cn><cn>2</cn><cn>2</cn></apply></piece>
+                 <otherwise><cn>3</cn></otherwise></piecewise>"#,
+        ),
+        (
+            "rt",
+            r#"<apply><root/><degree><cn>3</cn></degree><cn>27</cn></apply>"#,
+        ),
+        (
+            "lg",
+            r#"<apply><log/><logbase><cn>2</cn></logbase><cn>32</cn></apply>"#,
+        ),
+        (
+            "av",
+            r#"<csymbol encoding="text" definitionURL="http://www.sbml.org/sbml/symbols/avogadro"/>"#,
+        ),
+        ("pi", r#"<apply><times/><pi/><cn>2</cn></apply>"#),
+        (
+            "sem",
+            r#"<semantics><apply><plus/><cn>1</cn><cn>2</cn></apply><annotation encoding="text">three</annotation></semantics>"#,
+        ),
+        (
+            "tr",
+            r#"<apply><and/><true/><apply><not/><false/></apply></apply>"#,
+        ),
+        ("ln", r#"<apply><ln/><exponentiale/></apply>"#),
+        (
+            "fl",
+            r#"<apply><plus/><apply><floor/><cn>-1.5</cn></apply><apply><factorial/><cn>4</cn></apply></apply>"#,
+        ),
+    ];
+    let v = values(&l3("", &params, &assignments(&list)));
+    let want = [
+        ("e", 0.002),
+        ("q", 0.25),
+        ("i", -7.0),
+        ("pw", 2.0),
+        ("rt", 3.0),
+        ("lg", 5.0),
+        ("av", 6.02214179e23),
+        ("pi", 2.0 * std::f64::consts::PI),
+        ("sem", 3.0),
+        ("tr", 1.0),
+        ("ln", 1.0),
+        ("fl", -2.0 + 24.0),
+    ];
+    for (id, x) in want {
+        assert!(
+            (v[id] - x).abs() <= 1e-12 * x.abs().max(1.0),
+            "{id}: {} vs {x}",
+            v[id]
+        );
+    }
+}
+
+#[test]
+fn initial_assignments_read_one_another_in_any_order() {
+    // b = 2a, a = k + 1, k = 4: a = 5, b = 10; the species amount follows its assignment.
+    let list = [
+        ("b", "<apply><times/><cn>2</cn><ci>a</ci></apply>"),
+        ("a", "<apply><plus/><ci>k</ci><cn>1</cn></apply>"),
+        ("S", "<ci>b</ci>"),
+    ];
+    let doc = l3(
+        &species("S", 0.0),
+        &(param("a", 0.0) + &param("b", 0.0) + &param("k", 4.0)),
+        &assignments(&list),
+    );
+    let v = values(&doc);
+    assert_eq!((v["a"], v["b"]), (5.0, 10.0));
+    let m = sbml::import(doc.as_bytes()).unwrap().document.model;
+    assert_eq!(initial_values(&m).unwrap().species[0], Some(10.0));
+}
+
+#[test]
+fn function_definitions_expand_without_capturing_names() {
+    let fns = format!(
+        r#"<listOfFunctionDefinitions>
+      <functionDefinition id="sq">{MATH}<lambda><bvar><ci>z</ci></bvar><apply><power/><ci>z</ci><cn>2</cn></apply></lambda></math></functionDefinition>
+      <functionDefinition id="f">{MATH}<lambda><bvar><ci>x</ci></bvar><bvar><ci>y</ci></bvar>
+        <apply><plus/><apply><times/><ci>x</ci><ci>y</ci></apply><apply><ci>sq</ci><ci>x</ci></apply></apply></lambda></math></functionDefinition>
+      <functionDefinition id="diff">{MATH}<lambda><bvar><ci>x</ci></bvar><bvar><ci>y</ci></bvar>
+        <apply><minus/><ci>x</ci><ci>y</ci></apply></lambda></math></functionDefinition>
+    </listOfFunctionDefinitions>"#
+    );
+    let list = [
+        ("p", "<apply><ci>f</ci><cn>2</cn><cn>3</cn></apply>"),
+        // diff(y, x) with the model's y = 5 and x = 1 is 5 − 1: the arguments are not rescanned.
+        ("q", "<apply><ci>diff</ci><ci>y</ci><ci>x</ci></apply>"),
+    ];
+    let params = param("p", 0.0) + &param("q", 0.0) + &param("x", 1.0) + &param("y", 5.0);
+    let doc = l3("", &params, &(fns + &assignments(&list)));
+    let v = values(&doc);
+    // f(2, 3) = 2·3 + 2² = 10.
+    assert_eq!((v["p"], v["q"]), (10.0, 4.0));
+}
+
+#[test]
+fn recursive_functions_and_wrong_arity_are_errors() {
+    let rec = format!(
+        r#"<listOfFunctionDefinitions>
+      <functionDefinition id="f">{MATH}<lambda><bvar><ci>x</ci></bvar><apply><ci>g</ci><ci>x</ci></apply></lambda></math></functionDefinition>
+      <functionDefinition id="g">{MATH}<lambda><bvar><ci>x</ci></bvar><apply><ci>f</ci><ci>x</ci></apply></lambda></math></functionDefinition>
+    </listOfFunctionDefinitions>"#
+    );
+    let e = first_error(&l3("", "", &rec));
+    assert!(e.to_string().contains("calls itself"), "{e}");
+    let arity = format!(
+        r#"<listOfFunctionDefinitions>
+      <functionDefinition id="f">{MATH}<lambda><bvar><ci>x</ci></bvar><ci>x</ci></lambda></math></functionDefinition>
+    </listOfFunctionDefinitions>{}"#,
+        assignments(&[("p", "<apply><ci>f</ci><cn>1</cn><cn>2</cn></apply>")])
+    );
+    let e = first_error(&l3("", &param("p", 0.0), &arity));
+    assert!(
+        e.to_string().contains("takes 1 argument(s), found 2"),
+        "{e}"
+    );
+}
+
+// --- refusals ------------------------------------------------------------------------------
+
+/// `check` on `doc` exits with 2 and names `construct`, `id` and the line.
+fn refused(doc: &str, construct: Construct, id: Option<&str>, line: u32) {
+    let e = first_error(doc);
+    assert_eq!(
+        *e.kind,
+        ErrorKind::Unsupported {
+            construct: construct.clone()
+        },
+        "{e}"
+    );
+    assert_eq!(e.id.as_deref(), id);
+    assert_eq!(e.loc.line, line);
+    let (code, msg) = check_file(doc.as_bytes());
+    assert_eq!(code, Some(2));
+    assert!(msg.contains(&construct.name()), "{msg}");
+    assert!(msg.contains(&format!(".xml:{line}:")), "{msg}");
+    if let Some(id) = id {
+        assert!(msg.contains(&format!("`{id}`")), "{msg}");
+    }
+}
+
+#[test]
+fn unsupported_constructs_are_refused_by_name() {
+    let alg = format!(
+        r#"<listOfRules>
+      <algebraicRule>{MATH}<apply><minus/><ci>p</ci><cn>1</cn></apply></math></algebraicRule></listOfRules>"#
+    );
+    refused(
+        &l3("", &param("p", 0.0).replace("true", "false"), &alg),
+        Construct::AlgebraicRule,
+        None,
+        10,
+    );
+
+    let fast = l3(
+        &species("A", 1.0),
+        &param("k", 1.0),
+        &format!(
+            r#"<listOfReactions>
+      <reaction id="quick" reversible="false" fast="true">
+        <listOfReactants><speciesReference species="A" stoichiometry="1" constant="true"/></listOfReactants>
+        <kineticLaw>{MATH}<ci>k</ci></math></kineticLaw></reaction></listOfReactions>"#
+        ),
+    )
+    .replace("level3/version2/core\" level=\"3\" version=\"2\"", "level3/version1/core\" level=\"3\" version=\"1\"");
+    refused(&fast, Construct::FastReaction, Some("quick"), 10);
+
+    let delay = format!(
+        r#"<listOfRules>
+      <assignmentRule variable="p">{MATH}<apply><csymbol encoding="text" definitionURL="http://www.sbml.org/sbml/symbols/delay"/><ci>q</ci><cn>1</cn></apply></math></assignmentRule></listOfRules>"#
+    );
+    let params = param("p", 0.0).replace("true", "false") + &param("q", 2.0);
+    refused(
+        &l3("", &params, &delay),
+        Construct::DelayFunction,
+        Some("p"),
+        10,
+    );
+
+    let rate_of = delay
+        .replace("symbols/delay", "symbols/rateOf")
+        .replace("<cn>1</cn>", "");
+    refused(&l3("", &params, &rate_of), Construct::RateOf, Some("p"), 10);
+
+    let comp = l3("", "", "").replace(
+        r#"level="3" version="2">"#,
+        r#"xmlns:comp="http://www.sbml.org/sbml/level3/version1/comp/version1" comp:required="true" level="3" version="2">"#,
+    );
+    refused(&comp, Construct::Package("comp".into()), None, 2);
+}
+
+#[test]
+fn presentation_packages_are_ignored_with_a_warning() {
+    let doc = l3("", &param("p", 1.0), "").replace(
+        r#"level="3" version="2">"#,
+        r#"xmlns:layout="http://www.sbml.org/sbml/level3/version1/layout/version1" layout:required="false" level="3" version="2">"#,
+    ).replace("</listOfParameters>", "</listOfParameters><layout:listOfLayouts/>");
+    let i = sbml::import(doc.as_bytes()).unwrap();
+    assert!(i.warnings[0].to_string().contains("layout"));
+}
+
+#[test]
+fn what_the_network_cannot_hold_yet_is_refused_with_the_reason() {
+    let rule = format!(
+        r#"<listOfRules><rateRule variable="p">{MATH}<cn>1</cn></math></rateRule></listOfRules>"#
+    );
+    let doc = l3("", &param("p", 0.0).replace("true", "false"), &rule);
+    let (code, msg) = check_file(doc.as_bytes());
+    assert_eq!(code, Some(2));
+    assert!(msg.contains("<rateRule> `p`: not supported yet"), "{msg}");
+}
+
+// --- malformed files -----------------------------------------------------------------------
+
+/// `check` on `text` exits with 2, and its message holds each of `parts`.
+fn bad(text: &[u8], parts: &[&str]) {
+    let (code, msg) = check_file(text);
+    assert_eq!(code, Some(2), "{msg}");
+    for p in parts {
+        assert!(msg.contains(p), "expected {p:?} in:\n{msg}");
+    }
+}
+
+#[test]
+fn malformed_files_get_clear_errors_with_element_and_line() {
+    // Malformed XML: the closing tag does not match.
+    bad(
+        b"<?xml version=\"1.0\"?>\n<sbml>\n  <model>\n</sbml>\n",
+        &["malformed XML", ".xml:4:"],
+    );
+    // Not SBML, an unknown SBML namespace, and a level that contradicts the namespace.
+    bad(b"<html/>", &["not an SBML file"]);
+    let wrong_ns = l3("", "", "").replace("level3/version2/core", "level3/version9/core");
+    bad(wrong_ns.as_bytes(), &["unknown SBML namespace", ".xml:2:"]);
+    let wrong_level = l3("", "", "").replace(r#"version="2">"#, r#"version="1">"#);
+    bad(
+        wrong_level.as_bytes(),
+        &["the namespace is that of Level 3 Version 2"],
+    );
+    // A species in a foreign namespace.
+    let foreign = l3(r#"<s:species xmlns:s="urn:elsewhere" id="A"/>"#, "", "");
+    bad(
+        foreign.as_bytes(),
+        &["namespace \"urn:elsewhere\"", ".xml:7:"],
+    );
+    // A missing id, a duplicate id, a dangling reference.
+    let no_id = l3(&species("A", 1.0).replace(r#"id="A" "#, ""), "", "");
+    bad(
+        no_id.as_bytes(),
+        &["<species> needs the attribute `id`", ".xml:7:"],
+    );
+    let twice = l3(&species("A", 1.0), &param("A", 1.0), "");
+    bad(
+        twice.as_bytes(),
+        &["<parameter> `A`: this id is already used on line 7"],
+    );
+    let dangling = l3(
+        &species("A", 1.0).replace(r#"compartment="c""#, r#"compartment="nowhere""#),
+        "",
+        "",
+    );
+    bad(
+        dangling.as_bytes(),
+        &["<species> `A`: compartment refers to `nowhere`", ".xml:7:"],
+    );
+    let unknown_id = l3(
+        "",
+        &param("p", 0.0),
+        &assignments(&[("p", "<ci>ghost</ci>")]),
+    );
+    bad(unknown_id.as_bytes(), &["refers to `ghost`"]);
+    // Unknown MathML: an operator outside the subset, and an element that is no MathML at all.
+    let sum = l3(
+        "",
+        &param("p", 0.0),
+        &assignments(&[("p", "<apply><sum/><cn>1</cn></apply>")]),
+    );
+    bad(
+        sum.as_bytes(),
+        &[
+            "<sum> is not an operator of the MathML subset",
+            "`p`",
+            ".xml:9:",
+        ],
+    );
+    let mtext = l3(
+        "",
+        &param("p", 0.0),
+        &assignments(&[("p", "<mtext>one</mtext>")]),
+    );
+    bad(
+        mtext.as_bytes(),
+        &["<mtext> is not part of the MathML subset"],
+    );
+    // Bytes that are not UTF-8.
+    bad(b"<sbml>\xff</sbml>", &["not UTF-8", ".xml:1:7"]);
+}
+
+#[test]
+fn a_file_larger_than_the_limit_is_refused_before_parsing() {
+    // 50 MB: a valid model followed by a comment that makes it too large to read.
+    let mut text = l3(&species("A", 1.0), "", "").into_bytes();
+    text.extend(b"<!--");
+    text.resize(50 * 1000 * 1000, b'x');
+    text.extend(b"-->\n");
+    let e = sbml::import(&text).unwrap_err().remove(0);
+    assert!(matches!(*e.kind, ErrorKind::TooLarge { .. }));
+    bad(
+        &text,
+        &["copyloop reads SBML files of up to 33554432 bytes"],
+    );
+}

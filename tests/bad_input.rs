@@ -33,6 +33,12 @@ fn catalogue() -> Vec<Case> {
         "+".repeat(10_000_000)
     );
     let long_name = format!("species {} = 1\n", "x".repeat(5_000_000));
+    // Nesting that no walk of the compiler may follow down the stack.
+    let law = |body: String| format!("species A = 1\nstep s A -> 0 @ law A * {body}\n");
+    let signs = law(format!("{}1", "-".repeat(10_000)));
+    let powers = law(format!("{}1", "1 ^ ".repeat(10_000)));
+    let calls = law(format!("{}0{}", "exp(".repeat(500), ")".repeat(500)));
+    let parens = law(format!("{}1{}", "(".repeat(500), ")".repeat(500)));
     let mut v = vec![
         case("unknown species", "species A = 1\nstep s A -> Q @ 1\n", 2, 13, "unknown species `Q`"),
         case("duplicate species", "species A = 1\nspecies A = 2\n", 2, 9, "declared twice"),
@@ -84,7 +90,14 @@ fn catalogue() -> Vec<Case> {
         case("only comments", "# nothing here\n\n   \n", 1, 1, "no statements"),
         case("control character", "species A = 1\u{7}\n", 1, 14, "control character"),
         case("stray less-than", "species A = 1\nstep s A <- B @ 1\n", 2, 10, "`<->`"),
-        case("expression nested too deeply", &deep, 2, 0, "nested too deeply"),
+        case("expression nested too deeply", &deep, 2, 0, "nested more than 64 levels deep"),
+        case("10,000 signs in a row", &signs, 2, 0, "nested more than 64 levels deep"),
+        case("10,000 powers in a row", &powers, 2, 0, "nested more than 64 levels deep"),
+        case("calls nested 500 deep", &calls, 2, 0, "nested more than 64 levels deep"),
+        case("parentheses nested 500 deep", &parens, 2, 0, "nested more than 64 levels deep"),
+        case("kd in concentration without a volume", "species A = 10\nspecies B = 10\nspecies C = 0\nstep bind A + B <-> C @ 0.01, kd 5 nM\n", 4, 34, "no volume to turn them into molecules"),
+        case("law constant in concentration without a volume", "species A = 10\nparam K = 3 nM\nstep s 0 -> A @ law 1 molecules/s * sat(A, K)\n", 3, 41, "the network has no volume, so species are counts"),
+        case("error after a byte-order mark", "\u{feff}species A = 1\nstep s A -> Q @ 1\n", 2, 13, "unknown species `Q`"),
         case("a 10 MB line", &huge, 2, 19, "expected the end of the line"),
         case("a 5 MB name", &long_name, 1, 9, "names are at most"),
         // Compartments, doses, infusions, events and time (one case per rule of the language).
@@ -135,6 +148,13 @@ fn catalogue() -> Vec<Case> {
         line: 1,
         col: 3,
         says: "not UTF-8",
+    });
+    v.push(Case {
+        name: "UTF-16 text",
+        text: b"\xff\xfes\x00p\x00e\x00c\x00".to_vec(),
+        line: 1,
+        col: 1,
+        says: "UTF-16 text, not UTF-8",
     });
     v.push(Case {
         name: "binary after text",
@@ -198,4 +218,106 @@ fn a_missing_file_exits_2() {
         .unwrap();
     assert_eq!(out.status.code(), Some(2));
     assert!(String::from_utf8_lossy(&out.stderr).contains("/nonexistent/net.crn"));
+}
+
+/// Runs `f` on a thread with a 2 MiB stack (the smallest a worker thread gets by default), so
+/// that a walk whose depth grows with the input would overflow here.
+fn on_small_stack<T: Send + 'static>(f: impl FnOnce() -> T + Send + 'static) -> T {
+    std::thread::Builder::new()
+        .stack_size(2 << 20)
+        .spawn(f)
+        .unwrap()
+        .join()
+        .unwrap()
+}
+
+fn load(text: String) -> Result<copyloop::Network, copyloop::Error> {
+    copyloop::network::load_source("long.crn", text.as_bytes(), &Default::default())
+}
+
+/// A law of 10,000 terms and a condition of 10,000 alternatives compile (a chain is a tree as
+/// deep as it is long; no walk may follow it down the stack), and the law's value is 10,000
+/// times its term: sat(x, K) = x/(K + x) (the README's definition, the Michaelis–Menten
+/// hyperbola [M]), here x = K so each term is k/2.
+#[test]
+fn a_law_of_ten_thousand_terms_compiles() {
+    let net = on_small_stack(|| {
+        let terms = vec!["k * sat(H, K)"; 10_000].join(" + ");
+        let alternatives = vec!["H > 1 nM"; 10_000].join(" or ");
+        load(format!(
+            "volume 1 pL\nspecies H = 5 nM\nparam k = 1 nM/s\nparam K = 5 nM\n\
+             step make 0 -> H @ law {terms}\nstep clear H -> 0 @ 0.1 /s\n\
+             when {alternatives} : H = 0 nM\n"
+        ))
+        .expect("a 10,000-term law compiles")
+    });
+    let omega = net.omega;
+    let h = net.species[0].initial;
+    let x = h as f64 / omega;
+    let k = 1e-9;
+    let want = 10_000.0 * k * x / (5e-9 + x) * omega;
+    let got = net.propensities()[0].eval(&[h]);
+    assert!(
+        (got - want).abs() <= 1e-9 * want,
+        "propensity {got}, want {want}"
+    );
+    assert_eq!(net.events.len(), 1);
+}
+
+/// Expressions at the parser's nesting limit, mixing every operator at every level, compile
+/// on a small stack (or are refused with a message, never a crash).
+#[test]
+fn nesting_at_the_limit_compiles_on_a_small_stack() {
+    let mut body = String::from("A");
+    for _ in 0..20 {
+        body = format!("-(A + 2 * A ^ 2 / exp(ln(1 + {body} * 0)))");
+    }
+    let text = format!("species A = 3\nstep s A -> 0 @ law 1 + 0 * {body}\n");
+    let out = on_small_stack(move || {
+        load(text)
+            .map(|n| n.reactions.len())
+            .map_err(|e| e.to_string())
+    });
+    match out {
+        Ok(m) => assert_eq!(m, 1),
+        Err(e) => assert!(e.contains("nested") || e.contains("stack"), "{e}"),
+    }
+}
+
+/// `check` shows a law exactly as written, its closing parenthesis included.
+#[test]
+fn check_shows_a_law_as_written() {
+    let dir = scratch();
+    let path = dir.join("paren.crn");
+    let law = "ks * K / (K + H)";
+    std::fs::write(
+        &path,
+        format!(
+            "volume 1 pL\nspecies H = 10 nM\nparam ks = 1 nM/s\nparam K = 5 nM\n\
+             step make 0 -> H @ law {law}\nstep make2 0 -> H @ law (K + H) * ks / K\n"
+        ),
+    )
+    .unwrap();
+    let out = Command::new(env!("CARGO_BIN_EXE_copyloop"))
+        .args(["check", "--json", path.to_str().unwrap()])
+        .output()
+        .unwrap();
+    let _ = std::fs::remove_dir_all(&dir);
+    assert_eq!(out.status.code(), Some(0));
+    let doc: serde_json::Value = serde_json::from_slice(&out.stdout).unwrap();
+    let laws: Vec<&str> = doc["reactions"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .map(|r| r["law"].as_str().unwrap())
+        .collect();
+    assert_eq!(laws, [law, "(K + H) * ks / K"]);
+}
+
+/// A UTF-8 byte-order mark at the start of a file is not part of its text.
+#[test]
+fn a_byte_order_mark_is_accepted() {
+    let with = load("\u{feff}species A = 4\nstep s A -> 0 @ 1\n".into()).unwrap();
+    let without = load("species A = 4\nstep s A -> 0 @ 1\n".into()).unwrap();
+    assert_eq!(with.species, without.species);
 }

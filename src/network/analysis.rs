@@ -452,16 +452,18 @@ pub fn motif_chains(net: &Network) -> Vec<Vec<usize>> {
 // Warnings about unused declarations
 // ---------------------------------------------------------------------------------------------
 
+/// The names `e` reads, by a walk with its own stack (a long chain `a + b + …` is a tree as
+/// deep as it is long).
 fn names_in(e: &Expr, out: &mut Vec<String>) {
-    match e {
-        Expr::Number(_) => {}
-        Expr::Name(n) => out.push(n.text.clone()),
-        Expr::Neg(a, _) => names_in(a, out),
-        Expr::Binary(_, a, b, _) => {
-            names_in(a, out);
-            names_in(b, out);
+    let mut todo = vec![e];
+    while let Some(e) = todo.pop() {
+        match e {
+            Expr::Number(_) => {}
+            Expr::Name(n) => out.push(n.text.clone()),
+            Expr::Neg(a, _) => todo.push(a),
+            Expr::Binary(_, a, b, _) => todo.extend([&**b, &**a]),
+            Expr::Call(_, args, _) => todo.extend(args.iter().rev()),
         }
-        Expr::Call(_, args, _) => args.iter().for_each(|a| names_in(a, out)),
     }
 }
 

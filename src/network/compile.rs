@@ -73,11 +73,15 @@ pub fn load_source(file: &str, bytes: &[u8], overrides: &Overrides) -> Result<Ne
         return crate::sbml::load_source(file, bytes, overrides);
     }
     let ast = parser::parse(file, bytes).map_err(Error::Input)?;
-    compile(&ast, overrides).map_err(Error::Input)
+    compile(&std::sync::Arc::new(ast), overrides).map_err(Error::Input)
 }
 
-/// Compiles a parsed file.
-pub fn compile(ast: &Ast, overrides: &Overrides) -> Result<Network, Vec<Diagnostic>> {
+/// Compiles a parsed file. The network keeps `ast` (shared, never copied: a sweep compiles
+/// one file many times).
+pub fn compile(
+    ast: &std::sync::Arc<Ast>,
+    overrides: &Overrides,
+) -> Result<Network, Vec<Diagnostic>> {
     let mut c = Compiler {
         ast,
         overrides,
@@ -145,7 +149,7 @@ pub fn compile(ast: &Ast, overrides: &Overrides) -> Result<Network, Vec<Diagnost
         conservation_laws: Vec::new(),
         motifs: Vec::new(),
         warnings,
-        source: std::sync::Arc::new(ast.clone()),
+        source: std::sync::Arc::clone(ast),
         overrides: overrides.clone(),
     };
     net.stoichiometry = analysis::stoichiometry(&net);
@@ -981,27 +985,32 @@ impl<'a> Compiler<'a> {
                     self.order_error(order, side_span);
                     return None;
                 }
-                let kd_molar =
-                    if q.dim == Dim::CONC.powi(dm) && !bare && self.volume_l.is_some() {
-                        q.value
-                    } else if bare
-                        || q.dim == Dim::COUNT.powi(dm)
-                        || (self.volume_l.is_none() && q.dim.without_count().is_none())
-                    {
-                        q.value / omega.powi(dm)
-                    } else {
-                        let want = Dim::CONC.powi(dm);
-                        self.error_help(
+                let kd_molar = if q.dim == Dim::CONC.powi(dm) && !bare && self.volume_l.is_some() {
+                    q.value
+                } else if bare
+                    || q.dim == Dim::COUNT.powi(dm)
+                    || (self.volume_l.is_none() && q.dim.without_count().is_none())
+                {
+                    q.value / omega.powi(dm)
+                } else if self.volume_l.is_none() && q.dim.conc != 0 {
+                    self.error_help(
+                            op.span(),
+                            "this `kd` is given in concentration units, but the network has no volume to turn them into molecules",
+                            "add a `volume` line (or compartments), or give kd in molecules, e.g. `kd 3000 molecules`",
+                        );
+                    return None;
+                } else {
+                    let want = Dim::CONC.powi(dm);
+                    self.error_help(
                         op.span(),
-                        format!("this `kd` should have dimension {want}, but it has {}", q.dim),
-                        if self.volume_l.is_none() && q.dim.conc != 0 {
-                            "concentrations need a `volume` line; without one give kd in molecules"
-                        } else {
-                            "K_d of A + B <-> C is a concentration, e.g. `kd 3 nM`"
-                        },
+                        format!(
+                            "this `kd` should have dimension {want}, but it has {}",
+                            q.dim
+                        ),
+                        "K_d of A + B <-> C is a concentration, e.g. `kd 3 nM`",
                     );
-                        return None;
-                    };
+                    return None;
+                };
                 if !(kd_molar >= 0.0 && kd_molar.is_finite()) {
                     self.error(
                         op.span(),

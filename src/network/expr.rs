@@ -30,6 +30,11 @@ use std::ops::{Add, Div, Mul, Neg, Sub};
 /// Deepest value stack a compiled program may need.
 pub const MAX_STACK: usize = 32;
 
+/// How deeply [`compile`] follows nested operands (chains such as `a + b + c` cost one level,
+/// however long), so that a tree from any front end is refused before it could exhaust the
+/// stack. The `.crn` parser's own limit is lower.
+pub const MAX_DEPTH: usize = 512;
+
 /// One instruction of a compiled program.
 #[derive(Clone, Copy, Debug, PartialEq)]
 pub enum Op {
@@ -809,8 +814,17 @@ pub fn compile(
     let ctx = Ctx {
         resolve,
         norm: &norm,
+        depth: std::cell::Cell::new(0),
     };
-    let typed = ctx.check(expr)?;
+    let typed = ctx.check(expr).map_err(|mut e| {
+        if checks.dimensions && checks.counts_are_numbers && e.message.contains("concentration") {
+            // Without a volume a species reads as a count, so a concentration meets a number.
+            e.message.push_str(
+                "; the network has no volume, so species are counts of molecules here: add a `volume` line or give the value in molecules",
+            );
+        }
+        e
+    })?;
     if typed.depth > MAX_STACK {
         return err(
             expr.span(),
@@ -845,12 +859,24 @@ pub fn compile(
 struct Ctx<'r> {
     resolve: &'r dyn Fn(&str) -> Option<Resolved>,
     norm: &'r dyn Fn(Dim) -> Dim,
+    /// Current nesting of `check` (bounded by [`MAX_DEPTH`]).
+    depth: std::cell::Cell<usize>,
 }
 
 impl Ctx<'_> {
     /// Checks a node and rejects a constant part that is not a finite number (`0/0`, `ln(0)`).
     fn check(&self, expr: &Expr) -> Result<Typed, LawError> {
-        let t = self.node(expr)?;
+        let depth = self.depth.get();
+        if depth >= MAX_DEPTH {
+            return err(
+                expr.span(),
+                format!("the expression is nested more than {MAX_DEPTH} levels deep here; split it with params"),
+            );
+        }
+        self.depth.set(depth + 1);
+        let t = self.node(expr);
+        self.depth.set(depth);
+        let t = t?;
         match t.constant {
             Some(v) if !v.is_finite() => err(
                 expr.span(),
@@ -886,59 +912,96 @@ impl Ctx<'_> {
                 let t = self.check(inner)?;
                 Ok(unary(t, Op::Neg, None))
             }
-            Expr::Binary(op, a, b, span) => {
-                let (ta, tb) = (self.check(a)?, self.check(b)?);
-                match op {
-                    BinOp::Add | BinOp::Sub => {
-                        same_dim(&ta, &tb, a.span(), b.span(), "add or subtract")?;
-                        let dim = ta.dim;
-                        let code = if *op == BinOp::Add { Op::Add } else { Op::Sub };
-                        Ok(shifted(ta, tb, code, dim))
-                    }
-                    BinOp::Mul => {
-                        let dim = ta.dim.times(tb.dim);
-                        Ok(binary(ta, tb, Op::Mul, dim))
-                    }
-                    BinOp::Div => {
-                        let dim = ta.dim.per(tb.dim);
-                        Ok(binary(ta, tb, Op::Div, dim))
-                    }
-                    BinOp::Pow => power(ta, tb, a.span(), b.span(), *span),
-                    BinOp::Lt | BinOp::Le | BinOp::Gt | BinOp::Ge => {
-                        same_dim(&ta, &tb, a.span(), b.span(), "compare")?;
-                        let code = match op {
-                            BinOp::Lt => Op::Lt,
-                            BinOp::Le => Op::Le,
-                            BinOp::Gt => Op::Gt,
-                            _ => Op::Ge,
-                        };
-                        Ok(comparison(ta, tb, code))
-                    }
-                    BinOp::And | BinOp::Or => {
-                        for (t, e) in [(&ta, a), (&tb, b)] {
-                            if !t.boolean {
-                                return err(
-                                    e.span(),
-                                    format!(
-                                        "`{}` joins conditions, but this is not one",
-                                        if *op == BinOp::And { "and" } else { "or" }
-                                    ),
-                                )
-                                .map_err(|mut e| {
-                                    e.message
-                                        .push_str(": write a comparison such as `X > 5 nM`");
-                                    e
-                                });
-                            }
-                        }
-                        let code = if *op == BinOp::And { Op::And } else { Op::Or };
-                        let mut t = binary(ta, tb, code, Dim::NONE);
-                        t.boolean = true;
-                        Ok(t)
+            Expr::Binary(..) => {
+                // A chain `x + y + z …` is a left spine as deep as it is long: walk it with a
+                // loop, recursing only into right operands (bounded by the parser's nesting
+                // limit), so that no length of chain can exhaust the stack.
+                let mut spine = vec![expr];
+                let mut leftmost = expr;
+                while let Expr::Binary(_, a, _, _) = leftmost {
+                    leftmost = a;
+                    if matches!(leftmost, Expr::Binary(..)) {
+                        spine.push(leftmost);
                     }
                 }
+                let mut acc = self.check(leftmost)?;
+                for node in spine.into_iter().rev() {
+                    let Expr::Binary(op, a, b, span) = node else {
+                        unreachable!("the spine holds binary nodes")
+                    };
+                    let tb = self.check(b)?;
+                    acc = self.binary_node(*op, acc, tb, a, b, *span)?;
+                    if let Some(v) = acc.constant.filter(|v| !v.is_finite()) {
+                        return err(
+                            node.span(),
+                            format!("this part of the expression is the constant {v}, not a finite number"),
+                        );
+                    }
+                }
+                Ok(acc)
             }
             Expr::Call(name, args, span) => self.call(name, args, *span),
+        }
+    }
+
+    /// The node `a op b` from its checked operands.
+    fn binary_node(
+        &self,
+        op: BinOp,
+        ta: Typed,
+        tb: Typed,
+        a: &Expr,
+        b: &Expr,
+        span: Span,
+    ) -> Result<Typed, LawError> {
+        match op {
+            BinOp::Add | BinOp::Sub => {
+                same_dim(&ta, &tb, a.span(), b.span(), "add or subtract")?;
+                let dim = ta.dim;
+                let code = if op == BinOp::Add { Op::Add } else { Op::Sub };
+                Ok(shifted(ta, tb, code, dim))
+            }
+            BinOp::Mul => {
+                let dim = ta.dim.times(tb.dim);
+                Ok(binary(ta, tb, Op::Mul, dim))
+            }
+            BinOp::Div => {
+                let dim = ta.dim.per(tb.dim);
+                Ok(binary(ta, tb, Op::Div, dim))
+            }
+            BinOp::Pow => power(ta, tb, a.span(), b.span(), span),
+            BinOp::Lt | BinOp::Le | BinOp::Gt | BinOp::Ge => {
+                same_dim(&ta, &tb, a.span(), b.span(), "compare")?;
+                let code = match op {
+                    BinOp::Lt => Op::Lt,
+                    BinOp::Le => Op::Le,
+                    BinOp::Gt => Op::Gt,
+                    _ => Op::Ge,
+                };
+                Ok(comparison(ta, tb, code))
+            }
+            BinOp::And | BinOp::Or => {
+                for (t, e) in [(&ta, a), (&tb, b)] {
+                    if !t.boolean {
+                        return err(
+                            e.span(),
+                            format!(
+                                "`{}` joins conditions, but this is not one",
+                                if op == BinOp::And { "and" } else { "or" }
+                            ),
+                        )
+                        .map_err(|mut e| {
+                            e.message
+                                .push_str(": write a comparison such as `X > 5 nM`");
+                            e
+                        });
+                    }
+                }
+                let code = if op == BinOp::And { Op::And } else { Op::Or };
+                let mut t = binary(ta, tb, code, Dim::NONE);
+                t.boolean = true;
+                Ok(t)
+            }
         }
     }
 

@@ -194,6 +194,45 @@ pub enum Expr {
     Call(Name, Vec<Expr>, Span),
 }
 
+/// Dropping a tree takes its subtrees out onto a list first: a chain `a + b + c …` is a tree
+/// as deep as it is long, and the derived drop would follow it down the stack.
+impl Drop for Expr {
+    fn drop(&mut self) {
+        fn take(e: &mut Expr, out: &mut Vec<Expr>) {
+            let hole = || {
+                Expr::Name(Name {
+                    text: String::new(),
+                    span: Span::new(0, 0, 0),
+                })
+            };
+            match e {
+                Expr::Neg(a, _) => out.push(std::mem::replace(&mut **a, hole())),
+                Expr::Binary(_, a, b, _) => {
+                    out.push(std::mem::replace(&mut **a, hole()));
+                    out.push(std::mem::replace(&mut **b, hole()));
+                }
+                Expr::Call(_, args, _) => out.append(args),
+                Expr::Number(_) | Expr::Name(_) => {}
+            }
+        }
+        let leaf = |e: &Expr| matches!(e, Expr::Number(_) | Expr::Name(_));
+        let shallow = match self {
+            Expr::Neg(a, _) => leaf(a),
+            Expr::Binary(_, a, b, _) => leaf(a) && leaf(b),
+            Expr::Call(_, args, _) => args.iter().all(leaf),
+            Expr::Number(_) | Expr::Name(_) => true,
+        };
+        if shallow {
+            return;
+        }
+        let mut todo = Vec::new();
+        take(self, &mut todo);
+        while let Some(mut e) = todo.pop() {
+            take(&mut e, &mut todo);
+        }
+    }
+}
+
 impl Expr {
     pub fn span(&self) -> Span {
         match self {
@@ -203,6 +242,9 @@ impl Expr {
         }
     }
 }
+
+/// How deeply an expression may nest (see `Parser::check_nesting`).
+pub const MAX_NESTING: u32 = 64;
 
 /// Words with a fixed meaning in the language; they cannot name species, params or steps.
 pub const KEYWORDS: &[&str] = &[
@@ -232,6 +274,17 @@ const MAX_ERRORS: usize = 50;
 
 /// Parses a whole file. `bytes` may be anything: invalid UTF-8 is reported with its position.
 pub fn parse(file: &str, bytes: &[u8]) -> Result<Ast, Vec<Diagnostic>> {
+    // A UTF-8 byte-order mark (which some editors write) is not part of the text.
+    let bytes = bytes.strip_prefix(b"\xEF\xBB\xBF").unwrap_or(bytes);
+    if bytes.starts_with(b"\xFF\xFE") || bytes.starts_with(b"\xFE\xFF") {
+        return Err(vec![Diagnostic::at(
+            file,
+            "",
+            Span::new(1, 1, 1),
+            "this file is UTF-16 text, not UTF-8",
+        )
+        .with_help("save it as UTF-8 (plain text)")]);
+    }
     let source = match std::str::from_utf8(bytes) {
         Ok(s) => s.to_string(),
         Err(e) => {
@@ -349,6 +402,14 @@ impl<'a> LineParser<'a> {
         let t = self.tokens.get(self.pos);
         self.pos += 1;
         t
+    }
+
+    /// The span of the last token consumed (the current one before any is).
+    fn last(&self) -> Span {
+        match self.pos.checked_sub(1).and_then(|k| self.tokens.get(k)) {
+            Some(t) => t.span,
+            None => self.here(),
+        }
     }
 
     fn here(&self) -> Span {
@@ -904,10 +965,26 @@ impl<'a> LineParser<'a> {
     }
 
     fn expr_depth(&mut self, depth: u32) -> PResult<Expr> {
-        if depth > 64 {
-            return Err(self.error(self.here(), "the expression is nested too deeply"));
-        }
+        self.check_nesting(depth)?;
         self.logic(depth, "or", BinOp::Or)
+    }
+
+    /// Refuses nesting past [`MAX_NESTING`] (parentheses, calls, signs and powers each nest
+    /// one level; chains such as `a + b + c` do not), so that no expression can exhaust the
+    /// stack of the compiler's walks.
+    fn check_nesting(&self, depth: u32) -> PResult<()> {
+        if depth > MAX_NESTING {
+            return Err(self
+                .error(
+                    self.here(),
+                    format!("the expression is nested more than {MAX_NESTING} levels deep here"),
+                )
+                .with_help_boxed(
+                    "parentheses, function calls, `-` signs and `^` powers each nest one level; \
+                     split the expression with params or several steps",
+                ));
+        }
+        Ok(())
     }
 
     /// `a or b …` (`and` binds tighter: it is parsed one level down).
@@ -919,11 +996,13 @@ impl<'a> LineParser<'a> {
                 p.comparison(depth)
             }
         };
+        // Spans run from the first token to the last (a closing parenthesis included).
+        let start = self.here();
         let mut lhs = next(self)?;
         while self.at_ident(word) {
             self.pos += 1;
             let rhs = next(self)?;
-            let span = lhs.span().to(rhs.span());
+            let span = start.to(self.last());
             lhs = Expr::Binary(op, Box::new(lhs), Box::new(rhs), span);
         }
         Ok(lhs)
@@ -940,6 +1019,7 @@ impl<'a> LineParser<'a> {
     }
 
     fn comparison(&mut self, depth: u32) -> PResult<Expr> {
+        let start = self.here();
         let lhs = self.sum(depth)?;
         let Some(op) = self.comparison_op() else {
             return Ok(lhs);
@@ -951,11 +1031,12 @@ impl<'a> LineParser<'a> {
                 .error(self.here(), "comparisons cannot be chained")
                 .with_help_boxed("write `a < b and b < c`"));
         }
-        let span = lhs.span().to(rhs.span());
+        let span = start.to(self.last());
         Ok(Expr::Binary(op, Box::new(lhs), Box::new(rhs), span))
     }
 
     fn sum(&mut self, depth: u32) -> PResult<Expr> {
+        let start = self.here();
         let mut lhs = self.term_expr(depth)?;
         loop {
             let op = match self.peek().map(|t| &t.tok) {
@@ -965,13 +1046,14 @@ impl<'a> LineParser<'a> {
             };
             self.pos += 1;
             let rhs = self.term_expr(depth)?;
-            let span = lhs.span().to(rhs.span());
+            let span = start.to(self.last());
             lhs = Expr::Binary(op, Box::new(lhs), Box::new(rhs), span);
         }
         Ok(lhs)
     }
 
     fn term_expr(&mut self, depth: u32) -> PResult<Expr> {
+        let start = self.here();
         let mut lhs = self.unary(depth)?;
         loop {
             let op = match self.peek().map(|t| &t.tok) {
@@ -981,25 +1063,27 @@ impl<'a> LineParser<'a> {
             };
             self.pos += 1;
             let rhs = self.unary(depth)?;
-            let span = lhs.span().to(rhs.span());
+            let span = start.to(self.last());
             lhs = Expr::Binary(op, Box::new(lhs), Box::new(rhs), span);
         }
         Ok(lhs)
     }
 
     fn unary(&mut self, depth: u32) -> PResult<Expr> {
+        self.check_nesting(depth)?;
         if let Some(t) = self.peek() {
             if t.tok == Tok::Minus {
                 self.pos += 1;
                 let inner = self.unary(depth + 1)?;
-                let span = t.span.to(inner.span());
+                let span = t.span.to(self.last());
                 return Ok(Expr::Neg(Box::new(inner), span));
             }
         }
+        let start = self.here();
         let base = self.primary(depth)?;
         if self.eat(&Tok::Caret) {
             let exponent = self.unary(depth + 1)?;
-            let span = base.span().to(exponent.span());
+            let span = start.to(self.last());
             return Ok(Expr::Binary(
                 BinOp::Pow,
                 Box::new(base),

@@ -37,7 +37,7 @@ pub fn network(
 ) -> Result<Network, Error> {
     let diag = |e: SbmlError| Error::Input(vec![e.diagnostic(file, text)]);
     let ast = ast(file, text, doc).map_err(diag)?;
-    let mut net = compile(&ast, overrides).map_err(Error::Input)?;
+    let mut net = compile(&std::sync::Arc::new(ast), overrides).map_err(Error::Input)?;
     // Show each law as the SBML formula it came from.
     let shown: HashMap<&str, String> = doc
         .model

@@ -179,11 +179,8 @@ pub fn table(net: &Network, r: &Reconciliation) -> String {
     } else {
         "molecules"
     };
-    let scale = if net.volume_l.is_some() {
-        1.0 / net.omega
-    } else {
-        1.0
-    };
+    // Each species in its own compartment.
+    let scale_of = |i: usize| net.species_molar_omega(i).map_or(1.0, |w| 1.0 / w);
     if !r.observations.is_empty() {
         out.push_str(&format!("observed steady levels ({unit})\n"));
         let mut t = Table::new(&[
@@ -195,6 +192,7 @@ pub fn table(net: &Network, r: &Reconciliation) -> String {
             "verdict",
         ]);
         for o in &r.observations {
+            let scale = scale_of(o.observation.species);
             t.row(vec![
                 o.name.clone(),
                 format!("{} ± {}", num(o.observed * scale), num(o.sd * scale)),
@@ -241,6 +239,11 @@ pub fn table(net: &Network, r: &Reconciliation) -> String {
                     num(f.original)
                 ));
                 if let Some(c) = &f.confirmation {
+                    // The fit is to the first observation.
+                    let scale = r
+                        .observations
+                        .first()
+                        .map_or(1.0, |o| scale_of(o.observation.species));
                     out.push_str(&format!(
                         "  ensemble at the fitted value: {} ± {} {unit}, z = {}, {}\n",
                         num(c.ensemble.mean * scale),

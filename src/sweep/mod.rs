@@ -38,7 +38,7 @@ use crate::network::{compile, Network};
 pub struct Plan {
     pub file: String,
     pub source: Vec<u8>,
-    pub ast: Ast,
+    pub ast: std::sync::Arc<Ast>,
     pub design: Design,
     pub shard: Option<Shard>,
 }
@@ -91,7 +91,7 @@ impl Plan {
         Ok(Plan {
             file: file.to_string(),
             source,
-            ast,
+            ast: std::sync::Arc::new(ast),
             design,
             shard,
         })

@@ -22,7 +22,7 @@ pub struct Point<'a> {
     pub net: &'a Network,
     /// The values that made `net` from the file.
     pub overrides: &'a Overrides,
-    pub(crate) ast: &'a Ast,
+    pub(crate) ast: &'a std::sync::Arc<Ast>,
 }
 
 impl Point<'_> {

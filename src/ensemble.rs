@@ -208,6 +208,10 @@ pub struct EnsembleResult {
     pub grid_times: Vec<f64>,
     /// `grid[p][i]`: count of species i at grid point p.
     pub grid: Vec<Vec<Welford>>,
+    /// The params that events change (network indices), and `grid_params[p][k]`: the value
+    /// of the k-th of them at grid point p.
+    pub varying_params: Vec<usize>,
+    pub grid_params: Vec<Vec<Welford>>,
     /// Every replicate's final state, in replicate order (when `keep_finals`).
     pub finals: Option<Vec<Vec<i64>>>,
     /// Firings over all replicates and all of [0, t_end].
@@ -240,6 +244,9 @@ impl EnsembleResult {
             a.merge(b);
         }
         for (a, b) in self.grid.iter_mut().zip(&other.grid) {
+            a.iter_mut().zip(b).for_each(|(a, b)| a.merge(b));
+        }
+        for (a, b) in self.grid_params.iter_mut().zip(&other.grid_params) {
             a.iter_mut().zip(b).for_each(|(a, b)| a.merge(b));
         }
         if let (Some(a), Some(b)) = (&mut self.finals, &other.finals) {
@@ -276,6 +283,8 @@ struct Partial {
     half_difference: Vec<Welford>,
     window_change: Vec<Welford>,
     grid: Vec<Vec<Welford>>,
+    varying: Vec<usize>,
+    grid_params: Vec<Vec<Welford>>,
     finals: Vec<Vec<i64>>,
     events: u64,
     leaps: u64,
@@ -284,8 +293,12 @@ struct Partial {
 }
 
 impl Partial {
-    fn new(species: usize, reactions: usize, points: usize) -> Partial {
+    fn new(kernel: &CompiledKernel, points: usize) -> Partial {
+        let (species, reactions) = (kernel.species, kernel.reactions());
+        let varying = kernel.varying_params().to_vec();
         Partial {
+            grid_params: vec![vec![Welford::new(); varying.len()]; points],
+            varying,
             final_state: vec![Welford::new(); species],
             time_average: vec![Welford::new(); species],
             within_variance: vec![Welford::new(); species],
@@ -343,6 +356,12 @@ impl Partial {
                 w.push(v as f64);
             }
         }
+        for (p, row) in self.grid_params.iter_mut().enumerate() {
+            let values = rec.grid_params(p);
+            for (w, &k) in row.iter_mut().zip(&self.varying) {
+                w.push(values[k]);
+            }
+        }
         if keep_final {
             self.finals.push(last.to_vec());
         }
@@ -365,6 +384,9 @@ impl Partial {
             a.iter_mut().zip(b).for_each(|(a, b)| a.merge(b));
         }
         for (a, b) in self.grid.iter_mut().zip(&o.grid) {
+            a.iter_mut().zip(b).for_each(|(a, b)| a.merge(b));
+        }
+        for (a, b) in self.grid_params.iter_mut().zip(&o.grid_params) {
             a.iter_mut().zip(b).for_each(|(a, b)| a.merge(b));
         }
         self.finals.extend(o.finals);
@@ -410,7 +432,7 @@ fn run_block(
     count: u64,
     bar: Option<&indicatif::ProgressBar>,
 ) -> Result<Partial> {
-    let mut part = Partial::new(kernel.species, kernel.reactions(), spec.grid_points);
+    let mut part = Partial::new(kernel, spec.grid_points);
     let x0 = spec.initial.as_deref().unwrap_or(&kernel.x0);
     for r in first..first + count {
         let mut rng = replicate_rng(spec.seed, spec.first_replicate + r);
@@ -469,6 +491,8 @@ pub fn run(net: &Network, spec: &EnsembleSpec) -> Result<EnsembleResult> {
         window_change: total.window_change,
         grid_times,
         grid: total.grid,
+        varying_params: total.varying,
+        grid_params: total.grid_params,
         finals: spec.keep_finals.then_some(total.finals),
         events_total: total.events,
         leaps: total.leaps,
@@ -501,7 +525,7 @@ fn run_blocks(
     let block_bytes = (spec.grid_points * kernel.species).max(1) * std::mem::size_of::<Welford>();
     let by_memory = (WAVE_MEMORY / block_bytes).max(threads);
     let wave = (threads * WAVE_PER_THREAD).min(by_memory) as u64;
-    let mut total = Partial::new(kernel.species, kernel.reactions(), spec.grid_points);
+    let mut total = Partial::new(kernel, spec.grid_points);
     let mut start = 0u64;
     while start < blocks {
         let end = (start + wave).min(blocks);

@@ -213,6 +213,8 @@ fn at_volume(net: &Network, opts: &Options) -> Result<VolumeNoise> {
     let spec = plan.ensemble(opts.replicates, 0, opts.seed, opts.threads, opts.progress);
     let ens = ensemble::run(net, &spec)?;
     let omega = net.volume_l.map(|_| net.omega);
+    // Molar figures of each species in its own compartment.
+    let own = |i: usize| net.species_molar_omega(i);
     let window = ens.window_length();
     let outputs: Vec<OutputRate> = steady
         .outputs
@@ -225,7 +227,7 @@ fn at_volume(net: &Network, opts: &Options) -> Result<VolumeNoise> {
                 rate_per_s: o.rate_per_s,
                 ensemble_rate_per_s: w.mean() / window,
                 ensemble_rate_ci95: [ci[0] / window, ci[1] / window],
-                rate_molar_per_s: molar(o.rate_per_s, omega),
+                rate_molar_per_s: molar(o.rate_per_s, own(o.species)),
             }
         })
         .collect();
@@ -260,8 +262,8 @@ fn at_volume(net: &Network, opts: &Options) -> Result<VolumeNoise> {
                 exact_mean: law.map(|l| l.mean),
                 exact_variance: law.map(|l| l.variance),
                 exact_fano: law.map(|l| l.fano),
-                mean_molar: molar(mo.mean.value, omega),
-                lna_mean_molar: molar(lna_mean, omega),
+                mean_molar: molar(mo.mean.value, own(i)),
+                lna_mean_molar: molar(lna_mean, own(i)),
             }
         })
         .collect();

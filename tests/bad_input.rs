@@ -33,6 +33,12 @@ fn catalogue() -> Vec<Case> {
         "+".repeat(10_000_000)
     );
     let long_name = format!("species {} = 1\n", "x".repeat(5_000_000));
+    // Nesting that no walk of the compiler may follow down the stack.
+    let law = |body: String| format!("species A = 1\nstep s A -> 0 @ law A * {body}\n");
+    let signs = law(format!("{}1", "-".repeat(10_000)));
+    let powers = law(format!("{}1", "1 ^ ".repeat(10_000)));
+    let calls = law(format!("{}0{}", "exp(".repeat(500), ")".repeat(500)));
+    let parens = law(format!("{}1{}", "(".repeat(500), ")".repeat(500)));
     let mut v = vec![
         case("unknown species", "species A = 1\nstep s A -> Q @ 1\n", 2, 13, "unknown species `Q`"),
         case("duplicate species", "species A = 1\nspecies A = 2\n", 2, 9, "declared twice"),
@@ -65,7 +71,7 @@ fn catalogue() -> Vec<Case> {
         case("missing arrow", "species A = 1\nspecies B = 1\nstep s A B @ 1\n", 3, 10, "expected `->` or `<->`"),
         case("missing reverse rate", "species A = 1\nspecies B = 0\nstep s A <-> B @ 1\n", 3, 19, "reverse rate"),
         case("two rates on a one-way step", "species A = 1\nstep s A -> 0 @ 1, 2\n", 2, 18, "one-way"),
-        case("unknown statement", "spec A = 1\n", 1, 1, "expected `volume`, `species`, `param` or `step`"),
+        case("unknown statement", "spec A = 1\n", 1, 1, "expected `volume`, `compartment`, `species`"),
         case("missing equals sign", "species A 1\n", 1, 11, "expected `=`"),
         case("bad coefficient", "species A = 1\nstep s 0.5 A -> 0 @ 1\n", 2, 8, "not a valid coefficient"),
         case("half-life on a second-order step", "species A = 1\nspecies B = 1\nstep s A + B -> 0 @ half-life 3 s\n", 3, 21, "first-order"),
@@ -84,9 +90,57 @@ fn catalogue() -> Vec<Case> {
         case("only comments", "# nothing here\n\n   \n", 1, 1, "no statements"),
         case("control character", "species A = 1\u{7}\n", 1, 14, "control character"),
         case("stray less-than", "species A = 1\nstep s A <- B @ 1\n", 2, 10, "`<->`"),
-        case("expression nested too deeply", &deep, 2, 0, "nested too deeply"),
+        case("expression nested too deeply", &deep, 2, 0, "nested more than 64 levels deep"),
+        case("10,000 signs in a row", &signs, 2, 0, "nested more than 64 levels deep"),
+        case("10,000 powers in a row", &powers, 2, 0, "nested more than 64 levels deep"),
+        case("calls nested 500 deep", &calls, 2, 0, "nested more than 64 levels deep"),
+        case("parentheses nested 500 deep", &parens, 2, 0, "nested more than 64 levels deep"),
+        case("kd in concentration without a volume", "species A = 10\nspecies B = 10\nspecies C = 0\nstep bind A + B <-> C @ 0.01, kd 5 nM\n", 4, 34, "no volume to turn them into molecules"),
+        case("law constant in concentration without a volume", "species A = 10\nparam K = 3 nM\nstep s 0 -> A @ law 1 molecules/s * sat(A, K)\n", 3, 41, "the network has no volume, so species are counts"),
+        case("error after a byte-order mark", "\u{feff}species A = 1\nstep s A -> Q @ 1\n", 2, 13, "unknown species `Q`"),
         case("a 10 MB line", &huge, 2, 19, "expected the end of the line"),
         case("a 5 MB name", &long_name, 1, 9, "names are at most"),
+        // Compartments, doses, infusions, events and time (one case per rule of the language).
+        case("dose of an unknown species", "species A = 1\ndose Q += 5 molecules at 1 s\n", 2, 6, "unknown species `Q`"),
+        case("dose of a clamped species", "species A = 1 clamped\ndose A += 5 molecules at 1 s\n", 2, 6, "clamped"),
+        case("dose time without a unit", "species A = 1\ndose A += 5 molecules at 100\n", 2, 26, "with its unit"),
+        case("repeated dose without an end", "species A = 1\ndose A += 5 molecules at 0 s every 1 h\n", 2, 36, "needs an end"),
+        case("dose period of zero", "species A = 1\ndose A += 5 molecules at 0 s every 0 s times 3\n", 2, 36, "above 0 s"),
+        case("dose schedule ending before it starts", "species A = 1\ndose A += 5 molecules at 2 h every 1 h until 1 h\n", 2, 46, "ends before its first dose"),
+        case("until without every", "species A = 1\ndose A += 5 molecules at 2 h until 5 h\n", 2, 36, "needs `every"),
+        case("dose count not whole", "species A = 1\ndose A += 5 molecules at 2 h every 1 h times 2.5\n", 2, 46, "whole number of doses"),
+        case("dose in concentration without a volume", "species A = 1\ndose A += 5 nM at 1 s\n", 2, 11, "needs a volume"),
+        case("dose that is not an amount", "species A = 1\ndose A += 5 s at 1 s\n", 2, 11, "concentration or molecules"),
+        case("dose without +=", "species A = 1\ndose A 5 at 1 s\n", 2, 8, "expected `+=`"),
+        case("event assigns a clamped species", "species A = 1 clamped\nstep s A -> 0 @ 1\nwhen A > 0 : A = 0\n", 3, 14, "clamped: an event cannot change it"),
+        case("event assigns an unknown name", "species A = 1\nstep s A -> 0 @ 1\nwhen A > 0 : B = 0\n", 3, 14, "unknown name `B`"),
+        case("event assigns a compartment", "compartment c = 1 fL\nspecies A = 1\nstep s A -> 0 @ 1\nwhen A > 0 nM : c = 2 fL\n", 4, 17, "is a compartment"),
+        case("trigger on nothing", "species A = 1\nparam p = 2\nstep s A -> 0 @ p\nwhen p > 1 : A = 0\n", 4, 6, "can never trigger"),
+        case("condition that is not a comparison", "species A = 1\nstep s A -> 0 @ 1\nwhen A : A = 0\n", 3, 6, "compares values"),
+        case("time compared without a unit", "species A = 1\nstep s A -> 0 @ 1\nwhen time > 100 : A = 0\n", 3, 6, "times need a unit"),
+        case("condition varying smoothly with time", "species A = 1\nstep s A -> 0 @ 1\nwhen sin(time / 1 s) > 0.5 : A = 0\n", 3, 6, "compared with a fixed time"),
+        case("chained comparison", "species A = 1\nstep s A -> 0 @ 1\nwhen 0 < A < 5 : A = 0\n", 3, 12, "cannot be chained"),
+        case("conflicting events at one instant", "species A = 1\nstep s A -> 0 @ 1\ndose A += 5 molecules at 10 s\nwhen time >= 10 s : A = 0\n", 4, 1, "conflicts with line 3"),
+        case("one event assigns a name twice", "species A = 1\nstep s A -> 0 @ 1\nwhen A > 0 : A = 0, A += 1\n", 3, 21, "assigned twice"),
+        case("assigned value of the wrong dimension", "volume 1 fL\nspecies A = 1\nstep s A -> 0 @ 1 /s\nwhen A > 0 nM : A = 2 s\n", 4, 21, "concentration or molecules"),
+        case("event without a colon", "species A = 1\nstep s A -> 0 @ 1\nwhen A > 0 A = 0\n", 3, 12, "expected `:`"),
+        case("event ending in something but at start", "species A = 1\nstep s A -> 0 @ 1\nwhen A > 0 : A = 0 at end\n", 3, 23, "expected `start`"),
+        case("volume beside compartments", "volume 1 fL\ncompartment c = 2 fL\n", 2, 13, "not both"),
+        case("species without its compartment", "compartment a = 1 fL\ncompartment b = 2 fL\nspecies A = 1\n", 3, 9, "say which compartment"),
+        case("unknown compartment", "compartment a = 1 fL\nspecies A in z = 1\n", 2, 14, "unknown compartment `z`"),
+        case("reactants in two compartments", "compartment a = 1 fL\ncompartment b = 2 fL\nspecies A in a = 1\nspecies B in b = 1\nstep s A + B -> 0 @ 1e6 /M/s\n", 5, 8, "different compartments"),
+        case("zero-order products in two compartments", "compartment a = 1 fL\ncompartment b = 2 fL\nspecies A in a = 1\nspecies B in b = 1\nstep s 0 -> A + B @ 1 nM/s\n", 5, 6, "different compartments"),
+        case("clearance on a second-order step", "volume 1 fL\nspecies A = 1\nspecies B = 1\nstep s A + B -> 0 @ clearance 1 fL/s\n", 4, 21, "first-order"),
+        case("clearance without a volume", "species A = 1\nstep s A -> 0 @ clearance 1 fL/s\n", 2, 17, "needs the volume"),
+        case("clearance that is not a volume per time", "volume 1 fL\nspecies A = 1\nstep s A -> 0 @ clearance 1 /s\n", 3, 27, "volume per time"),
+        case("infusion rate without a unit", "species A = 1\ninfuse A at 5 from 1 s to 2 s\n", 2, 13, "amount per time"),
+        case("infusion ending before it starts", "species A = 1\ninfuse A at 5 molecules/s from 2 s to 1 s\n", 2, 39, "end after it starts"),
+        case("infusion of an unknown species", "species A = 1\ninfuse Q at 5 molecules/s from 1 s to 2 s\n", 2, 8, "unknown species `Q`"),
+        case("pulse with a period of zero", "species A = 1\nstep s 0 -> A @ law 1 molecules/s * pulse(time, 0 s, 0 s)\n", 2, 37, "period > 0"),
+        case("param named time", "param time = 3 s\n", 1, 7, "cannot name a param"),
+        case("compartment named time", "compartment time = 3 fL\n", 1, 13, "cannot name a compartment"),
+        case("half-life that events change", "species A = 1\nparam h = 2 s\nstep s A -> 0 @ half-life h\nwhen A > 5 : h = 3 s\n", 3, 27, "half-life cannot be a param that events change"),
+        case("law that is a condition", "species A = 1\nstep s 0 -> A @ law A > 1\n", 2, 21, "a condition, not a rate"),
     ];
     v.push(Case {
         name: "binary bytes",
@@ -94,6 +148,13 @@ fn catalogue() -> Vec<Case> {
         line: 1,
         col: 3,
         says: "not UTF-8",
+    });
+    v.push(Case {
+        name: "UTF-16 text",
+        text: b"\xff\xfes\x00p\x00e\x00c\x00".to_vec(),
+        line: 1,
+        col: 1,
+        says: "UTF-16 text, not UTF-8",
     });
     v.push(Case {
         name: "binary after text",
@@ -157,4 +218,106 @@ fn a_missing_file_exits_2() {
         .unwrap();
     assert_eq!(out.status.code(), Some(2));
     assert!(String::from_utf8_lossy(&out.stderr).contains("/nonexistent/net.crn"));
+}
+
+/// Runs `f` on a thread with a 2 MiB stack (the smallest a worker thread gets by default), so
+/// that a walk whose depth grows with the input would overflow here.
+fn on_small_stack<T: Send + 'static>(f: impl FnOnce() -> T + Send + 'static) -> T {
+    std::thread::Builder::new()
+        .stack_size(2 << 20)
+        .spawn(f)
+        .unwrap()
+        .join()
+        .unwrap()
+}
+
+fn load(text: String) -> Result<copyloop::Network, copyloop::Error> {
+    copyloop::network::load_source("long.crn", text.as_bytes(), &Default::default())
+}
+
+/// A law of 10,000 terms and a condition of 10,000 alternatives compile (a chain is a tree as
+/// deep as it is long; no walk may follow it down the stack), and the law's value is 10,000
+/// times its term: sat(x, K) = x/(K + x) (the README's definition, the Michaelis–Menten
+/// hyperbola [M]), here x = K so each term is k/2.
+#[test]
+fn a_law_of_ten_thousand_terms_compiles() {
+    let net = on_small_stack(|| {
+        let terms = vec!["k * sat(H, K)"; 10_000].join(" + ");
+        let alternatives = vec!["H > 1 nM"; 10_000].join(" or ");
+        load(format!(
+            "volume 1 pL\nspecies H = 5 nM\nparam k = 1 nM/s\nparam K = 5 nM\n\
+             step make 0 -> H @ law {terms}\nstep clear H -> 0 @ 0.1 /s\n\
+             when {alternatives} : H = 0 nM\n"
+        ))
+        .expect("a 10,000-term law compiles")
+    });
+    let omega = net.omega;
+    let h = net.species[0].initial;
+    let x = h as f64 / omega;
+    let k = 1e-9;
+    let want = 10_000.0 * k * x / (5e-9 + x) * omega;
+    let got = net.propensities()[0].eval(&[h]);
+    assert!(
+        (got - want).abs() <= 1e-9 * want,
+        "propensity {got}, want {want}"
+    );
+    assert_eq!(net.events.len(), 1);
+}
+
+/// Expressions at the parser's nesting limit, mixing every operator at every level, compile
+/// on a small stack (or are refused with a message, never a crash).
+#[test]
+fn nesting_at_the_limit_compiles_on_a_small_stack() {
+    let mut body = String::from("A");
+    for _ in 0..20 {
+        body = format!("-(A + 2 * A ^ 2 / exp(ln(1 + {body} * 0)))");
+    }
+    let text = format!("species A = 3\nstep s A -> 0 @ law 1 + 0 * {body}\n");
+    let out = on_small_stack(move || {
+        load(text)
+            .map(|n| n.reactions.len())
+            .map_err(|e| e.to_string())
+    });
+    match out {
+        Ok(m) => assert_eq!(m, 1),
+        Err(e) => assert!(e.contains("nested") || e.contains("stack"), "{e}"),
+    }
+}
+
+/// `check` shows a law exactly as written, its closing parenthesis included.
+#[test]
+fn check_shows_a_law_as_written() {
+    let dir = scratch();
+    let path = dir.join("paren.crn");
+    let law = "ks * K / (K + H)";
+    std::fs::write(
+        &path,
+        format!(
+            "volume 1 pL\nspecies H = 10 nM\nparam ks = 1 nM/s\nparam K = 5 nM\n\
+             step make 0 -> H @ law {law}\nstep make2 0 -> H @ law (K + H) * ks / K\n"
+        ),
+    )
+    .unwrap();
+    let out = Command::new(env!("CARGO_BIN_EXE_copyloop"))
+        .args(["check", "--json", path.to_str().unwrap()])
+        .output()
+        .unwrap();
+    let _ = std::fs::remove_dir_all(&dir);
+    assert_eq!(out.status.code(), Some(0));
+    let doc: serde_json::Value = serde_json::from_slice(&out.stdout).unwrap();
+    let laws: Vec<&str> = doc["reactions"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .map(|r| r["law"].as_str().unwrap())
+        .collect();
+    assert_eq!(laws, [law, "(K + H) * ks / K"]);
+}
+
+/// A UTF-8 byte-order mark at the start of a file is not part of its text.
+#[test]
+fn a_byte_order_mark_is_accepted() {
+    let with = load("\u{feff}species A = 4\nstep s A -> 0 @ 1\n".into()).unwrap();
+    let without = load("species A = 4\nstep s A -> 0 @ 1\n".into()).unwrap();
+    assert_eq!(with.species, without.species);
 }

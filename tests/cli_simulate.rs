@@ -160,9 +160,13 @@ fn table_and_csv_grid() {
     }
     let text = std::fs::read_to_string(&csv).unwrap();
     let lines: Vec<&str> = text.lines().collect();
+    // Counts first, then the concentrations of species in a compartment (the layout in the
+    // report's module docs).
     assert_eq!(
         lines[0],
-        "time_s,H_mean,H_sd,E_mean,E_sd,EH_mean,EH_sd,M_mean,M_sd"
+        "time_s,H_mean,H_sd,E_mean,E_sd,EH_mean,EH_sd,M_mean,M_sd,\
+         H_concentration_mean,H_concentration_sd,E_concentration_mean,E_concentration_sd,\
+         EH_concentration_mean,EH_concentration_sd,M_concentration_mean,M_concentration_sd"
     );
     assert_eq!(lines.len(), 7);
     assert!(

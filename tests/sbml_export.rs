@@ -110,6 +110,14 @@ fn bundled_networks_read_back_as_the_same_network() {
     let files = crn_files("reactions");
     assert!(files.len() >= 3);
     for f in files {
+        let text = std::fs::read_to_string(&f).unwrap();
+        if ["compartment ", "dose ", "infuse ", "when "]
+            .iter()
+            .any(|w| text.lines().any(|l| l.trim_start().starts_with(w)))
+        {
+            // Time forcing and several compartments are refused by the export (tested below).
+            continue;
+        }
         let (net, back, _) = round_trip(&f, dir.path());
         assert_eq!(check_json(&net), check_json(&back), "{}", f.display());
         assert_same_numbers(&net, &back, 30.0, &f.display().to_string());
@@ -220,7 +228,8 @@ fn assert_laws_are_deterministic_rates(net: &Network, text: &str) {
         };
         let got = sbml::eval::eval(law.math.as_ref().unwrap(), &value, 0.0).unwrap();
         // The network's rate: mol/L/s with a volume (times V for mol/s), molecules/s without.
-        let want = net.rate::<f64>(j, |i| conc[i]) * volume.unwrap_or(1.0);
+        let want =
+            net.rate::<f64>(j, |i| conc[i], &net.initial_params(), 0.0) * volume.unwrap_or(1.0);
         assert!(
             (got - want).abs() <= 1e-12 * want.abs().max(1e-300),
             "{}: law {got} against rate {want}",
@@ -342,5 +351,27 @@ fn a_law_in_molecules_per_time_reads_back_equal_to_rounding() {
             propensity(&back, "make", &[x]),
         );
         assert!((a - b).abs() <= 1e-14 * a.abs(), "{x}: {a} vs {b}");
+    }
+}
+
+// What the export does not write yet is refused as a whole, with the reason, and no file is
+// left behind: a partial model would be a different model in another tool.
+#[test]
+fn time_forcing_and_compartments_are_refused_with_the_reason() {
+    let dir = tempfile::tempdir().unwrap();
+    for (file, what) in [
+        ("dosed_two_compartments.crn", "more than one compartment"),
+        ("pulsatile_gland.crn", "does not write"),
+    ] {
+        let out = dir.path().join("m.xml");
+        let o = std::process::Command::new(env!("CARGO_BIN_EXE_copyloop"))
+            .args(["export", &format!("{ROOT}/reactions/{file}"), "--sbml"])
+            .arg(&out)
+            .output()
+            .unwrap();
+        let err = String::from_utf8_lossy(&o.stderr);
+        assert_eq!(o.status.code(), Some(2), "{file}: {err}");
+        assert!(err.contains(what), "{file}: {err}");
+        assert!(!out.exists(), "{file}");
     }
 }

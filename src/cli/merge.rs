@@ -29,7 +29,7 @@ pub fn run(a: &MergeArgs) -> Result<()> {
     let merged = sweep::merge(&a.files, &a.out)?;
     if let Some(svg) = &a.svg {
         let r = sweep::response(&a.out, a.metric.as_deref())?;
-        std::fs::write(svg, report::sweep::svg::svg(&r)).map_err(|e| Error::io(svg, e))?;
+        std::fs::write(svg, report::sweep::response::svg(&r)).map_err(|e| Error::io(svg, e))?;
     }
     let summary = report::sweep::MergeSummary {
         out: &a.out,

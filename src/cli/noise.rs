@@ -34,7 +34,8 @@ pub struct NoiseArgs {
     /// Print one JSON document instead of the table
     #[arg(long)]
     pub json: bool,
-    /// Also draw CV against mean copy number (log–log, with the 1/√N line) to this SVG file
+    /// Also draw CV against mean copy number (log–log; each point labelled with species and
+    /// volume, with its 95 % interval; the linear-noise CV and the 1/√N line) to this SVG file
     #[arg(long, value_name = "FILE")]
     pub svg: Option<String>,
 }

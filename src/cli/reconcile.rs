@@ -50,7 +50,8 @@ pub struct ReconcileArgs {
     /// Print one JSON document instead of the table
     #[arg(long)]
     pub json: bool,
-    /// Also draw predicted against ensemble flux, one position per motif, to this SVG file
+    /// Also draw each motif's ensemble flux with its 95 % interval beside the Langmuir,
+    /// total-QSSA and ODE predictions, to this SVG file
     #[arg(long, value_name = "FILE")]
     pub svg: Option<String>,
 }

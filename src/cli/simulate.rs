@@ -19,6 +19,8 @@ pub enum MethodArg {
     /// Tau-leaping (error set by --epsilon) only where a leap replaces about 100 events or
     /// more, exact steps elsewhere
     Auto,
+    /// The deterministic time course (rate equations, RODAS4), on the same grid
+    Ode,
 }
 
 #[derive(Debug, Args)]
@@ -81,6 +83,7 @@ impl SimulateArgs {
                 MethodArg::Auto => Method::Auto {
                     epsilon: self.epsilon,
                 },
+                MethodArg::Ode => Method::Direct,
             },
             first_replicate: 0,
             initial: None,
@@ -88,8 +91,27 @@ impl SimulateArgs {
     }
 }
 
+/// The deterministic time course on the grid this command line asks for.
+fn ode(a: &SimulateArgs, net: &crate::Network) -> Result<(crate::deterministic::Trajectory, f64)> {
+    if a.exact {
+        return Err(Error::usage(
+            "--exact compares an ensemble with the exact distribution; --method ode runs no ensemble",
+        ));
+    }
+    let spec = a.spec();
+    spec.validate()?;
+    let times = crate::kernel::observe::grid_times(spec.t_end, spec.grid_points);
+    let started = std::time::Instant::now();
+    let tr = crate::deterministic::integrate(net, None, &times, &Default::default())?;
+    Ok((tr, started.elapsed().as_secs_f64()))
+}
+
 /// The `--json` document for one sweep point.
 pub(crate) fn document(a: &SimulateArgs, p: &crate::sweep::Point) -> Result<serde_json::Value> {
+    if a.method == MethodArg::Ode {
+        let (tr, wall) = ode(a, p.net)?;
+        return Ok(report::simulate::ode_json(p.net, &tr, a.t_end, wall));
+    }
     let spec = EnsembleSpec {
         seed: p.seed,
         threads: Some(p.threads),
@@ -125,6 +147,18 @@ pub fn run(a: &SimulateArgs) -> Result<()> {
     spec.validate()?;
     let net = load(&a.file, &Overrides::default())?;
     super::print_warnings(&net);
+    if a.method == MethodArg::Ode {
+        let (tr, wall) = ode(a, &net)?;
+        if let Some(path) = &a.out {
+            std::fs::write(path, report::simulate::ode_csv(&net, &tr))
+                .map_err(|e| Error::io(path.clone(), e))?;
+        }
+        return if a.json {
+            super::print_json(&report::simulate::ode_json(&net, &tr, a.t_end, wall))
+        } else {
+            super::print_stdout(&report::simulate::ode_table(&net, &tr, a.t_end, wall))
+        };
+    }
     let result = ensemble::run(&net, &spec)?;
     let exact = a.exact.then(|| exact(&net, &result, a.threads));
     if let Some(path) = &a.out {

@@ -325,7 +325,7 @@ pub fn run(a: SweepArgs) -> Result<()> {
     }
     if let Some(svg) = &a.svg {
         let r = sweep::response(out, a.metric.as_deref())?;
-        let text = report::sweep::svg::svg(&r);
+        let text = report::sweep::response::svg(&r);
         std::fs::write(svg, text).map_err(|e| Error::io(svg, e))?;
     }
     let summary = report::sweep::SweepSummary {

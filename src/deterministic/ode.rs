@@ -9,10 +9,22 @@
 //! (I/(h·γ) − J)·uᵢ = f(y₀ + Σ_{j<i} a_ij·u_j) + Σ_{j<i} (c_ij/h)·u_j ,   γ = 1/4,
 //! ```
 //!
-//! with J the exact Jacobian at y₀ (the rate equations are autonomous, so no time-derivative
-//! terms appear). The embedded solution is y₀ + Σ a_6j·u_j and the new solution adds u₆, so u₆
-//! is the local error estimate. A linear conservation law l·x is kept to rounding because every
-//! uᵢ lies in the range of S.
+//! with J the exact Jacobian at y₀. For rate equations that depend smoothly on time (a law with
+//! sin, cos or time in its arithmetic) stage i is evaluated at t₀ + αᵢ·h and its right side
+//! gains h·dᵢ·∂f/∂t (the non-autonomous form; α = (0, 0.386, 0.21, 0.63, 1, 1) and
+//! d = (0.25, −0.1043, 0.1035, −0.0362, 0, 0), the row sums of the method's Γ, as in Hairer &
+//! Wanner's RODAS), with ∂f/∂t by dual numbers. The embedded solution is y₀ + Σ a_6j·u_j and
+//! the new solution adds u₆, so u₆ is the local error estimate. A linear conservation law l·x
+//! is kept to rounding because every uᵢ lies in the range of S.
+//!
+//! Breakpoints and events (doses, edges of piecewise-constant laws, triggers;
+//! [`crate::kernel::timeline`]): [`integrate`] integrates up to each breakpoint, applies it
+//! and restarts there; between two breakpoints every evaluation takes its time inside the open
+//! interval, so a law that jumps at an edge is never seen on the wrong side of it. A trigger
+//! that reads species is checked after every accepted step; when its value changed, the
+//! crossing is located by bisection on the step's cubic Hermite interpolant (from y₀, f₀, y₁,
+//! f₁; third-order accurate, Hairer, Nørsett & Wanner, *Solving ODEs I*, §II.6), the step is
+//! redone to end exactly there, and the event is executed.
 //!
 //! Step control: err = RMS(u₆ᵢ / (atol + rtol·max(|y₀ᵢ|, |y₁ᵢ|))); a step with err ≤ 1 is
 //! accepted; the next step is h·min(5, max(0.2, 0.9·err^(−1/4))) (no increase right after a
@@ -24,6 +36,10 @@ use nalgebra::{DMatrix, DVector};
 
 /// γ of RODAS4.
 const GAMMA: f64 = 0.25;
+/// Stage times αᵢ (fractions of the step).
+const ALPHA: [f64; 6] = [0.0, 0.386, 0.21, 0.63, 1.0, 1.0];
+/// Coefficients dᵢ of ∂f/∂t in the stage equations (row sums of Γ).
+const D: [f64; 6] = [0.25, -0.1043, 0.1035, -0.0362, 0.0, 0.0];
 /// a_ij (transformed form), rows 2..6; row 6 equals row 5 plus a_65 = 1.
 const A: [[f64; 5]; 5] = [
     [1.544, 0.0, 0.0, 0.0, 0.0],
@@ -161,6 +177,21 @@ pub struct Integrator<'s, 'a> {
     h: f64,
     pub accepted: usize,
     pub rejected: usize,
+    /// The params' values the rates read (events may change them).
+    pub params: Vec<f64>,
+    /// Evaluations take their time inside this interval (the open interval between two
+    /// breakpoints).
+    window: (f64, f64),
+    /// The rates depend smoothly on time (∂f/∂t enters the stages).
+    timed: bool,
+}
+
+/// The last accepted step, for dense output and event location.
+struct StepEnd {
+    t0: f64,
+    y0: Vec<f64>,
+    f0: Vec<f64>,
+    h: f64,
 }
 
 fn rms_scaled(err: &[f64], y0: &[f64], y1: &[f64], atol: f64, rtol: f64) -> f64 {
@@ -195,7 +226,30 @@ impl<'s, 'a> Integrator<'s, 'a> {
             h: 0.0,
             accepted: 0,
             rejected: 0,
+            params: sys.params.clone(),
+            window: (f64::NEG_INFINITY, f64::INFINITY),
+            timed: sys.net.time_use() == crate::network::TimeUse::Smooth,
         }
+    }
+
+    /// Replaces the state (after a dose or an event) at the current time.
+    pub fn set_y(&mut self, y: Vec<f64>) {
+        self.y = y;
+    }
+
+    /// Evaluations from now on take their time inside (lo, hi).
+    pub fn set_window(&mut self, lo: f64, hi: f64) {
+        use crate::network::expr::{just_after, just_before};
+        let (a, b) = (just_after(lo), just_before(hi));
+        self.window = if a <= b { (a, b) } else { (lo, hi) };
+    }
+
+    fn at(&self, t: f64) -> f64 {
+        t.clamp(self.window.0, self.window.1)
+    }
+
+    fn rhs(&self, t: f64, y: &[f64]) -> Vec<f64> {
+        self.sys.rhs_with(self.at(t), y, &self.params)
     }
 
     pub fn t(&self) -> f64 {
@@ -223,7 +277,7 @@ impl<'s, 'a> Integrator<'s, 'a> {
         };
         let h0 = h0.min(span);
         let y1: Vec<f64> = self.y.iter().zip(f0).map(|(y, f)| y + h0 * f).collect();
-        let f1 = self.sys.rhs(&y1);
+        let f1 = self.rhs(self.t + h0, &y1);
         if !all_finite(&f1) {
             return Ok(h0 * 1e-3);
         }
@@ -239,19 +293,38 @@ impl<'s, 'a> Integrator<'s, 'a> {
 
     /// Advances the solution to time `t_out` (≥ the current time), landing on it exactly.
     pub fn advance_to(&mut self, t_out: f64) -> Result<(), OdeFailure> {
+        self.advance(t_out, &|_, _| false).map(|_| ())
+    }
+
+    /// Advances towards `t_out`; after every accepted step, `changed(t, y)` says whether some
+    /// trigger changed its value. If one did, the first time it does (to a relative 1e-12 of
+    /// the step, by bisection on the step's Hermite interpolant) is returned and the solution
+    /// is advanced exactly to it; otherwise `None` at `t_out`.
+    pub fn advance(
+        &mut self,
+        t_out: f64,
+        changed: &dyn Fn(f64, &[f64]) -> bool,
+    ) -> Result<Option<f64>, OdeFailure> {
         let n = self.sys.n();
         if n == 0 || t_out <= self.t {
+            if n == 0 && t_out > self.t && changed(t_out, &self.y) {
+                let t = self.t;
+                self.t = t_out;
+                return Ok(Some(t.max(t_out)));
+            }
             self.t = self.t.max(t_out);
-            return Ok(());
+            return Ok(None);
         }
-        let mut f0 = self.sys.rhs(&self.y);
+        let mut f0 = self.rhs(self.t, &self.y);
         if !all_finite(&f0) || !all_finite(&self.y) {
             return Err(OdeFailure::NonFinite { t: self.t });
         }
         if self.h <= 0.0 {
             self.h = self.initial_step(&f0, t_out - self.t)?;
         }
-        let mut jac = self.sys.jacobian(&self.y);
+        let mut jac = self
+            .sys
+            .jacobian_with(self.at(self.t), &self.y, &self.params);
         let mut last_rejected = false;
         while self.t < t_out {
             if self.accepted + self.rejected >= self.opts.max_steps {
@@ -269,7 +342,8 @@ impl<'s, 'a> Integrator<'s, 'a> {
             }
             match self.step(h, &f0, &jac) {
                 Some((y1, err)) if err <= 1.0 => {
-                    let f1 = self.sys.rhs(&y1);
+                    let t1 = if landing { t_out } else { self.t + h };
+                    let f1 = self.rhs(t1, &y1);
                     if !all_finite(&f1) {
                         self.h = h * 0.25;
                         self.rejected += 1;
@@ -277,9 +351,13 @@ impl<'s, 'a> Integrator<'s, 'a> {
                         continue;
                     }
                     self.accepted += 1;
-                    self.t = if landing { t_out } else { self.t + h };
-                    self.y = y1;
-                    f0 = f1;
+                    let before = StepEnd {
+                        t0: self.t,
+                        y0: std::mem::replace(&mut self.y, y1),
+                        f0: std::mem::replace(&mut f0, f1),
+                        h: t1 - self.t,
+                    };
+                    self.t = t1;
                     let mut grow = if err == 0.0 {
                         5.0
                     } else {
@@ -292,8 +370,22 @@ impl<'s, 'a> Integrator<'s, 'a> {
                     // Keep the untruncated proposal when the step was cut short for t_out.
                     let base = if landing { self.h.max(h) } else { h };
                     self.h = (base * grow).min(self.opts.h_max);
+                    if changed(self.t, &self.y) {
+                        let t_cross = self.locate(&before, &f0, changed);
+                        // Redo the step from its start to end at the crossing.
+                        self.t = before.t0;
+                        self.y = before.y0;
+                        if t_cross > self.t {
+                            self.h = self.h.min(t_cross - self.t);
+                            self.advance(t_cross, &|_, _| false)?;
+                        }
+                        self.t = t_cross;
+                        return Ok(Some(t_cross));
+                    }
                     if self.t < t_out {
-                        jac = self.sys.jacobian(&self.y);
+                        jac = self
+                            .sys
+                            .jacobian_with(self.at(self.t), &self.y, &self.params);
                         if jac.iter().any(|v| !v.is_finite()) {
                             return Err(OdeFailure::NonFinite { t: self.t });
                         }
@@ -311,7 +403,47 @@ impl<'s, 'a> Integrator<'s, 'a> {
                 }
             }
         }
-        Ok(())
+        Ok(None)
+    }
+
+    /// The cubic Hermite interpolant of the step from (t₀, y₀, f₀) to the current (t, y, f₁)
+    /// at time `t`.
+    fn dense(&self, step: &StepEnd, f1: &[f64], t: f64) -> Vec<f64> {
+        let s = (t - step.t0) / step.h;
+        let (s2, s3) = (s * s, s * s * s);
+        let h00 = 2.0 * s3 - 3.0 * s2 + 1.0;
+        let h10 = s3 - 2.0 * s2 + s;
+        let h01 = -2.0 * s3 + 3.0 * s2;
+        let h11 = s3 - s2;
+        (0..self.y.len())
+            .map(|k| {
+                h00 * step.y0[k]
+                    + h10 * step.h * step.f0[k]
+                    + h01 * self.y[k]
+                    + h11 * step.h * f1[k]
+            })
+            .collect()
+    }
+
+    /// The earliest time in (t₀, t] at which `changed` holds on the interpolant, by bisection
+    /// (it holds at t, not at t₀).
+    fn locate(&self, step: &StepEnd, f1: &[f64], changed: &dyn Fn(f64, &[f64]) -> bool) -> f64 {
+        let (mut lo, mut hi) = (step.t0, self.t);
+        for _ in 0..200 {
+            if hi - lo <= 1e-12 * step.h.abs().max(f64::MIN_POSITIVE) {
+                break;
+            }
+            let mid = 0.5 * (lo + hi);
+            if mid <= lo || mid >= hi {
+                break;
+            }
+            if changed(mid, &self.dense(step, f1, mid)) {
+                hi = mid;
+            } else {
+                lo = mid;
+            }
+        }
+        hi
     }
 
     /// One RODAS4 step of size `h` from the current state: the new state and the scaled error,
@@ -324,8 +456,15 @@ impl<'s, 'a> Integrator<'s, 'a> {
             m[(i, i)] += fac;
         }
         let lu = m.lu();
+        let ft = self.timed.then(|| {
+            self.sys
+                .time_derivative(self.at(self.t), &self.y, &self.params)
+        });
         let mut u: Vec<DVector<f64>> = Vec::with_capacity(6);
         let mut rhs = DVector::from_column_slice(f0);
+        if let Some(ft) = &ft {
+            rhs.axpy(h * D[0], &DVector::from_column_slice(ft), 1.0);
+        }
         for stage in 0..6 {
             if stage > 0 {
                 let a = &A[stage - 1];
@@ -338,13 +477,18 @@ impl<'s, 'a> Integrator<'s, 'a> {
                         }
                     }
                 }
-                let fs = self.sys.rhs(&ys);
+                let fs = self.rhs(self.t + ALPHA[stage] * h, &ys);
                 if !all_finite(&fs) {
                     return None;
                 }
                 rhs = DVector::from_vec(fs);
                 for (j, uj) in u.iter().enumerate() {
                     rhs.axpy(c[j] / h, uj, 1.0);
+                }
+                if let Some(ft) = &ft {
+                    if D[stage] != 0.0 {
+                        rhs.axpy(h * D[stage], &DVector::from_column_slice(ft), 1.0);
+                    }
                 }
             }
             let us = lu.solve(&rhs)?;
@@ -372,21 +516,58 @@ impl<'s, 'a> Integrator<'s, 'a> {
 #[derive(Clone, Debug)]
 pub struct Trajectory {
     pub times: Vec<f64>,
-    /// Concentrations of every species at each time (counts without a volume), clamped ones
-    /// fixed.
+    /// State of every species at each time (counts/Ω: concentrations for one compartment,
+    /// counts without a volume), clamped ones fixed; the state after every dose and event at
+    /// or before the time.
     pub states: Vec<Vec<f64>>,
+    /// Every param's value at each time (canonical units).
+    pub params: Vec<Vec<f64>>,
     pub accepted_steps: usize,
     pub rejected_steps: usize,
+    /// Event executions and doses applied.
+    pub breakpoints: usize,
 }
 
-/// Integrates dx/dt = S·v(x) from the network's initial state (or `start`, concentrations of
-/// every species) and samples it at `times` (non-decreasing, ≥ 0).
+/// The ODE engine's state as the timeline sees it: counts n = y·Ω (real-valued).
+struct OdeState<'s, 'a> {
+    sys: &'s System<'a>,
+    y: &'s mut Vec<f64>,
+}
+
+impl crate::kernel::timeline::EventState for OdeState<'_, '_> {
+    fn count(&self, i: usize) -> f64 {
+        self.sys.value(self.y, i) * self.sys.net.omega
+    }
+
+    fn set_count(&mut self, _t: f64, i: usize, count: f64) -> Result<(), String> {
+        let Some(k) = self.sys.slot(i) else {
+            return Err("a clamped species cannot change".into());
+        };
+        if !count.is_finite() {
+            return Err(format!("the amount would be {count}"));
+        }
+        if count < 0.0 {
+            return Err(format!("the amount would be {count} molecules, below 0"));
+        }
+        self.y[k] = count / self.sys.net.omega;
+        Ok(())
+    }
+
+    fn dose_count(&self, d: &crate::network::Dose) -> f64 {
+        d.amount * self.sys.net.amount.count_per_amount
+    }
+}
+
+/// Integrates dy/dt = S·v(y, t) from the network's initial state (or `start`, the state of
+/// every species) and samples it at `times` (non-decreasing, ≥ 0), stopping at every
+/// breakpoint and event of the network (see the module docs).
 pub fn integrate(
     net: &crate::Network,
     start: Option<&[f64]>,
     times: &[f64],
     opts: &OdeOptions,
 ) -> crate::Result<Trajectory> {
+    use crate::kernel::timeline::{Inputs, Timeline};
     use crate::Error;
     if times.iter().any(|t| !t.is_finite() || *t < 0.0) || times.windows(2).any(|w| w[1] < w[0]) {
         return Err(Error::usage(
@@ -397,7 +578,7 @@ pub fn integrate(
         return Err(Error::usage("tolerances must be positive"));
     }
     let sys = System::new(net);
-    let y0 = match start {
+    let mut y = match start {
         Some(full) if full.len() == net.species.len() => sys.restrict(full),
         Some(_) => {
             return Err(Error::Internal(
@@ -406,18 +587,82 @@ pub fn integrate(
         }
         None => sys.initial(),
     };
-    let mut int = Integrator::new(&sys, y0, opts);
+    let fail = |e: OdeFailure| Error::usage(format!("{}: {}", net.file, e.describe()));
+    let inputs = Inputs::new(net);
+    let mut tl = Timeline::new(&inputs);
+    let omega = net.omega;
+    let mut breakpoints = 0;
+    let c = tl.start(&mut OdeState {
+        sys: &sys,
+        y: &mut y,
+    })?;
+    breakpoints += usize::from(c.any());
+    let mut int = Integrator::new(&sys, y, opts);
+    int.params = tl.params().to_vec();
+    let continuous = inputs.has_state_triggers();
     let mut states = Vec::with_capacity(times.len());
-    for &t in times {
-        int.advance_to(t)
-            .map_err(|e| Error::usage(format!("{}: {}", net.file, e.describe())))?;
+    let mut params = Vec::with_capacity(times.len());
+    let mut from = 0.0;
+    for &t_out in times {
+        loop {
+            let next = tl.next();
+            let target = next.min(t_out);
+            if int.t() < target {
+                int.set_window(from, next);
+                let crossed = if continuous {
+                    let tl_ref = &tl;
+                    let check =
+                        |t: f64, yy: &[f64]| tl_ref.changed(t, |i| sys.value(yy, i) * omega);
+                    int.advance(target, &check).map_err(fail)?
+                } else {
+                    int.advance_to(target).map_err(fail)?;
+                    None
+                };
+                if let Some(t) = crossed {
+                    let mut yy = int.y().to_vec();
+                    let c = tl.settle(
+                        t,
+                        &mut OdeState {
+                            sys: &sys,
+                            y: &mut yy,
+                        },
+                    )?;
+                    if c.any() {
+                        breakpoints += 1;
+                        int.set_y(yy);
+                        int.params = tl.params().to_vec();
+                        from = t;
+                    }
+                }
+                continue;
+            }
+            if next <= t_out {
+                let mut yy = int.y().to_vec();
+                let c = tl.breakpoint(
+                    next,
+                    &mut OdeState {
+                        sys: &sys,
+                        y: &mut yy,
+                    },
+                )?;
+                breakpoints += usize::from(c.any());
+                int.set_y(yy);
+                int.params = tl.params().to_vec();
+                from = next;
+                continue;
+            }
+            break;
+        }
         states.push(sys.embed(int.y()));
+        params.push(tl.params().to_vec());
     }
     Ok(Trajectory {
         times: times.to_vec(),
         states,
+        params,
         accepted_steps: int.accepted,
         rejected_steps: int.rejected,
+        breakpoints,
     })
 }
 

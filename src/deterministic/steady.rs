@@ -171,7 +171,8 @@ pub struct Steady {
 #[derive(Clone, Copy, Debug, PartialEq)]
 pub struct Accumulation {
     pub species: usize,
-    /// d[X]/dt (concentration per second; molecules per second without a volume).
+    /// d[X]/dt in X's own compartment (concentration per second; molecules per second
+    /// without a volume).
     pub rate: f64,
     /// dx/dt in molecules per second.
     pub rate_per_s: f64,
@@ -182,6 +183,30 @@ impl Steady {
     pub fn stable(&self) -> bool {
         self.stability == Stability::Stable
     }
+}
+
+/// A steady state is a fixed point of autonomous rate equations: a network driven in time
+/// (doses, infusions, events, time in a law) has none, and a periodic drive settles, if at
+/// all, on a stationary cycle rather than a point.
+fn refuse_time_forcing(net: &Network) -> Result<()> {
+    let Some(what) = net.time_forcing() else {
+        return Ok(());
+    };
+    let msg = if net.periodic_drive() {
+        format!(
+            "{}: {what} with a periodic drive: its long-run behaviour is a stationary cycle, \
+             not a point, so it has no steady state; follow the cycle with `simulate --method \
+             ode` over several periods, or an ensemble with `simulate`",
+            net.file
+        )
+    } else {
+        format!(
+            "{}: the network is driven in time ({what}), so no steady state of its rate \
+             equations describes it; follow it with `simulate --method ode` or `simulate`",
+            net.file
+        )
+    };
+    Err(Error::usage(msg))
 }
 
 /// Everything Newton needs that does not change between iterations.
@@ -469,6 +494,7 @@ fn slowest_time(ev: &[Complex<f64>]) -> f64 {
 /// Species that only accumulate ([`Network::outputs`]) are held at their initial amount while
 /// the rest is solved, and reported with their accumulation rate Σⱼ S_ij·vⱼ at that state.
 pub fn solve(net: &Network, opts: &SteadyOptions) -> Result<Steady> {
+    refuse_time_forcing(net)?;
     let outputs = net.outputs();
     if outputs.is_empty() {
         return solve_closed(net, opts);
@@ -483,10 +509,11 @@ pub fn solve(net: &Network, opts: &SteadyOptions) -> Result<Steady> {
                 .iter()
                 .map(|&(j, s)| s as f64 * st.rates[j])
                 .sum();
+            let rate_per_s = rate * net.omega;
             Accumulation {
                 species: i,
-                rate,
-                rate_per_s: rate * net.omega,
+                rate: rate_per_s / net.species_omega(i),
+                rate_per_s,
             }
         })
         .collect();
@@ -914,21 +941,38 @@ fn classify(ctx: &Ctx, history: &[Segment], watch: &Watch) -> Option<Reason> {
     None
 }
 
-/// `1234 molecules (2.05 nM)` style amount of a concentration.
-fn amount(net: &Network, conc: f64) -> String {
-    let count = conc * net.omega;
-    match net.volume_l {
-        Some(_) => format!("{} molecules ({} M)", short(count), short(conc)),
+/// `1234 molecules (2.05e-9 M)` style amount of a state value y (counts/Ω), with its
+/// concentration where `own` (Ω_c of the compartment it refers to) is known.
+fn amount(net: &Network, own: Option<f64>, y: f64) -> String {
+    let count = y * net.omega;
+    match own {
+        Some(w) => format!(
+            "{} molecules ({} {})",
+            short(count),
+            short(count / w),
+            net.amount.concentration_unit
+        ),
         None => format!("{} molecules", short(count)),
     }
 }
 
-fn rate_text(net: &Network, rate: f64) -> String {
+/// [`amount`] per second.
+fn rate_text(net: &Network, own: Option<f64>, rate: f64) -> String {
     let count = rate * net.omega;
-    match net.volume_l {
-        Some(_) => format!("{} molecules/s ({} M/s)", short(count), short(rate)),
+    match own {
+        Some(w) => format!(
+            "{} molecules/s ({} {}/s)",
+            short(count),
+            short(count / w),
+            net.amount.concentration_unit
+        ),
         None => format!("{} molecules/s", short(count)),
     }
+}
+
+/// Ω of the only compartment, for figures that belong to no one species (a conserved total).
+fn single_omega(net: &Network) -> Option<f64> {
+    (net.compartments.len() == 1).then(|| net.compartments[0].omega)
 }
 
 /// Where the algebraic steady state exists only with a negative concentration: a sentence
@@ -954,7 +998,7 @@ fn negative_root_note(ctx: &Ctx, starts: &[&[f64]]) -> Option<String> {
                 format!(
                     "{} ({})",
                     net.species[ctx.sys.free[k]].name,
-                    amount(net, run.y[k])
+                    amount(net, net.species_molar_omega(ctx.sys.free[k]), run.y[k])
                 )
             })
             .collect();
@@ -975,7 +1019,7 @@ fn negative_root_note(ctx: &Ctx, starts: &[&[f64]]) -> Option<String> {
             note.push_str(&format!(
                 ", so the conserved total {} = {} cannot hold with every amount at least 0.",
                 crate::network::law_text(net, l),
-                amount(net, total)
+                amount(net, single_omega(net), total)
             ));
         } else {
             note.push('.');
@@ -1032,11 +1076,12 @@ fn no_steady_state_because(
     let net = ctx.sys.net;
     let msg = match reason {
         Reason::Growth { slot, rate } => {
-            let name = &net.species[ctx.sys.free[slot]].name;
+            let i = ctx.sys.free[slot];
+            let name = &net.species[i].name;
             let mut m = format!(
                 "{}: no steady state is reached from the initial state: {name} grows without bound (still rising at {} at t = {} s; what makes it outpaces what removes it).",
                 net.file,
-                rate_text(net, rate),
+                rate_text(net, net.species_molar_omega(i), rate),
                 short(t)
             );
             if let Some(note) = negative_root_note(ctx, &[y0]) {
@@ -1050,12 +1095,14 @@ fn no_steady_state_because(
             high,
             period,
         } => {
-            let name = &net.species[ctx.sys.free[slot]].name;
+            let i = ctx.sys.free[slot];
+            let name = &net.species[i].name;
+            let own = net.species_molar_omega(i);
             format!(
                 "{}: no steady state is reached from the initial state: sustained oscillation; {name} keeps swinging between {} and {} (about {} s per cycle at t = {} s).{}",
                 net.file,
-                amount(net, low),
-                amount(net, high),
+                amount(net, own, low),
+                amount(net, own, high),
                 short(period),
                 short(t),
                 candidate_note(net, candidate)
@@ -1075,7 +1122,7 @@ fn bad_rate(net: &Network, j: usize, v: f64, where_: &str) -> Error {
         format!(
             "step `{}`: its rate is {} {where_}; a rate must be finite and not negative",
             r.label,
-            rate_text(net, v)
+            rate_text(net, net.reaction_molar_omega(j), v)
         ),
     )
     .with_help(
@@ -1087,11 +1134,12 @@ fn bad_rate(net: &Network, j: usize, v: f64, where_: &str) -> Error {
 
 fn negative_during_run(ctx: &Ctx, slot: usize, value: f64, t: f64) -> Error {
     let net = ctx.sys.net;
-    let name = &net.species[ctx.sys.free[slot]].name;
+    let i = ctx.sys.free[slot];
+    let name = &net.species[i].name;
     Error::Usage(format!(
         "{}: no steady state is reached from the initial state: {name} becomes negative ({} at t = {} s); a rate law keeps removing it when none is left (write the law so that it vanishes with {name}, e.g. with sat({name}, K)).",
         net.file,
-        amount(net, value),
+        amount(net, net.species_molar_omega(i), value),
         short(t)
     ))
 }
@@ -1130,19 +1178,22 @@ fn no_steady_state(
             ga.total_cmp(&gb)
         });
         let what = match big {
-            Some(k) if y_last[k].abs() > 1e3 * (y0[k].abs() + one) => format!(
-                " {} has reached {} (from {} at the start), which points to unbounded growth.",
-                net.species[ctx.sys.free[k]].name,
-                amount(net, y_last[k]),
-                amount(net, y0[k])
-            ),
+            Some(k) if y_last[k].abs() > 1e3 * (y0[k].abs() + one) => {
+                let own = net.species_molar_omega(ctx.sys.free[k]);
+                format!(
+                    " {} has reached {} (from {} at the start), which points to unbounded growth.",
+                    net.species[ctx.sys.free[k]].name,
+                    amount(net, own, y_last[k]),
+                    amount(net, own, y0[k])
+                )
+            }
             _ => {
                 let f = ctx.sys.rhs(y_last);
                 match (0..f.len()).max_by(|&a, &b| f[a].abs().total_cmp(&f[b].abs())) {
                     Some(k) => format!(
                         " At that time {} is changing at {}.",
                         net.species[ctx.sys.free[k]].name,
-                        rate_text(net, f[k])
+                        rate_text(net, net.species_molar_omega(ctx.sys.free[k]), f[k])
                     ),
                     None => String::new(),
                 }
@@ -1161,7 +1212,7 @@ fn no_steady_state(
         Some(k) => format!(
             "; {} is still changing at {}",
             net.species[ctx.sys.free[k]].name,
-            rate_text(net, f[k])
+            rate_text(net, net.species_molar_omega(ctx.sys.free[k]), f[k])
         ),
         None => String::new(),
     };

@@ -1,10 +1,14 @@
 //! The reaction-rate equations of a network on its free (non-clamped) species.
 //!
-//! dx/dt = S·v(x), with x the concentrations of the free species (molecule counts in a network
-//! without a volume), S their rows of the stoichiometry matrix, and v_j the deterministic rate of
-//! reaction j ([`Network::rate`]: v = k·Π[Xᵢ]^νᵢ for mass action, the law's value for `law`
-//! steps). Clamped species are held at their initial concentration and have no row: they enter
-//! the rates as constants.
+//! dy/dt = S·v(y, t), with y = n/Ω the free species' counts over the network's reference Ω
+//! (their concentrations for a network of one compartment, counts without a volume; with
+//! several compartments, amounts per compartment in one common unit: each reaction's flux is
+//! its rate in its own compartment times Ω_c/Ω, so molecules are conserved by transport), S
+//! their rows of the stoichiometry matrix, and v_j the deterministic rate of reaction j
+//! ([`Network::rate`]: k·Π[Xᵢ]^νᵢ for mass action, the law's value for `law` steps).
+//! Clamped species are held at their initial value and have no row: they enter the rates as
+//! constants. Varying params enter with the values the system holds ([`System::params`]); the
+//! plain methods evaluate at t = 0, the `_at` ones at a given time.
 //!
 //! The Jacobian J = S·∂v/∂x is exact: each column is one forward-mode pass of dual numbers
 //! through the rates that read that species (for mass action this is the analytic derivative; for
@@ -26,6 +30,8 @@ pub struct System<'a> {
     changes: Vec<Vec<(usize, f64)>>,
     /// Per free slot, the reactions whose rate reads that species.
     readers: Vec<Vec<usize>>,
+    /// The params' current values (canonical units), read by varying-param programs.
+    pub params: Vec<f64>,
 }
 
 impl<'a> System<'a> {
@@ -62,6 +68,7 @@ impl<'a> System<'a> {
             template: net.initial_concentrations(),
             changes,
             readers,
+            params: net.initial_params(),
         }
     }
 
@@ -80,6 +87,20 @@ impl<'a> System<'a> {
         self.free.iter().map(|&i| self.template[i]).collect()
     }
 
+    /// Slot of species `i` among the free species, if it is free.
+    pub fn slot(&self, i: usize) -> Option<usize> {
+        self.free.binary_search(&i).ok()
+    }
+
+    /// The state value of species `i` (counts/Ω): `y` for a free one, the fixed value for a
+    /// clamped one.
+    pub fn value(&self, y: &[f64], i: usize) -> f64 {
+        match self.slot(i) {
+            Some(k) => y[k],
+            None => self.template[i],
+        }
+    }
+
     /// The free part of a vector over all species.
     pub fn restrict(&self, full: &[f64]) -> Vec<f64> {
         self.free.iter().map(|&i| full[i]).collect()
@@ -94,17 +115,58 @@ impl<'a> System<'a> {
         full
     }
 
-    /// Reaction rates v_j (concentration per second) at free concentrations `y`.
+    /// Reaction rates v_j (state units per second; concentration per second for one
+    /// compartment) at free state `y` and t = 0.
     pub fn rates(&self, y: &[f64]) -> Vec<f64> {
+        self.rates_at(0.0, y)
+    }
+
+    /// Reaction rates at free state `y` and time `t`.
+    pub fn rates_at(&self, t: f64, y: &[f64]) -> Vec<f64> {
+        self.rates_with(t, y, &self.params)
+    }
+
+    /// Reaction rates at free state `y`, time `t` and param values `params`.
+    pub fn rates_with(&self, t: f64, y: &[f64], params: &[f64]) -> Vec<f64> {
         let full = self.embed(y);
         (0..self.m())
-            .map(|j| self.net.rate::<f64>(j, |i| full[i]))
+            .map(|j| self.net.rate::<f64>(j, |i| full[i], params, t))
             .collect()
     }
 
-    /// dx/dt = S·v(x) on the free species.
+    /// dy/dt with param values `params`.
+    pub fn rhs_with(&self, t: f64, y: &[f64], params: &[f64]) -> Vec<f64> {
+        self.rhs_from_rates(&self.rates_with(t, y, params))
+    }
+
+    /// dy/dt = S·v(y) on the free species, at t = 0.
     pub fn rhs(&self, y: &[f64]) -> Vec<f64> {
         self.rhs_from_rates(&self.rates(y))
+    }
+
+    /// dy/dt = S·v(y, t).
+    pub fn rhs_at(&self, t: f64, y: &[f64]) -> Vec<f64> {
+        self.rhs_from_rates(&self.rates_at(t, y))
+    }
+
+    /// ∂(dy/dt)/∂t at (t, y): one dual-number pass with the clock as the variable, over the
+    /// reactions whose rate depends on time.
+    pub fn time_derivative(&self, t: f64, y: &[f64], params: &[f64]) -> Vec<f64> {
+        let full = self.embed(y);
+        let mut f = vec![0.0; self.n()];
+        for (j, ch) in self.changes.iter().enumerate() {
+            if self.net.reactions[j].time_use() != crate::network::TimeUse::Smooth {
+                continue;
+            }
+            let dv = self
+                .net
+                .rate::<Dual>(j, |i| Dual::constant(full[i]), params, Dual::variable(t))
+                .d;
+            for &(k, d) in ch {
+                f[k] += d * dv;
+            }
+        }
+        f
     }
 
     /// S·v for given rates.
@@ -130,9 +192,19 @@ impl<'a> System<'a> {
         g
     }
 
-    /// The exact Jacobian J_kl = ∂(dx_k/dt)/∂x_l on the free species (one dual-number pass per
-    /// column).
+    /// The exact Jacobian J_kl = ∂(dy_k/dt)/∂y_l on the free species at t = 0 (one
+    /// dual-number pass per column).
     pub fn jacobian(&self, y: &[f64]) -> DMatrix<f64> {
+        self.jacobian_at(0.0, y)
+    }
+
+    /// The exact Jacobian at time `t`.
+    pub fn jacobian_at(&self, t: f64, y: &[f64]) -> DMatrix<f64> {
+        self.jacobian_with(t, y, &self.params)
+    }
+
+    /// The exact Jacobian at time `t` with param values `params`.
+    pub fn jacobian_with(&self, t: f64, y: &[f64], params: &[f64]) -> DMatrix<f64> {
         let n = self.n();
         let full = self.embed(y);
         let mut jac = DMatrix::zeros(n, n);
@@ -141,13 +213,18 @@ impl<'a> System<'a> {
             for &j in &self.readers[l] {
                 let dv = self
                     .net
-                    .rate::<Dual>(j, |i| {
-                        if i == var {
-                            Dual::variable(full[i])
-                        } else {
-                            Dual::constant(full[i])
-                        }
-                    })
+                    .rate::<Dual>(
+                        j,
+                        |i| {
+                            if i == var {
+                                Dual::variable(full[i])
+                            } else {
+                                Dual::constant(full[i])
+                            }
+                        },
+                        params,
+                        Dual::constant(t),
+                    )
                     .d;
                 for &(k, d) in &self.changes[j] {
                     jac[(k, l)] += d * dv;

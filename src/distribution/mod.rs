@@ -147,6 +147,10 @@ pub enum FspError {
         state: String,
         value: f64,
     },
+    /// The network is driven in time (doses, events, time in a law) or its amounts cannot be
+    /// counted: its chain is not the autonomous one the projection solves.
+    #[error("{0}")]
+    NotAutonomous(String),
     /// Bad options.
     #[error("{0}")]
     Options(String),
@@ -302,6 +306,15 @@ impl Setup {
                 u32::MAX / 2,
                 opts.max_states
             )));
+        }
+        if let Some(what) = net.time_forcing() {
+            return Err(FspError::NotAutonomous(format!(
+                "{}: {what} drives the network in time; the finite state projection solves networks whose rates do not depend on time",
+                net.file
+            )));
+        }
+        if let Some(why) = &net.amount.stochastic_refusal {
+            return Err(FspError::NotAutonomous(format!("{}: {why}", net.file)));
         }
         let species = opts
             .species

@@ -13,8 +13,9 @@
 //!   table, and its loops have the same trip count every time. Up to three mass-action
 //!   reactions there is a [`DenseTables`] form as well.
 
+use super::timeline::Inputs;
 use crate::error::{Error, Result};
-use crate::network::{Kinetics, Network, Propensity, MAX_COUNT};
+use crate::network::{Kinetics, Network, Propensity, TimeUse, MAX_COUNT};
 
 /// Networks with fewer reactions than this get padded rows (and linear selection).
 pub const SMALL_BELOW: usize = 32;
@@ -157,6 +158,16 @@ pub struct CompiledKernel {
     updates: Updates,
     small: Option<SmallTables>,
     clamped: Vec<bool>,
+    /// Doses, events and the edges of piecewise-constant laws.
+    inputs: Inputs,
+    /// How the propensities depend on time.
+    time_use: TimeUse,
+    /// Channels whose propensity depends smoothly on time.
+    smooth: Vec<u32>,
+    /// Why the network's counts cannot be simulated, if they cannot.
+    refusal: Option<String>,
+    /// Params that events change.
+    varying: Vec<usize>,
     /// Where messages point.
     file: String,
     labels: Vec<String>,
@@ -177,8 +188,10 @@ impl CompiledKernel {
         let mut rates = Vec::with_capacity(m + 1);
         let mut laws = Vec::new();
         for (r, p) in net.reactions.iter().zip(net.propensities()) {
+            let fixed = p.is_fixed_mass_action();
             rates.push(match r.kinetics {
-                Kinetics::Law { .. } => {
+                Kinetics::MassAction { c, .. } if fixed => mass_action(net, r, c, one)?,
+                _ => {
                     laws.push(p);
                     Rate {
                         c: 0.0,
@@ -187,7 +200,6 @@ impl CompiledKernel {
                         factors: LAW,
                     }
                 }
-                Kinetics::MassAction { c, .. } => mass_action(net, r, c, one)?,
             });
         }
         rates.push(Rate::idle(one));
@@ -237,6 +249,16 @@ impl CompiledKernel {
             updates,
             small,
             clamped: net.species.iter().map(|s| s.clamped).collect(),
+            inputs: Inputs::new(net),
+            time_use: net.time_use(),
+            smooth: (0..m)
+                .filter(|&j| net.reactions[j].time_use() == TimeUse::Smooth)
+                .map(|j| j as u32)
+                .collect(),
+            refusal: net.amount.stochastic_refusal.clone(),
+            varying: (0..net.params.len())
+                .filter(|&p| net.params[p].varies)
+                .collect(),
             file: net.file.clone(),
             labels: net.reactions.iter().map(|r| r.label.clone()).collect(),
             reaction_at: net
@@ -270,14 +292,80 @@ impl CompiledKernel {
 
     /// Propensity of reaction `j` (molecules per second; `j == reactions()` is the idle channel)
     /// at state `x`, which holds one count per species followed by the constant slot 1 (see
-    /// [`CompiledKernel::state_buffer`]). A law's value is returned as it is, even if negative.
+    /// [`CompiledKernel::state_buffer`]), at t = 0 with the params' initial values. A law's
+    /// value is returned as it is, even if negative.
     #[inline(always)]
     pub fn propensity(&self, j: usize, x: &[i64]) -> f64 {
+        self.propensity_at(j, x, self.inputs.initial_params(), 0.0)
+    }
+
+    /// As [`CompiledKernel::propensity`] with the run's param values and the clock at `t`.
+    #[inline(always)]
+    pub fn propensity_at(&self, j: usize, x: &[i64], params: &[f64], t: f64) -> f64 {
         let r = &self.rates[j];
         if r.factors == LAW {
-            return self.laws[r.i[0] as usize].eval(x);
+            return self.laws[r.i[0] as usize].eval_at(x, params, t);
         }
         r.c * factor(x, r.i[0], r.o[0]) * factor(x, r.i[1], r.o[1]) * factor(x, r.i[2], r.o[2])
+    }
+
+    /// An interval enclosing the propensity of law channel `j` at state `x` over the times
+    /// `time` (the direct method's thinning bound); `[0, 0]` for other channels.
+    pub fn interval_propensity(
+        &self,
+        j: usize,
+        x: &[i64],
+        params: &[f64],
+        time: crate::network::Interval,
+    ) -> crate::network::Interval {
+        let r = &self.rates[j];
+        if r.factors != LAW {
+            return crate::network::Interval::point(self.propensity_at(j, x, params, time.lo));
+        }
+        self.laws[r.i[0] as usize].eval_interval(x, params, time)
+    }
+
+    /// The doses, events and law edges runs act on.
+    pub fn inputs(&self) -> &Inputs {
+        &self.inputs
+    }
+
+    /// The params that events change.
+    pub fn varying_params(&self) -> &[usize] {
+        &self.varying
+    }
+
+    /// How the propensities depend on time.
+    pub fn time_use(&self) -> TimeUse {
+        self.time_use
+    }
+
+    /// The channels whose propensity varies smoothly with time.
+    pub fn smooth_channels(&self) -> &[u32] {
+        &self.smooth
+    }
+
+    /// Whether channel `j` is evaluated through the law table (a law, or a constant that
+    /// follows a param).
+    pub fn is_law(&self, j: usize) -> bool {
+        self.rates[j].factors == LAW
+    }
+
+    /// An error if the network's counts cannot be simulated stochastically.
+    pub fn check_simulable(&self) -> Result<()> {
+        if let Some(why) = &self.refusal {
+            return Err(Error::usage(format!("{}: {why}", self.file)));
+        }
+        if let Some(e) = self.inputs.smooth_trigger() {
+            return Err(Error::usage(format!(
+                "{}:{}: the trigger of event `{}` varies smoothly with time, so it can turn \
+                 true between two reaction events; stochastic runs support triggers on the \
+                 state and on comparisons of `time` with fixed times (use `simulate --method \
+                 ode`)",
+                self.file, e.span.line, e.label
+            )));
+        }
+        Ok(())
     }
 
     /// As [`CompiledKernel::propensity`] without bounds checks, except that a law value that
@@ -287,12 +375,12 @@ impl CompiledKernel {
     ///
     /// `j ≤ reactions()` and `x.len() == species + 1`. Construction guarantees that every index
     /// stored in a [`Rate`] is at most `species` (the constant slot) and every law index is in
-    /// the law table.
+    /// the law table. `params` holds every param of the network.
     #[inline(always)]
-    pub unsafe fn propensity_unchecked(&self, j: usize, x: &[i64]) -> f64 {
+    pub unsafe fn propensity_unchecked(&self, j: usize, x: &[i64], params: &[f64], t: f64) -> f64 {
         debug_assert!(j < self.rates.len() && x.len() == self.species + 1);
         // SAFETY: j ≤ reactions() by the caller's contract; the rate is this kernel's.
-        unsafe { self.rate_unchecked(self.rates.get_unchecked(j), x) }
+        unsafe { self.rate_unchecked(self.rates.get_unchecked(j), x, params, t) }
     }
 
     /// The flat rate of reaction `j` (`j == reactions()` is the idle channel).
@@ -307,10 +395,10 @@ impl CompiledKernel {
     ///
     /// `r` is a rate of this kernel and `x.len() == species + 1`.
     #[inline(always)]
-    pub unsafe fn rate_unchecked(&self, r: &Rate, x: &[i64]) -> f64 {
+    pub unsafe fn rate_unchecked(&self, r: &Rate, x: &[i64], params: &[f64], t: f64) -> f64 {
         debug_assert!(x.len() == self.species + 1);
         if r.factors == LAW {
-            return self.law_unchecked(r.i[0] as usize, x);
+            return self.law_unchecked(r.i[0] as usize, x, params, t);
         }
         // SAFETY: r.i[k] ≤ species < x.len() (construction and the caller's contract).
         let f = |k: usize| unsafe { (*x.get_unchecked(r.i[k] as usize) - r.o[k] as i64) as f64 };
@@ -320,10 +408,11 @@ impl CompiledKernel {
         r.c * f(0) * f(1) * f(2)
     }
 
-    /// A law's value, NaN if it is negative, infinite or NaN.
+    /// A law's value with the run's `params` at time `t`, NaN if it is negative, infinite or
+    /// NaN.
     #[cold]
-    fn law_unchecked(&self, law: usize, x: &[i64]) -> f64 {
-        let v = self.laws[law].eval(x);
+    fn law_unchecked(&self, law: usize, x: &[i64], params: &[f64], t: f64) -> f64 {
+        let v = self.laws[law].eval_at(x, params, t);
         if (0.0..f64::INFINITY).contains(&v) {
             v
         } else {

@@ -16,7 +16,11 @@
 //! form keeps the propensities in registers ([`DenseTables`](super::compiled::DenseTables)).
 //! From [`SMALL_BELOW`](super::compiled::SMALL_BELOW) channels on, selection goes through the
 //! sum tree of [`crate::kernel::select`], which recomputes every sum on a changed path from its
-//! children, so it never drifts either.
+//! children, so it never drifts either; from [`REJECTION_FROM`] channels on, through
+//! composition–rejection ([`crate::kernel::select::Rejection`]), whose cost per event does not
+//! grow with the number of channels and whose group sums are exact integers. There each
+//! channel's rate sits beside its propensity, so that recomputing a dependent reads and writes
+//! one place.
 //!
 //! The loop runs in legs that contain no call: a leg ends where the observer wants to see the
 //! state ([`Observer::due`]) or where the waiting time's exponential leaves the ziggurat's
@@ -34,9 +38,11 @@ use super::compiled::{CompiledKernel, DenseTables, Rate, SmallTables};
 use super::observe::Observer;
 use super::rng::uniform;
 use super::select::{Rejection, SumTree};
+use super::timeline::{Counts, Timeline};
 use super::ziggurat::{exp_ziggurat, Miss};
 use crate::error::{Error, Result};
-use crate::network::MAX_COUNT;
+use crate::network::expr::just_after;
+use crate::network::{TimeUse, MAX_COUNT};
 use rand::Rng;
 
 /// The propensity array of a small network is a multiple of this long, so that a₀ and the
@@ -59,6 +65,10 @@ pub struct Direct<'k> {
     kernel: &'k CompiledKernel,
     x: Vec<i64>,
     selector: Selector,
+    /// The network's doses, law edges and events, where it has any.
+    timeline: Option<Box<Timeline<'k>>>,
+    /// Propensities of the thinning loop (networks whose laws vary smoothly with time).
+    thin: Vec<f64>,
 }
 
 #[derive(Clone, Debug)]
@@ -74,8 +84,7 @@ enum Selector {
 #[derive(Clone, Copy, Debug, PartialEq, Eq)]
 pub enum Selection {
     /// By size: the small-network forms below [`SMALL_BELOW`](super::compiled::SMALL_BELOW)
-    /// reactions, the sum tree up to
-    /// [`REJECTION_FROM`], composition–rejection from there on.
+    /// reactions, the sum tree up to [`REJECTION_FROM`], composition–rejection from there on.
     Auto,
     /// The sum tree of [`crate::kernel::select::SumTree`], O(log M) per update and selection.
     Tree,
@@ -83,9 +92,11 @@ pub enum Selection {
     Rejection,
 }
 
-/// Networks with at least this many reactions select by composition–rejection (where it
-/// measured faster than the sum tree, `cargo bench --bench scale`).
-pub const REJECTION_FROM: usize = 4096;
+/// Networks with at least this many reactions select by composition–rejection. Where
+/// propensities are of one size it measured faster than the sum tree from 40 channels on;
+/// where they spread over twelve orders of magnitude (forty groups to scan) the tree stayed
+/// faster up to about a thousand (`cargo bench --bench scale`).
+pub const REJECTION_FROM: usize = 2048;
 
 impl<'k> Direct<'k> {
     /// A simulator that selects channels as [`Selection::Auto`] says.
@@ -116,10 +127,14 @@ impl<'k> Direct<'k> {
             }),
             Some(_) => Selector::Tree(SumTree::new(&vec![0.0; m])),
         };
+        let inputs = kernel.inputs();
+        let smooth = kernel.time_use() == TimeUse::Smooth;
         Direct {
             kernel,
             x: kernel.state_buffer(&kernel.x0),
             selector,
+            timeline: (!inputs.is_empty() || smooth).then(|| Box::new(Timeline::new(inputs))),
+            thin: if smooth { vec![0.0; m] } else { Vec::new() },
         }
     }
 
@@ -180,85 +195,103 @@ impl<'k> Direct<'k> {
                 "the end time must be finite and not negative, got {t_end}"
             )));
         }
+        k.check_simulable()?;
         self.x[..k.species].copy_from_slice(x0);
         let x = &mut self.x[..];
-        match &mut self.selector {
-            Selector::Small(a) => {
-                // Small is Some exactly when the selector is Small (Direct::new).
-                let Some(tables) = k.small() else {
-                    return Err(Error::Internal("small network without tables".into()));
+        let run = Run {
+            t_end,
+            rng,
+            obs,
+            tl: self.timeline.as_deref_mut(),
+        };
+        if k.time_use() == TimeUse::Smooth {
+            return run_thinned(k, x, &mut self.thin, run);
+        }
+        if k.inputs().has_state_triggers() {
+            dispatch::<StateTriggers, R, O>(k, x, &mut self.selector, run)
+        } else {
+            dispatch::<NoTriggers, R, O>(k, x, &mut self.selector, run)
+        }
+    }
+}
+
+/// What a run needs besides its state and channels.
+struct Run<'a, 'k, R, O> {
+    t_end: f64,
+    rng: &'a mut R,
+    obs: &'a mut O,
+    /// Breakpoints and events (`None`: the network has none).
+    tl: Option<&'a mut Timeline<'k>>,
+}
+
+/// Whether the event loop checks state triggers after every firing.
+trait Triggers {
+    const CHECK: bool;
+}
+
+/// A network without species-reading triggers: nothing is checked per firing.
+struct NoTriggers;
+
+impl Triggers for NoTriggers {
+    const CHECK: bool = false;
+}
+
+/// A network with a trigger on species: checked after every firing.
+struct StateTriggers;
+
+impl Triggers for StateTriggers {
+    const CHECK: bool = true;
+}
+
+/// Picks the view of the channels for the network's form and runs the loop.
+fn dispatch<Tr: Triggers, R: Rng + Clone, O: Observer>(
+    k: &CompiledKernel,
+    x: &mut [i64],
+    selector: &mut Selector,
+    run: Run<R, O>,
+) -> Result<RunSummary> {
+    match selector {
+        Selector::Small(a) => {
+            // Small is Some exactly when the selector is Small (Direct::new).
+            let Some(tables) = k.small() else {
+                return Err(Error::Internal("small network without tables".into()));
+            };
+            if let Some(d) = tables.dense() {
+                let a = [0.0; LANES];
+                return match tables.order() {
+                    1 => run_loop::<_, _, _, Tr>(k, x, Dense::<1> { k, d, a }, run),
+                    2 => run_loop::<_, _, _, Tr>(k, x, Dense::<2> { k, d, a }, run),
+                    _ => run_loop::<_, _, _, Tr>(k, x, Dense::<3> { k, d, a }, run),
                 };
-                if let Some(d) = tables.dense() {
-                    return match tables.order() {
-                        1 => run_loop(
-                            k,
-                            x,
-                            Dense::<1> {
-                                k,
-                                d,
-                                a: [0.0; LANES],
-                            },
-                            t_end,
-                            rng,
-                            obs,
-                        ),
-                        2 => run_loop(
-                            k,
-                            x,
-                            Dense::<2> {
-                                k,
-                                d,
-                                a: [0.0; LANES],
-                            },
-                            t_end,
-                            rng,
-                            obs,
-                        ),
-                        _ => run_loop(
-                            k,
-                            x,
-                            Dense::<3> {
-                                k,
-                                d,
-                                a: [0.0; LANES],
-                            },
-                            t_end,
-                            rng,
-                            obs,
-                        ),
-                    };
-                }
-                match tables.order() {
-                    1 => run_small::<1, R, O>(k, tables, x, a, t_end, rng, obs),
-                    2 => run_small::<2, R, O>(k, tables, x, a, t_end, rng, obs),
-                    _ => run_small::<3, R, O>(k, tables, x, a, t_end, rng, obs),
-                }
             }
-            Selector::Tree(tree) => run_loop(k, x, Tree { k, tree }, t_end, rng, obs),
-            Selector::Rejection(RejectionState { groups, kept }) => {
-                run_loop(k, x, Groups { k, groups, kept }, t_end, rng, obs)
+            match tables.order() {
+                1 => run_small::<1, Tr, R, O>(k, tables, x, a, run),
+                2 => run_small::<2, Tr, R, O>(k, tables, x, a, run),
+                _ => run_small::<3, Tr, R, O>(k, tables, x, a, run),
             }
+        }
+        Selector::Tree(tree) => run_loop::<_, _, _, Tr>(k, x, Tree { k, tree }, run),
+        Selector::Rejection(RejectionState { groups, kept }) => {
+            run_loop::<_, _, _, Tr>(k, x, Groups { k, groups, kept }, run)
         }
     }
 }
 
 /// [`run_loop`] for a small network whose rates have `ORDER` factors, with the row width
 /// fixed at compile time where it is 4 or less.
-fn run_small<const ORDER: usize, R: Rng + Clone, O: Observer>(
+fn run_small<const ORDER: usize, Tr: Triggers, R: Rng + Clone, O: Observer>(
     k: &CompiledKernel,
     tables: &SmallTables,
     x: &mut [i64],
     a: &mut [f64],
-    t_end: f64,
-    rng: &mut R,
-    obs: &mut O,
+    run: Run<R, O>,
 ) -> Result<RunSummary> {
     match tables.width() {
-        1 => run_loop(k, x, Small::<ORDER, 1> { k, tables, a }, t_end, rng, obs),
-        2 => run_loop(k, x, Small::<ORDER, 2> { k, tables, a }, t_end, rng, obs),
-        3 => run_loop(k, x, Small::<ORDER, 3> { k, tables, a }, t_end, rng, obs),
-        4 => run_loop(k, x, Small::<ORDER, 4> { k, tables, a }, t_end, rng, obs),
-        _ => run_loop(k, x, Small::<ORDER, 0> { k, tables, a }, t_end, rng, obs),
+        1 => run_loop::<_, _, _, Tr>(k, x, Small::<ORDER, 1> { k, tables, a }, run),
+        2 => run_loop::<_, _, _, Tr>(k, x, Small::<ORDER, 2> { k, tables, a }, run),
+        3 => run_loop::<_, _, _, Tr>(k, x, Small::<ORDER, 3> { k, tables, a }, run),
+        4 => run_loop::<_, _, _, Tr>(k, x, Small::<ORDER, 4> { k, tables, a }, run),
+        _ => run_loop::<_, _, _, Tr>(k, x, Small::<ORDER, 0> { k, tables, a }, run),
     }
 }
 
@@ -266,8 +299,8 @@ fn run_small<const ORDER: usize, R: Rng + Clone, O: Observer>(
 /// firing changes. Implemented by views that borrow the simulator's buffers for one run; the
 /// loop holds a view by value, so its pointers stay in registers.
 trait Channels {
-    /// Sets every propensity from `x`, checking each.
-    fn init(&mut self, x: &[i64]) -> Result<()>;
+    /// Sets every propensity from `x` with the run's params at time `t`, checking each.
+    fn init(&mut self, x: &[i64], params: &[f64], t: f64) -> Result<()>;
     /// a₀.
     fn total(&self) -> f64;
     /// The channel whose cumulative propensity first exceeds `target` = u·a₀ (a₀ the value
@@ -289,9 +322,17 @@ trait Channels {
         self
     }
     /// Fires channel `j` < reactions() at `t`: applies its change to `x` (reporting each
-    /// move to `obs`) and recomputes the propensities that depend on it. Returns true when
-    /// some count may have passed [`MAX_COUNT`] (the caller checks), false when none did.
-    fn fire<O: Observer>(&mut self, j: usize, x: &mut [i64], t: f64, obs: &mut O) -> bool;
+    /// move to `obs`) and recomputes the propensities that depend on it (laws with the run's
+    /// `params`). Returns true when some count may have passed [`MAX_COUNT`] (the caller
+    /// checks), false when none did.
+    fn fire<O: Observer>(
+        &mut self,
+        j: usize,
+        x: &mut [i64],
+        t: f64,
+        obs: &mut O,
+        params: &[f64],
+    ) -> bool;
 }
 
 /// A small network: propensities in a flat array, the fixed-width rows of [`SmallTables`],
@@ -309,8 +350,8 @@ struct Small<'a, const ORDER: usize, const W: usize> {
 }
 
 impl<const ORDER: usize, const W: usize> Channels for Small<'_, ORDER, W> {
-    fn init(&mut self, x: &[i64]) -> Result<()> {
-        init_flat(self.k, &mut self.a[..], x)
+    fn init(&mut self, x: &[i64], params: &[f64], t: f64) -> Result<()> {
+        init_flat(self.k, &mut self.a[..], x, params, t)
     }
 
     #[inline(always)]
@@ -331,7 +372,14 @@ impl<const ORDER: usize, const W: usize> Channels for Small<'_, ORDER, W> {
     }
 
     #[inline(always)]
-    fn fire<O: Observer>(&mut self, j: usize, x: &mut [i64], t: f64, obs: &mut O) -> bool {
+    fn fire<O: Observer>(
+        &mut self,
+        j: usize,
+        x: &mut [i64],
+        t: f64,
+        obs: &mut O,
+        params: &[f64],
+    ) -> bool {
         debug_assert!(j < self.k.reactions() && x.len() == self.k.species + 1);
         // The updates read the state before the change (their offsets include it), so they
         // come first.
@@ -350,7 +398,8 @@ impl<const ORDER: usize, const W: usize> Channels for Small<'_, ORDER, W> {
         if self.tables.has_laws() {
             for &d in self.tables.law_dependents(j) {
                 // SAFETY: d < reactions() and x.len() == species + 1.
-                self.a[d as usize] = unsafe { self.k.propensity_unchecked(d as usize, x) };
+                self.a[d as usize] =
+                    unsafe { self.k.propensity_unchecked(d as usize, x, params, t) };
             }
         }
         over
@@ -371,8 +420,8 @@ struct Dense<'a, const ORDER: usize> {
 }
 
 impl<const ORDER: usize> Channels for Dense<'_, ORDER> {
-    fn init(&mut self, x: &[i64]) -> Result<()> {
-        init_flat(self.k, &mut self.a[..], x)
+    fn init(&mut self, x: &[i64], params: &[f64], t: f64) -> Result<()> {
+        init_flat(self.k, &mut self.a[..], x, params, t)
     }
 
     #[inline(always)]
@@ -403,7 +452,14 @@ impl<const ORDER: usize> Channels for Dense<'_, ORDER> {
     }
 
     #[inline(always)]
-    fn fire<O: Observer>(&mut self, j: usize, x: &mut [i64], t: f64, obs: &mut O) -> bool {
+    fn fire<O: Observer>(
+        &mut self,
+        j: usize,
+        x: &mut [i64],
+        t: f64,
+        obs: &mut O,
+        _params: &[f64],
+    ) -> bool {
         debug_assert!(j < self.k.reactions() && x.len() == self.k.species + 1);
         let d = self.d;
         // SAFETY: the tables name species or the constant slot, below x.len() (construction;
@@ -432,9 +488,9 @@ struct Tree<'a> {
 }
 
 impl Channels for Tree<'_> {
-    fn init(&mut self, x: &[i64]) -> Result<()> {
+    fn init(&mut self, x: &[i64], params: &[f64], t: f64) -> Result<()> {
         for j in 0..self.k.reactions() {
-            let a = checked(self.k, j, self.k.propensity(j, x), 0.0)?;
+            let a = checked(self.k, j, self.k.propensity_at(j, x, params, t), t)?;
             self.tree.set_leaf(j, a);
         }
         self.tree.rebuild();
@@ -460,7 +516,14 @@ impl Channels for Tree<'_> {
     }
 
     #[inline(always)]
-    fn fire<O: Observer>(&mut self, j: usize, x: &mut [i64], t: f64, obs: &mut O) -> bool {
+    fn fire<O: Observer>(
+        &mut self,
+        j: usize,
+        x: &mut [i64],
+        t: f64,
+        obs: &mut O,
+        params: &[f64],
+    ) -> bool {
         debug_assert!(j < self.k.reactions() && x.len() == self.k.species + 1);
         // SAFETY: j < reactions(); change rows name species < x.len() (construction).
         let over = unsafe { apply(self.k.change_unchecked(j), x, t, obs) };
@@ -469,7 +532,7 @@ impl Channels for Tree<'_> {
         // SAFETY: j < reactions() and species in change rows are below `species`, the row
         // counts of the two tables; the rows name reactions, and x.len() == species + 1.
         updates(k, j, |d| {
-            tree.set(d, unsafe { k.propensity_unchecked(d, x) })
+            tree.set(d, unsafe { k.propensity_unchecked(d, x, params, t) })
         });
         over
     }
@@ -501,9 +564,9 @@ struct Groups<'a> {
 }
 
 impl Channels for Groups<'_> {
-    fn init(&mut self, x: &[i64]) -> Result<()> {
+    fn init(&mut self, x: &[i64], params: &[f64], t: f64) -> Result<()> {
         for j in 0..self.k.reactions() {
-            let a = checked(self.k, j, self.k.propensity(j, x), 0.0)?;
+            let a = checked(self.k, j, self.k.propensity_at(j, x, params, t), t)?;
             let kept = &mut self.kept[j];
             self.groups.set(j, kept.a, a);
             kept.a = a;
@@ -531,7 +594,14 @@ impl Channels for Groups<'_> {
     }
 
     #[inline(always)]
-    fn fire<O: Observer>(&mut self, j: usize, x: &mut [i64], t: f64, obs: &mut O) -> bool {
+    fn fire<O: Observer>(
+        &mut self,
+        j: usize,
+        x: &mut [i64],
+        t: f64,
+        obs: &mut O,
+        params: &[f64],
+    ) -> bool {
         debug_assert!(j < self.k.reactions() && x.len() == self.k.species + 1);
         // SAFETY: j < reactions(); change rows name species < x.len() (construction).
         let over = unsafe { apply(self.k.change_unchecked(j), x, t, obs) };
@@ -541,7 +611,7 @@ impl Channels for Groups<'_> {
         // SAFETY: as for the sum tree; kept.len() == reactions(), and its rates are k's.
         updates(k, j, |d| {
             let e = unsafe { kept.get_unchecked_mut(d) };
-            let a = unsafe { k.rate_unchecked(&e.rate, x) };
+            let a = unsafe { k.rate_unchecked(&e.rate, x, params, t) };
             groups.set(d, e.a, a);
             e.a = a;
         });
@@ -599,11 +669,12 @@ fn block_find(a: &[f64], target: f64) -> usize {
     j
 }
 
-/// Sets a flat propensity array from `x`, checking each; idle entries are 0.
-fn init_flat(k: &CompiledKernel, a: &mut [f64], x: &[i64]) -> Result<()> {
+/// Sets a flat propensity array from `x` with `params` at time `t`, checking each; idle
+/// entries are 0.
+fn init_flat(k: &CompiledKernel, a: &mut [f64], x: &[i64], params: &[f64], t: f64) -> Result<()> {
     a.fill(0.0);
     for (j, a) in a.iter_mut().enumerate().take(k.reactions()) {
-        *a = checked(k, j, k.propensity(j, x), 0.0)?;
+        *a = checked(k, j, k.propensity_at(j, x, params, t), t)?;
     }
     Ok(())
 }
@@ -653,12 +724,14 @@ enum Stop {
 enum Leg {
     /// The run is over.
     Stop(Stop),
-    /// The next event, at this time, is due for the observer's [`Observer::reach`]; it has not
-    /// been selected yet.
+    /// The next event, at this time, is due for the observer's [`Observer::reach`] or falls
+    /// at or after the next breakpoint; it has not been selected yet.
     Due(f64),
     /// The waiting time's exponential left the ziggurat's fast path; the loop finishes it
     /// outside the leg, which thus contains no call.
     Miss(Miss),
+    /// The firing at this time changed the value of a state trigger.
+    Trigger(f64),
 }
 
 /// Where the next leg takes up an event the previous one began.
@@ -677,37 +750,116 @@ struct Clock {
 
 /// Sets up the propensities, runs the event loop and turns its stop into a result. `x` holds
 /// one count per species and then the constant slot 1.
-fn run_loop<C: Channels, R: Rng + Clone, O: Observer>(
+///
+/// Breakpoints (doses, edges of piecewise-constant laws, time triggers, delayed events) are
+/// the timeline's: a leg ends where the next event would fall at or after the next breakpoint;
+/// the drawn time is then dropped, the run moves to the breakpoint, applies it, recomputes the
+/// propensities and draws afresh. Between breakpoints the propensities depend on the state
+/// alone, so the waiting time is exponential and dropping a draw at a breakpoint leaves the
+/// process exact (memorylessness).
+fn run_loop<C: Channels, R: Rng + Clone, O: Observer, Tr: Triggers>(
     k: &CompiledKernel,
     x: &mut [i64],
     mut ch: C,
-    t_end: f64,
-    rng: &mut R,
-    obs: &mut O,
+    run: Run<R, O>,
 ) -> Result<RunSummary> {
+    let Run {
+        t_end,
+        rng,
+        obs,
+        mut tl,
+    } = run;
     if x.len() != k.species + 1 {
         return Err(Error::Internal(
             "state buffer without the constant slot".into(),
         ));
     }
-    ch.init(x)?;
     let n = k.species;
     obs.start(&x[..n]);
+    match tl.as_deref_mut() {
+        Some(tl) => {
+            tl.start(&mut Counts {
+                x: &mut x[..n],
+                obs: &mut *obs,
+            })?;
+            ch.init(x, tl.params(), just_after(0.0))?;
+        }
+        None => ch.init(x, &[], 0.0)?,
+    }
     let mut clock = Clock { t: 0.0, events: 0 };
     let mut pending = None;
     // Events run in legs between the observer's due times: a leg ends when the next event is
     // at or after Observer::due, and `reach` is called here, outside the leg, so the leg's
     // loop contains no call and keeps its values in registers.
     let stop = loop {
-        let (l, c) = leg(k, x, ch, t_end, rng, obs, &mut clock, pending);
+        let brk = match tl.as_deref() {
+            Some(tl) if tl.next() <= t_end => tl.next(),
+            _ => f64::INFINITY,
+        };
+        let (params, trig): (&[f64], _) = match tl.as_deref() {
+            Some(tl) => (tl.params(), Some(tl)),
+            None => (&[], None),
+        };
+        let (l, c) = leg::<C, R, O, Tr>(
+            k,
+            x,
+            ch,
+            t_end,
+            rng,
+            obs,
+            &mut clock,
+            pending.take(),
+            brk,
+            params,
+            trig,
+        );
         ch = c;
-        match l {
+        let at_break = match l {
+            Leg::Stop(Stop::Absorbed(_)) if brk.is_finite() => true,
             Leg::Stop(s) => break s,
+            Leg::Due(t_new) if t_new >= brk => true,
             Leg::Due(t_new) => {
                 obs.reach(t_new, &x[..n]);
                 pending = Some(Resume::Due(t_new));
+                false
             }
-            Leg::Miss(miss) => pending = Some(Resume::Exp(exp_ziggurat().finish(miss, rng))),
+            Leg::Miss(miss) => {
+                pending = Some(Resume::Exp(exp_ziggurat().finish(miss, rng)));
+                false
+            }
+            Leg::Trigger(t) => {
+                let Some(tl) = tl.as_deref_mut() else {
+                    return Err(Error::Internal("a trigger without a timeline".into()));
+                };
+                let changed = tl.settle(
+                    t,
+                    &mut Counts {
+                        x: &mut x[..n],
+                        obs: &mut *obs,
+                    },
+                )?;
+                if changed.any() {
+                    ch.init(x, tl.params(), t)?;
+                }
+                false
+            }
+        };
+        if at_break {
+            let Some(tl) = tl.as_deref_mut() else {
+                return Err(Error::Internal("a breakpoint without a timeline".into()));
+            };
+            if brk >= obs.due() {
+                obs.reach(brk, &x[..n]);
+            }
+            clock.t = brk;
+            tl.breakpoint(
+                brk,
+                &mut Counts {
+                    x: &mut x[..n],
+                    obs: &mut *obs,
+                },
+            )?;
+            ch.init(x, tl.params(), just_after(brk))?;
         }
     };
     let absorbed_at = match stop {
@@ -715,8 +867,9 @@ fn run_loop<C: Channels, R: Rng + Clone, O: Observer>(
         Stop::Absorbed(t) => Some(t),
         Stop::Overflow { i, j, t } => return Err(k.overflow(i, j, t)),
         Stop::BadRate(t) => {
+            let params = tl.as_deref().map_or(&[][..], |tl| tl.params());
             for j in 0..k.reactions() {
-                checked(k, j, k.propensity(j, x), t)?;
+                checked(k, j, k.propensity_at(j, x, params, t), t)?;
             }
             return Err(Error::Internal(format!(
                 "the total propensity became {} at t = {t} s",
@@ -731,11 +884,13 @@ fn run_loop<C: Channels, R: Rng + Clone, O: Observer>(
     })
 }
 
-/// Runs events until the run stops or the next event is due for the observer (see the module
-/// docs for one step). `pending` is an event the previous leg began. The channels come in and go out by value.
+/// Runs events until the run stops, the next event is due for the observer or falls at or
+/// after the breakpoint `brk`, or (with `Tr::CHECK`) a firing changes a state trigger of
+/// `trig` (see the module docs for one step). `pending` is an event the previous leg began.
+/// The channels come in and go out by value.
 #[allow(clippy::too_many_arguments)]
 #[inline(never)]
-fn leg<C: Channels, R: Rng + Clone, O: Observer>(
+fn leg<C: Channels, R: Rng + Clone, O: Observer, Tr: Triggers>(
     k: &CompiledKernel,
     x: &mut [i64],
     ch: C,
@@ -744,9 +899,12 @@ fn leg<C: Channels, R: Rng + Clone, O: Observer>(
     obs: &mut O,
     clock: &mut Clock,
     mut pending: Option<Resume>,
+    brk: f64,
+    params: &[f64],
+    trig: Option<&Timeline>,
 ) -> (Leg, C) {
     let mut ch = ch.local();
-    let due = obs.due();
+    let due = obs.due().min(brk);
     // A local copy of the generator stays in registers; it is written back at the end.
     let mut local = rng_out.clone();
     let rng = &mut local;
@@ -776,6 +934,9 @@ fn leg<C: Channels, R: Rng + Clone, O: Observer>(
                 };
                 let t_new = t + e / a0;
                 if t_new > t_end {
+                    if t_new >= brk {
+                        break Leg::Due(t_new);
+                    }
                     break Leg::Stop(Stop::End);
                 }
                 if t_new >= due {
@@ -790,7 +951,7 @@ fn leg<C: Channels, R: Rng + Clone, O: Observer>(
         };
         debug_assert!(j < k.reactions());
         obs.fire(t_new, j, 1);
-        if ch.fire(j, x, t_new, obs) {
+        if ch.fire(j, x, t_new, obs, params) {
             if let Some(&(i, _)) = k.change(j).iter().find(|c| x[c.0 as usize] > MAX_COUNT) {
                 break Leg::Stop(Stop::Overflow {
                     i: i as usize,
@@ -801,11 +962,188 @@ fn leg<C: Channels, R: Rng + Clone, O: Observer>(
         }
         t = t_new;
         events += 1;
+        if Tr::CHECK {
+            if let Some(tl) = trig {
+                if tl.changed(t, |i| x[i] as f64) {
+                    break Leg::Trigger(t);
+                }
+            }
+        }
     };
     clock.t = t;
     clock.events = events;
     *rng_out = local;
     (leg, ch)
+}
+
+/// The direct method for a network whose propensities vary smoothly with time (a `law`
+/// with sin, cos or time in its arithmetic), by thinning (Lewis & Shedler 1979, Naval Res.
+/// Logist. Q. 26:403 [M]): over a window [t, t + h] with the state fixed, B bounds the total
+/// propensity a₀(t′) for every t′ in the window (the constant channels plus, for each
+/// time-varying one, the upper end of its interval evaluation over [t, t + h], widened by
+/// 1e-9 for rounding); candidates arrive at rate B, and a candidate at t′ is an event with
+/// probability a₀(t′)/B, then of channel j with probability a_j(t′)/a₀(t′) (one uniform
+/// u·B decides both: it selects j where the cumulative propensities pass it, or rejects when
+/// it is above a₀). A candidate past the window moves the clock to the window's end. This is
+/// exact for any valid bound; a tight bound only makes it faster, so h shrinks when B is
+/// loose (more than 1.5 × a₀(t)) and grows when it is tight. Thinning was chosen over
+/// integrating the propensity (Anderson 2007) because it needs only values and bounds of the
+/// compiled program, where the integrated form needs the inverse of ∫a dt, which has no
+/// closed form for a general law.
+fn run_thinned<R: Rng + Clone, O: Observer>(
+    k: &CompiledKernel,
+    x: &mut [i64],
+    a: &mut [f64],
+    run: Run<R, O>,
+) -> Result<RunSummary> {
+    use crate::network::Interval;
+    let Run {
+        t_end,
+        rng,
+        obs,
+        tl,
+    } = run;
+    let Some(tl) = tl else {
+        return Err(Error::Internal(
+            "a time-varying network without a timeline".into(),
+        ));
+    };
+    let n = k.species;
+    let m = k.reactions();
+    let smooth = k.smooth_channels();
+    obs.start(&x[..n]);
+    tl.start(&mut Counts {
+        x: &mut x[..n],
+        obs: &mut *obs,
+    })?;
+    let fresh = |a: &mut [f64], x: &[i64], params: &[f64], t: f64| -> Result<()> {
+        for (j, a) in a.iter_mut().enumerate() {
+            *a = checked(k, j, k.propensity_at(j, x, params, t), t)?;
+        }
+        Ok(())
+    };
+    fresh(a, x, tl.params(), just_after(0.0))?;
+    let mut t = 0.0;
+    let mut events = 0u64;
+    let mut horizon = t_end / 100.0;
+    while t < t_end {
+        let brk = tl.next();
+        let hi = (t + horizon).min(brk).min(t_end);
+        // The bound over [t, hi] with the state fixed, and a₀ at t.
+        let params = tl.params();
+        let mut bound = 0.0;
+        let mut now = 0.0;
+        for (j, aj) in a.iter_mut().enumerate().take(m) {
+            if smooth.contains(&(j as u32)) {
+                *aj = checked(k, j, k.propensity_at(j, x, params, t), t)?;
+                let v = k.interval_propensity(j, x, params, Interval::new(t, hi));
+                bound += if v.hi >= 0.0 { v.hi } else { f64::INFINITY };
+            } else {
+                bound += *aj;
+            }
+            now += *aj;
+        }
+        if !bound.is_finite() {
+            if hi - t < 1e-12 * t_end.max(1.0) {
+                return Err(Error::usage(format!(
+                    "the time-varying propensities have no finite bound near t = {t} s \
+                     (a law that grows without limit, or divides by zero)"
+                )));
+            }
+            horizon = (hi - t) / 8.0;
+            continue;
+        }
+        let bound = bound * (1.0 + 1e-9);
+        if bound > 1.5 * now && hi - t > 1e-9 * t_end {
+            horizon = (hi - t) / 2.0;
+        } else if bound < 1.1 * now {
+            horizon = (horizon * 2.0).min(t_end);
+        }
+        let mut candidate = t;
+        let mut fired = None;
+        if bound > 0.0 {
+            loop {
+                candidate += super::rng::exp1(rng) / bound;
+                if candidate >= hi {
+                    break;
+                }
+                for &j in smooth {
+                    let j = j as usize;
+                    a[j] = checked(k, j, k.propensity_at(j, x, params, candidate), candidate)?;
+                }
+                let target = uniform(rng) * bound;
+                let mut sum = 0.0;
+                for (j, &v) in a.iter().enumerate() {
+                    sum += v;
+                    if sum > target && v > 0.0 {
+                        fired = Some(j);
+                        break;
+                    }
+                }
+                if fired.is_some() {
+                    break;
+                }
+            }
+        }
+        let Some(j) = fired else {
+            t = hi;
+            if hi == brk {
+                if t >= obs.due() {
+                    obs.reach(t, &x[..n]);
+                }
+                tl.breakpoint(
+                    t,
+                    &mut Counts {
+                        x: &mut x[..n],
+                        obs: &mut *obs,
+                    },
+                )?;
+                fresh(a, x, tl.params(), just_after(t))?;
+            }
+            continue;
+        };
+        t = candidate;
+        if t >= obs.due() {
+            obs.reach(t, &x[..n]);
+        }
+        obs.fire(t, j, 1);
+        for &(i, d) in k.change(j) {
+            let v = &mut x[i as usize];
+            obs.moved(t, i as usize, *v, d);
+            *v += d;
+            if *v > MAX_COUNT {
+                return Err(k.overflow(i as usize, j, t));
+            }
+        }
+        events += 1;
+        let mut bad = Ok(());
+        updates(k, j, |d| {
+            if bad.is_ok() {
+                match checked(k, d, k.propensity_at(d, x, tl.params(), t), t) {
+                    Ok(v) => a[d] = v,
+                    Err(e) => bad = Err(e),
+                }
+            }
+        });
+        bad?;
+        if tl.changed(t, |i| x[i] as f64) {
+            let c = tl.settle(
+                t,
+                &mut Counts {
+                    x: &mut x[..n],
+                    obs: &mut *obs,
+                },
+            )?;
+            if c.any() {
+                fresh(a, x, tl.params(), t)?;
+            }
+        }
+    }
+    obs.finish(t_end, &x[..n]);
+    Ok(RunSummary {
+        events,
+        absorbed_at: None,
+    })
 }
 
 #[cfg(test)]
@@ -850,7 +1188,7 @@ mod tests {
 
     fn check_kept<C: Channels>(k: &CompiledKernel, mut ch: C) {
         let mut x = k.state_buffer(&k.x0);
-        ch.init(&x).unwrap();
+        ch.init(&x, &[], 0.0).unwrap();
         let mut rng = replicate_rng(3, 0);
         for _ in 0..2000 {
             let a0 = ch.total();
@@ -858,7 +1196,7 @@ mod tests {
             let target = rng.random::<f64>() * a0;
             let j = ch.select(target, a0, &mut rng).unwrap();
             assert!(ch.get(j) > 0.0);
-            assert!(!ch.fire(j, &mut x, 0.0, &mut ()));
+            assert!(!ch.fire(j, &mut x, 0.0, &mut (), &[]));
             for d in 0..k.reactions() {
                 assert_eq!(ch.get(d), k.propensity(d, &x), "channel {d} after {j}");
             }

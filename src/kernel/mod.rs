@@ -11,6 +11,7 @@
 //! - [`observe`]: what a run reports ([`observe::Observer`], [`observe::Recorder`]).
 //! - [`rng`]: the documented random stream of each replicate.
 //! - [`select`]: channel selection (linear scan, sum tree).
+//! - [`timeline`]: doses, law edges and events: the breakpoints of a run.
 //! - [`ziggurat`]: exponential waiting times, fast path and slow path apart.
 //!
 //! Kernels never print and never allocate inside their event loop.
@@ -26,4 +27,5 @@ pub use compiled::CompiledKernel;
 pub use direct::{Direct, RunSummary};
 pub use observe::{Integrals, Observer, RecordSpec, Recorder};
 pub mod tau;
+pub mod timeline;
 pub mod ziggurat;

@@ -12,6 +12,10 @@
 //! 3. [`Observer::finish`] once, with the final state, at t_end (also when the run stopped early
 //!    because nothing could fire any more).
 //!
+//! A dose or an event assignment is a change of the state without a firing: `reach` (when
+//! due) and `moved`, no `fire`. Where the network has params that events change,
+//! [`Observer::params`] gives their values at the start and after every change.
+//!
 //! Observers are type parameters of the kernels, so what is not asked for is not compiled in:
 //! the unit type `()` observes nothing, [`Recorder`] keeps grid samples and firing counts,
 //! [`Integrals`] keeps ∫x dt and ∫x² dt, and a pair `(A, B)` of observers observes with both.
@@ -50,6 +54,9 @@ pub trait Observer {
     /// The run ends at `t_end` in state `x`.
     #[inline(always)]
     fn finish(&mut self, _t_end: f64, _x: &[i64]) {}
+    /// The params (every one, canonical units) hold `p` from time `t` on.
+    #[inline(always)]
+    fn params(&mut self, _t: f64, _p: &[f64]) {}
 }
 
 /// Observes nothing.
@@ -93,6 +100,11 @@ impl<A: Observer, B: Observer> Observer for (A, B) {
     fn finish(&mut self, t_end: f64, x: &[i64]) {
         self.0.finish(t_end, x);
         self.1.finish(t_end, x);
+    }
+    #[inline(always)]
+    fn params(&mut self, t: f64, p: &[f64]) {
+        self.0.params(t, p);
+        self.1.params(t, p);
     }
 }
 
@@ -146,6 +158,9 @@ pub struct Recorder {
     species: usize,
     grid_times: Vec<f64>,
     grid: Vec<i64>,
+    /// The params' values now, and at each grid point (points × params).
+    params_now: Vec<f64>,
+    grid_params: Vec<f64>,
     /// Next grid point to fill.
     next: usize,
     /// The earliest pending action is due for an event at t ≥ `due`.
@@ -165,11 +180,14 @@ impl Recorder {
     /// A recorder for runs of `kernel`'s network.
     pub fn new(spec: RecordSpec, kernel: &CompiledKernel) -> Recorder {
         let (species, m) = (kernel.species, kernel.reactions());
+        let params = kernel.inputs().initial_params().to_vec();
         let mut r = Recorder {
             spec,
             species,
             grid_times: grid_times(spec.t_end, spec.grid_points),
             grid: vec![0; spec.grid_points * species],
+            grid_params: vec![0.0; spec.grid_points * params.len()],
+            params_now: params,
             next: 0,
             due: 0.0,
             grid_due: 0.0,
@@ -208,6 +226,12 @@ impl Recorder {
         &self.grid[p * self.species..(p + 1) * self.species]
     }
 
+    /// Every param's value at grid point `p`.
+    pub fn grid_params(&self, p: usize) -> &[f64] {
+        let n = self.params_now.len();
+        &self.grid_params[p * n..(p + 1) * n]
+    }
+
     /// Firings per channel in [window, t_end].
     pub fn firings(&self) -> &[u64] {
         &self.firings
@@ -223,6 +247,8 @@ impl Recorder {
         while self.next < self.grid_times.len() && t >= self.grid_due {
             let p = self.next;
             self.grid[p * self.species..(p + 1) * self.species].copy_from_slice(x);
+            let n = self.params_now.len();
+            self.grid_params[p * n..(p + 1) * n].copy_from_slice(&self.params_now);
             self.next += 1;
             self.grid_due = self
                 .grid_times
@@ -268,6 +294,12 @@ impl Observer for Recorder {
     #[inline(always)]
     fn fire(&mut self, _t: f64, j: usize, k: u64) {
         self.counts[j] += k;
+    }
+
+    fn params(&mut self, _t: f64, p: &[f64]) {
+        if p.len() == self.params_now.len() {
+            self.params_now.copy_from_slice(p);
+        }
     }
 
     fn finish(&mut self, _t_end: f64, x: &[i64]) {

@@ -5,7 +5,7 @@
 //! of the file (the number of species, reactions and their terms), never in species ×
 //! reactions.
 
-use super::parser::{Ast, Expr, Item, Operand, Rate};
+use super::parser::{Ast, DoseEnd, Expr, Item, Operand, Rate};
 use super::{units, Kinetics, Network};
 use crate::error::Diagnostic;
 use std::collections::HashSet;
@@ -452,16 +452,18 @@ pub fn motif_chains(net: &Network) -> Vec<Vec<usize>> {
 // Warnings about unused declarations
 // ---------------------------------------------------------------------------------------------
 
+/// The names `e` reads, by a walk with its own stack (a long chain `a + b + …` is a tree as
+/// deep as it is long).
 fn names_in(e: &Expr, out: &mut Vec<String>) {
-    match e {
-        Expr::Number(_) => {}
-        Expr::Name(n) => out.push(n.text.clone()),
-        Expr::Neg(a, _) => names_in(a, out),
-        Expr::Binary(_, a, b, _) => {
-            names_in(a, out);
-            names_in(b, out);
+    let mut todo = vec![e];
+    while let Some(e) = todo.pop() {
+        match e {
+            Expr::Number(_) => {}
+            Expr::Name(n) => out.push(n.text.clone()),
+            Expr::Neg(a, _) => todo.push(a),
+            Expr::Binary(_, a, b, _) => todo.extend([&**b, &**a]),
+            Expr::Call(_, args, _) => todo.extend(args.iter().rev()),
         }
-        Expr::Call(_, args, _) => args.iter().for_each(|a| names_in(a, out)),
     }
 }
 
@@ -493,23 +495,57 @@ impl<'a> Lines<'a> {
 pub fn usage_warnings(net: &mut Network, ast: &Ast) {
     let mut used: HashSet<&str> = HashSet::new();
     let mut law_names: Vec<String> = Vec::new();
+    let mut input_names: Vec<String> = Vec::new();
+    fn operand<'a>(o: &'a Operand, used: &mut HashSet<&'a str>) {
+        if let Operand::Param(n) = o {
+            used.insert(&n.text);
+        }
+    }
     for item in &ast.items {
+        match item {
+            Item::Dose(d) => {
+                used.insert(&d.species.text);
+                for o in [Some(&d.amount), Some(&d.at), d.every.as_ref()]
+                    .into_iter()
+                    .flatten()
+                {
+                    operand(o, &mut used);
+                }
+                match &d.end {
+                    Some(DoseEnd::Until(o)) | Some(DoseEnd::Times(o)) => operand(o, &mut used),
+                    None => {}
+                }
+            }
+            Item::Infuse(f) => {
+                used.insert(&f.species.text);
+                for o in [&f.rate, &f.from, &f.to] {
+                    operand(o, &mut used);
+                }
+            }
+            Item::When(w) => {
+                names_in(&w.condition, &mut input_names);
+                for a in &w.assignments {
+                    used.insert(&a.target.text);
+                    names_in(&a.value, &mut input_names);
+                }
+            }
+            _ => {}
+        }
         let Item::Step(s) = item else { continue };
         for rate in std::iter::once(&s.forward).chain(s.reverse.as_ref()) {
             match rate {
                 Rate::Law(e) => names_in(e, &mut law_names),
-                Rate::Constant(Operand::Param(n))
-                | Rate::HalfLife(Operand::Param(n), _)
-                | Rate::Kd(Operand::Param(n), _) => {
-                    used.insert(&n.text);
-                }
-                _ => {}
+                Rate::Constant(o)
+                | Rate::HalfLife(o, _)
+                | Rate::Kd(o, _)
+                | Rate::Clearance(o, _) => operand(o, &mut used),
             }
         }
         for t in s.reactants.iter().chain(&s.products) {
             used.insert(&t.species.text);
         }
     }
+    used.extend(input_names.iter().map(String::as_str));
     law_names.sort();
     law_names.dedup();
     used.extend(law_names.iter().map(String::as_str));

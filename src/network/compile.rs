@@ -9,14 +9,23 @@
 //! - `kd K` as the reverse rate of a `<->` step gives k_rev = k_fwd·K^(m_fwd − m_rev).
 //! - A `law` is the whole rate: concentration per time where a volume is set (or molecules per
 //!   time if its units say so), molecules per time where none is.
+//! - Compartments: concentrations refer to the compartment of the species or of the reaction
+//!   (its reactants', or its products' for order 0), whose Ω_c = N_A·V_c converts them; a
+//!   first-order step whose product sits in another compartment is transport (c = k), and
+//!   `clearance CL` gives k = CL/V of the reactant's compartment. Reactants in two
+//!   compartments are an error.
+//! - Doses, infusions and `when` events are compiled in [`super::inputs`].
 
-use super::expr::{self, Resolved};
+use super::expr::{self, Checks, Resolved};
 use super::parser::{self, Ast, Item, Literal, Operand, Rate, Step, Term};
 use super::units::{self, Dim, Quantity};
 use super::{analysis, laws};
-use super::{Kinetics, Network, Param, Reaction, Species, MAX_COUNT};
+use super::{
+    AmountUnit, Compartment, Follows, Kinetics, Network, Param, Reaction, Reading, Species,
+    MAX_COUNT,
+};
 use crate::error::{Diagnostic, Error, Span};
-use std::collections::HashMap;
+use std::collections::{HashMap, HashSet};
 
 /// A value that replaces what the file says, for sweeps and sensitivity analyses.
 #[derive(Clone, Copy, Debug, PartialEq)]
@@ -27,7 +36,8 @@ pub enum Override {
     Bare(f64),
 }
 
-/// Values that replace the file's: keyed by param name, species name, or `volume`.
+/// Values that replace the file's: keyed by param name, species name, compartment name, or
+/// `volume`.
 #[derive(Clone, Debug, Default, PartialEq)]
 pub struct Overrides {
     pub values: Vec<(String, Override)>,
@@ -63,11 +73,15 @@ pub fn load_source(file: &str, bytes: &[u8], overrides: &Overrides) -> Result<Ne
         return crate::sbml::load_source(file, bytes, overrides);
     }
     let ast = parser::parse(file, bytes).map_err(Error::Input)?;
-    compile(&ast, overrides).map_err(Error::Input)
+    compile(&std::sync::Arc::new(ast), overrides).map_err(Error::Input)
 }
 
-/// Compiles a parsed file.
-pub fn compile(ast: &Ast, overrides: &Overrides) -> Result<Network, Vec<Diagnostic>> {
+/// Compiles a parsed file. The network keeps `ast` (shared, never copied: a sweep compiles
+/// one file many times).
+pub fn compile(
+    ast: &std::sync::Arc<Ast>,
+    overrides: &Overrides,
+) -> Result<Network, Vec<Diagnostic>> {
     let mut c = Compiler {
         ast,
         overrides,
@@ -76,21 +90,33 @@ pub fn compile(ast: &Ast, overrides: &Overrides) -> Result<Network, Vec<Diagnost
         omega: 1.0,
         count_ratio: 1.0,
         volume_l: None,
+        compartments: Vec::new(),
         names: HashMap::new(),
         species: Vec::new(),
         params: Vec::new(),
         param_bare: Vec::new(),
+        varying: HashSet::new(),
+        labels: HashMap::new(),
     };
     c.volume();
+    c.varying_params();
     c.declarations();
-    let reactions = c.steps();
+    let mut reactions = c.steps();
+    let (infused, infusions) = c.infusions(reactions.len());
+    reactions.extend(infused);
+    let doses = c.doses();
+    let events = c.events();
+    c.conflicts(&doses, &events);
     for o in &overrides.values {
         if o.0 != "volume" && !c.names.contains_key(o.0.as_str()) {
             c.errors.push(Diagnostic::at(
                 &ast.file,
                 &ast.source,
                 Span::new(0, 0, 0),
-                format!("`{}` is not a param or species of this network", o.0),
+                format!(
+                    "`{}` is not a param, species or compartment of this network",
+                    o.0
+                ),
             ));
         }
     }
@@ -101,23 +127,29 @@ pub fn compile(ast: &Ast, overrides: &Overrides) -> Result<Network, Vec<Diagnost
         warnings,
         omega,
         volume_l,
+        compartments,
         species,
         params,
         ..
     } = c;
     let mut net = Network {
         file: ast.file.clone(),
+        compartments,
         volume_l,
         omega,
+        amount: AmountUnit::molecules(),
         species,
         params,
         reactions,
+        doses,
+        infusions,
+        events,
         stoichiometry: Default::default(),
         dependents: Default::default(),
         conservation_laws: Vec::new(),
         motifs: Vec::new(),
         warnings,
-        source: std::sync::Arc::new(ast.clone()),
+        source: std::sync::Arc::clone(ast),
         overrides: overrides.clone(),
     };
     net.stoichiometry = analysis::stoichiometry(&net);
@@ -132,47 +164,59 @@ pub fn compile(ast: &Ast, overrides: &Overrides) -> Result<Network, Vec<Diagnost
 type Forward<'f> = (&'f Option<Kinetics>, &'f [(usize, u32)]);
 
 #[derive(Clone, Copy)]
-enum Named {
+pub(super) enum Named {
     Species(usize),
     Param(usize),
+    Compartment(usize),
 }
 
-struct Compiler<'a> {
-    ast: &'a Ast,
+pub(super) struct Compiler<'a> {
+    pub(super) ast: &'a Ast,
     overrides: &'a Overrides,
-    errors: Vec<Diagnostic>,
-    warnings: Vec<Diagnostic>,
+    pub(super) errors: Vec<Diagnostic>,
+    pub(super) warnings: Vec<Diagnostic>,
+    /// The reference Ω (the first compartment's, 1 without one).
     omega: f64,
     /// Ω_new/Ω_file when the volume is rescaled, else 1.
-    count_ratio: f64,
-    volume_l: Option<f64>,
-    names: HashMap<&'a str, Named>,
-    species: Vec<Species>,
-    params: Vec<Param>,
+    pub(super) count_ratio: f64,
+    pub(super) volume_l: Option<f64>,
+    pub(super) compartments: Vec<Compartment>,
+    pub(super) names: HashMap<&'a str, Named>,
+    pub(super) species: Vec<Species>,
+    pub(super) params: Vec<Param>,
     /// Whether each param was written without a unit (a stochastic constant when used as one).
     param_bare: Vec<bool>,
+    /// Params that `when` lines assign.
+    varying: HashSet<&'a str>,
+    /// Reaction labels and where they are declared.
+    pub(super) labels: HashMap<String, Span>,
 }
 
 /// The name the reports give the grid's time axis, beside the species' names.
 pub const GRID_TIME: &str = "time";
 
 impl<'a> Compiler<'a> {
-    fn diag(&self, span: Span, msg: impl Into<String>) -> Diagnostic {
+    pub(super) fn diag(&self, span: Span, msg: impl Into<String>) -> Diagnostic {
         Diagnostic::at(&self.ast.file, &self.ast.source, span, msg)
     }
 
-    fn error(&mut self, span: Span, msg: impl Into<String>) {
+    pub(super) fn error(&mut self, span: Span, msg: impl Into<String>) {
         let d = self.diag(span, msg);
         self.errors.push(d);
     }
 
-    fn error_help(&mut self, span: Span, msg: impl Into<String>, help: impl Into<String>) {
+    pub(super) fn error_help(
+        &mut self,
+        span: Span,
+        msg: impl Into<String>,
+        help: impl Into<String>,
+    ) {
         let d = self.diag(span, msg).with_help(help);
         self.errors.push(d);
     }
 
     /// The literal's value after any override for `name`.
-    fn overridden(&mut self, name: &str, lit: &Literal) -> Quantity {
+    pub(super) fn overridden(&mut self, name: &str, lit: &Literal) -> Quantity {
         match self.overrides.get(name) {
             None => lit.quantity,
             Some(Override::Bare(v)) => Quantity::new(v * lit.unit_factor, lit.quantity.dim),
@@ -191,20 +235,57 @@ impl<'a> Compiler<'a> {
         }
     }
 
+    /// `volume` (one compartment called `volume`) or `compartment` lines: their sizes, Ω and
+    /// the reference Ω.
     fn volume(&mut self) {
-        let mut seen: Option<Span> = None;
+        let mut volume_seen: Option<Span> = None;
+        let mut named_seen: Option<Span> = None;
+        let mut file_first: Option<f64> = None;
         for item in &self.ast.items {
-            let Item::Volume(lit) = item else { continue };
-            if let Some(first) = seen {
+            let (name, lit) = match item {
+                Item::Volume(lit) => {
+                    if let Some(first) = volume_seen {
+                        self.error_help(
+                            lit.span,
+                            "the volume is set twice",
+                            format!(
+                                "the first `volume` is on line {}; for several volumes declare \
+                                 compartments: `compartment plasma = 3 L`",
+                                first.line
+                            ),
+                        );
+                        continue;
+                    }
+                    volume_seen = Some(lit.span);
+                    ("volume", lit)
+                }
+                Item::Compartment { name, size } => {
+                    named_seen.get_or_insert(name.span);
+                    if self.names.contains_key(name.text.as_str()) {
+                        self.error(name.span, format!("`{}` is declared twice", name.text));
+                        continue;
+                    }
+                    if name.text == GRID_TIME {
+                        self.error(
+                            name.span,
+                            "`time` is the clock in expressions and cannot name a compartment",
+                        );
+                        continue;
+                    }
+                    (name.text.as_str(), size)
+                }
+                _ => continue,
+            };
+            if let (Some(v), Some(n)) = (volume_seen, named_seen) {
+                let span = if v.line > n.line { v } else { n };
                 self.error_help(
-                    lit.span,
-                    "the volume is set twice",
-                    format!("the first `volume` is on line {}", first.line),
+                    span,
+                    "a network has either one `volume` or `compartment` lines, not both",
+                    "write the volume as a compartment: `compartment cell = 1 pL`",
                 );
-                continue;
+                return;
             }
-            seen = Some(lit.span);
-            let q = self.overridden("volume", lit);
+            let q = self.overridden(name, lit);
             if q.dim != Dim::VOLUME {
                 self.error_help(
                     lit.span,
@@ -217,17 +298,116 @@ impl<'a> Compiler<'a> {
                 self.error(lit.span, "the volume must be a positive, finite number");
                 continue;
             }
-            let file_omega = units::omega(q.value);
-            let v = self.overrides.rescale_volume.unwrap_or(q.value);
-            self.volume_l = Some(v);
-            self.omega = units::omega(v);
-            self.count_ratio = self.omega / file_omega;
+            let first = *file_first.get_or_insert(q.value);
+            let ratio = self.overrides.rescale_volume.map_or(1.0, |v| v / first);
+            let v = q.value * ratio;
+            self.count_ratio = ratio;
+            let span = match item {
+                Item::Compartment { name, .. } => name.span,
+                _ => lit.span,
+            };
+            if let Item::Compartment { name, .. } = item {
+                self.names
+                    .insert(&name.text, Named::Compartment(self.compartments.len()));
+            }
+            self.compartments.push(Compartment {
+                name: name.to_string(),
+                size: v,
+                volume_l: Some(v),
+                omega: units::omega(v),
+                span,
+            });
+        }
+        if let Some(c) = self.compartments.first() {
+            self.volume_l = c.volume_l;
+            self.omega = c.omega;
         }
         if self.volume_l.is_none() && self.overrides.rescale_volume.is_some() {
             self.error(
                 Span::new(1, 1, 1),
                 "this network has no volume, so it cannot be run at another volume",
             );
+        }
+    }
+
+    /// The params some `when` line assigns: they vary during a run.
+    fn varying_params(&mut self) {
+        let ast = self.ast;
+        for item in &ast.items {
+            if let Item::When(w) = item {
+                for a in &w.assignments {
+                    self.varying.insert(a.target.text.as_str());
+                }
+            }
+        }
+    }
+
+    /// Ω of compartment `c` (the reference Ω without one).
+    pub(super) fn omega_of(&self, c: Option<usize>) -> f64 {
+        c.map_or(self.omega, |c| self.compartments[c].omega)
+    }
+
+    /// How programs see the names declared so far.
+    pub(super) fn resolved(&self, name: &str) -> Option<Resolved> {
+        if name == GRID_TIME {
+            return Some(Resolved::Time);
+        }
+        match self.names.get(name)? {
+            Named::Species(i) => {
+                let s = &self.species[*i];
+                Some(match s.reads_as {
+                    Reading::Concentration => Resolved::Species {
+                        index: *i,
+                        scale: 1.0 / self.omega_of(s.compartment),
+                        dim: Dim::CONC,
+                    },
+                    Reading::Amount => Resolved::Species {
+                        index: *i,
+                        scale: 1.0,
+                        dim: Dim::COUNT,
+                    },
+                })
+            }
+            Named::Param(i) => {
+                let p = &self.params[*i];
+                Some(if p.varies {
+                    Resolved::Param {
+                        index: *i,
+                        dim: p.value.dim,
+                    }
+                } else {
+                    Resolved::Constant(p.value)
+                })
+            }
+            Named::Compartment(c) => Some(Resolved::Constant(Quantity::new(
+                self.compartments[*c].size,
+                Dim::VOLUME,
+            ))),
+        }
+    }
+
+    /// Compiles an expression of the file at `e` with the `.crn` checks.
+    pub(super) fn program(&mut self, e: &parser::Expr) -> Option<expr::Law> {
+        let span = e.span();
+        let line = self
+            .ast
+            .source
+            .lines()
+            .nth(span.line as usize - 1)
+            .unwrap_or("");
+        let text: String = line
+            .chars()
+            .skip(span.col as usize - 1)
+            .take(span.len as usize)
+            .collect();
+        let resolve = |n: &str| self.resolved(n);
+        let checks = Checks::crn(self.volume_l.is_none());
+        match expr::compile(e, &text, &resolve, checks) {
+            Ok(l) => Some(l),
+            Err(le) => {
+                self.error(le.span, le.message);
+                None
+            }
         }
     }
 
@@ -242,17 +422,19 @@ impl<'a> Compiler<'a> {
                 let prev_line = match *prev {
                     Named::Species(i) => self.species[i].span.line,
                     Named::Param(i) => self.params[i].span.line,
+                    Named::Compartment(c) => self.compartments[c].span.line,
                 };
                 self.error_help(
                     span,
                     format!("`{}` is declared twice", name.text),
-                    format!("the first declaration is on line {prev_line}; species and params share one set of names"),
+                    format!("the first declaration is on line {prev_line}; species, params and compartments share one set of names"),
                 );
                 continue;
             }
             match item {
                 Item::Species {
                     name,
+                    compartment,
                     amount,
                     clamped,
                 } => {
@@ -264,17 +446,32 @@ impl<'a> Compiler<'a> {
                             "rename the species, for example `time_` or `T`",
                         );
                     }
-                    let initial = self.initial_count(&name.text, amount);
+                    let compartment = self.species_compartment(name, compartment.as_ref());
+                    let omega = self.omega_of(compartment);
+                    let initial = self.initial_count(&name.text, amount, omega);
                     self.names
                         .insert(&name.text, Named::Species(self.species.len()));
                     self.species.push(Species {
                         name: name.text.clone(),
                         initial,
+                        initial_amount: initial as f64,
                         clamped: *clamped,
+                        compartment,
+                        reads_as: if compartment.is_some() {
+                            Reading::Concentration
+                        } else {
+                            Reading::Amount
+                        },
                         span: name.span,
                     });
                 }
                 Item::Param { name, value } => {
+                    if name.text == GRID_TIME {
+                        self.error(
+                            name.span,
+                            "`time` is the clock in expressions and cannot name a param",
+                        );
+                    }
                     let mut q = self.overridden(&name.text, value);
                     if !q.value.is_finite() {
                         self.error(
@@ -289,6 +486,7 @@ impl<'a> Compiler<'a> {
                     self.params.push(Param {
                         name: name.text.clone(),
                         value: q,
+                        varies: self.varying.contains(name.text.as_str()),
                         span: name.span,
                     });
                 }
@@ -297,9 +495,51 @@ impl<'a> Compiler<'a> {
         }
     }
 
+    /// The compartment a species sits in: the one it names, or the only one there is.
+    fn species_compartment(
+        &mut self,
+        name: &parser::Name,
+        given: Option<&parser::Name>,
+    ) -> Option<usize> {
+        match given {
+            Some(c) => match self.names.get(c.text.as_str()) {
+                Some(Named::Compartment(k)) => Some(*k),
+                _ if c.text == "volume" && !self.compartments.is_empty() => Some(0),
+                _ => {
+                    let known: Vec<&str> =
+                        self.compartments.iter().map(|c| c.name.as_str()).collect();
+                    self.error_help(
+                        c.span,
+                        format!("unknown compartment `{}`", c.text),
+                        if known.is_empty() {
+                            "declare it with `compartment <name> = <volume>`".to_string()
+                        } else {
+                            format!("the compartments are: {}", known.join(", "))
+                        },
+                    );
+                    None
+                }
+            },
+            None if self.compartments.len() > 1 => {
+                self.error_help(
+                    name.span,
+                    format!("say which compartment `{}` is in", name.text),
+                    format!(
+                        "write `species {} in {} = …`; the network has {} compartments",
+                        name.text,
+                        self.compartments[0].name,
+                        self.compartments.len()
+                    ),
+                );
+                Some(0)
+            }
+            None => (!self.compartments.is_empty()).then_some(0),
+        }
+    }
+
     /// Whole molecules from an amount: a count as given, or a concentration times Ω, rounded
     /// (with a warning when rounding moves the value by more than 1 %).
-    fn initial_count(&mut self, name: &str, lit: &Literal) -> i64 {
+    fn initial_count(&mut self, name: &str, lit: &Literal, omega: f64) -> i64 {
         let q = self.overridden(name, lit);
         let exact = if q.dim == Dim::CONC {
             if self.volume_l.is_none() {
@@ -310,7 +550,7 @@ impl<'a> Compiler<'a> {
                 );
                 return 0;
             }
-            q.value * self.omega
+            q.value * omega
         } else if q.dim == Dim::COUNT || q.dim.is_none() {
             if q.value.fract() != 0.0 && self.count_ratio == 1.0 {
                 self.error_help(
@@ -366,7 +606,6 @@ impl<'a> Compiler<'a> {
     fn steps(&mut self) -> Vec<Reaction> {
         let ast = self.ast;
         let mut reactions = Vec::new();
-        let mut labels: HashMap<String, Span> = HashMap::new();
         for item in &ast.items {
             let Item::Step(step) = item else { continue };
             let mut own = vec![step.label.text.clone()];
@@ -375,7 +614,7 @@ impl<'a> Compiler<'a> {
             }
             let mut clash = false;
             for l in &own {
-                if let Some(prev) = labels.get(l) {
+                if let Some(prev) = self.labels.get(l) {
                     let line = prev.line;
                     self.error_help(
                         step.label.span,
@@ -389,35 +628,106 @@ impl<'a> Compiler<'a> {
                 continue;
             }
             for l in own {
-                labels.insert(l, step.label.span);
+                self.labels.insert(l, step.label.span);
             }
             let (Some(lhs), Some(rhs)) = (self.side(&step.reactants), self.side(&step.products))
             else {
                 continue;
             };
-            let forward = self.kinetics(step, &lhs, &step.forward, None);
-            let reverse = step
-                .reverse
-                .as_ref()
-                .map(|r| self.kinetics(step, &rhs, r, Some((&forward, &lhs))));
+            let Some(fwd_comp) = self.reaction_compartment(step, &lhs, &rhs, false) else {
+                continue;
+            };
+            let forward = self.kinetics(step, &lhs, &step.forward, None, fwd_comp);
+            let reverse = match &step.reverse {
+                Some(r) => {
+                    let Some(rev_comp) = self.reaction_compartment(step, &rhs, &lhs, true) else {
+                        continue;
+                    };
+                    Some((
+                        self.kinetics(step, &rhs, r, Some((&forward, &lhs)), rev_comp),
+                        rev_comp,
+                    ))
+                }
+                None => None,
+            };
             if let Some(k) = forward {
-                reactions.push(self.reaction(step.label.text.clone(), &lhs, &rhs, k, step.span));
+                let label = step.label.text.clone();
+                reactions.push(self.reaction(label, &lhs, &rhs, k, step.span, fwd_comp));
             }
-            if let Some(Some(k)) = reverse {
+            if let Some((Some(k), comp)) = reverse {
                 let label = format!("{}_rev", step.label.text);
-                reactions.push(self.reaction(label, &rhs, &lhs, k, step.span));
+                reactions.push(self.reaction(label, &rhs, &lhs, k, step.span, comp));
             }
         }
         reactions
     }
 
-    fn reaction(
+    /// The compartment a reaction's concentrations refer to: its reactants' (which must share
+    /// one), or for order 0 its products' (which must share one); `None` without
+    /// compartments. The outer `None` is an error, already reported.
+    fn reaction_compartment(
+        &mut self,
+        step: &Step,
+        reactants: &[(usize, u32)],
+        products: &[(usize, u32)],
+        reverse: bool,
+    ) -> Option<Option<usize>> {
+        if self.compartments.is_empty() {
+            return Some(None);
+        }
+        let comp = |i: usize| self.species[i].compartment;
+        let (side, which) = if reactants.is_empty() {
+            (products, "products")
+        } else {
+            (reactants, "reactants")
+        };
+        let Some(&(first, _)) = side.first() else {
+            return Some(Some(0));
+        };
+        if let Some(&(other, _)) = side.iter().find(|&&(i, _)| comp(i) != comp(first)) {
+            let name = |i: usize| {
+                let s = &self.species[i];
+                let c = s
+                    .compartment
+                    .map_or("-", |c| self.compartments[c].name.as_str());
+                format!("`{}` in {c}", s.name)
+            };
+            let (a, b) = (name(first), name(other));
+            let span = side_span(step, reverse);
+            if which == "reactants" {
+                self.error_help(
+                    span,
+                    format!(
+                        "the reactants of step `{}` sit in different compartments ({a}, {b})",
+                        step.label.text
+                    ),
+                    "a reaction between compartments (membrane binding) is not supported; \
+                     move one species across with a first-order transport step first",
+                );
+            } else {
+                self.error_help(
+                    step.label.span,
+                    format!(
+                        "the products of zero-order step `{}` sit in different compartments \
+                         ({a}, {b}), so its rate has no one volume",
+                        step.label.text
+                    ),
+                    "split it into one step per compartment",
+                );
+            }
+            return None;
+        }
+        Some(comp(first))
+    }
+
+    pub(super) fn reaction(
         &self,
         label: String,
         reactants: &[(usize, u32)],
         products: &[(usize, u32)],
         kinetics: Kinetics,
         span: Span,
+        compartment: Option<usize>,
     ) -> Reaction {
         let mut net: Vec<(usize, i64)> = Vec::new();
         for &(i, n) in reactants {
@@ -431,12 +741,19 @@ impl<'a> Compiler<'a> {
         }
         net.retain(|&(i, d)| d != 0 && !self.species[i].clamped);
         net.sort_unstable();
+        let order: u32 = reactants.iter().map(|r| r.1).sum();
+        let transport = order == 1
+            && products
+                .iter()
+                .any(|&(i, _)| self.species[i].compartment != compartment);
         Reaction {
             label,
             reactants: reactants.to_vec(),
             products: products.to_vec(),
             kinetics,
             change: net,
+            compartment,
+            transport,
             span,
         }
     }
@@ -451,10 +768,14 @@ impl<'a> Compiler<'a> {
                     Some(e) => e.1 += t.coefficient,
                     None => out.push((*i, t.coefficient)),
                 },
-                Some(Named::Param(_)) => {
+                Some(other) => {
+                    let what = match other {
+                        Named::Param(_) => "a param",
+                        _ => "a compartment",
+                    };
                     self.error(
                         t.species.span,
-                        format!("`{}` is a param, not a species", t.species.text),
+                        format!("`{}` is {what}, not a species", t.species.text),
                     );
                     ok = false;
                 }
@@ -472,7 +793,7 @@ impl<'a> Compiler<'a> {
     }
 
     /// A constant operand's value, and whether it was written without a unit.
-    fn operand(&mut self, op: &Operand) -> Option<(Quantity, bool)> {
+    pub(super) fn operand(&mut self, op: &Operand) -> Option<(Quantity, bool)> {
         match op {
             Operand::Literal(l) => {
                 let mut q = l.quantity;
@@ -485,12 +806,16 @@ impl<'a> Compiler<'a> {
                     self.error_help(
                         name.span,
                         format!(
-                            "`{}` is a species; a rate here is a param or a number",
+                            "`{}` is a species; a value here is a param or a number",
                             name.text
                         ),
-                        "to make the rate depend on a species, write `law <expression>`",
+                        "to make a rate depend on a species, write `law <expression>`",
                     );
                     None
+                }
+                Some(Named::Compartment(c)) => {
+                    let v = self.compartments[*c].size;
+                    Some((Quantity::new(v, Dim::VOLUME), false))
                 }
                 None => {
                     self.error_help(
@@ -504,23 +829,102 @@ impl<'a> Compiler<'a> {
         }
     }
 
+    /// The varying param an operand names, if it names one.
+    pub(super) fn varying_param(&self, op: &Operand) -> Option<usize> {
+        let Operand::Param(name) = op else {
+            return None;
+        };
+        match self.names.get(name.text.as_str()) {
+            Some(Named::Param(i)) if self.params[*i].varies => Some(*i),
+            _ => None,
+        }
+    }
+
     fn kinetics(
         &mut self,
         step: &Step,
         reactants: &[(usize, u32)],
         rate: &Rate,
         forward: Option<Forward>,
+        comp: Option<usize>,
     ) -> Option<Kinetics> {
         let coeffs: Vec<u32> = reactants.iter().map(|r| r.1).collect();
         let order: u32 = coeffs.iter().sum();
         let side_span = side_span(step, forward.is_some());
+        let omega = self.omega_of(comp);
         match rate {
-            Rate::Law(e) => self.law(e, step),
+            Rate::Law(e) => self.law(e, step, omega),
             Rate::Constant(op) => {
                 let (q, bare) = self.operand(op)?;
-                self.mass_action(q, bare, &coeffs, order, op.span(), side_span)
+                let k = self.mass_action(q, bare, &coeffs, order, op.span(), side_span, omega)?;
+                self.follow(k, op, |c| {
+                    c.mass_action(
+                        Quantity::new(1.0, q.dim),
+                        bare,
+                        &coeffs,
+                        order,
+                        op.span(),
+                        side_span,
+                        omega,
+                    )
+                })
+            }
+            Rate::Clearance(op, kw) => {
+                let (q, _) = self.operand(op)?;
+                if order != 1 {
+                    self.error_help(
+                        kw.to(op.span()),
+                        format!("`clearance` is for first-order steps; this one has order {order}"),
+                        "a clearance CL gives k = CL / V of the reactant's compartment",
+                    );
+                    return None;
+                }
+                let Some(v) = comp.and_then(|c| self.compartments[c].volume_l) else {
+                    self.error_help(
+                        kw.to(op.span()),
+                        "a clearance needs the volume of the reactant's compartment",
+                        "add a `volume` or `compartment` line, or give the rate constant",
+                    );
+                    return None;
+                };
+                let want = Dim::VOLUME.per(Dim::TIME);
+                if q.dim != want || !(q.value >= 0.0 && q.value.is_finite()) {
+                    self.error_help(
+                        op.span(),
+                        format!(
+                            "a clearance is a volume per time, at least 0, but this is {} {}",
+                            q.value, q.dim
+                        ),
+                        "write e.g. `clearance 5 L/h`",
+                    );
+                    return None;
+                }
+                let k = q.value / v;
+                self.follow(
+                    Kinetics::MassAction {
+                        k,
+                        c: k,
+                        follows: None,
+                    },
+                    op,
+                    |_| {
+                        Some(Kinetics::MassAction {
+                            k: 1.0 / v,
+                            c: 1.0 / v,
+                            follows: None,
+                        })
+                    },
+                )
             }
             Rate::HalfLife(op, kw) => {
+                if self.varying_param(op).is_some() {
+                    self.error(
+                        op.span(),
+                        "a half-life cannot be a param that events change; give the rate \
+                         constant (k = ln 2 / half-life) as that param instead",
+                    );
+                    return None;
+                }
                 let (q, _) = self.operand(op)?;
                 if order != 1 {
                     self.error_help(
@@ -542,14 +946,31 @@ impl<'a> Compiler<'a> {
                     return None;
                 }
                 let k = std::f64::consts::LN_2 / q.value;
-                Some(Kinetics::MassAction { k, c: k })
+                Some(Kinetics::MassAction {
+                    k,
+                    c: k,
+                    follows: None,
+                })
             }
             Rate::Kd(op, _) => {
+                if self.varying_param(op).is_some() {
+                    self.error(op.span(), "a `kd` cannot be a param that events change");
+                    return None;
+                }
                 let (q, bare) = self.operand(op)?;
                 let (fwd, fwd_reactants) = forward.expect("parser allows kd only in reverse");
                 let fwd_order: u32 = fwd_reactants.iter().map(|r| r.1).sum();
                 let k_fwd = match fwd {
-                    Some(Kinetics::MassAction { k, .. }) => *k,
+                    Some(Kinetics::MassAction {
+                        k, follows: None, ..
+                    }) => *k,
+                    Some(Kinetics::MassAction { .. }) => {
+                        self.error(
+                            op.span(),
+                            "`kd` needs a forward rate constant that events do not change",
+                        );
+                        return None;
+                    }
                     Some(Kinetics::Law { .. }) => {
                         self.error(
                             op.span(),
@@ -564,27 +985,32 @@ impl<'a> Compiler<'a> {
                     self.order_error(order, side_span);
                     return None;
                 }
-                let kd_molar =
-                    if q.dim == Dim::CONC.powi(dm) && !bare && self.volume_l.is_some() {
-                        q.value
-                    } else if bare
-                        || q.dim == Dim::COUNT.powi(dm)
-                        || (self.volume_l.is_none() && q.dim.without_count().is_none())
-                    {
-                        q.value / self.omega.powi(dm)
-                    } else {
-                        let want = Dim::CONC.powi(dm);
-                        self.error_help(
+                let kd_molar = if q.dim == Dim::CONC.powi(dm) && !bare && self.volume_l.is_some() {
+                    q.value
+                } else if bare
+                    || q.dim == Dim::COUNT.powi(dm)
+                    || (self.volume_l.is_none() && q.dim.without_count().is_none())
+                {
+                    q.value / omega.powi(dm)
+                } else if self.volume_l.is_none() && q.dim.conc != 0 {
+                    self.error_help(
+                            op.span(),
+                            "this `kd` is given in concentration units, but the network has no volume to turn them into molecules",
+                            "add a `volume` line (or compartments), or give kd in molecules, e.g. `kd 3000 molecules`",
+                        );
+                    return None;
+                } else {
+                    let want = Dim::CONC.powi(dm);
+                    self.error_help(
                         op.span(),
-                        format!("this `kd` should have dimension {want}, but it has {}", q.dim),
-                        if self.volume_l.is_none() && q.dim.conc != 0 {
-                            "concentrations need a `volume` line; without one give kd in molecules"
-                        } else {
-                            "K_d of A + B <-> C is a concentration, e.g. `kd 3 nM`"
-                        },
+                        format!(
+                            "this `kd` should have dimension {want}, but it has {}",
+                            q.dim
+                        ),
+                        "K_d of A + B <-> C is a concentration, e.g. `kd 3 nM`",
                     );
-                        return None;
-                    };
+                    return None;
+                };
                 if !(kd_molar >= 0.0 && kd_molar.is_finite()) {
                     self.error(
                         op.span(),
@@ -593,10 +1019,42 @@ impl<'a> Compiler<'a> {
                     return None;
                 }
                 let k = k_fwd * kd_molar.powi(dm);
-                let c = units::stochastic_constant(k, &coeffs, self.omega);
-                Some(Kinetics::MassAction { k, c })
+                let c = units::stochastic_constant(k, &coeffs, omega);
+                Some(Kinetics::MassAction {
+                    k,
+                    c,
+                    follows: None,
+                })
             }
         }
+    }
+
+    /// A mass-action constant written as a param that events change follows it: `per_unit`
+    /// gives the kinetics for a param value of 1 (every form here is linear in it).
+    fn follow(
+        &mut self,
+        kinetics: Kinetics,
+        op: &Operand,
+        per_unit: impl FnOnce(&mut Self) -> Option<Kinetics>,
+    ) -> Option<Kinetics> {
+        let Some(p) = self.varying_param(op) else {
+            return Some(kinetics);
+        };
+        let Some(Kinetics::MassAction { k, c, .. }) = per_unit(self) else {
+            return Some(kinetics);
+        };
+        let Kinetics::MassAction { k: k0, c: c0, .. } = kinetics else {
+            return Some(kinetics);
+        };
+        Some(Kinetics::MassAction {
+            k: k0,
+            c: c0,
+            follows: Some(Follows {
+                param: p,
+                k_per_value: k,
+                c_per_value: c,
+            }),
+        })
     }
 
     fn order_error(&mut self, order: u32, span: Span) {
@@ -607,6 +1065,7 @@ impl<'a> Compiler<'a> {
         );
     }
 
+    #[allow(clippy::too_many_arguments)]
     fn mass_action(
         &mut self,
         q: Quantity,
@@ -615,6 +1074,7 @@ impl<'a> Compiler<'a> {
         order: u32,
         span: Span,
         side: Span,
+        omega: f64,
     ) -> Option<Kinetics> {
         if order > 3 {
             self.order_error(order, side);
@@ -652,7 +1112,8 @@ impl<'a> Compiler<'a> {
             let k = q.value;
             return Some(Kinetics::MassAction {
                 k,
-                c: units::stochastic_constant(k, coeffs, self.omega),
+                c: units::stochastic_constant(k, coeffs, omega),
+                follows: None,
             });
         }
         if bare || normalise(q.dim) == normalise(count) {
@@ -662,8 +1123,9 @@ impl<'a> Compiler<'a> {
                 q.value
             };
             return Some(Kinetics::MassAction {
-                k: units::macroscopic_constant(c, coeffs, self.omega),
+                k: units::macroscopic_constant(c, coeffs, omega),
                 c,
+                follows: None,
             });
         }
         let example = ["nM/s", "/s", "/M/s", "/M^2/s"][order as usize];
@@ -678,39 +1140,26 @@ impl<'a> Compiler<'a> {
         None
     }
 
-    fn law(&mut self, e: &parser::Expr, step: &Step) -> Option<Kinetics> {
+    fn law(&mut self, e: &parser::Expr, step: &Step, omega: f64) -> Option<Kinetics> {
         let span = e.span();
-        let line = self
-            .ast
-            .source
-            .lines()
-            .nth(span.line as usize - 1)
-            .unwrap_or("");
-        let text: String = line
-            .chars()
-            .skip(span.col as usize - 1)
-            .take(span.len as usize)
-            .collect();
-        let names = &self.names;
-        let params = &self.params;
-        let resolve = |n: &str| match names.get(n) {
-            Some(Named::Species(i)) => Some(Resolved::Species(*i)),
-            Some(Named::Param(i)) => Some(Resolved::Param(params[*i].value)),
-            None => None,
-        };
+        let law = self.program(e)?;
+        if law.boolean {
+            self.error_help(
+                span,
+                format!(
+                    "the rate law of step `{}` is a condition, not a rate",
+                    step.label.text
+                ),
+                "multiply it by a rate: `law vmax * (X > 5 nM)`",
+            );
+            return None;
+        }
         let no_volume = self.volume_l.is_none();
-        let law = match expr::compile(e, &text, &resolve, no_volume) {
-            Ok(l) => l,
-            Err(le) => {
-                self.error(le.span, le.message);
-                return None;
-            }
-        };
         let d = law.dim;
         let scale = if no_volume && (d == Dim::new(0, -1, 0, 0) || d.is_none()) {
             1.0
         } else if !no_volume && d == Dim::new(1, -1, 0, 0) {
-            self.omega
+            omega
         } else if !no_volume && d == Dim::new(0, -1, 1, 0) {
             1.0
         } else {

@@ -25,6 +25,11 @@ pub enum Tok {
     Comma,
     At,
     Eq,
+    Colon,
+    Lt,
+    Le,
+    Gt,
+    Ge,
 }
 
 impl Tok {
@@ -45,6 +50,11 @@ impl Tok {
             Tok::Comma => "`,`".into(),
             Tok::At => "`@`".into(),
             Tok::Eq => "`=`".into(),
+            Tok::Colon => "`:`".into(),
+            Tok::Lt => "`<`".into(),
+            Tok::Le => "`<=`".into(),
+            Tok::Gt => "`>`".into(),
+            Tok::Ge => "`>=`".into(),
         }
     }
 }
@@ -99,6 +109,7 @@ pub fn lex_line(text: &str, line: u32) -> Result<Vec<Token>, LexError> {
             ',' => Some(Tok::Comma),
             '@' => Some(Tok::At),
             '=' => Some(Tok::Eq),
+            ':' => Some(Tok::Colon),
             _ => None,
         };
         if let Some(tok) = single {
@@ -134,10 +145,32 @@ pub fn lex_line(text: &str, line: u32) -> Result<Vec<Token>, LexError> {
                 });
                 continue;
             }
-            return Err(LexError {
-                span: span(start, start + 1),
-                message: "unexpected `<`; a reversible step is written `<->`".into(),
+            let tok = if chars.get(i + 1) == Some(&'=') {
+                i += 2;
+                Tok::Le
+            } else {
+                i += 1;
+                Tok::Lt
+            };
+            out.push(Token {
+                tok,
+                span: span(start, i),
             });
+            continue;
+        }
+        if c == '>' {
+            let tok = if chars.get(i + 1) == Some(&'=') {
+                i += 2;
+                Tok::Ge
+            } else {
+                i += 1;
+                Tok::Gt
+            };
+            out.push(Token {
+                tok,
+                span: span(start, i),
+            });
+            continue;
         }
         if c.is_ascii_digit() || (c == '.' && chars.get(i + 1).is_some_and(|d| d.is_ascii_digit()))
         {
@@ -252,6 +285,30 @@ mod tests {
     #[test]
     fn micro_sign_units() {
         assert_eq!(toks("3 µM")[1], Tok::Ident("µM".into()));
+    }
+
+    #[test]
+    fn comparisons_and_colon() {
+        assert_eq!(
+            toks("when X >= 3 : X = 0, Y < 2 <= > <->"),
+            vec![
+                Tok::Ident("when".into()),
+                Tok::Ident("X".into()),
+                Tok::Ge,
+                Tok::Number(3.0, "3".into()),
+                Tok::Colon,
+                Tok::Ident("X".into()),
+                Tok::Eq,
+                Tok::Number(0.0, "0".into()),
+                Tok::Comma,
+                Tok::Ident("Y".into()),
+                Tok::Lt,
+                Tok::Number(2.0, "2".into()),
+                Tok::Le,
+                Tok::Gt,
+                Tok::BiArrow,
+            ]
+        );
     }
 
     #[test]

@@ -1,11 +1,15 @@
 //! Text → syntax tree for the `.crn` network language (CONTRACT §1).
 //!
 //! ```text
-//! volume   <number> <volume-unit>
-//! species  <name> = <amount> [clamped]
-//! param    <name> = <number> [<unit>]
+//! volume      <number> <volume-unit>
+//! compartment <name> = <number> <volume-unit>
+//! species     <name> [in <compartment>] = <amount> [clamped]
+//! param       <name> = <number> [<unit>]
 //! step <label> <side> -> <side>  @ <rate>
 //! step <label> <side> <-> <side> @ <rate>, <rate>
+//! dose   <species> += <amount> at <time> [every <time>] [until <time> | times <n>]
+//! infuse <species> at <rate> from <time> to <time>
+//! when   <condition> : <name> = <expr>, <name> += <expr>, … [at start]
 //! ```
 //!
 //! Every node keeps its [`Span`] so the compiler can point at it. Numbers with units are turned
@@ -46,8 +50,14 @@ pub struct Literal {
 #[derive(Clone, Debug, PartialEq)]
 pub enum Item {
     Volume(Literal),
+    Compartment {
+        name: Name,
+        size: Literal,
+    },
     Species {
         name: Name,
+        /// `in <compartment>`.
+        compartment: Option<Name>,
         amount: Literal,
         clamped: bool,
     },
@@ -56,6 +66,58 @@ pub enum Item {
         value: Literal,
     },
     Step(Step),
+    Dose(Dose),
+    Infuse(Infuse),
+    When(When),
+}
+
+/// `dose <species> += <amount> at <time> [every <time>] [until <time> | times <n>]`.
+#[derive(Clone, Debug, PartialEq)]
+pub struct Dose {
+    pub species: Name,
+    pub amount: Operand,
+    pub at: Operand,
+    pub every: Option<Operand>,
+    pub end: Option<DoseEnd>,
+    pub span: Span,
+}
+
+/// How a repeated dose ends.
+#[derive(Clone, Debug, PartialEq)]
+pub enum DoseEnd {
+    /// `until <time>`: the last dose is the last one at or before this time.
+    Until(Operand),
+    /// `times <n>`: n doses in all.
+    Times(Operand),
+}
+
+/// `infuse <species> at <rate> from <time> to <time>`.
+#[derive(Clone, Debug, PartialEq)]
+pub struct Infuse {
+    pub species: Name,
+    pub rate: Operand,
+    pub from: Operand,
+    pub to: Operand,
+    pub span: Span,
+}
+
+/// `when <condition> : <assignments> [at start]`.
+#[derive(Clone, Debug, PartialEq)]
+pub struct When {
+    pub condition: Expr,
+    pub assignments: Vec<Assign>,
+    /// `at start`: fire at t = 0 when the condition holds then.
+    pub at_start: bool,
+    pub span: Span,
+}
+
+/// `<name> = <expr>` or `<name> += <expr>`.
+#[derive(Clone, Debug, PartialEq)]
+pub struct Assign {
+    pub target: Name,
+    pub add: bool,
+    pub value: Expr,
+    pub span: Span,
 }
 
 #[derive(Clone, Debug, PartialEq)]
@@ -101,6 +163,9 @@ pub enum Rate {
     HalfLife(Operand, Span),
     /// `kd <concentration>` on the reverse of a `<->` step: k_rev = k_fwd·K_d.
     Kd(Operand, Span),
+    /// `clearance <volume/time>` on a first-order step: k = CL / V of its reactant's
+    /// compartment.
+    Clearance(Operand, Span),
     /// `law <expr>`: the reaction's whole rate.
     Law(Expr),
 }
@@ -112,6 +177,12 @@ pub enum BinOp {
     Mul,
     Div,
     Pow,
+    Lt,
+    Le,
+    Gt,
+    Ge,
+    And,
+    Or,
 }
 
 #[derive(Clone, Debug, PartialEq)]
@@ -121,6 +192,45 @@ pub enum Expr {
     Neg(Box<Expr>, Span),
     Binary(BinOp, Box<Expr>, Box<Expr>, Span),
     Call(Name, Vec<Expr>, Span),
+}
+
+/// Dropping a tree takes its subtrees out onto a list first: a chain `a + b + c …` is a tree
+/// as deep as it is long, and the derived drop would follow it down the stack.
+impl Drop for Expr {
+    fn drop(&mut self) {
+        fn take(e: &mut Expr, out: &mut Vec<Expr>) {
+            let hole = || {
+                Expr::Name(Name {
+                    text: String::new(),
+                    span: Span::new(0, 0, 0),
+                })
+            };
+            match e {
+                Expr::Neg(a, _) => out.push(std::mem::replace(&mut **a, hole())),
+                Expr::Binary(_, a, b, _) => {
+                    out.push(std::mem::replace(&mut **a, hole()));
+                    out.push(std::mem::replace(&mut **b, hole()));
+                }
+                Expr::Call(_, args, _) => out.append(args),
+                Expr::Number(_) | Expr::Name(_) => {}
+            }
+        }
+        let leaf = |e: &Expr| matches!(e, Expr::Number(_) | Expr::Name(_));
+        let shallow = match self {
+            Expr::Neg(a, _) => leaf(a),
+            Expr::Binary(_, a, b, _) => leaf(a) && leaf(b),
+            Expr::Call(_, args, _) => args.iter().all(leaf),
+            Expr::Number(_) | Expr::Name(_) => true,
+        };
+        if shallow {
+            return;
+        }
+        let mut todo = Vec::new();
+        take(self, &mut todo);
+        while let Some(mut e) = todo.pop() {
+            take(&mut e, &mut todo);
+        }
+    }
 }
 
 impl Expr {
@@ -133,16 +243,48 @@ impl Expr {
     }
 }
 
+/// How deeply an expression may nest (see `Parser::check_nesting`).
+pub const MAX_NESTING: u32 = 64;
+
 /// Words with a fixed meaning in the language; they cannot name species, params or steps.
 pub const KEYWORDS: &[&str] = &[
-    "volume", "species", "param", "step", "law", "kd", "half", "life", "clamped",
+    "volume",
+    "species",
+    "param",
+    "step",
+    "law",
+    "kd",
+    "half",
+    "life",
+    "clamped",
+    "clearance",
+    "and",
+    "or",
 ];
+
+/// Words that may follow a number and its unit on a line (they end the unit).
+const AFTER_UNITS: &[&str] = &["at", "every", "until", "times", "from", "to", "start"];
+
+/// The words a line starts with.
+const HEADS: &str =
+    "`volume`, `compartment`, `species`, `param`, `step`, `dose`, `infuse` or `when`";
 
 /// Parsing stops after this many broken lines: the first ones are what the user needs.
 const MAX_ERRORS: usize = 50;
 
 /// Parses a whole file. `bytes` may be anything: invalid UTF-8 is reported with its position.
 pub fn parse(file: &str, bytes: &[u8]) -> Result<Ast, Vec<Diagnostic>> {
+    // A UTF-8 byte-order mark (which some editors write) is not part of the text.
+    let bytes = bytes.strip_prefix(b"\xEF\xBB\xBF").unwrap_or(bytes);
+    if bytes.starts_with(b"\xFF\xFE") || bytes.starts_with(b"\xFE\xFF") {
+        return Err(vec![Diagnostic::at(
+            file,
+            "",
+            Span::new(1, 1, 1),
+            "this file is UTF-16 text, not UTF-8",
+        )
+        .with_help("save it as UTF-8 (plain text)")]);
+    }
     let source = match std::str::from_utf8(bytes) {
         Ok(s) => s.to_string(),
         Err(e) => {
@@ -262,6 +404,14 @@ impl<'a> LineParser<'a> {
         t
     }
 
+    /// The span of the last token consumed (the current one before any is).
+    fn last(&self) -> Span {
+        match self.pos.checked_sub(1).and_then(|k| self.tokens.get(k)) {
+            Some(t) => t.span,
+            None => self.here(),
+        }
+    }
+
     fn here(&self) -> Span {
         match self.peek() {
             Some(t) => t.span,
@@ -323,9 +473,26 @@ impl<'a> LineParser<'a> {
                 let lit = self.literal("a volume such as `1 pL`")?;
                 Item::Volume(lit)
             }
+            "compartment" => {
+                let name = self.declared_name("a compartment name")?;
+                self.expect(&Tok::Eq, "`=` after the compartment name")?;
+                let size = self.literal("a volume such as `3 L`")?;
+                Item::Compartment { name, size }
+            }
             "species" => {
                 let name = self.declared_name("a species name")?;
-                self.expect(&Tok::Eq, "`=` after the species name")?;
+                let compartment = if self.at_ident("in") {
+                    self.pos += 1;
+                    Some(self.name_ref("the name of a compartment")?)
+                } else {
+                    None
+                };
+                let eq_what = if compartment.is_some() {
+                    "`=` after the compartment"
+                } else {
+                    "`=` (or `in <compartment>`) after the species name"
+                };
+                self.expect(&Tok::Eq, eq_what)?;
                 let amount = self.literal("an amount such as `500 molecules` or `2 nM`")?;
                 let clamped = if self.at_ident("clamped") {
                     self.pos += 1;
@@ -335,6 +502,7 @@ impl<'a> LineParser<'a> {
                 };
                 Item::Species {
                     name,
+                    compartment,
                     amount,
                     clamped,
                 }
@@ -346,16 +514,16 @@ impl<'a> LineParser<'a> {
                 Item::Param { name, value }
             }
             "step" => Item::Step(self.step(head.span)?),
+            "dose" => Item::Dose(self.dose(head.span)?),
+            "infuse" => Item::Infuse(self.infuse(head.span)?),
+            "when" => Item::When(self.when(head.span)?),
             _ => {
                 return Err(self
                     .error(
                         head.span,
-                        format!(
-                            "expected `volume`, `species`, `param` or `step`, found {}",
-                            head.tok.describe()
-                        ),
+                        format!("expected {HEADS}, found {}", head.tok.describe()),
                     )
-                    .with_help_boxed("each line starts with one of these four words"))
+                    .with_help_boxed("each line starts with one of these words"))
             }
         };
         self.end()?;
@@ -441,6 +609,123 @@ impl<'a> LineParser<'a> {
         })
     }
 
+    fn expect_word(&mut self, word: &str, what: &str) -> PResult<Span> {
+        if self.at_ident(word) {
+            let span = self.here();
+            self.pos += 1;
+            Ok(span)
+        } else {
+            Err(self.expected(what))
+        }
+    }
+
+    fn last_span(&self, head: Span) -> Span {
+        let last = self.tokens[..self.pos.min(self.tokens.len())]
+            .last()
+            .map_or(head, |t| t.span);
+        head.to(last)
+    }
+
+    /// `dose X += <amount> at <time> [every <time>] [until <time> | times <n>]`.
+    fn dose(&mut self, head: Span) -> PResult<Dose> {
+        let species = self.name_ref("the species to dose")?;
+        if !(self.eat(&Tok::Plus) && self.eat(&Tok::Eq)) {
+            return Err(self
+                .expected("`+=` and the amount")
+                .with_help_boxed("a dose reads `dose X += 5 nM at 1 h every 24 h times 7`"));
+        }
+        let amount = self.operand("an amount such as `5 nM` or `300 molecules`")?;
+        self.expect_word("at", "`at` and the time of the (first) dose")?;
+        let at = self.operand("a time such as `1 h`")?;
+        let every = if self.at_ident("every") {
+            self.pos += 1;
+            Some(self.operand("a period such as `24 h`")?)
+        } else {
+            None
+        };
+        let end = if self.at_ident("until") {
+            self.pos += 1;
+            Some(DoseEnd::Until(self.operand("a time such as `7 d`")?))
+        } else if self.at_ident("times") {
+            self.pos += 1;
+            Some(DoseEnd::Times(self.operand("a whole number of doses")?))
+        } else {
+            None
+        };
+        Ok(Dose {
+            species,
+            amount,
+            at,
+            every,
+            end,
+            span: self.last_span(head),
+        })
+    }
+
+    /// `infuse X at <rate> from <time> to <time>`.
+    fn infuse(&mut self, head: Span) -> PResult<Infuse> {
+        let species = self.name_ref("the species to infuse")?;
+        self.expect_word("at", "`at` and the infusion rate")?;
+        let rate = self.operand("a rate such as `2 nM/min` or `100 molecules/s`")?;
+        self.expect_word("from", "`from` and the start of the infusion")?;
+        let from = self.operand("a time such as `1 h`")?;
+        self.expect_word("to", "`to` and the end of the infusion")?;
+        let to = self.operand("a time such as `3 h`")?;
+        Ok(Infuse {
+            species,
+            rate,
+            from,
+            to,
+            span: self.last_span(head),
+        })
+    }
+
+    /// `when <condition> : X = <expr>, Y += <expr>, … [at start]`.
+    fn when(&mut self, head: Span) -> PResult<When> {
+        let condition = self.expr()?;
+        if !self.eat(&Tok::Colon) {
+            return Err(self
+                .expected("`:` and what happens")
+                .with_help_boxed("an event reads `when X >= 100 : X = 0, Y += 5 nM`"));
+        }
+        let mut assignments = Vec::new();
+        loop {
+            let target = self.name_ref("a species or param to set")?;
+            let add = if self.eat(&Tok::Plus) {
+                true
+            } else if self.peek().map(|t| &t.tok) == Some(&Tok::Eq) {
+                false
+            } else {
+                return Err(self.expected("`=` or `+=`"));
+            };
+            self.expect(&Tok::Eq, "`=` after `+`")?;
+            let value = self.expr()?;
+            let span = target.span.to(value.span());
+            assignments.push(Assign {
+                target,
+                add,
+                value,
+                span,
+            });
+            if !self.eat(&Tok::Comma) {
+                break;
+            }
+        }
+        let at_start = if self.at_ident("at") {
+            self.pos += 1;
+            self.expect_word("start", "`start` (the line may end with `at start`)")?;
+            true
+        } else {
+            false
+        };
+        Ok(When {
+            condition,
+            assignments,
+            at_start,
+            span: self.last_span(head),
+        })
+    }
+
     /// `0` or `[n] A + [m] B + …`.
     fn side(&mut self) -> PResult<Vec<Term>> {
         if let Some(Token {
@@ -504,6 +789,14 @@ impl<'a> LineParser<'a> {
             self.pos += 3;
             return Ok(Rate::HalfLife(
                 self.operand("a half-life such as `40 min`")?,
+                span,
+            ));
+        }
+        if self.at_ident("clearance") {
+            let span = self.here();
+            self.pos += 1;
+            return Ok(Rate::Clearance(
+                self.operand("a clearance such as `5 L/h`")?,
                 span,
             ));
         }
@@ -627,7 +920,10 @@ impl<'a> LineParser<'a> {
             span,
         }) = self.peek()
         {
-            if !self.in_expression() && !KEYWORDS.contains(&w.as_str()) {
+            if !self.in_expression()
+                && !KEYWORDS.contains(&w.as_str())
+                && !AFTER_UNITS.contains(&w.as_str())
+            {
                 let msg = if bare {
                     format!("unknown unit `{w}`")
                 } else {
@@ -640,9 +936,12 @@ impl<'a> LineParser<'a> {
     }
 
     fn in_expression(&self) -> bool {
-        self.tokens[..self.pos]
-            .iter()
-            .any(|t| matches!(&t.tok, Tok::Ident(w) if w == "law"))
+        let head_is_when =
+            matches!(self.tokens.first(), Some(Token { tok: Tok::Ident(w), .. }) if w == "when");
+        head_is_when
+            || self.tokens[..self.pos]
+                .iter()
+                .any(|t| matches!(&t.tok, Tok::Ident(w) if w == "law"))
     }
 
     fn unit_text(&self, from: Span, to: Span) -> String {
@@ -659,16 +958,85 @@ impl<'a> LineParser<'a> {
             .to_string()
     }
 
-    // ---- expressions: precedence climbing over + - * / ^ and unary minus ----
+    // ---- expressions: `or` < `and` < comparison < + - < * / < unary minus, ^ ----
 
     fn expr(&mut self) -> PResult<Expr> {
         self.expr_depth(0)
     }
 
     fn expr_depth(&mut self, depth: u32) -> PResult<Expr> {
-        if depth > 64 {
-            return Err(self.error(self.here(), "the expression is nested too deeply"));
+        self.check_nesting(depth)?;
+        self.logic(depth, "or", BinOp::Or)
+    }
+
+    /// Refuses nesting past [`MAX_NESTING`] (parentheses, calls, signs and powers each nest
+    /// one level; chains such as `a + b + c` do not), so that no expression can exhaust the
+    /// stack of the compiler's walks.
+    fn check_nesting(&self, depth: u32) -> PResult<()> {
+        if depth > MAX_NESTING {
+            return Err(self
+                .error(
+                    self.here(),
+                    format!("the expression is nested more than {MAX_NESTING} levels deep here"),
+                )
+                .with_help_boxed(
+                    "parentheses, function calls, `-` signs and `^` powers each nest one level; \
+                     split the expression with params or several steps",
+                ));
         }
+        Ok(())
+    }
+
+    /// `a or b …` (`and` binds tighter: it is parsed one level down).
+    fn logic(&mut self, depth: u32, word: &str, op: BinOp) -> PResult<Expr> {
+        let next = |p: &mut Self| {
+            if op == BinOp::Or {
+                p.logic(depth, "and", BinOp::And)
+            } else {
+                p.comparison(depth)
+            }
+        };
+        // Spans run from the first token to the last (a closing parenthesis included).
+        let start = self.here();
+        let mut lhs = next(self)?;
+        while self.at_ident(word) {
+            self.pos += 1;
+            let rhs = next(self)?;
+            let span = start.to(self.last());
+            lhs = Expr::Binary(op, Box::new(lhs), Box::new(rhs), span);
+        }
+        Ok(lhs)
+    }
+
+    fn comparison_op(&self) -> Option<BinOp> {
+        match self.peek().map(|t| &t.tok) {
+            Some(Tok::Lt) => Some(BinOp::Lt),
+            Some(Tok::Le) => Some(BinOp::Le),
+            Some(Tok::Gt) => Some(BinOp::Gt),
+            Some(Tok::Ge) => Some(BinOp::Ge),
+            _ => None,
+        }
+    }
+
+    fn comparison(&mut self, depth: u32) -> PResult<Expr> {
+        let start = self.here();
+        let lhs = self.sum(depth)?;
+        let Some(op) = self.comparison_op() else {
+            return Ok(lhs);
+        };
+        self.pos += 1;
+        let rhs = self.sum(depth)?;
+        if self.comparison_op().is_some() {
+            return Err(self
+                .error(self.here(), "comparisons cannot be chained")
+                .with_help_boxed("write `a < b and b < c`"));
+        }
+        let span = start.to(self.last());
+        Ok(Expr::Binary(op, Box::new(lhs), Box::new(rhs), span))
+    }
+
+    fn sum(&mut self, depth: u32) -> PResult<Expr> {
+        let start = self.here();
         let mut lhs = self.term_expr(depth)?;
         loop {
             let op = match self.peek().map(|t| &t.tok) {
@@ -678,13 +1046,14 @@ impl<'a> LineParser<'a> {
             };
             self.pos += 1;
             let rhs = self.term_expr(depth)?;
-            let span = lhs.span().to(rhs.span());
+            let span = start.to(self.last());
             lhs = Expr::Binary(op, Box::new(lhs), Box::new(rhs), span);
         }
         Ok(lhs)
     }
 
     fn term_expr(&mut self, depth: u32) -> PResult<Expr> {
+        let start = self.here();
         let mut lhs = self.unary(depth)?;
         loop {
             let op = match self.peek().map(|t| &t.tok) {
@@ -694,25 +1063,27 @@ impl<'a> LineParser<'a> {
             };
             self.pos += 1;
             let rhs = self.unary(depth)?;
-            let span = lhs.span().to(rhs.span());
+            let span = start.to(self.last());
             lhs = Expr::Binary(op, Box::new(lhs), Box::new(rhs), span);
         }
         Ok(lhs)
     }
 
     fn unary(&mut self, depth: u32) -> PResult<Expr> {
+        self.check_nesting(depth)?;
         if let Some(t) = self.peek() {
             if t.tok == Tok::Minus {
                 self.pos += 1;
                 let inner = self.unary(depth + 1)?;
-                let span = t.span.to(inner.span());
+                let span = t.span.to(self.last());
                 return Ok(Expr::Neg(Box::new(inner), span));
             }
         }
+        let start = self.here();
         let base = self.primary(depth)?;
         if self.eat(&Tok::Caret) {
             let exponent = self.unary(depth + 1)?;
-            let span = base.span().to(exponent.span());
+            let span = start.to(self.last());
             return Ok(Expr::Binary(
                 BinOp::Pow,
                 Box::new(base),
@@ -928,7 +1299,7 @@ mod tests {
         let d = err("spieces A = 1\n");
         assert!(d
             .message
-            .contains("expected `volume`, `species`, `param` or `step`"));
+            .contains("expected `volume`, `compartment`, `species`"));
         let d = err("species 1A = 1\n");
         assert!(d.message.contains("expected a species name"));
         let d = err("species law = 1\n");

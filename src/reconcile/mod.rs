@@ -632,7 +632,9 @@ fn motif_report(
     } else {
         0.0
     };
-    let omega = net.volume_l.map(|_| net.omega);
+    // Molar figures in the motif's own compartment: K and the ligand in the binding step's,
+    // the capacity in the output step's.
+    let omega = net.reaction_molar_omega(motif.bind);
     MotifReport {
         motif: m,
         kind: motif.kind,
@@ -643,9 +645,12 @@ fn motif_report(
         k_half_molar: molar(k, omega),
         carrier_total,
         capacity_per_s: motif.c_out * carrier_total,
-        capacity_molar_per_s: molar(motif.c_out * carrier_total, omega),
+        capacity_molar_per_s: molar(
+            motif.c_out * carrier_total,
+            net.reaction_molar_omega(motif.output),
+        ),
         ligand_level,
-        ligand_level_molar: molar(ligand_level, omega),
+        ligand_level_molar: molar(ligand_level, net.species_molar_omega(motif.ligand)),
         ligand_clamped: clamped,
         ligand_free,
         predicted: Predicted {
@@ -730,7 +735,7 @@ fn observation_report(
     } else {
         Vec::new()
     };
-    let omega = net.volume_l.map(|_| net.omega);
+    let omega = net.species_molar_omega(o.species);
     let deterministic = steady.counts[o.species];
     Ok(ObservationReport {
         name: o.name.clone(),

@@ -19,15 +19,16 @@ pub struct Observation {
     pub sd: f64,
 }
 
-/// A quantity as molecules: a concentration times Ω, or a count.
-fn to_count(q: Quantity, net: &Network, what: &str) -> Result<f64, Error> {
+/// A quantity of species `i` as molecules: a concentration times Ω of its compartment, or a
+/// count.
+fn to_count(q: Quantity, net: &Network, i: usize, what: &str) -> Result<f64, Error> {
     if q.dim == Dim::CONC {
-        if net.volume_l.is_none() {
+        let Some(omega) = net.species_molar_omega(i) else {
             return Err(Error::usage(format!(
                 "{what} is a concentration, but the network has no volume; give it in molecules"
             )));
-        }
-        Ok(q.value * net.omega)
+        };
+        Ok(q.value * omega)
     } else if q.dim == Dim::COUNT || q.dim.is_none() {
         Ok(q.value)
     } else {
@@ -72,7 +73,7 @@ pub fn parse_observation(text: &str, net: &Network) -> Result<Observation, Error
         (None, Some((factor, dim))) => (Quantity::new(q.value * factor, dim), Some(factor)),
         other => (q, other.0),
     };
-    let level = to_count(q, net, &format!("the observed value of {name}"))?;
+    let level = to_count(q, net, species, &format!("the observed value of {name}"))?;
     let sd = match sd {
         Some(text) => {
             let (mut s, sd_unit) = parse_quantity(text.trim()).map_err(|e| bad(&e))?;
@@ -80,7 +81,7 @@ pub fn parse_observation(text: &str, net: &Network) -> Result<Observation, Error
             if let (None, Some(factor)) = (sd_unit, unit) {
                 s = Quantity::new(s.value * factor, q.dim);
             }
-            to_count(s, net, &format!("the SD of {name}"))?
+            to_count(s, net, species, &format!("the SD of {name}"))?
         }
         None => 0.0,
     };

@@ -13,13 +13,94 @@ fn coefficients(net: &Network, terms: &[(usize, u32)]) -> Value {
     Value::Object(m)
 }
 
+fn compartment_of(net: &Network, c: Option<usize>) -> Value {
+    json!(c.map(|c| net.compartments[c].name.clone()))
+}
+
+/// `time ≥ T`-style text of a time sequence: "at 3600 s, every 86400 s, 7 times".
+fn schedule_text(d: &crate::network::Dose) -> String {
+    match d.times.period {
+        Some(p) => format!(
+            "at {} s, every {} s, {} times",
+            num(d.times.start),
+            num(p),
+            d.times.count
+        ),
+        None => format!("at {} s", num(d.times.start)),
+    }
+}
+
+fn event_json(net: &Network, e: &crate::network::Event) -> Value {
+    let assignments: Vec<Value> = e
+        .assignments
+        .iter()
+        .map(|a| {
+            let target = match a.target {
+                crate::network::Target::Species(i) => net.species[i].name.clone(),
+                crate::network::Target::Param(p) => net.params[p].name.clone(),
+            };
+            json!({"target": target, "op": if a.add { "+=" } else { "=" }, "value": a.value.text})
+        })
+        .collect();
+    json!({
+        "label": e.label,
+        "condition": e.trigger.text,
+        "at_start": !e.initial_value,
+        "reads_state": e.reads_state(),
+        "assignments": assignments,
+        "line": e.span.line,
+    })
+}
+
 /// The JSON document of CONTRACT §3 for `check`.
 pub fn json(net: &Network) -> Value {
     let species: Vec<Value> = net
         .species
         .iter()
-        .map(|s| json!({"name": s.name, "initial_count": s.initial, "clamped": s.clamped}))
+        .map(|s| {
+            json!({
+                "name": s.name,
+                "initial_count": s.initial,
+                "clamped": s.clamped,
+                "compartment": compartment_of(net, s.compartment),
+            })
+        })
         .collect();
+    let compartments: Vec<Value> = net
+        .compartments
+        .iter()
+        .map(|c| json!({"name": c.name, "volume_l": c.volume_l, "omega": jnum(c.omega)}))
+        .collect();
+    let doses: Vec<Value> = net
+        .doses
+        .iter()
+        .map(|d| {
+            json!({
+                "species": net.species[d.species].name,
+                "molecules": d.count,
+                "first_s": jnum(d.times.start),
+                "period_s": d.times.period.map(jnum),
+                "count": d.times.count,
+                "last_s": jnum(d.times.last()),
+                "line": d.span.line,
+            })
+        })
+        .collect();
+    let infusions: Vec<Value> = net
+        .infusions
+        .iter()
+        .map(|f| {
+            json!({
+                "species": net.species[f.species].name,
+                "reaction": net.reactions[f.reaction].label,
+                "molecules_per_s": jnum(f.rate),
+                "from_s": jnum(f.from),
+                "to_s": jnum(f.to),
+                "line": f.span.line,
+            })
+        })
+        .collect();
+    let events: Vec<Value> = net.events.iter().map(|e| event_json(net, e)).collect();
     let reactions: Vec<Value> = net
         .reactions
         .iter()
@@ -30,9 +111,15 @@ pub fn json(net: &Network) -> Value {
                 "products": coefficients(net, &r.products),
                 "order": r.order(),
                 "stochastic_constant": r.stochastic_constant().map(jnum),
+                "compartment": compartment_of(net, r.compartment),
+                "transport": r.transport,
             });
-            if let crate::network::Kinetics::Law { law, .. } = &r.kinetics {
-                v["law"] = json!(law.text);
+            match &r.kinetics {
+                crate::network::Kinetics::Law { law, .. } => v["law"] = json!(law.text),
+                crate::network::Kinetics::MassAction {
+                    follows: Some(f), ..
+                } => v["follows"] = json!(net.params[f.param].name),
+                _ => {}
             }
             v
         })
@@ -64,7 +151,8 @@ pub fn json(net: &Network) -> Value {
                 "bind": net.reactions[m.bind].label,
                 "unbind": m.unbind.map(|j| net.reactions[j].label.clone()),
                 "k_half": jnum(m.k_half),
-                "k_half_molar": net.volume_l.map(|_| jnum(m.k_half / net.omega)),
+                "k_half_molar": net.volume_l.map(|_| jnum(m.k_half / net.reaction_omega(m.bind))),
+                "compartment": compartment_of(net, net.reactions[m.bind].compartment),
             });
             v[out_key] = json!(net.reactions[m.output].label);
             v
@@ -79,11 +167,16 @@ pub fn json(net: &Network) -> Value {
         "file": net.file,
         "volume_l": net.volume_l,
         "omega": net.volume_l.map(|_| net.omega),
+        "amount_unit": net.amount.name,
+        "compartments": compartments,
         "species": species,
         "reactions": reactions,
         "stoichiometry": net.stoichiometry,
         "conservation_laws": laws,
         "motifs": motifs,
+        "doses": doses,
+        "infusions": infusions,
+        "events": events,
         "warnings": warnings,
     })
 }
@@ -92,30 +185,63 @@ pub fn json(net: &Network) -> Value {
 pub fn table(net: &Network) -> String {
     let mut out = String::new();
     match net.volume_l {
-        Some(v) => out.push_str(&format!(
+        Some(v) if net.compartments.len() == 1 => out.push_str(&format!(
             "{}: volume {} L, Ω = N_A·V = {} molecules per mol/L\n\n",
             net.file,
             num(v),
             num(net.omega)
         )),
+        Some(_) => {
+            out.push_str(&format!(
+                "{}: {} compartments\n",
+                net.file,
+                net.compartments.len()
+            ));
+            let mut t = Table::new(&[
+                "compartment",
+                "volume (L)",
+                "Ω = N_A·V (molecules per mol/L)",
+            ]);
+            for c in &net.compartments {
+                t.row(vec![
+                    c.name.clone(),
+                    c.volume_l.map_or("-".into(), num),
+                    num(c.omega),
+                ]);
+            }
+            out.push_str(&t.render());
+            out.push('\n');
+        }
         None => out.push_str(&format!(
             "{}: no volume; every amount is in molecules, every rate in molecules/s\n\n",
             net.file
         )),
     }
-    let mut t = Table::new(&["species", "initial (molecules)", "initial (M)", "held"]);
-    for s in &net.species {
-        t.row(vec![
+    let several = net.compartments.len() > 1;
+    let mut head = vec!["species", "initial (molecules)", "initial (M)", "held"];
+    if several {
+        head.push("compartment");
+    }
+    let mut t = Table::new(&head);
+    for (i, s) in net.species.iter().enumerate() {
+        let mut row = vec![
             s.name.clone(),
             s.initial.to_string(),
-            net.volume_l
-                .map_or("-".into(), |_| num(s.initial as f64 / net.omega)),
+            net.concentration_factor(i)
+                .map_or("-".into(), |f| num(s.initial as f64 * f)),
             if s.clamped {
                 "clamped".into()
             } else {
                 String::new()
             },
-        ]);
+        ];
+        if several {
+            row.push(
+                s.compartment
+                    .map_or("-".into(), |c| net.compartments[c].name.clone()),
+            );
+        }
+        t.row(row);
     }
     out.push_str(&t.render());
     out.push('\n');
@@ -130,6 +256,17 @@ pub fn table(net: &Network) -> String {
                 }
             }
             crate::network::Kinetics::Law { law, .. } => format!("law {}", law.text),
+        };
+        let rate = match &r.kinetics {
+            crate::network::Kinetics::MassAction {
+                follows: Some(f), ..
+            } => format!("{rate}, follows `{}`", net.params[f.param].name),
+            _ => rate,
+        };
+        let rate = if r.transport {
+            format!("{rate}, transport")
+        } else {
+            rate
         };
         t.row(vec![
             r.label.clone(),
@@ -185,10 +322,64 @@ pub fn table(net: &Network) -> String {
                 steps.join(", "),
                 num(m.k_half),
                 net.volume_l
-                    .map_or("-".into(), |_| num(m.k_half / net.omega)),
+                    .map_or("-".into(), |_| num(m.k_half / net.reaction_omega(m.bind))),
             ]);
         }
         out.push_str(&t.render());
+    }
+    if !net.doses.is_empty() {
+        out.push_str("\ndoses\n");
+        for d in &net.doses {
+            out.push_str(&format!(
+                "  {} += {} molecules {} (line {})\n",
+                net.species[d.species].name,
+                d.count,
+                schedule_text(d),
+                d.span.line
+            ));
+        }
+    }
+    if !net.infusions.is_empty() {
+        out.push_str("\ninfusions\n");
+        for f in &net.infusions {
+            out.push_str(&format!(
+                "  {} at {} molecules/s from {} s to {} s, as step `{}` (line {})\n",
+                net.species[f.species].name,
+                num(f.rate),
+                num(f.from),
+                num(f.to),
+                net.reactions[f.reaction].label,
+                f.span.line
+            ));
+        }
+    }
+    if !net.events.is_empty() {
+        out.push_str("\nevents\n");
+        for e in &net.events {
+            let sets: Vec<String> = e
+                .assignments
+                .iter()
+                .map(|a| {
+                    let target = match a.target {
+                        crate::network::Target::Species(i) => &net.species[i].name,
+                        crate::network::Target::Param(p) => &net.params[p].name,
+                    };
+                    format!(
+                        "{target} {} {}",
+                        if a.add { "+=" } else { "=" },
+                        a.value.text
+                    )
+                })
+                .collect();
+            out.push_str(&format!(
+                "  {}: when {} : {}{} (line {})\n",
+                e.label,
+                e.trigger.text,
+                sets.join(", "),
+                if e.initial_value { "" } else { " at start" },
+                e.span.line
+            ));
+        }
     }
     if !net.warnings.is_empty() {
         out.push_str(&format!("\n{} warning(s) on stderr\n", net.warnings.len()));

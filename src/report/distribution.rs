@@ -3,7 +3,7 @@
 //! marginals, and an SVG of marginals at chosen times beside ensemble histograms.
 
 use super::num;
-use super::svg::{Chart, Point, Series, Style};
+use super::plot::{AxisSpec, Chart, Dash, Marker, Point, Series};
 use super::table::Table;
 use crate::distribution::compare::Histogram;
 use crate::distribution::{Stationary, Transient};
@@ -172,33 +172,34 @@ pub fn svg(r: &Results, species: &str, at: &[usize]) -> String {
     let bars = |p: &[f64]| -> Vec<Point> {
         p.iter()
             .enumerate()
-            .map(|(k, &y)| Point {
-                x: k as f64,
-                y,
-                interval: None,
-            })
+            .map(|(k, &y)| Point::new(k as f64, y))
             .collect()
     };
     if let Some(t) = r.transient {
         if let Some(law) = t.species.get(species) {
             for &i in at {
                 series.push(Series {
-                    name: format!("t = {} s exact", num(t.times[i])),
-                    style: Style::Line,
-                    points: bars(&law.marginal[i]),
+                    line: Some(Dash::Solid),
+                    ..Series::new(
+                        format!("t = {} s exact", num(t.times[i])),
+                        bars(&law.marginal[i]),
+                    )
                 });
                 for h in r
                     .histograms
                     .iter()
                     .filter(|h| h.species == species && h.time == t.times[i])
                 {
+                    let points = bars(&h.frequencies)
+                        .into_iter()
+                        .filter(|p| p.y > 0.0)
+                        .collect();
                     series.push(Series {
-                        name: format!("t = {} s, {} runs", num(h.time), h.replicates),
-                        style: Style::Markers,
-                        points: bars(&h.frequencies)
-                            .into_iter()
-                            .filter(|p| p.y > 0.0)
-                            .collect(),
+                        marker: Some(Marker::Circle),
+                        ..Series::new(
+                            format!("t = {} s, {} runs", num(h.time), h.replicates),
+                            points,
+                        )
                     });
                 }
             }
@@ -206,9 +207,8 @@ pub fn svg(r: &Results, species: &str, at: &[usize]) -> String {
     }
     if let Some(law) = r.stationary.and_then(|s| s.species.get(species)) {
         series.push(Series {
-            name: "stationary exact".into(),
-            style: Style::Dashed,
-            points: bars(&law.marginal),
+            line: Some(Dash::Dashed),
+            ..Series::new("stationary exact", bars(&law.marginal))
         });
     }
     let bound = r
@@ -222,8 +222,16 @@ pub fn svg(r: &Results, species: &str, at: &[usize]) -> String {
             r.file,
             num(bound)
         ),
-        x_label: format!("{species} (molecules)"),
-        y_label: "probability".into(),
+        x: AxisSpec {
+            label: format!("{species} (molecules)"),
+            log: false,
+            from_zero: true,
+        },
+        y: AxisSpec {
+            label: "probability".into(),
+            log: false,
+            from_zero: true,
+        },
         series,
         ..Chart::default()
     }

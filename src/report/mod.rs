@@ -4,10 +4,10 @@
 pub mod check;
 pub mod distribution;
 pub mod noise;
+pub mod plot;
 pub mod reconcile;
 pub mod simulate;
 pub mod steady;
-pub mod svg;
 pub mod sweep;
 pub mod table;
 

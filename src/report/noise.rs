@@ -1,7 +1,7 @@
 //! The report of `copyloop noise`.
 
 use super::num;
-use super::svg::{Chart, Point, Series, Style};
+use super::plot::{AxisSpec, Chart, Dash, Interval, Marker, Point, Series};
 use super::table::Table;
 use crate::noise::NoiseReport;
 use crate::stationary::{self, Plan};
@@ -143,69 +143,105 @@ pub fn table(report: &NoiseReport) -> String {
     out
 }
 
-/// CV against mean copy number on log–log axes with the Poisson line CV = 1/√N.
-pub fn svg(report: &NoiseReport) -> String {
-    let (file, vols) = (&report.file, &report.volumes);
-    let pts = |f: &dyn Fn(&crate::noise::SpeciesNoise) -> (f64, f64)| -> Vec<Point> {
-        vols.iter()
-            .flat_map(|v| v.species.iter().filter(|s| !s.clamped))
-            .map(|s| {
-                let (x, y) = f(s);
-                Point {
-                    x,
-                    y,
-                    interval: None,
-                }
-            })
-            .filter(|p| p.x > 0.0 && p.y > 0.0 && p.x.is_finite() && p.y.is_finite())
-            .collect()
-    };
-    let ensemble = pts(&|s| (s.mean, s.cv));
-    let lna = pts(&|s| (s.lna_mean, s.lna_cv));
-    let (lo, hi) = ensemble
+/// A volume in the largest of L, mL, µL, nL, pL, fL that shows it as 1 or more.
+fn volume_text(litres: f64) -> String {
+    const UNITS: [(&str, f64); 6] = [
+        ("L", 1.0),
+        ("mL", 1e-3),
+        ("µL", 1e-6),
+        ("nL", 1e-9),
+        ("pL", 1e-12),
+        ("fL", 1e-15),
+    ];
+    let (unit, f) = UNITS
         .iter()
-        .chain(&lna)
-        .fold((f64::INFINITY, 0.0f64), |(a, b), p| {
-            (a.min(p.x), b.max(p.x))
-        });
-    let line = if lo.is_finite() && hi > 0.0 {
-        (0..=20)
-            .map(|k| {
-                let x = lo * (hi / lo).powf(k as f64 / 20.0);
-                Point {
-                    x,
-                    y: 1.0 / x.sqrt(),
-                    interval: None,
-                }
-            })
-            .collect()
+        .copied()
+        .find(|&(_, f)| litres >= f * (1.0 - 1e-9))
+        .unwrap_or(UNITS[UNITS.len() - 1]);
+    format!("{} {unit}", num(litres / f))
+}
+
+/// CV against mean copy number on log–log axes: the ensemble's CV of every species at every
+/// volume with its 95 % interval, each point labelled with species and volume; the
+/// linear-noise CV; and the Poisson line CV = 1/√N.
+pub fn svg(report: &NoiseReport) -> String {
+    let drawable = |x: f64, y: f64| x > 0.0 && y > 0.0 && x.is_finite() && y.is_finite();
+    let (mut ensemble, mut lna) = (Vec::new(), Vec::new());
+    let mut notes = Vec::new();
+    for v in &report.volumes {
+        let vol = v.volume_l.map(volume_text);
+        let mut absent = Vec::new();
+        for s in v.species.iter().filter(|s| !s.clamped) {
+            let name = match &vol {
+                Some(t) => format!("{}, {t}", s.name),
+                None => s.name.clone(),
+            };
+            if drawable(s.mean, s.cv) {
+                ensemble.push(
+                    Point::new(s.mean, s.cv)
+                        .with_interval(s.cv_ci95[0], s.cv_ci95[1])
+                        .with_label(name.clone()),
+                );
+            } else {
+                absent.push(name.clone());
+            }
+            if drawable(s.lna_mean, s.lna_cv) {
+                lna.push(Point::new(s.lna_mean, s.lna_cv));
+            }
+        }
+        let at = vol.as_deref().unwrap_or("the file's volume");
+        if !v.plan.coverage().reliable {
+            notes.push(format!(
+                "at {at} the window is too short to trust (see the table): those CVs may be far off"
+            ));
+        }
+        if !absent.is_empty() {
+            notes.push(format!(
+                "not drawn (no copies on average, or no variation): {}",
+                absent.join("; ")
+            ));
+        }
+    }
+    let xs = ensemble.iter().chain(&lna).map(|p| p.x);
+    let (lo, hi) = xs.fold((f64::INFINITY, 0.0f64), |(a, b), x| (a.min(x), b.max(x)));
+    let poisson = if lo.is_finite() {
+        vec![
+            Point::new(lo, 1.0 / lo.sqrt()),
+            Point::new(hi, 1.0 / hi.sqrt()),
+        ]
     } else {
         Vec::new()
     };
+    notes.push("error bars: 95 % intervals of the ensemble's CV".into());
     Chart {
-        title: format!("{file}: noise against copy number"),
-        x_label: "mean copy number (molecules)".into(),
-        y_label: "coefficient of variation".into(),
-        x_log: true,
-        y_log: true,
+        title: format!("{}: noise against copy number", report.file),
+        x: AxisSpec {
+            label: "mean copy number (molecules)".into(),
+            log: true,
+            from_zero: false,
+        },
+        y: AxisSpec {
+            label: "coefficient of variation (SD / mean)".into(),
+            log: true,
+            from_zero: false,
+        },
+        categories: Vec::new(),
         series: vec![
             Series {
-                name: "ensemble".into(),
-                style: Style::Markers,
-                points: ensemble,
+                marker: Some(Marker::Circle),
+                interval: Interval::Bars,
+                ..Series::new("ensemble (95 % CI)", ensemble)
             },
             Series {
-                name: "linear noise".into(),
-                style: Style::Markers,
-                points: lna,
+                marker: Some(Marker::Ring),
+                ..Series::new("linear noise (LNA)", lna)
             },
             Series {
-                name: "1/√N (Poisson)".into(),
-                style: Style::Dashed,
-                points: line,
+                line: Some(Dash::Dashed),
+                ..Series::new("1/√N (Poisson)", poisson)
             },
         ],
-        x_categories: Vec::new(),
+        notes,
     }
     .render()
 }

@@ -1,7 +1,7 @@
 //! The report of `copyloop reconcile`.
 
 use super::num;
-use super::svg::{Chart, Point, Series, Style};
+use super::plot::{AxisSpec, Chart, Interval, Marker, Point, Series};
 use super::table::Table;
 use crate::network::Network;
 use crate::reconcile::{Cause, CauseKind, Flux, Judgement, MotifReport, Reconciliation, Verdict};
@@ -179,11 +179,8 @@ pub fn table(net: &Network, r: &Reconciliation) -> String {
     } else {
         "molecules"
     };
-    let scale = if net.volume_l.is_some() {
-        1.0 / net.omega
-    } else {
-        1.0
-    };
+    // Each species in its own compartment.
+    let scale_of = |i: usize| net.species_molar_omega(i).map_or(1.0, |w| 1.0 / w);
     if !r.observations.is_empty() {
         out.push_str(&format!("observed steady levels ({unit})\n"));
         let mut t = Table::new(&[
@@ -195,6 +192,7 @@ pub fn table(net: &Network, r: &Reconciliation) -> String {
             "verdict",
         ]);
         for o in &r.observations {
+            let scale = scale_of(o.observation.species);
             t.row(vec![
                 o.name.clone(),
                 format!("{} ± {}", num(o.observed * scale), num(o.sd * scale)),
@@ -241,6 +239,11 @@ pub fn table(net: &Network, r: &Reconciliation) -> String {
                     num(f.original)
                 ));
                 if let Some(c) = &f.confirmation {
+                    // The fit is to the first observation.
+                    let scale = r
+                        .observations
+                        .first()
+                        .map_or(1.0, |o| scale_of(o.observation.species));
                     out.push_str(&format!(
                         "  ensemble at the fitted value: {} ± {} {unit}, z = {}, {}\n",
                         num(c.ensemble.mean * scale),
@@ -258,56 +261,98 @@ pub fn table(net: &Network, r: &Reconciliation) -> String {
     out
 }
 
-/// Predicted against ensemble flux, one position per motif, as an SVG chart.
+/// Motif fluxes, one category per motif: the ensemble's mean with its 95 % interval as an
+/// error bar, and the Langmuir, total-QSSA and ODE predictions as distinct markers beside it
+/// (offset so that none hides another). The flux axis is logarithmic when the motifs' fluxes
+/// span more than a factor of 30.
 pub fn svg(net: &Network, r: &Reconciliation) -> String {
-    let point = |k: usize, y: f64, iv: Option<(f64, f64)>| Point {
-        x: k as f64,
-        y,
-        interval: iv,
-    };
-    let mut series = vec![Series {
-        name: "ensemble (95 % CI)".into(),
-        style: Style::Markers,
-        points: r
-            .motifs
+    let at = |k: usize, y: f64| Point::new(k as f64, y);
+    let ensemble: Vec<Point> = r
+        .motifs
+        .iter()
+        .enumerate()
+        .map(|(k, m)| {
+            at(k, m.ensemble.mean_per_s).with_interval(m.ensemble.ci95[0], m.ensemble.ci95[1])
+        })
+        .collect();
+    let predicted = |f: &dyn Fn(&MotifReport) -> Option<f64>| -> Vec<Point> {
+        r.motifs
             .iter()
             .enumerate()
-            .map(|(k, m)| {
-                point(
-                    k,
-                    m.ensemble.mean_per_s,
-                    Some((m.ensemble.ci95[0], m.ensemble.ci95[1])),
-                )
-            })
-            .collect(),
-    }];
-    let mut add = |name: &str, f: &dyn Fn(&crate::reconcile::MotifReport) -> Option<f64>| {
-        series.push(Series {
-            name: name.into(),
-            style: Style::Markers,
-            points: r
-                .motifs
-                .iter()
-                .enumerate()
-                .filter_map(|(k, m)| f(m).map(|y| point(k, y, None)))
-                .collect(),
-        })
+            .filter_map(|(k, m)| f(m).map(|y| at(k, y)))
+            .collect()
     };
-    add("Langmuir", &|m| Some(m.predicted.langmuir_per_s));
-    add("total QSSA", &|m| m.predicted.tqssa_per_s);
-    add("ODE steady state", &|m| Some(m.predicted.ode_per_s));
+    let series = vec![
+        Series {
+            marker: Some(Marker::Circle),
+            interval: Interval::Bars,
+            offset: -0.24,
+            ..Series::new("ensemble mean (95 % CI)", ensemble)
+        },
+        Series {
+            marker: Some(Marker::Square),
+            offset: -0.08,
+            ..Series::new(
+                "Langmuir form",
+                predicted(&|m| Some(m.predicted.langmuir_per_s)),
+            )
+        },
+        Series {
+            marker: Some(Marker::Diamond),
+            offset: 0.08,
+            ..Series::new("total QSSA", predicted(&|m| m.predicted.tqssa_per_s))
+        },
+        Series {
+            marker: Some(Marker::Triangle),
+            offset: 0.24,
+            ..Series::new(
+                "ODE steady state",
+                predicted(&|m| Some(m.predicted.ode_per_s)),
+            )
+        },
+    ];
+    let values: Vec<f64> = series
+        .iter()
+        .flat_map(|s| s.points.iter().map(|p| p.y))
+        .filter(|y| y.is_finite())
+        .collect();
+    let (lo, hi) = values
+        .iter()
+        .fold((f64::INFINITY, f64::NEG_INFINITY), |(a, b), &y| {
+            (a.min(y), b.max(y))
+        });
+    let log = lo > 0.0 && hi / lo > 30.0;
+    let mut notes = Vec::new();
+    if r.motifs.iter().any(|m| m.predicted.tqssa_per_s.is_none()) {
+        notes.push(
+            "no total-QSSA marker where the ligand is clamped (it equals the Langmuir form)".into(),
+        );
+    }
+    if r.motifs.is_empty() {
+        notes.push("no carrier motif found".into());
+    }
     Chart {
-        title: format!("{}: motif fluxes", net.file),
-        x_label: "carrier motif".into(),
-        y_label: "flux (molecules/s)".into(),
-        x_log: false,
-        y_log: false,
-        series,
-        x_categories: r
+        title: format!("{}: motif output fluxes", net.file),
+        x: AxisSpec {
+            label: "carrier motif (carrier·ligand → output step)".into(),
+            log: false,
+            from_zero: false,
+        },
+        y: AxisSpec {
+            label: format!(
+                "output flux (molecules/s{})",
+                if log { ", log scale" } else { "" }
+            ),
+            log,
+            from_zero: false,
+        },
+        categories: r
             .motifs
             .iter()
-            .map(|m| format!("{}·{}", m.carrier, m.ligand))
+            .map(|m| format!("{}·{} → {}", m.carrier, m.ligand, m.output))
             .collect(),
+        series,
+        notes,
     }
     .render()
 }

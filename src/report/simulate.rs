@@ -1,22 +1,46 @@
 //! The report of `copyloop simulate`: table, JSON (CONTRACT §3) and the CSV grid.
 //!
-//! Count figures are molecules and seconds. Where the network sets a volume, each count figure
-//! has a molar twin with the suffix `_molar` (count/Ω in mol/L; rates in mol/L/s), Ω = N_A·V.
+//! Count figures are molecules and seconds (`amount_unit`). Where a species sits in a
+//! compartment with a volume, each count figure has a molar twin with the suffix `_molar`
+//! (count/Ω_c in mol/L, Ω_c = N_A·V of the species' own compartment; a reaction's rates use
+//! its compartment's Ω_c), and the grid gives `concentration_mean` / `concentration_sd` in
+//! the unit named by `concentration_unit`. Params that events change appear in the grid
+//! beside the species, with `mean` and `sd` of their value (canonical units).
 //!
 //! CSV layout (`--out`): one header row, then one row per grid time:
 //! `time_s,<A>_mean,<A>_sd,<B>_mean,<B>_sd,…` with species in file order, counts in molecules
-//! across replicates (sd is the sample SD over replicates; `NaN` with a single replicate).
+//! across replicates (sd is the sample SD over replicates; `NaN` with a single replicate),
+//! then `<A>_concentration_mean,<A>_concentration_sd,…` (mol/L) for every species in a
+//! compartment, then `<p>_mean,<p>_sd` for every param that events change.
+//!
+//! `--method ode` has its own report ([`ode_json`], [`ode_table`], [`ode_csv`]): the same
+//! grid keys with the deterministic value under `mean` and no `sd`.
 
 use super::table::Table;
 use super::{jnum, num};
+use crate::deterministic::Trajectory;
 use crate::ensemble::EnsembleResult;
 use crate::network::Network;
 use crate::stats::Welford;
 use serde_json::{json, Map, Value};
 
-/// 1/Ω where a volume is set.
-fn molar_factor(net: &Network) -> Option<f64> {
-    net.volume_l.map(|_| 1.0 / net.omega)
+/// 1/Ω_c of species `i`'s compartment, where it has one.
+fn molar_factor(net: &Network, i: usize) -> Option<f64> {
+    net.concentration_factor(i)
+}
+
+/// 1/Ω_c of reaction `j`'s compartment, where it has one.
+fn reaction_molar(net: &Network, j: usize) -> Option<f64> {
+    net.reactions[j]
+        .compartment
+        .map(|c| 1.0 / net.compartments[c].omega)
+}
+
+/// The name of species `i`'s compartment, if any.
+fn compartment_name(net: &Network, i: usize) -> Option<&str> {
+    net.species[i]
+        .compartment
+        .map(|c| net.compartments[c].name.as_str())
 }
 
 fn moments(w: &Welford, molar: Option<f64>) -> Map<String, Value> {
@@ -42,11 +66,11 @@ fn moments(w: &Welford, molar: Option<f64>) -> Map<String, Value> {
 /// `grid_points`, `absorbed_replicates`, `firings_first_half`, `within_variance`, `ci95`,
 /// `rate_per_s`).
 pub fn json(net: &Network, r: &EnsembleResult) -> Value {
-    let molar = molar_factor(net);
     let t = r.window_length();
     let mut finals = Map::new();
     let mut averages = Map::new();
     for (i, s) in net.species.iter().enumerate() {
+        let molar = molar_factor(net, i);
         finals.insert(
             s.name.clone(),
             Value::Object(moments(&r.final_state[i], molar)),
@@ -62,6 +86,7 @@ pub fn json(net: &Network, r: &EnsembleResult) -> Value {
     let mut firings = Map::new();
     let mut halves = Map::new();
     for (j, rx) in net.reactions.iter().enumerate() {
+        let molar = reaction_molar(net, j);
         let w = &r.firings[j];
         let mut m = moments(w, molar);
         m.insert("rate_per_s".into(), jnum(w.mean() / t));
@@ -87,14 +112,31 @@ pub fn json(net: &Network, r: &EnsembleResult) -> Value {
         let mut m = Map::new();
         m.insert("mean".into(), col(&|w| w.mean()));
         m.insert("sd".into(), col(&|w| w.sd()));
-        if let Some(f) = molar {
+        if let Some(f) = molar_factor(net, i) {
             m.insert("mean_molar".into(), col(&|w| w.mean() * f));
             m.insert("sd_molar".into(), col(&|w| w.sd() * f));
+            m.insert("concentration_mean".into(), col(&|w| w.mean() * f));
+            m.insert("concentration_sd".into(), col(&|w| w.sd() * f));
+            m.insert(
+                "concentration_unit".into(),
+                json!(net.amount.concentration_unit),
+            );
+            m.insert("compartment".into(), json!(compartment_name(net, i)));
         }
         grid.insert(s.name.clone(), Value::Object(m));
     }
+    for (k, &p) in r.varying_params.iter().enumerate() {
+        let col = |f: &dyn Fn(&Welford) -> f64| -> Value {
+            Value::Array(r.grid_params.iter().map(|row| jnum(f(&row[k]))).collect())
+        };
+        grid.insert(
+            net.params[p].name.clone(),
+            json!({"mean": col(&|w| w.mean()), "sd": col(&|w| w.sd()), "kind": "param"}),
+        );
+    }
     json!({
         "method": r.spec.method.name(),
+        "amount_unit": net.amount.name,
         "replicates": r.spec.replicates,
         "seed": r.spec.seed,
         "t_end": jnum(r.spec.t_end),
@@ -162,28 +204,33 @@ pub fn table(net: &Network, r: &EnsembleResult) -> String {
             &format!("{} leaps and {} exact steps\n", r.leaps, r.exact_steps),
         );
     }
-    let molar = molar_factor(net);
+    let any_molar = (0..net.species.len()).any(|i| molar_factor(net, i).is_some());
     let mut header = vec![
         "species",
         "final mean ± sd (molecules)",
         "95 % CI of mean",
         "time average ± sd (molecules)",
     ];
-    if molar.is_some() {
+    if any_molar {
         header.push("final mean (M)");
         header.push("time average (M)");
     }
     let mut t = Table::new(&header);
-    for (i, sp) in net.species.iter().enumerate() {
+    for i in 0..net.species.len() {
         let mut row = vec![
-            format!("{}{}", sp.name, if sp.clamped { " (clamped)" } else { "" }),
+            species_label(net, i),
             pm(&r.final_state[i]),
             interval(r.final_state[i].ci95()),
             pm(&r.time_average[i]),
         ];
-        if let Some(f) = molar {
-            row.push(num(r.final_state[i].mean() * f));
-            row.push(num(r.time_average[i].mean() * f));
+        if any_molar {
+            match molar_factor(net, i) {
+                Some(f) => {
+                    row.push(num(r.final_state[i].mean() * f));
+                    row.push(num(r.time_average[i].mean() * f));
+                }
+                None => row.extend(["-".to_string(), "-".to_string()]),
+            }
         }
         t.row(row);
     }
@@ -202,11 +249,38 @@ pub fn table(net: &Network, r: &EnsembleResult) -> String {
     out
 }
 
+/// `H (clamped) [plasma]`: a species' name with what the reader must know about it.
+fn species_label(net: &Network, i: usize) -> String {
+    let sp = &net.species[i];
+    let mut s = sp.name.clone();
+    if sp.clamped {
+        s.push_str(" (clamped)");
+    }
+    if net.compartments.len() > 1 {
+        if let Some(c) = compartment_name(net, i) {
+            s.push_str(&format!(" [{c}]"));
+        }
+    }
+    s
+}
+
 /// The grid as CSV (layout in the module docs).
 pub fn csv(net: &Network, r: &EnsembleResult) -> String {
     let mut out = String::from("time_s");
     for s in &net.species {
         out.push_str(&format!(",{0}_mean,{0}_sd", s.name));
+    }
+    let conc: Vec<(usize, f64)> = (0..net.species.len())
+        .filter_map(|i| molar_factor(net, i).map(|f| (i, f)))
+        .collect();
+    for &(i, _) in &conc {
+        out.push_str(&format!(
+            ",{0}_concentration_mean,{0}_concentration_sd",
+            net.species[i].name
+        ));
+    }
+    for &p in &r.varying_params {
+        out.push_str(&format!(",{0}_mean,{0}_sd", net.params[p].name));
     }
     out.push('\n');
     for (p, &time) in r.grid_times.iter().enumerate() {
@@ -214,9 +288,290 @@ pub fn csv(net: &Network, r: &EnsembleResult) -> String {
         for w in &r.grid[p] {
             out.push_str(&format!(",{},{}", w.mean(), w.sd()));
         }
+        for &(i, f) in &conc {
+            let w = &r.grid[p][i];
+            out.push_str(&format!(",{},{}", w.mean() * f, w.sd() * f));
+        }
+        for w in &r.grid_params[p] {
+            out.push_str(&format!(",{},{}", w.mean(), w.sd()));
+        }
         out.push('\n');
     }
     out
+}
+
+/// Counts of every species at each output time of an ODE trajectory (real-valued
+/// molecules: the state times Ω).
+fn ode_counts(net: &Network, tr: &Trajectory) -> Vec<Vec<f64>> {
+    tr.states
+        .iter()
+        .map(|y| y.iter().map(|v| v * net.omega).collect())
+        .collect()
+}
+
+/// Amounts in the network's amount unit from counts.
+fn amount(net: &Network, count: f64) -> f64 {
+    count / net.amount.count_per_amount
+}
+
+/// The `--json` document of `simulate --method ode`: the grid of the deterministic time
+/// course (amounts under `mean`, concentrations under `concentration_mean`, no `sd`), the
+/// final state, the params that events change, and the integrator's work.
+pub fn ode_json(net: &Network, tr: &Trajectory, t_end: f64, wall_seconds: f64) -> Value {
+    let counts = ode_counts(net, tr);
+    let mut grid = Map::new();
+    grid.insert(
+        crate::network::compile::GRID_TIME.into(),
+        Value::Array(tr.times.iter().map(|&x| jnum(x)).collect()),
+    );
+    let mut finals = Map::new();
+    for (i, s) in net.species.iter().enumerate() {
+        let col = |f: &dyn Fn(f64) -> f64| -> Value {
+            Value::Array(counts.iter().map(|row| jnum(f(row[i]))).collect())
+        };
+        let mut m = Map::new();
+        m.insert("mean".into(), col(&|c| amount(net, c)));
+        let last = counts.last().map_or(f64::NAN, |row| row[i]);
+        let mut fin = Map::new();
+        fin.insert("mean".into(), jnum(amount(net, last)));
+        if let Some(f) = molar_factor(net, i) {
+            m.insert("mean_molar".into(), col(&|c| c * f));
+            m.insert("concentration_mean".into(), col(&|c| c * f));
+            m.insert(
+                "concentration_unit".into(),
+                json!(net.amount.concentration_unit),
+            );
+            m.insert("compartment".into(), json!(compartment_name(net, i)));
+            fin.insert("mean_molar".into(), jnum(last * f));
+            fin.insert("concentration_mean".into(), jnum(last * f));
+        }
+        grid.insert(s.name.clone(), Value::Object(m));
+        finals.insert(s.name.clone(), Value::Object(fin));
+    }
+    for (p, param) in net.params.iter().enumerate().filter(|(_, p)| p.varies) {
+        let col: Vec<Value> = tr.params.iter().map(|row| jnum(row[p])).collect();
+        grid.insert(param.name.clone(), json!({"mean": col, "kind": "param"}));
+    }
+    json!({
+        "method": "ode",
+        "amount_unit": net.amount.name,
+        "t_end": jnum(t_end),
+        "grid_points": tr.times.len(),
+        "wall_seconds": jnum(wall_seconds),
+        "steps_accepted": tr.accepted_steps,
+        "steps_rejected": tr.rejected_steps,
+        "breakpoints": tr.breakpoints,
+        "final": finals,
+        "grid": grid,
+    })
+}
+
+/// The table of `simulate --method ode`: the final state and the integrator's work.
+pub fn ode_table(net: &Network, tr: &Trajectory, t_end: f64, wall_seconds: f64) -> String {
+    let counts = ode_counts(net, tr);
+    let mut out = format!(
+        "{}: ode (RODAS4), t_end {} s, {} grid points, {} steps ({} rejected), {} doses and \
+         events applied, {} s\n\n",
+        net.file,
+        num(t_end),
+        tr.times.len(),
+        tr.accepted_steps,
+        tr.rejected_steps,
+        tr.breakpoints,
+        num(wall_seconds),
+    );
+    let any_molar = (0..net.species.len()).any(|i| molar_factor(net, i).is_some());
+    let mut header = vec!["species", "final (molecules)"];
+    if any_molar {
+        header.push("final (M)");
+    }
+    let mut t = Table::new(&header);
+    let last = counts.last();
+    for i in 0..net.species.len() {
+        let c = last.map_or(f64::NAN, |row| row[i]);
+        let mut row = vec![species_label(net, i), num(amount(net, c))];
+        if any_molar {
+            row.push(molar_factor(net, i).map_or("-".into(), |f| num(c * f)));
+        }
+        t.row(row);
+    }
+    out.push_str(&t.render());
+    out
+}
+
+/// The grid of `simulate --method ode` as CSV: `time_s,<A>_mean,…`, then
+/// `<A>_concentration_mean,…` for species in a compartment, then `<p>_mean` for params that
+/// events change.
+pub fn ode_csv(net: &Network, tr: &Trajectory) -> String {
+    let counts = ode_counts(net, tr);
+    let mut out = String::from("time_s");
+    for s in &net.species {
+        out.push_str(&format!(",{}_mean", s.name));
+    }
+    let conc: Vec<(usize, f64)> = (0..net.species.len())
+        .filter_map(|i| molar_factor(net, i).map(|f| (i, f)))
+        .collect();
+    for &(i, _) in &conc {
+        out.push_str(&format!(",{}_concentration_mean", net.species[i].name));
+    }
+    let varying: Vec<usize> = (0..net.params.len())
+        .filter(|&p| net.params[p].varies)
+        .collect();
+    for &p in &varying {
+        out.push_str(&format!(",{}_mean", net.params[p].name));
+    }
+    out.push('\n');
+    for (k, &time) in tr.times.iter().enumerate() {
+        out.push_str(&format!("{time}"));
+        for &c in &counts[k] {
+            out.push_str(&format!(",{}", amount(net, c)));
+        }
+        for &(i, f) in &conc {
+            out.push_str(&format!(",{}", counts[k][i] * f));
+        }
+        for &p in &varying {
+            out.push_str(&format!(",{}", tr.params[k][p]));
+        }
+        out.push('\n');
+    }
+    out
+}
+
+/// A time course to draw: at each grid time, a level per species.
+#[derive(Clone, Copy, Debug)]
+pub enum Course<'a> {
+    /// A replicate ensemble: the mean across replicates, with its SD as a band.
+    Ensemble(&'a EnsembleResult),
+    /// A deterministic time course (the ODE): `counts[p][i]` is species i at `times[p]`, in
+    /// molecules; drawn as lines without bands.
+    Deterministic {
+        times: &'a [f64],
+        counts: &'a [Vec<f64>],
+    },
+}
+
+impl<'a> From<&'a EnsembleResult> for Course<'a> {
+    fn from(r: &'a EnsembleResult) -> Course<'a> {
+        Course::Ensemble(r)
+    }
+}
+
+/// The species a time course shows unless told otherwise: every species that is not clamped.
+pub fn default_species(net: &Network) -> Vec<usize> {
+    (0..net.species.len())
+        .filter(|&i| !net.species[i].clamped)
+        .collect()
+}
+
+/// The unit a time axis reads best in for a run to `t_end` seconds: seconds up to 10 min,
+/// minutes up to 10 h, hours beyond; with its length in seconds.
+fn time_unit(t_end: f64) -> (&'static str, f64) {
+    if t_end <= 600.0 {
+        ("s", 1.0)
+    } else if t_end <= 36_000.0 {
+        ("min", 60.0)
+    } else {
+        ("h", 3600.0)
+    }
+}
+
+/// The time course of `species` (indices into `net.species`, in the order given) as an SVG
+/// chart: a line per species through its level at every grid time, in molecules, and for an
+/// ensemble of two or more replicates a band of mean ± SD.
+pub fn svg(net: &Network, course: Course, species: &[usize]) -> String {
+    use super::plot::{AxisSpec, Chart, Dash, Interval, Point, Series};
+    let (times, title, banded) = match course {
+        Course::Ensemble(r) => {
+            let n = r.spec.replicates;
+            let what = if n >= 2 {
+                format!("mean ± SD of {n} replicates")
+            } else {
+                "one trajectory".to_string()
+            };
+            let title = format!(
+                "{}: time course, {what} ({})",
+                net.file,
+                r.spec.method.name()
+            );
+            (r.grid_times.as_slice(), title, n >= 2)
+        }
+        Course::Deterministic { times, .. } => (
+            times,
+            format!("{}: deterministic time course (ODE)", net.file),
+            false,
+        ),
+    };
+    let t_end = times.iter().copied().fold(0.0, f64::max);
+    let (unit, per) = time_unit(t_end);
+    let series = species
+        .iter()
+        .filter(|&&i| i < net.species.len())
+        .map(|&i| {
+            let points: Vec<Point> = times
+                .iter()
+                .enumerate()
+                .map(|(p, &t)| match course {
+                    Course::Ensemble(r) => {
+                        let w = &r.grid[p][i];
+                        let pt = Point::new(t / per, w.mean());
+                        if banded {
+                            pt.with_interval(w.mean() - w.sd(), w.mean() + w.sd())
+                        } else {
+                            pt
+                        }
+                    }
+                    Course::Deterministic { counts, .. } => Point::new(
+                        t / per,
+                        counts
+                            .get(p)
+                            .and_then(|c| c.get(i))
+                            .copied()
+                            .unwrap_or(f64::NAN),
+                    ),
+                })
+                .collect();
+            let sp = &net.species[i];
+            let clamped = if sp.clamped { ", clamped" } else { "" };
+            let name = if banded {
+                format!("{} (mean ± SD{clamped})", sp.name)
+            } else if clamped.is_empty() {
+                sp.name.clone()
+            } else {
+                format!("{} (clamped)", sp.name)
+            };
+            Series {
+                line: Some(Dash::Solid),
+                interval: if banded {
+                    Interval::Band
+                } else {
+                    Interval::None
+                },
+                ..Series::new(name, points)
+            }
+        })
+        .collect();
+    let notes = if banded {
+        vec!["bands: mean ± 1 SD across replicates at each grid time".to_string()]
+    } else {
+        Vec::new()
+    };
+    Chart {
+        title,
+        x: AxisSpec {
+            label: format!("time ({unit})"),
+            log: false,
+            from_zero: true,
+        },
+        y: AxisSpec {
+            label: "count (molecules)".into(),
+            log: false,
+            from_zero: true,
+        },
+        categories: Vec::new(),
+        series,
+        notes,
+    }
+    .render()
 }
 
 /// Adds the comparison with the exact law under `exact` (null, with `exact_note`, where the

@@ -7,9 +7,28 @@ use crate::network::law_text;
 use crate::network::Network;
 use serde_json::{json, Map, Value};
 
-/// A molar figure beside a count figure: `x/Ω`, or null without a volume.
-fn molar(net: &Network, x: f64) -> Value {
-    net.volume_l.map_or(Value::Null, |_| jnum(x / net.omega))
+/// A molar figure beside a count figure: `x/Ω_c` with `own` the Ω_c of the compartment it
+/// refers to, or null without one.
+fn molar(own: Option<f64>, x: f64) -> Value {
+    own.map_or(Value::Null, |w| jnum(x / w))
+}
+
+/// Ω of the only compartment, for figures of no one species or step (totals, residual).
+fn single(net: &Network) -> Option<f64> {
+    (net.compartments.len() == 1).then(|| net.compartments[0].omega)
+}
+
+/// Ω_c of the one compartment every species of conservation law `l` sits in, if they share
+/// one (a total over several compartments has no single concentration).
+fn law_omega(net: &Network, l: &[i64]) -> Option<f64> {
+    let mut own = l
+        .iter()
+        .enumerate()
+        .filter(|(_, &c)| c != 0)
+        .map(|(i, _)| net.species[i].compartment);
+    let first = own.next()??;
+    own.all(|c| c == Some(first))
+        .then(|| net.compartments[first].omega)
 }
 
 fn eigen_text(z: &nalgebra::Complex<f64>) -> String {
@@ -35,7 +54,7 @@ pub fn json(net: &Network, st: &Steady) -> Value {
         let molar_count = if accumulates(i) {
             Value::Null
         } else {
-            molar(net, st.counts[i])
+            molar(net.species_molar_omega(i), st.counts[i])
         };
         state.insert(
             s.name.clone(),
@@ -53,7 +72,7 @@ pub fn json(net: &Network, st: &Steady) -> Value {
             net.species[o.species].name.clone(),
             json!({
                 "rate_per_s": jnum(o.rate_per_s),
-                "rate_molar_per_s": molar(net, o.rate_per_s),
+                "rate_molar_per_s": molar(net.species_molar_omega(o.species), o.rate_per_s),
                 "ensemble_rate_per_s": Value::Null,
             }),
         );
@@ -64,7 +83,7 @@ pub fn json(net: &Network, st: &Steady) -> Value {
             r.label.clone(),
             json!({
                 "per_s": jnum(st.fluxes_per_s[j]),
-                "molar_per_s": molar(net, st.fluxes_per_s[j]),
+                "molar_per_s": molar(net.reaction_molar_omega(j), st.fluxes_per_s[j]),
             }),
         );
     }
@@ -80,7 +99,7 @@ pub fn json(net: &Network, st: &Steady) -> Value {
             json!({
                 "law": Value::Object(m),
                 "total": jnum(t * net.omega),
-                "total_molar": molar(net, t * net.omega),
+                "total_molar": molar(law_omega(net, l), t * net.omega),
             })
         })
         .collect();
@@ -96,7 +115,7 @@ pub fn json(net: &Network, st: &Steady) -> Value {
         "fluxes": fluxes,
         "outputs": outputs,
         "residual": jnum(st.residual.max_abs_per_s),
-        "residual_molar": molar(net, st.residual.max_abs_per_s),
+        "residual_molar": molar(single(net), st.residual.max_abs_per_s),
         "residual_relative": jnum(st.residual.relative),
         "stable": st.stable(),
         "stability": st.stability.as_str(),
@@ -136,7 +155,10 @@ pub fn table(net: &Network, st: &Steady) -> String {
         }
         let mut row = vec![s.name.clone(), num(st.counts[i])];
         if with_volume {
-            row.push(num(st.conc[i]));
+            row.push(
+                net.species_molar_omega(i)
+                    .map_or("-".into(), |w| num(st.counts[i] / w)),
+            );
         }
         row.push(if s.clamped {
             "clamped".into()
@@ -164,7 +186,10 @@ pub fn table(net: &Network, st: &Steady) -> String {
             num(st.fluxes_per_s[j]),
         ];
         if with_volume {
-            row.push(num(st.rates[j]));
+            row.push(
+                net.reaction_molar_omega(j)
+                    .map_or("-".into(), |w| num(st.fluxes_per_s[j] / w)),
+            );
         }
         t.row(row);
     }
@@ -172,10 +197,9 @@ pub fn table(net: &Network, st: &Steady) -> String {
     if !net.conservation_laws.is_empty() {
         out.push_str("\nconserved totals\n");
         for (l, &total) in net.conservation_laws.iter().zip(&st.totals) {
-            let molar = if with_volume {
-                format!(" ({} M)", num(total))
-            } else {
-                String::new()
+            let molar = match law_omega(net, l) {
+                Some(w) => format!(" ({} M)", num(total * net.omega / w)),
+                None => String::new(),
             };
             out.push_str(&format!(
                 "  {} = {} molecules{molar}\n",

@@ -174,6 +174,12 @@ impl Exporter<'_> {
                     BinOp::Mul => Op::Times,
                     BinOp::Div => Op::Divide,
                     BinOp::Pow => Op::Power,
+                    BinOp::Lt => Op::Lt,
+                    BinOp::Le => Op::Leq,
+                    BinOp::Gt => Op::Gt,
+                    BinOp::Ge => Op::Geq,
+                    BinOp::And => Op::And,
+                    BinOp::Or => Op::Or,
                 };
                 ap(op, vec![self.expr(a), self.expr(b)])
             }
@@ -184,6 +190,21 @@ impl Exporter<'_> {
                     "ln" => ap(Op::Ln, a),
                     "min" => ap(Op::Min, a),
                     "max" => ap(Op::Max, a),
+                    "sin" => ap(Op::Sin, a),
+                    "cos" => ap(Op::Cos, a),
+                    // pulse(s, p, w) = 1 where s − p·⌊s/p⌋ < w, else 0.
+                    "pulse" => {
+                        let (x, p, w) = (a[0].clone(), a[1].clone(), a[2].clone());
+                        let floor = ap(Op::Floor, vec![ap(Op::Divide, vec![x.clone(), p.clone()])]);
+                        let phase = ap(Op::Minus, vec![x, ap(Op::Times, vec![p, floor])]);
+                        Math::new(
+                            MathKind::Piecewise {
+                                pieces: vec![(cn(1.0), ap(Op::Lt, vec![phase, w]))],
+                                otherwise: Some(Box::new(cn(0.0))),
+                            },
+                            at(),
+                        )
+                    }
                     name => {
                         let b = Builtin::from_name(name)
                             .expect("the compiler accepts only the language's functions");
@@ -257,7 +278,7 @@ impl Exporter<'_> {
                 };
                 (math, Vec::new(), None, notes)
             }
-            (Kinetics::MassAction { k, c }, Some(rate)) => self.mass_action(r, *k, *c, rate),
+            (Kinetics::MassAction { k, c, .. }, Some(rate)) => self.mass_action(r, *k, *c, rate),
             _ => {
                 return Err(Error::Internal(format!(
                     "reaction `{}` has no step in the network's syntax tree",
@@ -482,6 +503,7 @@ fn model_id(file: &str) -> String {
 
 /// The network as an SBML Level 3 Version 2 document.
 pub fn document(net: &Network) -> Result<Export> {
+    refuse_time_forcing(net)?;
     let steps: Vec<&Step> = net
         .source
         .items
@@ -621,4 +643,33 @@ pub fn document(net: &Network) -> Result<Export> {
 pub fn sbml(net: &Network) -> Result<(String, ExportSummary)> {
     let e = document(net)?;
     Ok((super::write::sbml(&e.document), e.summary))
+}
+
+/// Refuses what this export does not write yet: several compartments, doses, infusions,
+/// triggered events and laws that read the clock. Writing them partly would hand another tool
+/// a different model, so the whole export stops with the reason.
+fn refuse_time_forcing(net: &Network) -> Result<()> {
+    let what = if net.compartments.len() > 1 {
+        Some("more than one compartment")
+    } else if !net.doses.is_empty() {
+        Some("doses")
+    } else if !net.infusions.is_empty() {
+        Some("infusions")
+    } else if !net.events.is_empty() {
+        Some("`when` events")
+    } else if net.reactions.iter().any(|r| match &r.kinetics {
+        Kinetics::Law { law, .. } => law.time != crate::network::expr::TimeUse::None,
+        _ => false,
+    }) {
+        Some("a law that reads `time`")
+    } else {
+        None
+    };
+    match what {
+        Some(w) => Err(Error::Usage(format!(
+            "{}: export to SBML does not write {w} yet; export a copy of the network without them",
+            net.file
+        ))),
+        None => Ok(()),
+    }
 }

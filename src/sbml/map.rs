@@ -76,10 +76,11 @@ pub fn network(
 ) -> Result<Network, Error> {
     let diag = |e: SbmlError| Error::Input(vec![e.diagnostic(file, text)]);
     let mapped = ast(file, text, doc).map_err(diag)?;
-    let mut net = compile(&mapped.ast, overrides).map_err(|d| match mapped.scale {
-        Scale::Counts => Error::Input(d),
-        Scale::Volume { .. } => Error::Input(d.into_iter().map(units_not_yet).collect()),
-    })?;
+    let mut net =
+        compile(&std::sync::Arc::new(mapped.ast), overrides).map_err(|d| match mapped.scale {
+            Scale::Counts => Error::Input(d),
+            Scale::Volume { .. } => Error::Input(d.into_iter().map(units_not_yet).collect()),
+        })?;
     for r in &mut net.reactions {
         if let Kinetics::Law { law, .. } = &mut r.kinetics {
             if let Some(t) = mapped.shown.get(r.label.as_str()) {
@@ -208,12 +209,21 @@ pub fn ast(file: &str, text: &str, doc: &Document) -> Result<Mapped, SbmlError> 
         };
         items.push(Item::Species {
             name: name(&s.id, s.loc),
+            compartment: None,
             amount,
             clamped: s.boundary_condition || s.constant,
         });
     }
     let mut param_dims = vec![Dim::NONE; m.parameters.len()];
     for (i, p) in m.parameters.iter().enumerate() {
+        if p.id == crate::network::compile::GRID_TIME {
+            return Err(not_yet(
+                "parameter",
+                Some(&p.id),
+                p.loc,
+                "the id `time` is the clock in copyloop's expressions; a parameter of that name is not supported yet",
+            ));
+        }
         let Some(v) = values.parameters[i] else {
             continue;
         };

@@ -30,7 +30,7 @@ pub use store::{scan, Header, Store};
 pub use task::{default_metric, FnTask, Point, Task};
 
 use crate::error::{Error, Result};
-use crate::network::parser::{self, Ast};
+use crate::network::parser::{self, Ast, Item};
 use crate::network::{compile, Network};
 
 /// A sweep ready to run: the network file, its design and the share of it this run does.
@@ -38,7 +38,7 @@ use crate::network::{compile, Network};
 pub struct Plan {
     pub file: String,
     pub source: Vec<u8>,
-    pub ast: Ast,
+    pub ast: std::sync::Arc<Ast>,
     pub design: Design,
     pub shard: Option<Shard>,
 }
@@ -91,7 +91,7 @@ impl Plan {
         Ok(Plan {
             file: file.to_string(),
             source,
-            ast,
+            ast: std::sync::Arc::new(ast),
             design,
             shard,
         })
@@ -124,13 +124,23 @@ impl Plan {
 
     /// The sweep file header for running `task`.
     pub fn header(&self, task: &dyn Task) -> Header {
-        Header::new(
+        let mut h = Header::new(
             &self.file,
             &self.source,
             &self.design,
             task.name(),
             task.options(),
             self.shard,
-        )
+        );
+        let free = self.ast.items.iter().find_map(|item| match item {
+            Item::Species {
+                name,
+                clamped: false,
+                ..
+            } => Some(name.text.as_str()),
+            _ => None,
+        });
+        h.default_metric = free.and_then(|n| task::species_metric(task.name(), n));
+        h
     }
 }

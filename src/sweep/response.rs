@@ -11,6 +11,8 @@ pub struct Axis {
     pub name: String,
     /// The unit the values are in; `None` when they are in the unit the file wrote.
     pub unit: Option<String>,
+    /// The unit the file wrote for the name, where the sweep file records it.
+    pub file_unit: Option<String>,
     /// Drawn on a logarithmic scale (a `log:` spec).
     pub log: bool,
     /// The grid's values on this axis; empty for a Latin hypercube.
@@ -40,7 +42,7 @@ pub fn check_drawable(axes: usize) -> Result<()> {
     }
 }
 
-/// Reads `metric` (or the task's default) from every point of the sweep file at `path`.
+/// Reads `metric` (or the sweep's default, else the task's) from every point of the sweep file at `path`.
 pub fn response(path: &str, metric: Option<&str>) -> Result<Response> {
     if let Some(m) = metric {
         if !(m.is_empty() || m.starts_with('/')) {
@@ -63,7 +65,10 @@ pub fn response(path: &str, metric: Option<&str>) -> Result<Response> {
             .collect();
         let result = &v["result"];
         if metric.is_none() && !result.is_null() {
-            metric = default_metric(&h.task, result);
+            metric = h
+                .default_metric
+                .clone()
+                .or_else(|| default_metric(&h.task, result));
         }
         let y = metric
             .as_deref()
@@ -93,6 +98,7 @@ pub fn response(path: &str, metric: Option<&str>) -> Result<Response> {
         .map(|v| Axis {
             name: v["name"].as_str().unwrap_or("").to_string(),
             unit: v["unit"].as_str().map(str::to_string),
+            file_unit: v["file_unit"].as_str().map(str::to_string),
             log: v["scale"] == "log",
             grid: v["values"]
                 .as_array()

@@ -43,7 +43,7 @@ pub struct Outcome {
 /// Runs `task` at each point of `todo` (point numbers of `design`), appending each point's line
 /// to `store` as soon as it finishes.
 pub fn run(
-    ast: &Ast,
+    ast: &std::sync::Arc<Ast>,
     design: &Design,
     task: &dyn Task,
     todo: &[u64],
@@ -106,7 +106,7 @@ type Failure = (String, bool);
 /// Compiles point `i` and runs the task there. A panic inside the task is caught and reported
 /// as that point's failure, so one bad point does not end a night's sweep.
 fn run_point(
-    ast: &Ast,
+    ast: &std::sync::Arc<Ast>,
     design: &Design,
     task: &dyn Task,
     i: u64,

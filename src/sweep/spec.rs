@@ -85,6 +85,9 @@ pub struct Vary {
     pub count: Option<usize>,
     /// The values of a list spec.
     pub list: Vec<f64>,
+    /// The unit the file wrote for `name` (`molecules` for a count written bare), which a
+    /// value without a unit is read in; `None` for a bare param.
+    pub file_unit: Option<String>,
 }
 
 impl Vary {
@@ -110,6 +113,7 @@ impl Vary {
             to: 0.0,
             count: None,
             list: Vec::new(),
+            file_unit: file_unit(name, ast),
         };
         match kind.trim() {
             "lin" | "log" => {
@@ -249,6 +253,35 @@ impl Vary {
     pub fn unit_text(&self) -> Option<&str> {
         self.unit.as_ref().map(|u| u.text.as_str())
     }
+}
+
+/// The unit text the file wrote after the value of `name` (the volume, a param or a
+/// species); `molecules` for a species amount written bare; `None` for a bare param or where
+/// the file's text does not show it (an imported SBML model, whose amounts are counts).
+fn file_unit(name: &str, ast: &Ast) -> Option<String> {
+    let (lit, species) = ast.items.iter().find_map(|item| match item {
+        Item::Volume(lit) if name == "volume" => Some((lit, false)),
+        Item::Param { name: n, value, .. } if n.text == name => Some((value, false)),
+        Item::Species {
+            name: n, amount, ..
+        } if n.text == name => Some((amount, true)),
+        _ => None,
+    })?;
+    if lit.bare || lit.quantity.dim == Dim::COUNT {
+        return species.then(|| "molecules".to_string());
+    }
+    let line = ast
+        .source
+        .lines()
+        .nth((lit.span.line as usize).checked_sub(1)?)?;
+    let text: String = line
+        .chars()
+        .skip((lit.span.col as usize).saturating_sub(1))
+        .take(lit.span.len as usize)
+        .collect();
+    // The literal must read back as the same number and unit (a `.crn` line, not XML).
+    let w = written(&text).ok()?;
+    (w.unit.is_some() && w.canonical == lit.quantity.value).then(|| unit_text(&text))
 }
 
 /// What `name` is in the network file.
@@ -419,6 +452,25 @@ mod tests {
         assert_eq!(g[0], 1e5);
         assert_eq!(g[1], 1e6);
         assert_eq!(g[2], 1e7);
+    }
+
+    #[test]
+    fn the_unit_the_file_wrote_is_recorded_for_plots() {
+        let unit = |s: &str| vary(s).unwrap().file_unit;
+        assert_eq!(unit("kon=log:1e5..1e7:3").as_deref(), Some("/M/s"));
+        assert_eq!(unit("koff=list:1").as_deref(), Some("/s"));
+        assert_eq!(unit("H=list:1").as_deref(), Some("nM"));
+        assert_eq!(unit("E=list:1").as_deref(), Some("molecules"));
+        assert_eq!(
+            unit("C=list:1").as_deref(),
+            Some("molecules"),
+            "a bare amount"
+        );
+        assert_eq!(unit("volume=list:1 fL").as_deref(), Some("pL"));
+        let bare =
+            parser::parse("b.crn", b"param k = 3\nspecies A = 1\nstep d A -> 0 @ k\n").unwrap();
+        let v = Vary::parse("k=list:1", &bare).unwrap();
+        assert_eq!(v.file_unit, None, "a bare param has no unit to show");
     }
 
     #[test]

@@ -54,7 +54,8 @@ pub struct Header {
     pub version: String,
     pub network: NetworkRef,
     /// Each varied name: `name`, `spec` as typed, `target`, `scale`, `unit` (null: the unit the
-    /// file wrote), and for a grid its `values`.
+    /// file wrote), `file_unit` (that unit, where the file shows one), and for a grid its
+    /// `values`.
     pub vary: Vec<Value>,
     pub design: String,
     /// Points in the whole design (all shards).
@@ -66,6 +67,10 @@ pub struct Header {
     pub shard: Option<String>,
     /// What the fingerprint is a hash of.
     pub identity: Value,
+    /// The result key a plot of the sweep draws when none is named (the first species the
+    /// file does not clamp); absent where the task's result decides, and in older files.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub default_metric: Option<String>,
 }
 
 impl Header {
@@ -100,6 +105,7 @@ impl Header {
                 let mut m = json!({
                     "name": v.name, "spec": v.spec, "target": v.target.as_str(),
                     "scale": v.scale.as_str(), "unit": v.unit_text(),
+                    "file_unit": v.file_unit,
                 });
                 if let Some(c) = columns {
                     m["values"] = json!(c[d]);
@@ -123,6 +129,7 @@ impl Header {
             options,
             shard: shard.map(|s| s.to_string()),
             identity,
+            default_metric: None,
         }
     }
 

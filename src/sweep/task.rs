@@ -22,7 +22,7 @@ pub struct Point<'a> {
     pub net: &'a Network,
     /// The values that made `net` from the file.
     pub overrides: &'a Overrides,
-    pub(crate) ast: &'a Ast,
+    pub(crate) ast: &'a std::sync::Arc<Ast>,
 }
 
 impl Point<'_> {
@@ -88,20 +88,38 @@ impl Task for FnTask {
     }
 }
 
-/// The result key a sweep plot draws when none is asked for: the headline figure of each
-/// task's document (CONTRACT §3), found in `result` itself; for any other task, the first
-/// number in the document. A JSON pointer (RFC 6901) into the point's `result`.
+/// The pointer to species `name`'s headline figure in the document of `task`: the final mean
+/// (simulate), the steady count (steady), the Fano factor at the first volume (noise).
+pub fn species_metric(task: &str, name: &str) -> Option<String> {
+    let k = escape(name);
+    match task {
+        "simulate" => Some(format!("/final/{k}/mean")),
+        "steady" => Some(format!("/state/{k}/count")),
+        "noise" => Some(format!("/volumes/0/species/{k}/fano")),
+        _ => None,
+    }
+}
+
+/// The result key a sweep plot draws when none is asked for and the sweep file names none:
+/// the headline figure of each task's document (CONTRACT §3), found in `result` itself (for
+/// the tasks keyed by species, the first species not marked `clamped` there); for any other
+/// task, the first number in the document. A JSON pointer (RFC 6901) into the point's
+/// `result`.
 pub fn default_metric(task: &str, result: &Value) -> Option<String> {
-    let first_key = |v: &Value| {
-        v.as_object()
-            .and_then(|m| m.keys().next().cloned())
-            .map(|k| escape(&k))
+    let species = match task {
+        "simulate" => &result["final"],
+        "steady" => &result["state"],
+        "noise" => &result["volumes"][0]["species"],
+        _ => &Value::Null,
     };
+    let first = species.as_object().and_then(|m| {
+        m.iter()
+            .find(|(_, v)| v["clamped"] != Value::Bool(true))
+            .or_else(|| m.iter().next())
+            .map(|(k, _)| k.clone())
+    });
     let found = match task {
-        "simulate" => first_key(&result["final"]).map(|k| format!("/final/{k}/mean")),
-        "steady" => first_key(&result["state"]).map(|k| format!("/state/{k}/count")),
-        "noise" => first_key(&result["volumes"][0]["species"])
-            .map(|k| format!("/volumes/0/species/{k}/fano")),
+        "simulate" | "steady" | "noise" => first.and_then(|k| species_metric(task, &k)),
         "reconcile" if !result["motifs"][0].is_null() => {
             Some("/motifs/0/ensemble/mean_per_s".to_string())
         }

@@ -4,3 +4,4 @@
 pub mod cli;
 pub mod sbml_stochastic;
 pub mod sbml_suite;
+pub mod svg;

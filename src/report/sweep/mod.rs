@@ -1,6 +1,6 @@
 //! Reports of `copyloop sweep` and `copyloop merge`, and the document of the `initial` task.
 
-pub mod svg;
+pub mod response;
 
 use super::jnum;
 use crate::network::Network;
@@ -11,10 +11,11 @@ use serde_json::{json, Map, Value};
 /// (mol/L, s, molecules, L) and each reaction's stochastic constant.
 pub fn initial(net: &Network) -> Value {
     let mut species = Map::new();
-    for s in &net.species {
+    for (i, s) in net.species.iter().enumerate() {
         let mut v = json!({"initial_count": s.initial, "clamped": s.clamped});
-        if net.volume_l.is_some() {
-            v["initial_molar"] = jnum(s.initial as f64 / net.omega);
+        if let Some(w) = net.species_molar_omega(i) {
+            // In the species' own compartment.
+            v["initial_molar"] = jnum(s.initial as f64 / w);
         }
         species.insert(s.name.clone(), v);
     }

@@ -574,6 +574,16 @@ pub fn svg(net: &Network, course: Course, species: &[usize]) -> String {
     .render()
 }
 
+/// The ODE time course of `species` as an SVG chart (lines, in molecules).
+pub fn ode_svg(net: &Network, tr: &Trajectory, species: &[usize]) -> String {
+    let counts = ode_counts(net, tr);
+    let course = Course::Deterministic {
+        times: &tr.times,
+        counts: &counts,
+    };
+    svg(net, course, species)
+}
+
 /// Adds the comparison with the exact law under `exact` (null, with `exact_note`, where the
 /// network does not fit a finite state projection).
 pub fn add_exact_json(

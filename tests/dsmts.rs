@@ -9,7 +9,7 @@
 //!
 //! for every species and time with σ_t > 0 (where σ_t = 0 the ensemble must equal μ_t
 //! exactly). Multiple comparisons: with 51 correlated time points per species the test asks
-//! |Z_t| < 4 at every point (per-point false alarm 6e-5, REFERENCES.md §0) and |Y_t| < 5 at
+//! |Z_t| < 4 at every point (per-point false alarm 6e-5, docs/references.md §0) and |Y_t| < 5 at
 //! every point (the suite's own bound for the variance test). The seed is fixed.
 
 use copyloop::ensemble::{self, EnsembleSpec};

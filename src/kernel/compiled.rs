@@ -26,7 +26,7 @@ pub const LAW: u8 = u8::MAX;
 /// A propensity in flat form (molecules per second).
 ///
 /// Mass action, a = c·Π C(xᵢ, νᵢ) (Gillespie 1976, J. Comput. Phys. 22:403 [verified]; the
-/// forms c·x, c·x₁x₂, c·x(x−1)/2, c·x(x−1)(x−2)/6 [M], REFERENCES.md §1), is written as
+/// forms c·x, c·x₁x₂, c·x(x−1)/2, c·x(x−1)(x−2)/6 [M], docs/references.md §1), is written as
 ///
 /// a = c′·(x[i₀] − o₀)·(x[i₁] − o₁)·(x[i₂] − o₂)   (the first `factors` of them),
 ///

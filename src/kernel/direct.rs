@@ -1,7 +1,7 @@
 //! The Gillespie direct method: one exact trajectory of the chemical master equation.
 //!
 //! Each step (Gillespie 1977, J. Phys. Chem. 81:2340, and 1976, J. Comput. Phys. 22:403
-//! [verified], REFERENCES.md §1): with a₀ = Σⱼ aⱼ(x), the waiting time is τ ~ Exp(a₀) and the
+//! [verified], docs/references.md §1): with a₀ = Σⱼ aⱼ(x), the waiting time is τ ~ Exp(a₀) and the
 //! channel is the smallest μ with Σ_{j≤μ} aⱼ > u·a₀, u uniform on [0, 1); the joint density of
 //! (τ, μ) is a_μ·e^(−a₀τ). After channel μ fires only the propensities in the dependency graph
 //! row of μ are recomputed (the graph comes from the compiler).
@@ -1156,7 +1156,7 @@ mod tests {
 
     /// Fires random channels of positive propensity through the small-network view and, after
     /// each, compares every kept propensity with a fresh evaluation of its rate law
-    /// (REFERENCES.md §1, the combinatorial forms [M]); the kept values come from offsets
+    /// (docs/references.md §1, the combinatorial forms [M]); the kept values come from offsets
     /// shifted by the event's change, so they must agree exactly. Networks of at most three
     /// reactions are checked in their dense form too.
     fn kept_equal_fresh<const ORDER: usize, const W: usize>(src: &str) {

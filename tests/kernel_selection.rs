@@ -74,7 +74,7 @@ fn ensemble(k: &CompiledKernel, selection: Selection, seed: u64, reps: u64, t_en
 
 /// |mean₁ − mean₂| ≤ 4·√(SE₁² + SE₂²), and the same for the variances, on independent
 /// samples. SE(s²) is the larger of the normal-theory s²·√(2/(n−1)) and the Poisson form
-/// √((s² + 2s⁴)/n) (REFERENCES-style rule for a Poisson sample, with s² for λ), so that rare
+/// √((s² + 2s⁴)/n) (the variance of a Poisson sample variance, with s² for λ, common practice), so that rare
 /// counts (a channel that fires once in thousands of runs) are not judged by normal theory.
 fn same(a: &Welford, b: &Welford, what: &str) {
     let se = (a.stderr().powi(2) + b.stderr().powi(2)).sqrt();

@@ -77,7 +77,8 @@ enum Selector {
     /// (always 0) up to a multiple of [`LANES`], then one more 0 that is never summed.
     Small(Vec<f64>),
     Tree(SumTree),
-    Rejection(RejectionState),
+    /// Boxed: the groups are several times the size of the other forms.
+    Rejection(Box<RejectionState>),
 }
 
 /// How the direct method selects the channel that fires.
@@ -116,7 +117,7 @@ impl<'k> Direct<'k> {
         };
         let selector = match selection {
             None => Selector::Small(vec![0.0; (m + 1).next_multiple_of(LANES) + 1]),
-            Some(Selection::Rejection) => Selector::Rejection(RejectionState {
+            Some(Selection::Rejection) => Selector::Rejection(Box::new(RejectionState {
                 groups: Rejection::new(m),
                 kept: (0..m)
                     .map(|j| Kept {
@@ -124,7 +125,7 @@ impl<'k> Direct<'k> {
                         a: 0.0,
                     })
                     .collect(),
-            }),
+            })),
             Some(_) => Selector::Tree(SumTree::new(&vec![0.0; m])),
         };
         let inputs = kernel.inputs();
@@ -271,7 +272,8 @@ fn dispatch<Tr: Triggers, R: Rng + Clone, O: Observer>(
             }
         }
         Selector::Tree(tree) => run_loop::<_, _, _, Tr>(k, x, Tree { k, tree }, run),
-        Selector::Rejection(RejectionState { groups, kept }) => {
+        Selector::Rejection(state) => {
+            let RejectionState { groups, kept } = &mut **state;
             run_loop::<_, _, _, Tr>(k, x, Groups { k, groups, kept }, run)
         }
     }

@@ -409,3 +409,152 @@ fn dsmts_immigration_death_dimerisation_and_batch() {
         dsmts(id);
     }
 }
+
+/// Largest |computed − closed form| over the marginal's support and beyond.
+fn max_gap(marginal: &[f64], pmf: impl Fn(u64) -> f64, top: u64) -> f64 {
+    (0..=top.max(marginal.len() as u64))
+        .map(|k| (marginal.get(k as usize).copied().unwrap_or(0.0) - pmf(k)).abs())
+        .fold(0.0, f64::max)
+}
+
+// A bolus of D molecules at t₀ with first-order elimination: each molecule survives
+// independently with probability e^{−k(t−t₀)}, so A(t) ~ Binomial(D, e^{−k(t−t₀)}) (the
+// linear death process, Bailey 1964, "The Elements of Stochastic Processes", §8.6 [M]);
+// before the dose A = 0, and the state at the dose time includes the dose.
+#[test]
+fn bolus_with_first_order_elimination_is_binomial() {
+    let n = net("species A = 0\nstep clear A -> 0 @ 0.5\ndose A += 20 molecules at 1 s\n");
+    let times = [0.5, 1.0, 1.5, 3.0, 6.0];
+    let r = distribution::transient(&n, &times, &opts(1e-9)).unwrap();
+    let a = r.species.get("A").unwrap();
+    assert!((a.p_zero[0] - 1.0).abs() < 1e-12);
+    for (i, &t) in times.iter().enumerate().skip(1) {
+        let b = Binomial::new((-0.5 * (t - 1.0)).exp(), 20).unwrap();
+        let gap = max_gap(&a.marginal[i], |k| b.pmf(k), 20);
+        assert!(gap <= 1e-8, "t={t}: {gap}");
+        assert!(gap <= r.truncation_error + 1e-12);
+    }
+}
+
+/// pmf of a sum of independent binomials Bin(n, p_i), by convolution.
+fn binomial_sum(n: u64, ps: &[f64]) -> Vec<f64> {
+    let mut pmf = vec![1.0];
+    for &p in ps {
+        let b = Binomial::new(p, n).unwrap();
+        let mut next = vec![0.0; pmf.len() + n as usize];
+        for (i, &a) in pmf.iter().enumerate() {
+            for k in 0..=n {
+                next[i + k as usize] += a * b.pmf(k);
+            }
+        }
+        pmf = next;
+    }
+    pmf
+}
+
+// Repeated bolus: the molecules of each dose die independently, so A(t) is the sum of
+// independent Binomial(D, e^{−k(t−t_i)}) over the doses given by t (superposition of linear
+// death processes, Bailey 1964 §8.6 [M]).
+#[test]
+fn repeated_bolus_is_a_sum_of_binomials() {
+    let n = net(
+        "species A = 0\nstep clear A -> 0 @ 0.3\ndose A += 8 molecules at 0 s every 2 s times 4\n",
+    );
+    let times = [0.0, 1.0, 2.0, 5.5, 9.0];
+    let r = distribution::transient(&n, &times, &opts(1e-9)).unwrap();
+    let a = r.species.get("A").unwrap();
+    for (i, &t) in times.iter().enumerate() {
+        let ps: Vec<f64> = (0..4)
+            .map(|d| 2.0 * d as f64)
+            .filter(|&td| td <= t)
+            .map(|td| (-0.3 * (t - td)).exp())
+            .collect();
+        let exact = binomial_sum(8, &ps);
+        let gap = max_gap(
+            &a.marginal[i],
+            |k| exact.get(k as usize).copied().unwrap_or(0.0),
+            40,
+        );
+        assert!(gap <= 1e-8, "t={t}: {gap}");
+    }
+}
+
+// An infusion at rate R over [T₁, T₂) into first-order elimination from zero: the count is
+// Poisson at every time (immigration–death from an empty start, Gardiner, "Handbook of
+// Stochastic Methods", §7.1 [M]), with mean R/k·(1 − e^{−k(t−T₁)}) during the infusion and
+// that mean at T₂ times e^{−k(t−T₂)} after it (Poisson thinning).
+#[test]
+fn infusion_is_poisson_with_the_infused_mean() {
+    let n = net(
+        "species A = 0\nstep clear A -> 0 @ 0.25\ninfuse A at 6 molecules/s from 2 s to 10 s\n",
+    );
+    let times = [1.0, 2.0, 4.0, 10.0, 12.0, 20.0];
+    let r = distribution::transient(&n, &times, &opts(1e-9)).unwrap();
+    let a = r.species.get("A").unwrap();
+    let mean = |t: f64| {
+        let during = |s: f64| 6.0 / 0.25 * (1.0 - (-0.25 * (s - 2.0)).exp());
+        if t <= 2.0 {
+            0.0
+        } else if t <= 10.0 {
+            during(t)
+        } else {
+            during(10.0) * (-0.25 * (t - 10.0)).exp()
+        }
+    };
+    for (i, &t) in times.iter().enumerate() {
+        let m = mean(t);
+        if m == 0.0 {
+            // Below 1 by at most the reported bound (the series cut).
+            let lost = 1.0 - a.p_zero[i];
+            assert!(
+                lost >= 0.0 && lost <= r.truncation_error + 1e-15,
+                "t={t}: {lost}"
+            );
+            continue;
+        }
+        let p = Poisson::new(m).unwrap();
+        let gap = max_gap(&a.marginal[i], |k| p.pmf(k), 80);
+        assert!(gap <= 1e-8, "t={t}: {gap}");
+        assert!((a.mean[i] - m).abs() <= 1e-6 * m.max(1.0), "t={t}");
+    }
+}
+
+// Immigration at rate λ with the reset `when X >= N : X = 0`: X(t) is the Poisson count of
+// arrivals modulo N, P(X = r) = Σ_m Pois(mN + r; λt) (the reset fires on the rising edge the
+// N-th arrival makes; the Poisson process, Feller 1968, "An Introduction to Probability
+// Theory and Its Applications" I, §XVII.2 [M]).
+#[test]
+fn triggered_reset_gives_the_poisson_count_modulo_n() {
+    let n = net("species X = 0\nstep in 0 -> X @ 3\nwhen X >= 5 : X = 0\n");
+    let times = [0.5, 2.0, 7.0];
+    let r = distribution::transient(&n, &times, &opts(1e-10)).unwrap();
+    let x = r.species.get("X").unwrap();
+    assert!(r.states <= 5);
+    for (i, &t) in times.iter().enumerate() {
+        let p = Poisson::new(3.0 * t).unwrap();
+        let exact = |k: u64| {
+            if k >= 5 {
+                0.0
+            } else {
+                (0..200).map(|m| p.pmf(5 * m + k)).sum()
+            }
+        };
+        let gap = max_gap(&x.marginal[i], exact, 5);
+        assert!(gap <= 1e-8, "t={t}: {gap}");
+    }
+}
+
+// A reset that leaves its trigger true would need the trigger's memory: refused, naming the
+// event's line; and the stationary law of a dosed network is refused.
+#[test]
+fn forcing_the_projection_cannot_follow_is_refused() {
+    let n = net("species X = 0\nstep in 0 -> X @ 3\nwhen X >= 5 : X = 6\n");
+    let e = distribution::transient(&n, &[1.0], &opts(1e-6)).unwrap_err();
+    assert!(
+        e.to_string().contains("t.crn:3") && e.to_string().contains("memory"),
+        "{e}"
+    );
+    let n = net("species A = 0\nstep clear A -> 0 @ 0.5\ndose A += 20 molecules at 1 s\n");
+    let e = distribution::stationary(&n, &opts(1e-6)).unwrap_err();
+    assert!(e.to_string().contains("no stationary law"), "{e}");
+}

@@ -22,8 +22,9 @@ pub struct Generator {
 }
 
 impl Generator {
-    /// Transposes the projection's transitions (by source) into rows by destination.
-    pub fn new(p: &Projection, sinks: usize) -> Generator {
+    /// Transposes the projection's transitions (by source) into rows by destination, with the
+    /// rates of phase `phase`.
+    pub fn new(p: &Projection, sinks: usize, phase: usize) -> Generator {
         let rows = p.states + sinks;
         let mut count = vec![0usize; rows + 1];
         for &t in &p.target {
@@ -41,9 +42,10 @@ impl Generator {
             for e in p.first[s]..p.first[s + 1] {
                 let t = p.target[e] as usize;
                 col[next[t]] = s as u32;
-                rate[next[t]] = p.rate[e];
+                let a = p.rate[e * p.phases + phase];
+                rate[next[t]] = a;
                 next[t] += 1;
-                *d -= p.rate[e];
+                *d -= a;
             }
         }
         Generator {

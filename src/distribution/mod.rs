@@ -9,6 +9,7 @@
 //!
 //! ```text
 //! space.rs      states reachable from x₀ in a box; conservation laws remove dimensions
+//! schedule.rs   breakpoints, doses and `when` resets: what the projection can follow exactly
 //! generator.rs  A in compressed sparse rows (by destination), one sink per bound
 //! transient.rs  uniformization on the time grid, with its exact series bound
 //! stationary.rs closed classes, then a sparse LU solve of π·A = 0
@@ -25,17 +26,19 @@
 //! √(t_end/t_fail) per round.
 //! Past `max_states` states the request is refused with the count reached.
 //!
-//! Time-dependent inputs fit this structure without change: between breakpoints the generator
-//! is constant and one [`transient::Series`] runs across the interval (its end vector is one
-//! more weighted sum of the same v_k); a dose or a triggered reset is a map of states to
-//! states applied to that vector at its breakpoint, inside the same projection, and the next
-//! interval starts from the result.
+//! Time-dependent inputs (schedule.rs): between breakpoints the generator is constant and one
+//! [`transient::Series`] runs across the interval (its end vector is one more weighted sum of
+//! the same v_k); a dose is a map of states to states applied to that vector at its
+//! breakpoint, inside the same projection, and the next interval starts from the result; a
+//! triggered reset redirects the transitions into the states where its trigger holds. The
+//! projection holds the states reachable by reactions in any interval and by the doses.
 //!
 //! Numerical modules produce no prose: results are typed and serialisable, errors are
 //! [`FspError`].
 
 pub mod compare;
 pub mod generator;
+pub mod schedule;
 pub mod space;
 pub mod stationary;
 pub mod summary;
@@ -43,6 +46,7 @@ pub mod transient;
 
 use crate::network::Network;
 use generator::Generator;
+use schedule::Forcing;
 use serde::ser::SerializeMap;
 use serde::{Serialize, Serializer};
 use space::{Projection, Reduction};
@@ -290,10 +294,13 @@ struct Setup {
     props: Vec<crate::network::Propensity>,
     species: Vec<usize>,
     n_species: usize,
+    forcing: Forcing,
 }
 
 impl Setup {
-    fn new(net: &Network, opts: &Options) -> Result<Setup, FspError> {
+    /// `t_end`: the last time of a transient solve (None: the stationary law, which refuses a
+    /// network driven in time).
+    fn new(net: &Network, opts: &Options, t_end: Option<f64>) -> Result<Setup, FspError> {
         if !(opts.tolerance > 0.0 && opts.tolerance < 1.0) {
             return Err(FspError::Options(format!(
                 "the tolerance must lie in (0, 1), got {}",
@@ -307,20 +314,24 @@ impl Setup {
                 opts.max_states
             )));
         }
-        if let Some(what) = net.time_forcing() {
-            return Err(FspError::NotAutonomous(format!(
-                "{}: {what} drives the network in time; the finite state projection solves networks whose rates do not depend on time",
-                net.file
-            )));
-        }
         if let Some(why) = &net.amount.stochastic_refusal {
             return Err(FspError::NotAutonomous(format!("{}: {why}", net.file)));
         }
+        let forcing = match (net.time_forcing(), t_end) {
+            (None, _) => Forcing::none(net),
+            (Some(what), None) => {
+                return Err(FspError::NotAutonomous(format!(
+                    "{}: {what} drives the network in time, so it has no stationary law; ask for the transient law at chosen times instead",
+                    net.file
+                )))
+            }
+            (Some(_), Some(t)) => Forcing::new(net, t)?,
+        };
         let species = opts
             .species
             .clone()
             .unwrap_or_else(|| (0..net.species.len()).collect());
-        let red = Reduction::new(net);
+        let red = Reduction::from_start(net, forcing.start(net)?, &Forcing::touched(net));
         if let Some(b) = &opts.bounds {
             if b.len() != red.dim() {
                 return Err(FspError::Options(format!(
@@ -336,6 +347,7 @@ impl Setup {
             props: net.propensities(),
             species,
             n_species: net.species.len(),
+            forcing,
         })
     }
 
@@ -407,21 +419,39 @@ impl Setup {
         max: usize,
         leaked: Option<f64>,
         stationary: bool,
-    ) -> Result<(Vec<u32>, Generator), FspError> {
+    ) -> Result<Projected, FspError> {
         let p: Projection =
-            space::enumerate(net, &self.red, &self.props, bounds, max).map_err(|e| match e {
-                FspError::TooManyStates { found, max, .. } => FspError::TooManyStates {
-                    found,
-                    max,
-                    leaked,
-                    stationary,
+            space::enumerate(net, &self.red, &self.props, bounds, max, &self.forcing).map_err(
+                |e| match e {
+                    FspError::TooManyStates { found, max, .. } => FspError::TooManyStates {
+                        found,
+                        max,
+                        leaked,
+                        stationary,
+                    },
+                    other => other,
                 },
-                other => other,
-            })?;
-        let g = Generator::new(&p, self.red.dim());
-        Ok((p.coords, g))
+            )?;
+        let g = (0..p.phases)
+            .map(|phase| Generator::new(&p, self.red.dim(), phase))
+            .collect();
+        Ok((p.coords, g, p.jumps))
     }
 }
+
+/// The distribution after a jump: the mass of each state moves to `to[s]` (a state or a sink);
+/// the sinks keep theirs.
+fn jump(p: &[f64], to: &[u32], states: usize) -> Vec<f64> {
+    let mut q = vec![0.0; p.len()];
+    q[states..].copy_from_slice(&p[states..]);
+    for (&m, &t) in p[..states].iter().zip(to) {
+        q[t as usize] += m;
+    }
+    q
+}
+
+/// A projection's coordinates, its generator in every phase, and each dose's jump.
+type Projected = (Vec<u32>, Vec<Generator>, Vec<Vec<u32>>);
 
 /// Runs `f` on a pool of `threads` threads (or on the current pool).
 fn with_threads<T: Send>(
@@ -450,7 +480,7 @@ pub fn transient(net: &Network, times: &[f64], opts: &Options) -> Result<Transie
             "the times must be finite, non-negative and non-decreasing".into(),
         ));
     }
-    let setup = Setup::new(net, opts)?;
+    let setup = Setup::new(net, opts, Some(times[times.len() - 1]))?;
     let parallel = opts.threads != Some(1);
     with_threads(opts.threads, || {
         transient_in(net, times, opts, &setup, parallel)
@@ -469,7 +499,8 @@ fn transient_in(
     let mut bounds = setup.initial_bounds();
     let mut leaked = None;
     for round in 1.. {
-        let (coords, g) = setup.project(net, &bounds, opts.max_states, leaked, false)?;
+        let (coords, gens, jumps) = setup.project(net, &bounds, opts.max_states, leaked, false)?;
+        let g = &gens[0];
         let columns = Columns::new(
             &setup.red,
             &coords,
@@ -477,8 +508,7 @@ fn transient_in(
             &setup.species,
             setup.n_species,
         );
-        let mut series = transient::Series::new(&g, &columns, parallel);
-        let p0: Vec<f64> = (0..g.len())
+        let mut p: Vec<f64> = (0..g.len())
             .map(|s| if s == 0 { 1.0 } else { 0.0 })
             .collect();
         let mut laws: Vec<Vec<summary::Moments>> = vec![Vec::new(); setup.species.len()];
@@ -486,24 +516,57 @@ fn transient_in(
         let mut series_error = 0.0f64;
         let mut sinks = Vec::new();
         let mut failed_at = times[times.len() - 1];
-        let completed = series.run(&p0, times, series_budget, |i, o, tail| {
-            let deficit = (1.0 - o.mass).max(0.0);
-            if deficit > tol {
-                leaked = Some(deficit);
-                failed_at = times[i];
-                sinks = o.sinks.clone();
-                return false;
+        let mut completed = true;
+        let (mut rate, mut products) = (0.0f64, 0u64);
+        let segments = &setup.forcing.segments;
+        let mut first_time = 0;
+        for (n, seg) in segments.iter().enumerate() {
+            for &dose in &seg.doses {
+                p = jump(&p, &jumps[dose], g.states);
             }
-            series_error = series_error.max(tail);
-            by_time.push(deficit);
-            for (k, law) in laws.iter_mut().enumerate() {
-                let end = columns.offsets.get(k + 1).copied().unwrap_or(columns.len);
-                law.push(summary::from_marginal(
-                    &o.marginals[columns.offsets[k]..end],
-                ));
+            let next = segments.get(n + 1).map(|s| s.start);
+            let count = times[first_time..].partition_point(|&t| next.is_none_or(|e| t < e));
+            let offsets: Vec<f64> = times[first_time..first_time + count]
+                .iter()
+                .map(|&t| t - seg.start)
+                .collect();
+            let mut series = transient::Series::new(&gens[seg.phase], &columns, parallel);
+            let (ran, end) = series.run(
+                &p,
+                &offsets,
+                next.map(|e| e - seg.start),
+                series_budget,
+                |i, o, tail| {
+                    let deficit = (1.0 - o.mass).max(0.0);
+                    if deficit > tol {
+                        leaked = Some(deficit);
+                        failed_at = times[first_time + i];
+                        sinks = o.sinks.clone();
+                        return false;
+                    }
+                    series_error = series_error.max(tail);
+                    by_time.push(deficit);
+                    for (k, law) in laws.iter_mut().enumerate() {
+                        let end = columns.offsets.get(k + 1).copied().unwrap_or(columns.len);
+                        law.push(summary::from_marginal(
+                            &o.marginals[columns.offsets[k]..end],
+                        ));
+                    }
+                    true
+                },
+            );
+            rate = rate.max(series.rate());
+            products += series.products;
+            first_time += count;
+            if !ran {
+                completed = false;
+                break;
             }
-            true
-        });
+            if first_time == times.len() {
+                break;
+            }
+            p = end;
+        }
         if !completed {
             // Leaking long before the end means the law travels far: grow more, but keep the
             // state count's growth per round near √(t_end/t_fail) whatever the dimension.
@@ -537,9 +600,9 @@ fn transient_in(
             truncation_error_by_time: by_time,
             series_error,
             states: g.states,
-            projection: setup.info(net, &bounds, &g, round),
-            uniformization_rate: series.rate(),
-            products: series.products,
+            projection: setup.info(net, &bounds, g, round),
+            uniformization_rate: rate,
+            products,
             times: times.to_vec(),
             species: Named(species),
         });
@@ -550,7 +613,7 @@ fn transient_in(
 /// The stationary law of `net` reached from its initial state, with the projection grown
 /// until the stationary probability of its boundary is at most the tolerance.
 pub fn stationary(net: &Network, opts: &Options) -> Result<Stationary, FspError> {
-    let setup = Setup::new(net, opts)?;
+    let setup = Setup::new(net, opts, None)?;
     with_threads(opts.threads, || stationary_in(net, opts, &setup))?
 }
 
@@ -560,7 +623,8 @@ fn stationary_in(net: &Network, opts: &Options, setup: &Setup) -> Result<Station
     let mut leaked = None;
     let d = setup.red.dim();
     for round in 1.. {
-        let (coords, g) = setup.project(net, &bounds, opts.max_states, leaked, true)?;
+        let (coords, gens, _) = setup.project(net, &bounds, opts.max_states, leaked, true)?;
+        let g = &gens[0];
         // Which sinks each state feeds.
         let mut feeds: Vec<u64> = vec![0; g.states];
         for k in 0..g.sinks {
@@ -569,7 +633,7 @@ fn stationary_in(net: &Network, opts: &Options, setup: &Setup) -> Result<Station
                 feeds[g.col[e] as usize] |= 1 << k.min(63);
             }
         }
-        let classes = stationary::classes(&g);
+        let classes = stationary::classes(g);
         let mut on_edge = vec![false; classes.count];
         for s in 0..g.states {
             if feeds[s] != 0 {
@@ -603,7 +667,7 @@ fn stationary_in(net: &Network, opts: &Options, setup: &Setup) -> Result<Station
             setup.grow(&mut bounds, &mass, tol, 1.5);
             continue;
         }
-        let (pi, residual) = stationary::solve(&g, &classes, closed[0])?;
+        let (pi, residual) = stationary::solve(g, &classes, closed[0])?;
         let mut sink_mass = vec![0.0; d];
         let mut boundary = 0.0;
         for s in 0..g.states {
@@ -657,7 +721,7 @@ fn stationary_in(net: &Network, opts: &Options, setup: &Setup) -> Result<Station
         return Ok(Stationary {
             truncation_error: boundary,
             states: g.states,
-            projection: setup.info(net, &bounds, &g, round),
+            projection: setup.info(net, &bounds, g, round),
             class_states: classes.of.iter().filter(|&&c| c == closed[0]).count(),
             residual,
             species: Named(species),

@@ -16,6 +16,7 @@
 //! a semi-positive conservation law caps (l ≥ 0, l_k > 0: x_k ≤ l·x₀/l_k) is never bounded
 //! below its cap, and so never leaks.
 
+use super::schedule::Forcing;
 use super::FspError;
 use crate::network::{Network, Propensity};
 
@@ -58,13 +59,22 @@ fn normalise(v: &mut [i128]) {
 impl Reduction {
     /// The coordinates of `net`: free species that are not the pivot of a conservation law.
     pub fn new(net: &Network) -> Reduction {
-        let template = net.initial_state();
+        Reduction::from_start(net, net.initial_state(), &[])
+    }
+
+    /// The coordinates from the start state `template`, using only the conservation laws that
+    /// do not involve a species in `touched` (set by doses or events, which break them).
+    pub fn from_start(net: &Network, template: Vec<i64>, touched: &[usize]) -> Reduction {
+        let laws: Vec<&Vec<i64>> = net
+            .conservation_laws
+            .iter()
+            .filter(|l| touched.iter().all(|&i| l[i] == 0))
+            .collect();
         let free: Vec<usize> = (0..net.species.len())
             .filter(|&i| !net.species[i].clamped)
             .collect();
         // Fraction-free Gauss–Jordan elimination over the free species' columns.
-        let mut rows: Vec<Vec<i128>> = net
-            .conservation_laws
+        let mut rows: Vec<Vec<i128>> = laws
             .iter()
             .map(|l| free.iter().map(|&i| l[i] as i128).collect())
             .collect();
@@ -122,8 +132,7 @@ impl Reduction {
         let caps = independent
             .iter()
             .map(|&i| {
-                net.conservation_laws
-                    .iter()
+                laws.iter()
                     .filter(|l| l[i] > 0 && l.iter().all(|&c| c >= 0))
                     .map(|l| {
                         let total: i64 = l.iter().zip(&template).map(|(c, x)| c * x).sum();
@@ -234,23 +243,76 @@ pub struct Projection {
     pub coords: Vec<u32>,
     pub dim: usize,
     pub states: usize,
-    /// Transitions by source: `first[s]..first[s + 1]` index `target` and `rate`. A target at or
-    /// above `states` is sink `target − states`.
+    /// Transitions by source: `first[s]..first[s + 1]` index `target`, and `rate[e·phases + p]`
+    /// is the rate of transition e in phase p. A target at or above `states` is sink
+    /// `target − states`.
     pub first: Vec<usize>,
     pub target: Vec<u32>,
     pub rate: Vec<f64>,
+    pub phases: usize,
+    /// For each dose, the state (or sink) each state jumps to.
+    pub jumps: Vec<Vec<u32>>,
 }
 
-/// Enumerates the states reachable from x₀ inside `bounds` (one per coordinate) by breadth-first
-/// search, with the rate of every transition; refuses past `max_states`.
+/// Where a full state `x` lies: its index (added to the table if new) or the code of the sink
+/// of the first coordinate past its bound (`u32::MAX − k`).
+struct Locate<'a> {
+    red: &'a Reduction,
+    bounds: &'a [u32],
+    max_states: usize,
+}
+
+impl Locate<'_> {
+    fn place(
+        &self,
+        x: &[i64],
+        y: &mut [u32],
+        coords: &mut Vec<u32>,
+        table: &mut IndexTable,
+    ) -> Result<u32, FspError> {
+        let d = self.red.dim();
+        for (k, &i) in self.red.independent.iter().enumerate() {
+            if x[i] > self.bounds[k] as i64 {
+                return Ok(u32::MAX - k as u32);
+            }
+            y[k] = x[i] as u32;
+        }
+        if d == 0 {
+            return Ok(0);
+        }
+        match table.find(y, coords, d) {
+            Ok(t) => Ok(t),
+            Err(slot) => {
+                let t = table.len;
+                if t >= self.max_states {
+                    return Err(FspError::TooManyStates {
+                        found: t + 1,
+                        max: self.max_states,
+                        leaked: None,
+                        stationary: false,
+                    });
+                }
+                coords.extend_from_slice(y);
+                table.insert_at(slot, t as u32, coords, d);
+                Ok(t as u32)
+            }
+        }
+    }
+}
+
+/// Enumerates the states reachable from the start inside `bounds` (one per coordinate) by
+/// breadth-first search, by reactions in any phase of `forcing` and by its doses, with the rate
+/// of every transition in every phase; refuses past `max_states`.
 pub fn enumerate(
     net: &Network,
     red: &Reduction,
     props: &[Propensity],
     bounds: &[u32],
     max_states: usize,
+    forcing: &Forcing,
 ) -> Result<Projection, FspError> {
     let d = red.dim();
+    let phases = forcing.phase_times.len();
     let mut coords = red.initial_coords();
     let mut table = IndexTable::new();
     if d > 0 {
@@ -261,12 +323,19 @@ pub fn enumerate(
     } else {
         table.len = 1;
     }
+    let locate = Locate {
+        red,
+        bounds,
+        max_states,
+    };
     let changes: Vec<Vec<(usize, i64)>> = net.reactions.iter().map(|r| r.change.clone()).collect();
     let n_species = net.species.len();
     let mut x = vec![0i64; n_species];
+    let mut x2 = vec![0i64; n_species];
     let mut y = vec![0u32; d];
-    let mut pending: Vec<(u32, f64)> = Vec::new();
+    let mut a = vec![0.0; phases];
     let (mut first, mut target, mut rate) = (vec![0usize], Vec::new(), Vec::new());
+    let mut jumps: Vec<Vec<u32>> = vec![Vec::new(); net.doses.len()];
     let mut s = 0usize;
     while s < table.len {
         red.expand(&coords[s * d..(s + 1) * d], &mut x);
@@ -274,84 +343,62 @@ pub fn enumerate(
             if changes[j].is_empty() {
                 continue;
             }
-            let a = p.eval(&x);
-            if !(a >= 0.0 && a.is_finite()) {
-                return Err(FspError::BadPropensity {
-                    reaction: net.reactions[j].label.clone(),
-                    state: state_text(net, &x),
-                    value: a,
-                });
+            for (ap, &t) in a.iter_mut().zip(&forcing.phase_times) {
+                *ap = p.eval_at(&x, forcing.params(), t);
+                if !(*ap >= 0.0 && ap.is_finite()) {
+                    return Err(FspError::BadPropensity {
+                        reaction: net.reactions[j].label.clone(),
+                        state: state_text(net, &x),
+                        value: *ap,
+                    });
+                }
             }
-            if a == 0.0 {
+            if a.iter().all(|&v| v == 0.0) {
                 continue;
             }
-            y.copy_from_slice(&coords[s * d..(s + 1) * d]);
-            let mut sink = None;
+            x2.copy_from_slice(&x);
             let mut negative = false;
             for &(i, dx) in &changes[j] {
-                if let Some(k) = red.independent.iter().position(|&c| c == i) {
-                    let v = y[k] as i64 + dx;
-                    if v < 0 {
-                        negative = true;
-                    } else if v > bounds[k] as i64 {
-                        sink.get_or_insert(k);
-                    } else {
-                        y[k] = v as u32;
-                    }
-                } else if x[i] + dx < 0 {
-                    negative = true;
+                if net.species[i].clamped {
+                    continue;
                 }
+                x2[i] += dx;
+                negative |= x2[i] < 0;
             }
             if negative {
                 return Err(FspError::BadPropensity {
                     reaction: net.reactions[j].label.clone(),
                     state: state_text(net, &x),
-                    value: a,
+                    value: a.iter().copied().fold(0.0, f64::max),
                 });
             }
-            if let Some(k) = sink {
-                pending.push((u32::MAX - k as u32, a));
-                continue;
-            }
-            if d == 0 {
-                continue;
-            }
-            let t = match table.find(&y, &coords, d) {
-                Ok(t) => t,
-                Err(slot) => {
-                    let t = table.len;
-                    if t >= max_states {
-                        return Err(FspError::TooManyStates {
-                            found: t + 1,
-                            max: max_states,
-                            leaked: None,
-                            stationary: false,
-                        });
-                    }
-                    coords.extend_from_slice(&y);
-                    table.insert_at(slot, t as u32, &coords, d);
-                    t as u32
-                }
-            };
-            if t as usize != s {
-                pending.push((t, a));
+            forcing.settle(net, &mut x2)?;
+            let t = locate.place(&x2, &mut y, &mut coords, &mut table)?;
+            if t as usize != s || t > u32::MAX / 2 {
+                target.push(t);
+                rate.extend_from_slice(&a);
             }
         }
-        for &(t, a) in &pending {
-            target.push(t);
-            rate.push(a);
+        for (dose, jump) in net.doses.iter().zip(jumps.iter_mut()) {
+            x2.copy_from_slice(&x);
+            if !net.species[dose.species].clamped {
+                x2[dose.species] += dose.count;
+            }
+            forcing.settle(net, &mut x2)?;
+            jump.push(locate.place(&x2, &mut y, &mut coords, &mut table)?);
         }
-        pending.clear();
         first.push(target.len());
         s += 1;
     }
     let states = table.len;
     // Sinks were coded from the top of the index range; renumber them after the states.
-    for t in target.iter_mut() {
+    let renumber = |t: &mut u32| {
         if *t as u64 + d as u64 > u32::MAX as u64 {
             *t = states as u32 + (u32::MAX - *t);
         }
-    }
+    };
+    target.iter_mut().for_each(renumber);
+    jumps.iter_mut().flatten().for_each(renumber);
     Ok(Projection {
         coords,
         dim: d,
@@ -359,6 +406,8 @@ pub fn enumerate(
         first,
         target,
         rate,
+        phases,
+        jumps,
     })
 }
 

@@ -194,24 +194,38 @@ impl<'a> Series<'a> {
 
     /// Runs the series from `p0` (states then sinks) and calls `seen(i, p(τ_i), tail bound)` for
     /// each offset τ_i (non-decreasing, ≥ 0) in order, as soon as its sum is complete; `seen`
-    /// returning false stops the run. Returns whether it ran to the end. The Poisson tail
-    /// left out at each time is at most `budget`.
+    /// returning false stops the run. With `end`, the whole vector p(end) is summed too (the
+    /// start of the next interval). Returns whether it ran to the end, and p(end) (empty
+    /// without `end`). The Poisson tail left out at each time is at most `budget`.
     pub fn run(
         &mut self,
         p0: &[f64],
         offsets: &[f64],
+        end: Option<f64>,
         budget: f64,
         mut seen: impl FnMut(usize, &Observed, f64) -> bool,
-    ) -> bool {
+    ) -> (bool, Vec<f64>) {
         let weights: Vec<(Vec<f64>, f64)> = offsets
             .iter()
             .map(|&t| poisson_weights(self.q * t, budget))
             .collect();
-        let last = weights.iter().map(|(w, _)| w.len()).max().unwrap_or(1) - 1;
+        let end_weights = end.map(|t| poisson_weights(self.q * t, budget).0);
+        let last = weights
+            .iter()
+            .map(|(w, _)| w.len())
+            .chain(end_weights.as_ref().map(Vec::len))
+            .max()
+            .unwrap_or(1)
+            - 1;
         let mut acc: Vec<Observed> = offsets
             .iter()
             .map(|_| Observed::zero(self.cols.len, self.gen.sinks))
             .collect();
+        let mut at_end = if end.is_some() {
+            vec![0.0; p0.len()]
+        } else {
+            Vec::new()
+        };
         let inv_q = if self.q > 0.0 { 1.0 / self.q } else { 0.0 };
         let mut cur = p0.to_vec();
         let mut next = vec![0.0; p0.len()];
@@ -228,14 +242,19 @@ impl<'a> Series<'a> {
                     a.add_scaled(wk, &o);
                 }
             }
+            if let Some(&wk) = end_weights.as_ref().and_then(|w| w.get(k)) {
+                for (e, &c) in at_end.iter_mut().zip(&cur) {
+                    *e += wk * c;
+                }
+            }
             while done < offsets.len() && weights[done].0.len() == k + 1 {
                 if !seen(done, &acc[done], weights[done].1) {
-                    return false;
+                    return (false, at_end);
                 }
                 done += 1;
             }
         }
-        true
+        (true, at_end)
     }
 }
 

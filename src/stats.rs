@@ -465,7 +465,7 @@ pub fn histogram_distance(h1: &Histogram, h2: &Histogram) -> Result<f64, StatsEr
 /// with bin probabilities pᵢ, for large N:
 /// E[D] ≈ √(4/(πN)) · Σᵢ √(pᵢ(1 − pᵢ)) ≤ √(4(B − 1)/(πN)).
 ///
-/// Derivation (REFERENCES.md §11 [C]): p̂₁(i) − p̂₂(i) is approximately normal with variance
+/// Derivation (docs/references.md §11 [C]): p̂₁(i) − p̂₂(i) is approximately normal with variance
 /// 2pᵢ(1 − pᵢ)/N, and E|Z| = σ√(2/π). This is the scale against which an observed distance is
 /// judged (Cao & Petzold 2006 [M]). Returns NaN for N = 0.
 pub fn expected_self_distance(probs: &[f64], n: u64) -> f64 {
@@ -1006,7 +1006,7 @@ mod tests {
 
     #[test]
     fn expected_self_distance_formula() {
-        // REFERENCES.md §11 [C]: B = 5, p = (.1,.2,.3,.25,.15), N = 1000 → 0.06952;
+        // docs/references.md §11 [C]: B = 5, p = (.1,.2,.3,.25,.15), N = 1000 → 0.06952;
         // N = 10⁴ → 0.02198; N = 100 → 0.2199.
         let p = [0.1, 0.2, 0.3, 0.25, 0.15];
         assert!((expected_self_distance(&p, 1000) - 0.06952).abs() < 5e-6);
@@ -1037,7 +1037,7 @@ mod tests {
 
     #[test]
     fn self_distance_monte_carlo() {
-        // REFERENCES.md §11 test (i) [C]: the mean distance of two seeded exact samples agrees
+        // docs/references.md §11 test (i) [C]: the mean distance of two seeded exact samples agrees
         // with the prediction within 5 % (MC there: 0.06972 at N = 1000, 0.02202 at N = 10⁴).
         // With 4000 pairs the SE of the MC mean is ≈ 0.6 % of it, so 5 % exceeds 4 SE plus
         // the small-N bias of the asymptotic formula (≈ 0.3 % at N = 1000).

@@ -1,4 +1,4 @@
-//! `copyloop check` on every bundled example: valid JSON with every key of CONTRACT §3.
+//! `copyloop check` on every bundled example: valid JSON with every key of docs/json.md.
 
 mod support;
 

@@ -17,7 +17,7 @@ fn temp(name: &str) -> std::path::PathBuf {
 }
 
 // Immigration–death 002-02 (0 -> X at 10, X -> 0 at 0.1·X from X = 0): X(t) is Poisson with
-// mean 100(1 − e^{−0.1t}) (McQuarrie 1967 [verified]); the keys are CONTRACT's.
+// mean 100(1 − e^{−0.1t}) (McQuarrie 1967 [verified]); the keys are those of docs/json.md.
 #[test]
 fn json_has_the_contract_keys_and_the_poisson_law() {
     let j = json(&[
@@ -56,7 +56,7 @@ fn json_has_the_contract_keys_and_the_poisson_law() {
 }
 
 // Isomerisation A <-> B (1, 3) with 100 molecules: stationary Binomial(100, 0.75), mean 75,
-// variance 18.75 (REFERENCES §2c [C]); fluxes balance.
+// variance 18.75 (docs/references.md §2c [C]); fluxes balance.
 #[test]
 fn stationary_only_keeps_the_keys_and_gives_the_law() {
     let dir = tempfile::tempdir().unwrap();

@@ -1,4 +1,4 @@
-//! `copyloop simulate` through the built binary: the JSON keys of CONTRACT §3, the table, the
+//! `copyloop simulate` through the built binary: the JSON keys of docs/json.md, the table, the
 //! CSV grid, thread-count independence and bad flags.
 
 mod support;
@@ -64,7 +64,7 @@ fn enzyme_example_prints_every_contract_key() {
     );
     // Each enzyme is an independent two-state chain E ⇌ EH with λ_on = c·H (H clamped) and
     // λ_off = koff + kcat, so P(bound at t) = θ(1 − e^(−st)), θ = λ_on/s, s = λ_on + λ_off
-    // (REFERENCES.md §6, exact stochastic flux at clamped substrate), and the mean turnover
+    // (docs/references.md §6, exact stochastic flux at clamped substrate), and the mean turnover
     // rate over [0, T] is kcat·E_T·θ·(1 − (1 − e^(−sT))/(sT)) [C derived]. Constants from the
     // file: kon = 2e7 /M/s in 1 pL (c = kon/(N_A·V)), H = 30111 molecules, koff = 0.5,
     // kcat = 1.5, E_T = 200.

@@ -344,7 +344,7 @@ fn forty_thousand_steps_on_one_species_compile() {
     assert_eq!(n.dependents.changed(123), &[0, 124]);
     assert_eq!(n.dependents.of(123).len(), m);
     let k = CompiledKernel::new(&n).unwrap();
-    assert!(matches!(k.updates(), Updates::BySpecies(_)));
+    assert!(matches!(k.updates(), Updates::BySpecies { .. }));
 }
 
 #[test]

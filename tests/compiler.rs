@@ -18,7 +18,7 @@ fn k_of(n: &Network, label: &str) -> f64 {
     }
 }
 
-// REFERENCES §12 [C]: in 1 fL, k = 1e6 /M/s gives c = 1.660539067e-3 /s for A + B and
+// docs/references.md §12 [C]: in 1 fL, k = 1e6 /M/s gives c = 1.660539067e-3 /s for A + B and
 // 3.321078134e-3 /s for A + A; k0 = 1e-9 M/s gives c = 0.602214076 /s.
 #[test]
 fn constants_from_concentration_units() {
@@ -35,16 +35,16 @@ fn constants_from_concentration_units() {
 }
 
 // A bare number is the stochastic constant itself (Gillespie 1977 convention [M]): the
-// decaying-dimerising model's c2 = 0.002 has propensity 0.002·x(x−1)/2 (REFERENCES §3).
+// decaying-dimerising model's c2 = 0.002 has propensity 0.002·x(x−1)/2 (docs/references.md §3).
 #[test]
 fn bare_numbers_are_stochastic_constants() {
     let n = net("species S1 = 1000\nspecies S2 = 0\nstep d 2 S1 -> S2 @ 0.002\n");
     let a = n.propensities()[0].eval(&[1000, 0]);
-    assert!(rel(a, 999.0) < 1e-15); // REFERENCES §3 [C by hand]: a = 0.002·1000·999/2 = 999
+    assert!(rel(a, 999.0) < 1e-15); // docs/references.md §3 [C by hand]: a = 0.002·1000·999/2 = 999
 }
 
 // The homodimer run from concentrations gives the same stochastic constant as the count-based
-// input (REFERENCES §12: c = 2k/(N_A V) for A + A).
+// input (docs/references.md §12: c = 2k/(N_A V) for A + A).
 #[test]
 fn homodimer_in_concentration_matches_count_input() {
     let om = copyloop::network::AVOGADRO * 1e-15;
@@ -58,7 +58,7 @@ fn homodimer_in_concentration_matches_count_input() {
     assert!(rel(c1, c2) < 1e-14);
 }
 
-// Trade forms (CONTRACT §1): half-life t gives k = ln 2/t; kd K gives k_rev = k_fwd·K.
+// Trade forms (the README's network language): half-life t gives k = ln 2/t; kd K gives k_rev = k_fwd·K.
 #[test]
 fn half_life_and_kd_forms() {
     let n = net("volume 1 pL\nspecies H = 1 nM\nspecies G = 10 nM\nspecies HG = 0 nM\n\
@@ -67,7 +67,7 @@ fn half_life_and_kd_forms() {
     assert!(rel(k_of(&n, "clear"), std::f64::consts::LN_2 / 2400.0) < 1e-15);
 }
 
-// Concentrations are rounded to whole molecules, with a warning beyond 1 % (DESIGN.md).
+// Concentrations are rounded to whole molecules, with a warning beyond 1 % (common practice).
 // 1 nM in 1 fL is about 0.6 molecules (common practice): rounds to 1, a 66 % change.
 #[test]
 fn rounding_warnings() {

@@ -1,4 +1,4 @@
-//! `copyloop steady` end to end: the JSON keys of CONTRACT §3, the table, exit statuses.
+//! `copyloop steady` end to end: the JSON keys of docs/json.md, the table, exit statuses.
 
 use std::process::Command;
 
@@ -28,7 +28,7 @@ fn temp_file(name: &str, text: &str) -> String {
 }
 
 // reactions/enzyme_clearance.crn: clamped hormone H at 50 nM (30111 molecules in 1 pL), E_T = 200,
-// K = (koff + kcat)/kon = 100 nM; Briggs–Haldane (REFERENCES §6 [verified formula]): complex
+// K = (koff + kcat)/kon = 100 nM; Briggs–Haldane (docs/references.md §6 [verified formula]): complex
 // E_T·H/(K + H), turnover kcat·complex, metabolite turnover/(ln 2/600 s).
 #[test]
 fn steady_json_has_the_contract_keys_and_values() {

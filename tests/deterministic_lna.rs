@@ -17,7 +17,7 @@ fn rel(a: f64, b: f64) -> f64 {
 }
 
 // Immigration–death 0 -> A (k), A -> 0 (γ): J = −γ, D = 2k, Var = k/γ = mean, Poisson
-// (REFERENCES §9 [C]; McQuarrie 1967 [verified]; Elf & Ehrenberg 2003 [verified]).
+// (docs/references.md §9 [C]; McQuarrie 1967 [verified]; Elf & Ehrenberg 2003 [verified]).
 #[test]
 fn immigration_death_is_poisson() {
     let l = lna_of(&net(
@@ -37,7 +37,7 @@ fn immigration_death_is_poisson() {
 }
 
 // Isomerisation A <-> B, k1 = 1, k2 = 3, N = 100: A ~ Binomial(N, p), p = k2/(k1 + k2) = 0.75,
-// Var(A) = N·p(1 − p) = 18.75, Cov(A, B) = −18.75 (REFERENCES §2c, §9 [C]); the conservation
+// Var(A) = N·p(1 − p) = 18.75, Cov(A, B) = −18.75 (docs/references.md §2c, §9 [C]); the conservation
 // law A + B = N is handled through the link matrix.
 #[test]
 fn isomerisation_is_binomial() {
@@ -52,7 +52,7 @@ fn isomerisation_is_binomial() {
 
 // Two-stage expression 0 -> M (k_m), M -> 0 (g_m), M -> M + P (k_p), P -> 0 (g_p):
 // <M> = k_m/g_m, <P> = k_m·k_p/(g_m·g_p), Fano(M) = 1, Fano(P) = 1 + k_p/(g_m + g_p)
-// (Thattai & van Oudenaarden 2001 [M]; Paulsson 2004 [verified title]; REFERENCES §9):
+// (Thattai & van Oudenaarden 2001 [M]; Paulsson 2004 [verified title]; docs/references.md §9):
 // k_m = 1, g_m = 0.1, k_p = 10, g_p = 1 gives <P> = 100, Fano(P) = 10.0909...
 #[test]
 fn two_stage_expression_fano() {
@@ -68,7 +68,7 @@ fn two_stage_expression_fano() {
 }
 
 // Receptor with the ligand clamped: every receptor is an independent two-state chain, so the
-// bound count is exactly Binomial(R_T, θ), θ = L/(K_d + L) (REFERENCES §6, derived there);
+// bound count is exactly Binomial(R_T, θ), θ = L/(K_d + L) (docs/references.md §6, derived there);
 // the clamped species has no variance.
 #[test]
 fn clamped_ligand_binding_is_binomial() {
@@ -83,7 +83,7 @@ fn clamped_ligand_binding_is_binomial() {
     assert!(l.covariance.row(0).iter().all(|&x| x == 0.0));
 }
 
-// Nonlinear check (REFERENCES §2d, §9 (iii)): reversible binding A + B <-> C is not linear, so
+// Nonlinear check (docs/references.md §2d, §9 (iii)): reversible binding A + B <-> C is not linear, so
 // the LNA is only asymptotically right; its error in the variance is of relative order 1/N
 // (van Kampen's system-size expansion [M]). The exact stationary law comes from detailed
 // balance, P(C+1)/P(C) = c_on(A0 − C)(B0 − C)/(c_off(C + 1)), computed here. With N = 2000

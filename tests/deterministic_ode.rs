@@ -20,7 +20,7 @@ fn rel(a: f64, b: f64) -> f64 {
     ((a - b) / b).abs()
 }
 
-// First-order decay A -> B: A(t) = A0·e^(−kt) (McQuarrie 1967 §III.A [verified]; REFERENCES §2a,
+// First-order decay A -> B: A(t) = A0·e^(−kt) (McQuarrie 1967 §III.A [verified]; docs/references.md §2a,
 // the mean of the binomial law equals the rate equation's solution).
 #[test]
 fn first_order_decay_matches_the_exponential() {
@@ -32,12 +32,12 @@ fn first_order_decay_matches_the_exponential() {
         assert!(rel(x[0], a) < 1e-8, "t = {t}: {} vs {a}", x[0]);
         assert!((x[0] + x[1] - 1000.0).abs() < 1e-9);
     }
-    // REFERENCES §2a [C]: mean 606.5307 at t = 1.
+    // docs/references.md §2a [C]: mean 606.5307 at t = 1.
     assert!((tr.states[1][0] - 606.5307).abs() < 1e-4);
 }
 
 // Isomerisation A <-> B: A(t) = N·p + (A0 − N·p)·e^(−(k1+k2)t), p = k2/(k1+k2)
-// (REFERENCES §2c: k1 = 1, k2 = 3, N = 100, mean 78.383382 at t = 0.5 from A0 = 100 [C]).
+// (docs/references.md §2c: k1 = 1, k2 = 3, N = 100, mean 78.383382 at t = 0.5 from A0 = 100 [C]).
 #[test]
 fn isomerisation_relaxes_to_binomial_mean() {
     let n = net("species A = 100\nspecies B = 0\nstep f A <-> B @ 1, 3\n");
@@ -53,7 +53,7 @@ fn isomerisation_relaxes_to_binomial_mean() {
 // Michaelis–Menten motif with the substrate clamped: C obeys the linear equation
 // dC/dt = k1·S·(E_T − C) − (k₋₁ + k₂)·C, so C(t) = C*(1 − e^(−λt)), λ = k1·S + k₋₁ + k₂,
 // C* = E_T·S/(K + S), and P(t) = k₂·C*·(t − (1 − e^(−λt))/λ): at long times product is made
-// at the constant rate V·S/(K + S) (Briggs & Haldane 1925 [M]; REFERENCES §6 [verified
+// at the constant rate V·S/(K + S) (Briggs & Haldane 1925 [M]; docs/references.md §6 [verified
 // formula]).
 #[test]
 fn clamped_substrate_makes_product_at_the_langmuir_rate() {
@@ -82,9 +82,9 @@ fn clamped_substrate_makes_product_at_the_langmuir_rate() {
     assert!(rel(v[2], want) < 1e-10);
 }
 
-// Lotka system of Gillespie 1977 (REFERENCES §1b [M], parameters): Y1 -> 2 Y1 (c1·X̄ = 10),
+// Lotka system of Gillespie 1977 (docs/references.md §1b [M], parameters): Y1 -> 2 Y1 (c1·X̄ = 10),
 // Y1 + Y2 -> 2 Y2 (c2 = 0.01), Y2 -> 0 (c3 = 10). The rate equations conserve
-// H = c2(Y1 + Y2) − c3·ln Y1 − c1X̄·ln Y2 (derived in REFERENCES §1b). Started off the fixed
+// H = c2(Y1 + Y2) − c3·ln Y1 − c1X̄·ln Y2 (derived in docs/references.md §1b). Started off the fixed
 // point (1000, 1000) so that it cycles; relative drift of H over t = 0..10 must stay below 1e-8.
 #[test]
 fn lotka_volterra_invariant_is_kept() {
@@ -111,7 +111,7 @@ fn lotka_volterra_invariant_is_kept() {
     assert!(hi / lo > 1.5, "the orbit must actually cycle ({lo}..{hi})");
 }
 
-// Brusselator and Oregonator of Gillespie 1977 (REFERENCES §1b [M] parameters, [C] steady
+// Brusselator and Oregonator of Gillespie 1977 (docs/references.md §1b [M] parameters, [C] steady
 // states): with continuum mass action the right-hand side vanishes at the listed point, to
 // rounding; with the discrete propensities x(x−1) it does not (Brusselator: 49950 vs 50000).
 #[test]
@@ -137,7 +137,7 @@ fn brusselator_and_oregonator_rates_vanish_at_their_fixed_points() {
     assert!((a[2] - 49950.0).abs() < 1e-6);
 }
 
-// Full Michaelis–Menten mass action vs REFERENCES §6 [C]: k1 = 100, k₋₁ = 1, k₂ = 1, E_T = 10,
+// Full Michaelis–Menten mass action vs docs/references.md §6 [C]: k1 = 100, k₋₁ = 1, k₂ = 1, E_T = 10,
 // S_T = 1 (molecule units, Ω = 1): P(0.5) = 0.392501, P(1) = 0.631340, P(2) = 0.864239. The
 // total-QSSA reduction dS̄/dt = −k₂·C(S̄) with C from the quadratic (Borghans, de Boer & Segel
 // 1996 [M]; Tzafriri 2003 [M]) gives 0.392812, 0.631336, 0.864099 and stays within 1e-3 of the
@@ -197,7 +197,7 @@ fn michaelis_menten_full_tqssa_and_sqssa() {
     assert!((p_sq[0] - p_full[0]).abs() > 0.5);
 }
 
-// REFERENCES §6 [C], second regime: k1 = 1, k₋₁ = 1, k₂ = 1, E_T = 0.01, S_T = 1 gives
+// docs/references.md §6 [C], second regime: k1 = 1, k₋₁ = 1, k₂ = 1, E_T = 0.01, S_T = 1 gives
 // P(50) = 0.156207. Run in molecules with every amount ×100 and k1/100 (the same equations in
 // concentration), so P(50)/100 must match.
 #[test]

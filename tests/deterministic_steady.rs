@@ -38,7 +38,7 @@ fn fed_enzyme(v_in: f64) -> Network {
     ))
 }
 
-// Briggs–Haldane rearranged (REFERENCES §6 [verified formula]): at steady state the turnover
+// Briggs–Haldane rearranged (docs/references.md §6 [verified formula]): at steady state the turnover
 // V_max·S/(K + S) equals the inflow, so S* = K·v_in/(V_max − v_in), C* = v_in/k₂ and
 // P* = v_in/0.1.
 #[test]
@@ -113,7 +113,7 @@ fn closed_enzyme_cycle_matches_langmuir_and_tqssa() {
 }
 
 // Receptor with clamped ligand, with a volume: occupancy L/(K_d + L) (Langmuir isotherm;
-// REFERENCES §6, "same for pure binding"), K_d = k_off/k_on in concentration.
+// docs/references.md §6, "same for pure binding"), K_d = k_off/k_on in concentration.
 #[test]
 fn clamped_ligand_receptor_in_molar_units() {
     let n = net("volume 2 fL\nspecies L = 30 nM clamped\nspecies R = 150\nspecies RL = 0\nspecies Q = 0\n\
@@ -132,7 +132,7 @@ fn clamped_ligand_receptor_in_molar_units() {
     assert_eq!(p.tqssa_per_s, p.langmuir_per_s);
 }
 
-// Gillespie 1977 Brusselator (REFERENCES §1b [M]): the fixed point (1000, 2000) has the
+// Gillespie 1977 Brusselator (docs/references.md §1b [M]): the fixed point (1000, 2000) has the
 // Jacobian [[45, 25], [−50, −25]] (by hand), eigenvalues 10 ± 5i: an unstable focus, so from a
 // nearby start the system oscillates and there is no steady state to report.
 #[test]
@@ -149,7 +149,7 @@ fn brusselator_oscillates() {
     assert!(msg.contains("10 + 5i") || msg.contains("10 - 5i"), "{msg}");
 }
 
-// Lotka system (REFERENCES §1b): the fixed point (1000, 1000) is a centre (eigenvalues ±10i by
+// Lotka system (docs/references.md §1b): the fixed point (1000, 1000) is a centre (eigenvalues ±10i by
 // hand: J = [[0, −10], [10, 0]]). Started there it is reported, not asymptotically stable; started
 // elsewhere it cycles for ever.
 #[test]

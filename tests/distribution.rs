@@ -24,7 +24,7 @@ fn l1(marginal: &[f64], pmf: impl Fn(u64) -> f64, top: u64) -> f64 {
 }
 
 // Immigration–death 0 -> A (k), A -> 0 (γ·A) from A(0) = 0: A(t) ~ Poisson((k/γ)(1 − e^{−γt}))
-// at every t (McQuarrie 1967, J. Appl. Prob. 4:413 [verified]; REFERENCES §2b [C]). The
+// at every t (McQuarrie 1967, J. Appl. Prob. 4:413 [verified]; docs/references.md §2b [C]). The
 // reported bound is at least the true ℓ¹ error (finite state projection theorem).
 #[test]
 fn immigration_death_is_poisson_at_every_time_and_the_bound_holds() {
@@ -49,13 +49,13 @@ fn immigration_death_is_poisson_at_every_time_and_the_bound_holds() {
         assert!((a.mean[p] - lambda).abs() < 1e-4 && (a.fano[p] - 1.0).abs() < 1e-4);
         assert!((a.p_zero[p] - (-lambda).exp()).abs() <= r.truncation_error_by_time[p] + 1e-15);
     }
-    // t = 10: mean 63.212056 (REFERENCES §2b [C]).
+    // t = 10: mean 63.212056 (docs/references.md §2b [C]).
     assert!((a.mean[4] - 63.212056).abs() < 1e-5);
 }
 
 // Isomerisation A <-> B (k1 = 1, k2 = 3), N = 100 from A = 100: A(t) ~ Binomial(100, p_AA(t))
 // with p_AA = p + (1 − p)e^{−(k1+k2)t}, p = k2/(k1+k2); stationary Binomial(100, 0.75)
-// (REFERENCES §2c [C]; t = 0.5: mean 78.383382, var 16.943836).
+// (docs/references.md §2c [C]; t = 0.5: mean 78.383382, var 16.943836).
 #[test]
 fn isomerisation_is_binomial() {
     let n = net("species A = 100\nspecies B = 0\nstep f A <-> B @ 1, 3\n");
@@ -191,7 +191,7 @@ fn dimerisation_matches_a_dense_matrix_exponential() {
 // One enzyme molecule at clamped substrate: E + S <-> C (k1·S = 2, k₋₁ = 1), C -> E + P
 // (k2 = 1). Its turnover rate is k2·S/(K_M + S) = 0.5 per second exactly (Kou et al. 2005,
 // J. Phys. Chem. B 109:19068 [verified]); with ten enzymes #C ~ Binomial(10, 1/2) and the
-// flux is ten times as large (REFERENCES §6, derived there).
+// flux is ten times as large (docs/references.md §6, derived there).
 #[test]
 fn single_enzyme_at_clamped_substrate_turns_over_at_the_single_molecule_rate() {
     for (e_t, rate) in [(1, 0.5), (10, 5.0)] {
@@ -212,7 +212,7 @@ fn single_enzyme_at_clamped_substrate_turns_over_at_the_single_molecule_rate() {
 // C -> E (1), E_T = 1. Flux balance gives <C> = k_in/k2 = 0.5 and a turnover flux k_in
 // exactly; the deterministic steady state S* = K_M·ρ/(1 − ρ) = 11 (K_M = 11, ρ = 0.5) is
 // below the exact mean at this copy number (Grima 2009, BMC Syst. Biol. 3:101 [verified];
-// REFERENCES §8). Against the test-independent dense LU on a box as a second reference.
+// docs/references.md §8). Against the test-independent dense LU on a box as a second reference.
 #[test]
 fn single_enzyme_at_low_unclamped_substrate_departs_from_the_deterministic_value() {
     let n = net("species E = 1\nspecies S = 0\nspecies C = 0\n\

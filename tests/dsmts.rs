@@ -9,11 +9,15 @@
 //!
 //! for every species and time with σ_t > 0 (where σ_t = 0 the ensemble must equal μ_t
 //! exactly). Multiple comparisons: with 51 correlated time points per species the test asks
-//! |Z_t| < 4 at every point (per-point false alarm 6e-5, REFERENCES.md §0) and |Y_t| < 5 at
+//! |Z_t| < 4 at every point (per-point false alarm 6e-5, docs/references.md §0) and |Y_t| < 5 at
 //! every point (the suite's own bound for the variance test). The seed is fixed.
 
 use copyloop::ensemble::{self, EnsembleSpec};
-use copyloop::network::{load, Overrides};
+use copyloop::kernel::direct::Selection;
+use copyloop::kernel::rng::replicate_rng;
+use copyloop::kernel::{CompiledKernel, Direct, RecordSpec, Recorder};
+use copyloop::network::{load, Network, Overrides};
+use copyloop::stats::Welford;
 
 const REPLICATES: u64 = 10_000;
 
@@ -38,11 +42,7 @@ fn read_csv(path: &str) -> (Vec<String>, Vec<Vec<f64>>) {
 }
 
 fn check(id: &str, seed: u64) {
-    let dir = concat!(env!("CARGO_MANIFEST_DIR"), "/tests/fixtures/dsmts");
-    let net = load(&format!("{dir}/dsmts-{id}.crn"), &Overrides::default()).unwrap();
-    let (names, means) = read_csv(&format!("{dir}/dsmts-{id}-mean.csv"));
-    let (names_sd, sds) = read_csv(&format!("{dir}/dsmts-{id}-sd.csv"));
-    assert_eq!(names, names_sd);
+    let net = model(id);
     let spec = EnsembleSpec {
         replicates: REPLICATES,
         seed,
@@ -50,6 +50,48 @@ fn check(id: &str, seed: u64) {
         ..EnsembleSpec::new(50.0)
     };
     let r = ensemble::run(&net, &spec).unwrap();
+    judge(id, &net, &r.grid_times, &r.grid);
+}
+
+/// The same criteria with the direct method's channel selection forced (these models are
+/// small enough for the small-network forms, which the ensemble would use): replicate r
+/// drawn from `replicate_rng(seed, r)`, as in an ensemble.
+fn check_forced(id: &str, seed: u64, selection: Selection) {
+    let net = model(id);
+    let k = CompiledKernel::new(&net).unwrap();
+    let mut d = Direct::with_selection(&k, selection);
+    assert_eq!(d.selection(), selection);
+    let spec = RecordSpec {
+        t_end: 50.0,
+        grid_points: 51,
+        window: 0.0,
+    };
+    let mut rec = Recorder::new(spec, &k);
+    let mut grid = vec![vec![Welford::new(); k.species]; 51];
+    for r in 0..REPLICATES {
+        d.run(&k.x0, 50.0, &mut replicate_rng(seed, r), &mut rec)
+            .unwrap();
+        for (p, row) in grid.iter_mut().enumerate() {
+            for (w, &x) in row.iter_mut().zip(rec.grid_state(p)) {
+                w.push(x as f64);
+            }
+        }
+    }
+    let times = rec.grid_times().to_vec();
+    judge(id, &net, &times, &grid);
+}
+
+fn model(id: &str) -> Network {
+    let dir = concat!(env!("CARGO_MANIFEST_DIR"), "/tests/fixtures/dsmts");
+    load(&format!("{dir}/dsmts-{id}.crn"), &Overrides::default()).unwrap()
+}
+
+/// The suite's mean and variance tests (module docs) on an ensemble's grid statistics.
+fn judge(id: &str, net: &Network, grid_times: &[f64], grid: &[Vec<Welford>]) {
+    let dir = concat!(env!("CARGO_MANIFEST_DIR"), "/tests/fixtures/dsmts");
+    let (names, means) = read_csv(&format!("{dir}/dsmts-{id}-mean.csv"));
+    let (names_sd, sds) = read_csv(&format!("{dir}/dsmts-{id}-sd.csv"));
+    assert_eq!(names, names_sd);
     let n = REPLICATES as f64;
     let mut checked = 0;
     let (mut max_z, mut max_y) = (0.0f64, 0.0f64);
@@ -60,9 +102,9 @@ fn check(id: &str, seed: u64) {
         for (row, sd_row) in means.iter().zip(&sds) {
             let t = row[0];
             let p = t as usize;
-            assert_eq!(r.grid_times[p], t);
+            assert_eq!(grid_times[p], t);
             let (mu, sigma) = (row[col], sd_row[col]);
-            let w = &r.grid[p][i];
+            let w = &grid[p][i];
             if sigma == 0.0 {
                 assert_eq!(w.mean(), mu, "{id} {name} t={t}: deterministic point");
                 continue;
@@ -87,6 +129,28 @@ fn check(id: &str, seed: u64) {
     }
     assert!(checked >= 50, "{id}: only {checked} points checked");
     eprintln!("{id}: {checked} points, max |Z| = {max_z:.2}, max |Y| = {max_y:.2}");
+}
+
+const IDS: [&str; 14] = [
+    "001-01", "001-04", "001-06", "001-07", "001-12", "001-13", "001-14", "001-15", "001-16",
+    "002-01", "002-02", "003-01", "003-05", "004-01",
+];
+
+/// Every model of the suite with composition–rejection selection forced (seeds differ from
+/// the ensemble tests', so the samples are independent).
+#[test]
+fn dsmts_every_model_with_rejection_selection() {
+    for (k, id) in IDS.iter().enumerate() {
+        check_forced(id, 1000 + k as u64, Selection::Rejection);
+    }
+}
+
+/// Every model of the suite with the sum tree forced.
+#[test]
+fn dsmts_every_model_with_tree_selection() {
+    for (k, id) in IDS.iter().enumerate() {
+        check_forced(id, 2000 + k as u64, Selection::Tree);
+    }
 }
 
 #[test]

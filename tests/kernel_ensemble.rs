@@ -195,7 +195,7 @@ fn bad_options_are_usage_errors() {
 
 /// Networks of 32 reactions or more select through the sum tree; the result is the same law.
 /// Each of 40 parallel channels A_i → B_i (rate 1, A_i = 10) is an independent pure decay:
-/// A_i(1) ~ Binomial(10, e^(−1)) (REFERENCES.md §2a), so ΣA_i has mean 400·e^(−1) and
+/// A_i(1) ~ Binomial(10, e^(−1)) (docs/references.md §2a), so ΣA_i has mean 400·e^(−1) and
 /// variance 400·e^(−1)(1 − e^(−1)).
 #[test]
 fn sum_tree_selection_reproduces_the_exact_law() {

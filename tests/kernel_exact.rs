@@ -2,7 +2,7 @@
 //! first-order networks, the binomial combinatorics of order-2 and order-3 steps, and
 //! single-molecule Michaelis–Menten.
 //!
-//! Acceptance rules (REFERENCES.md §0): means within 4 standard errors (σ the exact SD where
+//! Acceptance rules (docs/references.md §0): means within 4 standard errors (σ the exact SD where
 //! known), variances within 4 standard errors of the sample variance, chi-square and
 //! Kolmogorov–Smirnov tests passed when p > 1e-4; fixed seeds throughout.
 
@@ -67,7 +67,7 @@ impl Observer for Log {
     }
 }
 
-/// Gillespie 1977 (J. Phys. Chem. 81:2340 [verified]; REFERENCES.md §1 check 1a): with the
+/// Gillespie 1977 (J. Phys. Chem. 81:2340 [verified]; docs/references.md §1 check 1a): with the
 /// propensities frozen at a = (1, 2, 7) (three zero-order channels), waiting times are
 /// Exponential(a₀ = 10) and channels are drawn with probabilities (0.1, 0.2, 0.7).
 #[test]
@@ -95,7 +95,7 @@ fn frozen_propensities_give_exponential_waits_and_multinomial_channels() {
     assert!(p > 1e-4, "channel chi-square p = {p}, counts {counts:?}");
 }
 
-/// Pure decay A → 0 (McQuarrie 1967, J. Appl. Prob. 4:413 §III.A [verified]; REFERENCES.md
+/// Pure decay A → 0 (McQuarrie 1967, J. Appl. Prob. 4:413 §III.A [verified]; docs/references.md
 /// §2a, values [C]): A(t) ~ Binomial(n₀, e^(−kt)); n₀ = 1000, k = 0.5, t = 1: mean 606.5307,
 /// variance 238.6512.
 #[test]
@@ -127,7 +127,7 @@ fn pure_decay_is_binomial() {
     assert!(pv > 1e-4, "chi-square p = {pv}");
 }
 
-/// Extinction time of pure decay (REFERENCES.md §2a, formula derived there, values [C]):
+/// Extinction time of pure decay (docs/references.md §2a, formula derived there, values [C]):
 /// T = Σ_{j=1}^{n₀} Exp(kj); n₀ = 100, k = 1: E[T] = 5.187378, Var[T] = 1.634984.
 #[test]
 fn decay_extinction_time_has_the_harmonic_mean() {
@@ -150,7 +150,7 @@ fn decay_extinction_time_has_the_harmonic_mean() {
     );
 }
 
-/// Immigration–death 0 → X (k = 10), X → 0 (γ = 0.1 per molecule) from X = 0 (REFERENCES.md
+/// Immigration–death 0 → X (k = 10), X → 0 (γ = 0.1 per molecule) from X = 0 (docs/references.md
 /// §2b, Jahnke & Huisinga 2007 [verified]): X(t) ~ Poisson((k/γ)(1 − e^(−γt))), so at
 /// t = 10 the law is Poisson(63.212056) and at t = 100 it is Poisson(100(1 − e^(−10))), the
 /// stationary Poisson(100) to 5e-5. Also the windowed figures over [50, 100] (derived from
@@ -176,7 +176,7 @@ fn immigration_death_is_poisson_with_exact_window_figures() {
         "mean {}",
         fin.mean()
     );
-    // Poisson variance: SE(s²) ≈ √((λ + 2λ²)/R) (REFERENCES.md §0).
+    // Poisson variance: SE(s²) ≈ √((λ + 2λ²)/R) (docs/references.md §0).
     let se_var = ((lam + 2.0 * lam * lam) / rr).sqrt();
     assert!(
         (fin.variance() - lam).abs() < 4.0 * se_var,
@@ -237,7 +237,7 @@ fn immigration_death_is_poisson_with_exact_window_figures() {
     );
 }
 
-/// Isomerisation A ⇌ B, k₁ = 1, k₂ = 3, N = 100 (REFERENCES.md §2c, values [C]): from A = 100,
+/// Isomerisation A ⇌ B, k₁ = 1, k₂ = 3, N = 100 (docs/references.md §2c, values [C]): from A = 100,
 /// A(0.5) has mean 78.383382 and variance 16.943836; the stationary law is Binomial(100, 0.75).
 #[test]
 fn isomerisation_is_binomial() {
@@ -257,7 +257,7 @@ fn isomerisation_is_binomial() {
 }
 
 /// Exact stationary law of a closed reversible step by detailed balance: P(n+1)/P(n) =
-/// a₊(n)/a₋(n+1), where n counts the product (REFERENCES.md §2d [C], extended to the other
+/// a₊(n)/a₋(n+1), where n counts the product (docs/references.md §2d [C], extended to the other
 /// orders with the same argument). `forward(n)` and `reverse(n)` are the propensities written
 /// out from Gillespie's combinatorics (1976/1977 [M]): c·x, c·x₁x₂, c·x(x−1)/2,
 /// c·x(x−1)(x−2)/6, c·x₁x₂x₃, c·x₁(x₁−1)x₂/2.
@@ -444,7 +444,7 @@ impl Observer for Intervals {
 }
 
 /// One enzyme with clamped substrate (Kou, Cherayil, Min, English & Xie 2005, J. Phys. Chem. B
-/// 109:19068 [verified]; English et al. 2006 [M]; REFERENCES.md §7, derived there [C]):
+/// 109:19068 [verified]; English et al. 2006 [M]; docs/references.md §7, derived there [C]):
 /// k₁[S] = 2, k₋₁ = 1, k₂ = 1 give a mean turnover interval (K_M + S)/(k₂S) = 2 and randomness
 /// var/mean² = 0.75; the interval density is k₁S·k₂(e^(−λ₋t) − e^(−λ₊t))/(λ₊ − λ₋) with
 /// λ± the roots of λ² − (k₁S + k₋₁ + k₂)λ + k₁S·k₂ = 0.
@@ -497,7 +497,7 @@ fn single_enzyme_turnover_intervals_follow_single_molecule_michaelis_menten() {
     assert!(p > 1e-4, "KS p = {p}");
 }
 
-/// Exact stochastic flux at clamped substrate (REFERENCES.md §6, derived there): each of
+/// Exact stochastic flux at clamped substrate (docs/references.md §6, derived there): each of
 /// E_T = 10 enzymes is an independent two-state chain, so at stationarity #C ~ Binomial(10,
 /// 0.5) for k₁S = 2, k₋₁ = 1, k₂ = 1, and the product flux is k₂·E_T·S/(K_M + S) = 5 per second.
 #[test]

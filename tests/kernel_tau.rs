@@ -37,14 +37,14 @@ fn finals(
 
 /// The decaying–dimerising model (Gillespie 2001; Cao, Gillespie & Petzold 2006 [M]) shrunk
 /// tenfold with c2 = 0.02: the same concentration dynamics, RRE values at t = 10 of
-/// (274.044, 1759.369, 1222.283) [C] (REFERENCES §3).
+/// (274.044, 1759.369, 1222.283) [C] (docs/references.md §3).
 const DECAY_DIMER: &str = "species S1 = 10000\nspecies S2 = 0\nspecies S3 = 0\n\
     step decay S1 -> 0 @ 1\nstep dimer 2 S1 -> S2 @ 0.02\nstep split S2 -> 2 S1 @ 0.5\nstep conv S2 -> S3 @ 0.04\n";
 
 // Means and SDs of tau (ε = 0.03) and exact ensembles agree within 4 combined standard errors
-// plus a bias allowance of 0.5 % of the mean (REFERENCES §3: the mean-field offset and the
+// plus a bias allowance of 0.5 % of the mean (docs/references.md §3: the mean-field offset and the
 // leap bias are of order one molecule here); SDs within 4 SE(sd) = 4·sd/√(2R) plus 5 %.
-// Histogram distance (Cao & Petzold 2006 [M]; REFERENCES §11): below twice the predicted
+// Histogram distance (Cao & Petzold 2006 [M]; docs/references.md §11): below twice the predicted
 // self-distance of two exact samples of this size.
 #[test]
 fn decaying_dimerising_tau_matches_exact() {
@@ -69,7 +69,7 @@ fn decaying_dimerising_tau_matches_exact() {
             e.sd(),
             t.sd()
         );
-        // the exact mean against the RRE: max(4 SE, 0.5 %) (REFERENCES §3).
+        // the exact mean against the RRE: max(4 SE, 0.5 %) (docs/references.md §3).
         assert!(
             (e.mean() - rre_i).abs() < (4.0 * e.stderr()).max(0.005 * rre_i),
             "{} vs RRE {}",
@@ -93,7 +93,7 @@ fn decaying_dimerising_tau_matches_exact() {
 }
 
 // Fixed-step Poisson tau-leaping on immigration–death has stationary mean k/γ exactly and
-// Fano factor 1/(1 − γτ/2) (REFERENCES §4, derived [C]). With k/γ = 1000 and ε = 0.03 the
+// Fano factor 1/(1 − γτ/2) (docs/references.md §4, derived [C]). With k/γ = 1000 and ε = 0.03 the
 // variance bound gives τ ≈ (ε·1000)²/(k + γ·1000) = 0.45 s, so Fano ≈ 1.29; with ε = 0.005,
 // τ ≈ 0.0125 s and Fano ≈ 1.006, Poisson within errors. SE(Fano) ≈ √(2/R); allowance 4 SE
 // plus 0.03 for the spread of τ with the count.
@@ -131,8 +131,8 @@ fn immigration_death_with_tau() {
 }
 
 // With every population below n_c every reaction is critical, so each leap fires exactly one
-// reaction after an Exp(a0) wait: the exact law returns (REFERENCES §4 limit test). Decay
-// A -> 0 from 8: A(1) ~ Binomial(8, e^-1) (McQuarrie 1967 [verified]; REFERENCES §2a).
+// reaction after an Exp(a0) wait: the exact law returns (docs/references.md §4 limit test). Decay
+// A -> 0 from 8: A(1) ~ Binomial(8, e^-1) (McQuarrie 1967 [verified]; docs/references.md §2a).
 #[test]
 fn all_critical_reproduces_the_exact_law() {
     let n = net("species A = 8\nstep d A -> 0 @ 1\n");
@@ -177,7 +177,7 @@ fn lowest_count(src: &str, seed: u64, t_end: f64, eps: f64) -> i64 {
     obs.0
 }
 
-// No count is ever negative (Cao, Gillespie & Petzold 2005 [verified]; REFERENCES §4): the
+// No count is ever negative (Cao, Gillespie & Petzold 2005 [verified]; docs/references.md §4): the
 // two cases named there, over many seeds.
 #[test]
 fn named_low_copy_cases_never_go_negative() {
@@ -223,10 +223,10 @@ fn mean_and_fano(src: &str, method: Method, r: u64, t_end: f64, seed: u64) -> (f
 }
 
 // Immigration–death from X = 0 is Poisson at every time with mean (k/γ)(1 − e^(−γt))
-// (REFERENCES §2b [C]; Jahnke & Huisinga 2007 [verified]). The first tau kernel leapt from
+// (docs/references.md §2b [C]; Jahnke & Huisinga 2007 [verified]). The first tau kernel leapt from
 // X = 0 straight to t_end (X only produced at first, so nothing bounded the leap) and gave
 // ≈ 1000 at t = 100 and 50.2 at t = 1. Tolerance: 4 SE of the mean (SE = √(mean/R)) and
-// 4·√(2/R) on the Fano factor (REFERENCES §0), the leap bias being far below both here.
+// 4·√(2/R) on the Fano factor (docs/references.md §0), the leap bias being far below both here.
 #[test]
 fn immigration_death_from_zero_matches_the_exact_law() {
     let r = 4000u64;

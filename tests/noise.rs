@@ -12,7 +12,7 @@ fn net(src: &str) -> Network {
 }
 
 // Immigration–death: stationary law Poisson(k/γ), so Fano = 1 and CV = 1/√mean exactly, and
-// the LNA is exact for this linear network (REFERENCES §2b [C], §9: Elf & Ehrenberg 2003
+// the LNA is exact for this linear network (docs/references.md §2b [C], §9: Elf & Ehrenberg 2003
 // [verified]). At 1, 10 and 100 fL with the concentrations kept, the mean grows tenfold each
 // time and CV·√mean stays 1.
 #[test]
@@ -70,7 +70,7 @@ fn linear_network_follows_one_over_root_n() {
 // Open Michaelis–Menten system with one enzyme, in molecules: 0 -> S (k_in), S + E <-> C,
 // C -> E. The deterministic steady state is S* = K·ρ/(1 − ρ) = 11 with K = 11, ρ = 0.5; the
 // exact stationary mean lies above it at low copy number (Grima 2009, BMC Syst. Biol. 3:101
-// [verified]; REFERENCES §8: computed here from the exact master equation [C]).
+// [verified]; docs/references.md §8: computed here from the exact master equation [C]).
 #[test]
 fn low_copy_mean_departs_from_the_deterministic_value_as_the_master_equation_says() {
     let n = net("species E = 1\nspecies S = 0\nspecies C = 0\n\
@@ -175,7 +175,7 @@ fn cli_prints_every_contract_key_and_draws_the_svg() {
 // the event budget cuts copyloop's own burn-in to well under three relaxation times, so the
 // replicates are still building up their fluctuations. The plan must say it was shortened and
 // that its figures are unreliable. With the rule's full window given explicitly, the Fano
-// factor agrees with the linear-noise value, which is exact here: 1 (Poisson; REFERENCES §2b
+// factor agrees with the linear-noise value, which is exact here: 1 (Poisson; docs/references.md §2b
 // [C]), within 4 delta-method standard errors.
 #[test]
 fn a_shortened_window_is_flagged_and_the_full_one_agrees_with_the_lna() {
@@ -216,7 +216,7 @@ fn a_shortened_window_is_flagged_and_the_full_one_agrees_with_the_lna() {
 }
 
 // The 95 % intervals of the Fano factor cover the exact value about 95 % of the time: 200
-// independent small ensembles of immigration–death (Fano 1 exactly, REFERENCES §2b [C]); the
+// independent small ensembles of immigration–death (Fano 1 exactly, docs/references.md §2b [C]); the
 // coverage must lie within 4 binomial standard errors (√(0.95·0.05/200) = 1.5 %) of 95 %.
 #[test]
 fn fano_intervals_cover_the_exact_value() {

@@ -592,3 +592,60 @@ fn distribution_plot_draws_the_exact_law_where_the_axes_say_beside_the_histogram
     assert!(pixels_of(&pixels, series_colour(0), 8) > 50);
     support::svg::keep("distribution", &text, &pixels);
 }
+
+/// `simulate --svg F --species X`: the command line writes the chart of the species it was
+/// told to draw (coordinates are checked against the ensemble in the test above), and refuses
+/// a name the network lacks with exit status 2.
+#[test]
+fn simulate_writes_the_time_course_of_the_chosen_species() {
+    let dir = tempfile::tempdir().unwrap();
+    let file = dir.path().join("invented.crn");
+    std::fs::write(&file, COURSE_NET).unwrap();
+    let file = file.to_str().unwrap();
+    let out = dir.path().join("course.svg");
+    let out = out.to_str().unwrap();
+    let common = [
+        "simulate",
+        file,
+        "--t-end",
+        "300",
+        "--replicates",
+        "4",
+        "--grid",
+        "11",
+        "--threads",
+        "1",
+        "--svg",
+        out,
+        "--json",
+    ];
+    let mut args = common.to_vec();
+    args.extend(["--species", "C"]);
+    let v = support::cli::json(&args);
+    let text = std::fs::read_to_string(out).unwrap();
+    let p = parse(&text);
+    assert_eq!(p.legend(), ["C (mean ± SD)"]);
+    assert_eq!(p.text("x-label"), "time (s)");
+    let series = p.series();
+    assert_eq!(series.len(), 1);
+    let line = series[0]
+        .descendants()
+        .find(|n| n.attribute("class") == Some("line"))
+        .unwrap();
+    assert_eq!(path_points(line.attribute("d").unwrap()).len(), 11);
+    assert!(v.is_object(), "the JSON document is printed as well");
+    render(&text);
+
+    // Default: the species that are not clamped (A and C; B is clamped).
+    let v = support::cli::json(&common);
+    assert!(v.is_object());
+    let p2 = std::fs::read_to_string(out).unwrap();
+    assert_eq!(parse(&p2).legend(), ["A (mean ± SD)", "C (mean ± SD)"]);
+
+    let mut bad = common.to_vec();
+    bad.extend(["--species", "Q"]);
+    let o = support::cli::run(&bad);
+    assert_eq!(o.status.code(), Some(2));
+    let err = String::from_utf8_lossy(&o.stderr);
+    assert!(err.contains("\"Q\" is not a species"), "{err}");
+}

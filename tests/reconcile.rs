@@ -22,7 +22,7 @@ fn opts(replicates: u64, t_end: f64, burn_in: f64) -> Options {
 
 // With the substrate clamped, each enzyme is an independent two-state chain, so the mean
 // product flux is exactly k2·E_T·S/(K + S) at any copy number (Kou et al. 2005 [verified];
-// REFERENCES §6, derived [C]). Checked over S/K from 0.1 to 10 with one enzyme and with 100.
+// docs/references.md §6, derived [C]). Checked over S/K from 0.1 to 10 with one enzyme and with 100.
 #[test]
 fn clamped_substrate_flux_is_michaelis_menten_exactly() {
     // k1 = 0.01 per molecule per s, k_-1 = 1, k2 = 1: K = 200 molecules.
@@ -110,7 +110,7 @@ fn ligand_depletion_deviates_from_langmuir_not_tqssa() {
 }
 
 // One enzyme fed at k_in: flux balance gives an exact mean turnover flux k_in whatever the
-// noise (REFERENCES §8 [C]), while the tQSSA complex at the mean total substrate over-predicts
+// noise (docs/references.md §8 [C]), while the tQSSA complex at the mean total substrate over-predicts
 // it by a few per cent: a significant difference, which the report explains by low copy
 // number with an expected size of the same sign and order (the second-order term of the
 // saturating occupancy under the ligand's fluctuations, Jensen's inequality).
@@ -162,7 +162,7 @@ fn non_stationary_window_is_flagged() {
 }
 
 // An enzyme fed by constant inflow v: S* = K·v/(V_max − v) (Briggs–Haldane rearranged,
-// REFERENCES §6). Then d ln S*/d ln v = V_max/(V_max − v) and
+// docs/references.md §6). Then d ln S*/d ln v = V_max/(V_max − v) and
 // d ln S*/d ln kcat = kcat/(koff + kcat) − V_max/(V_max − v) (differentiating the formula).
 #[test]
 fn sensitivities_match_the_closed_form() {
@@ -366,7 +366,7 @@ fn cli_prints_every_contract_key_and_draws_the_svg() {
 
 // The enzyme's product P accumulates (nothing consumes or reads it), yet the enzyme's flux is
 // stationary: with S clamped the flux is k_cat·E_T·S/(K + S) exactly (Briggs & Haldane 1925
-// [M]; REFERENCES §6 [C]), and P's accumulation rate equals it, deterministic and in the
+// [M]; docs/references.md §6 [C]), and P's accumulation rate equals it, deterministic and in the
 // ensemble. Before, steady, reconcile and noise refused ("P grows without bound").
 #[test]
 fn an_accumulating_product_does_not_block_reconciliation() {

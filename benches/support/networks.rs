@@ -33,6 +33,47 @@ pub fn random(m: usize) -> String {
     src
 }
 
+/// `m` reactions over m/2 species, every species starting at `x0` (≥ 1), that stay where
+/// they start: reactions come in pairs of one step and its reverse at the same rate, three in
+/// four pairs first-order conversions Xa <-> Xb (c = 1 /s), one in four bimolecular exchanges
+/// Xa + Xb <-> Xc + Xd (c = 1/x0 /s, so that every propensity is about x0 /s). Every pair is
+/// balanced when all counts are equal, so counts fluctuate around x0 for any length of run
+/// (detailed balance), and each species is read by about two reactions at every size: runs of
+/// a fixed number of events meet the same propensities at every size. With `decades` > 0 each
+/// pair's rate constants are also multiplied by 10^(−decades·u), u uniform on [0, 1) per pair
+/// (still balanced), so that propensities spread over that many orders of magnitude.
+pub fn stationary(m: usize, x0: u64, decades: f64) -> String {
+    let n = (m / 2).max(4);
+    let c2 = 1.0 / x0 as f64;
+    let mut s = 0x2545_F491_4F6C_DD1D;
+    let mut src = String::with_capacity(40 * (n + m));
+    for i in 0..n {
+        src.push_str(&format!("species X{i} = {x0}\n"));
+    }
+    for j in 0..m / 2 {
+        let f = 10f64.powf(-decades * draw(&mut s, 1 << 20) as f64 / (1 << 20) as f64);
+        let mut pick = |avoid: &[usize]| loop {
+            let k = draw(&mut s, n);
+            if !avoid.contains(&k) {
+                return k;
+            }
+        };
+        let a = pick(&[]);
+        let b = pick(&[a]);
+        if j % 4 == 3 {
+            let c = pick(&[a, b]);
+            let d = pick(&[a, b, c]);
+            let k = c2 * f;
+            src.push_str(&format!(
+                "step r{j} X{a} + X{b} <-> X{c} + X{d} @ {k:e}, {k:e}\n"
+            ));
+        } else {
+            src.push_str(&format!("step r{j} X{a} <-> X{b} @ {f:e}, {f:e}\n"));
+        }
+    }
+    src
+}
+
 /// A chain X0 -> X1 -> … of `n` species, each starting at 1.
 pub fn chain(n: usize) -> String {
     let mut src = String::new();

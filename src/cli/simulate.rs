@@ -61,6 +61,12 @@ pub struct SimulateArgs {
     /// network fits): the Z and Y statistics of the discrete stochastic test suite
     #[arg(long)]
     pub exact: bool,
+    /// Also draw the time course (mean ± SD band per species) to this SVG file
+    #[arg(long, value_name = "F.svg")]
+    pub svg: Option<String>,
+    /// Species the SVG shows, comma-separated (default: every species that is not clamped)
+    #[arg(long, value_name = "X,Y", value_delimiter = ',', requires = "svg")]
+    pub species: Vec<String>,
 }
 
 impl SimulateArgs {
@@ -142,13 +148,44 @@ fn exact(
         .map_err(|e| e.to_string())
 }
 
+/// The species `--species` names, in the order given (default: the non-clamped ones); an
+/// unknown name is refused before anything runs.
+fn plotted(a: &SimulateArgs, net: &crate::Network) -> Result<Vec<usize>> {
+    if a.species.is_empty() {
+        return Ok(report::simulate::default_species(net));
+    }
+    a.species
+        .iter()
+        .map(|name| {
+            let name = name.trim();
+            net.species_index(name).ok_or_else(|| {
+                let known: Vec<&str> = net.species.iter().map(|s| s.name.as_str()).collect();
+                Error::usage(format!(
+                    "--species: {name:?} is not a species of {}; it has {}",
+                    net.file,
+                    known.join(", ")
+                ))
+            })
+        })
+        .collect()
+}
+
+/// Writes `text` to `path`.
+fn write(path: &str, text: String) -> Result<()> {
+    std::fs::write(path, text).map_err(|e| Error::io(path.to_string(), e))
+}
+
 pub fn run(a: &SimulateArgs) -> Result<()> {
     let spec = a.spec();
     spec.validate()?;
     let net = load(&a.file, &Overrides::default())?;
     super::print_warnings(&net);
+    let species = plotted(a, &net)?;
     if a.method == MethodArg::Ode {
         let (tr, wall) = ode(a, &net)?;
+        if let Some(path) = &a.svg {
+            write(path, report::simulate::ode_svg(&net, &tr, &species))?;
+        }
         if let Some(path) = &a.out {
             std::fs::write(path, report::simulate::ode_csv(&net, &tr))
                 .map_err(|e| Error::io(path.clone(), e))?;
@@ -164,6 +201,12 @@ pub fn run(a: &SimulateArgs) -> Result<()> {
     if let Some(path) = &a.out {
         std::fs::write(path, report::simulate::csv(&net, &result))
             .map_err(|e| Error::io(path.clone(), e))?;
+    }
+    if let Some(path) = &a.svg {
+        write(
+            path,
+            report::simulate::svg(&net, (&result).into(), &species),
+        )?;
     }
     if a.json {
         let mut doc = report::simulate::json(&net, &result);

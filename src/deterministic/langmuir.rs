@@ -1,7 +1,7 @@
 //! Langmuir-form and total-QSSA predictions for carrier motifs.
 //!
 //! A carrier X binds a ligand L into C (k_on), C falls apart (k_off) or releases X after the
-//! output step (k_cat). Quasi-steady state of C gives (Briggs & Haldane 1925 [M]; REFERENCES
+//! output step (k_cat). Quasi-steady state of C gives (Briggs & Haldane 1925 [M]; docs/references.md
 //! §6 [verified formula]):
 //!
 //! ```text

@@ -12,7 +12,7 @@
 //! species follows through the link matrix: Σ = L₀ Σ_r L₀ᵀ (Elf & Ehrenberg 2003). Clamped
 //! species do not fluctuate. The mean is the steady state itself. For networks of zero- and
 //! first-order steps only, the moment equations close and this is the exact stationary
-//! covariance (common practice; REFERENCES §9).
+//! covariance (common practice; docs/references.md §9).
 //!
 //! The Lyapunov equation is solved as its vectorised linear system over the r(r+1)/2 distinct
 //! entries of the symmetric Σ_r, (J_r ⊗ I + I ⊗ J_r)·vec Σ_r = −vec D_r folded by symmetry, with

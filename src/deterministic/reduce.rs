@@ -123,7 +123,7 @@ mod tests {
     use super::*;
     use crate::network::{load_source, Overrides};
 
-    // Michaelis–Menten: E + C and S + C + P conserved (REFERENCES §6), so of E, S, C, P two
+    // Michaelis–Menten: E + C and S + C + P conserved (docs/references.md §6), so of E, S, C, P two
     // are independent; every column of L₀ must satisfy Λ·L₀ = 0 (a move along L₀ keeps the
     // totals).
     #[test]

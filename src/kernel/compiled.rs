@@ -26,7 +26,7 @@ pub const LAW: u8 = u8::MAX;
 /// A propensity in flat form (molecules per second).
 ///
 /// Mass action, a = c·Π C(xᵢ, νᵢ) (Gillespie 1976, J. Comput. Phys. 22:403 [verified]; the
-/// forms c·x, c·x₁x₂, c·x(x−1)/2, c·x(x−1)(x−2)/6 [M], REFERENCES.md §1), is written as
+/// forms c·x, c·x₁x₂, c·x(x−1)/2, c·x(x−1)(x−2)/6 [M], docs/references.md §1), is written as
 ///
 /// a = c′·(x[i₀] − o₀)·(x[i₁] − o₁)·(x[i₂] − o₂)   (the first `factors` of them),
 ///
@@ -112,11 +112,34 @@ pub const WALK_PER_ENTRY: usize = 16;
 pub enum Updates {
     /// Row j: the reactions whose propensity may change when j fires, each once.
     ByReaction(Rows<u32>),
-    /// Row i: the reactions whose propensity reads species i. An event recomputes the rows of
-    /// the species its change names (a reaction that reads two of them twice). Used where the
-    /// graph by reaction would be far larger than the network (many reactions that change and
-    /// read one species), so that memory stays linear.
-    BySpecies(Rows<u32>),
+    /// `readers` row i: the reactions whose propensity reads species i; `changed` row j: the
+    /// species reaction j changes. An event recomputes the readers of the species it changes
+    /// (a reaction that reads two of them twice). Used where the graph by reaction would be
+    /// far larger than the network (many reactions that change and read one species), so that
+    /// memory stays linear.
+    BySpecies {
+        readers: Rows<u32>,
+        changed: Rows<u32>,
+    },
+}
+
+impl Updates {
+    /// The rows an event of reaction `j` walks, and the keys of those rows in it: (the table
+    /// by reaction, [j]) or (readers, the species j changes).
+    ///
+    /// # Safety
+    ///
+    /// `j` is below the number of reactions.
+    #[inline(always)]
+    pub unsafe fn walk<'a>(&'a self, j: &'a u32) -> (&'a Rows<u32>, &'a [u32]) {
+        match self {
+            Updates::ByReaction(rows) => (rows, std::slice::from_ref(j)),
+            // SAFETY: the caller's contract; `changed` has one row per reaction.
+            Updates::BySpecies { readers, changed } => {
+                (readers, unsafe { changed.row_unchecked(*j as usize) })
+            }
+        }
+    }
 }
 
 /// A network compiled for the kernels: flat arrays only.
@@ -208,7 +231,14 @@ impl CompiledKernel {
             let readers: Vec<Vec<u32>> = (0..n)
                 .map(|i| graph.readers(i).iter().map(|&k| k as u32).collect())
                 .collect();
-            (Updates::BySpecies(Rows::new(&readers)?), None)
+            let changed: Vec<Vec<u32>> = (0..m)
+                .map(|j| graph.changed(j).iter().map(|&i| i as u32).collect())
+                .collect();
+            let updates = Updates::BySpecies {
+                readers: Rows::new(&readers)?,
+                changed: Rows::new(&changed)?,
+            };
+            (updates, None)
         };
         Ok(CompiledKernel {
             species: n,
@@ -349,23 +379,44 @@ impl CompiledKernel {
     #[inline(always)]
     pub unsafe fn propensity_unchecked(&self, j: usize, x: &[i64], params: &[f64], t: f64) -> f64 {
         debug_assert!(j < self.rates.len() && x.len() == self.species + 1);
-        // SAFETY: j ≤ reactions() by the caller's contract.
-        let r = unsafe { self.rates.get_unchecked(j) };
+        // SAFETY: j ≤ reactions() by the caller's contract; the rate is this kernel's.
+        unsafe { self.rate_unchecked(self.rates.get_unchecked(j), x, params, t) }
+    }
+
+    /// The flat rate of reaction `j` (`j == reactions()` is the idle channel).
+    pub fn rate(&self, j: usize) -> Rate {
+        self.rates[j]
+    }
+
+    /// The value of `r`, one of this kernel's rates (a copy kept elsewhere), at `x`, as
+    /// [`CompiledKernel::propensity_unchecked`] gives it.
+    ///
+    /// # Safety
+    ///
+    /// `r` is a rate of this kernel and `x.len() == species + 1`.
+    #[inline(always)]
+    pub unsafe fn rate_unchecked(&self, r: &Rate, x: &[i64], params: &[f64], t: f64) -> f64 {
+        debug_assert!(x.len() == self.species + 1);
+        if r.factors == LAW {
+            return self.law_unchecked(r.i[0] as usize, x, params, t);
+        }
         // SAFETY: r.i[k] ≤ species < x.len() (construction and the caller's contract).
         let f = |k: usize| unsafe { (*x.get_unchecked(r.i[k] as usize) - r.o[k] as i64) as f64 };
-        match r.factors {
-            0 => r.c,
-            1 => r.c * f(0),
-            2 => r.c * f(0) * f(1),
-            3 => r.c * f(0) * f(1) * f(2),
-            _ => {
-                let v = self.laws[r.i[0] as usize].eval_at(x, params, t);
-                if (0.0..f64::INFINITY).contains(&v) {
-                    v
-                } else {
-                    f64::NAN
-                }
-            }
+        // Unused factors read the slot that holds 1 with offset 0, so they multiply by 1.0
+        // exactly: the same value as a product of only the used factors, without a branch on
+        // their number (which mixed networks mispredict).
+        r.c * f(0) * f(1) * f(2)
+    }
+
+    /// A law's value with the run's `params` at time `t`, NaN if it is negative, infinite or
+    /// NaN.
+    #[cold]
+    fn law_unchecked(&self, law: usize, x: &[i64], params: &[f64], t: f64) -> f64 {
+        let v = self.laws[law].eval_at(x, params, t);
+        if (0.0..f64::INFINITY).contains(&v) {
+            v
+        } else {
+            f64::NAN
         }
     }
 

@@ -198,7 +198,7 @@ mod tests {
         n.propensities().iter().map(|p| p.eval(x)).collect()
     }
 
-    // REFERENCES §3 unit test [C by hand]: decay A -> 0, c = 1, x = 1000, ε = 0.03:
+    // docs/references.md §3 unit test [C by hand]: decay A -> 0, c = 1, x = 1000, ε = 0.03:
     // g = 1, μ = −1000, σ² = 1000, τ' = min(30/1000, 900/1000) = 0.03.
     #[test]
     fn decay_step_size() {
@@ -211,7 +211,7 @@ mod tests {
         assert!((tau - 0.03).abs() < 1e-15);
     }
 
-    // REFERENCES §3 unit test [C by hand]: dimerisation 2A -> B, c = 0.002, x = 1000:
+    // docs/references.md §3 unit test [C by hand]: dimerisation 2A -> B, c = 0.002, x = 1000:
     // g = 2 + 1/999, bound = 14.99250, a = 999, μ = −1998, σ² = 3996, τ' = 0.0075038.
     #[test]
     fn dimerisation_step_size() {

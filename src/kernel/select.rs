@@ -2,17 +2,23 @@
 //! a₀ and a target u·a₀ (u uniform on [0, 1)), pick the smallest j with Σ_{i≤j} aᵢ > u·a₀
 //! (Gillespie 1977, J. Phys. Chem. 81:2340-2361, step 3 of the direct method [M]).
 //!
-//! Two implementations of the same rule:
+//! Two implementations of that rule, and one of the same law:
 //!
 //! - [`select_linear`]: a cumulative scan with early exit, O(M): the plain statement of the
 //!   rule, which the tests hold the tree to. (The event loop's scan for small networks, in
 //!   [`crate::kernel::direct`], counts instead of exiting early, in blocks of four.)
 //! - [`SumTree`]: a binary tree of partial sums over a flat array, O(log M) per update and per
 //!   selection, for large networks (common practice; the same idea as a Fenwick tree).
+//! - [`Rejection`]: composition–rejection (Slepoy, Thompson & Plimpton 2008, J. Chem. Phys.
+//!   128:205101 [M]), for very large networks: channels grouped by the binary exponent of
+//!   their propensity, a group chosen with u·a₀ by a scan over the few non-empty groups, and
+//!   a channel in it by rejection. Its cost per update and per selection does not grow with
+//!   M. It picks channel j with probability a_j/a₀, as the rule does, but not the same j for
+//!   the same u, and it draws more random numbers.
 //!
-//! Both are robust to rounding: they never return a channel of zero propensity while some
-//! channel is positive, even when rounding makes u·a₀ reach or exceed the summed propensities
-//! (they then return the last positive channel).
+//! The first two are robust to rounding: they never return a channel of zero propensity while
+//! some channel is positive, even when rounding makes u·a₀ reach or exceed the summed
+//! propensities (they then return the last positive channel).
 //!
 //! # Why not rand_distr's `WeightedTreeIndex`
 //!
@@ -112,15 +118,21 @@ impl SumTree {
 
     /// Sets weight i and recomputes the sums on its path to the root from their children,
     /// O(log M). Panics if i ≥ M (an internal indexing error, not user input).
+    ///
+    /// The new sum of each node is carried up in a register and added to its sibling's (f64
+    /// addition is commutative, so this is the same sum as left + right), so that no level
+    /// waits for the store of the level below.
     #[inline]
     pub fn set(&mut self, i: usize, w: f64) {
         debug_assert!(w >= 0.0, "negative weight {w}");
         assert!(i < self.len, "leaf {i} out of range {}", self.len);
         let mut k = self.leaves + i;
-        self.nodes[k] = w;
+        let mut v = w;
+        self.nodes[k] = v;
         while k > 1 {
+            v += self.nodes[k ^ 1];
             k /= 2;
-            self.nodes[k] = self.nodes[2 * k] + self.nodes[2 * k + 1];
+            self.nodes[k] = v;
         }
     }
 
@@ -169,6 +181,239 @@ impl SumTree {
             0
         }
     }
+}
+
+/// Groups of the composition–rejection selector: one per value of the 11-bit exponent field
+/// of an f64.
+const GROUPS: usize = 2048;
+
+/// Composition–rejection selection over M channels (Slepoy, Thompson & Plimpton 2008, J.
+/// Chem. Phys. 128:205101 [M]).
+///
+/// Group g holds the channels whose propensity has exponent field g, i.e. lies in
+/// [2^(g−1023), 2^(g−1022)) (group 0: the subnormal numbers below 2^−1022). Then
+///
+/// - composition: group g is chosen with probability G_g/a₀, G_g = Σ_{j∈g} a_j, by scanning
+///   the non-empty groups, largest exponent first, for the first cumulative sum above u·a₀;
+/// - rejection: a member j of g is drawn uniformly and accepted with probability
+///   a_j/2^(g−1022), else drawn again; since every member is at least half that bound, at
+///   most two draws are needed on average, and j is accepted with probability
+///   a_j/Σ_{k∈g} a_k.
+///
+/// So j is chosen with probability a_j/a₀. Each group's sum is kept exactly, as the integer
+/// sum of its members' 53-bit significands (all members share one exponent), and G_g is a
+/// fixed function of that integer: an update changes it exactly, so rounding never
+/// accumulates and no rebuild is needed; a₀ is the sum of the few G_g. The acceptance test
+/// compares a uniform 53-bit integer with the member's significand, exactly.
+///
+/// The propensities themselves are the caller's (the event loop keeps each beside its rate):
+/// [`Rejection::set`] takes the old and the new value, [`Rejection::select`] reads them
+/// through a function. Updates are O(1) (moving a channel between groups swaps it out of one
+/// list and into another); a selection costs O(number of non-empty groups), about log₂ of the
+/// spread of the propensities, whatever M.
+#[derive(Clone, Debug, PartialEq)]
+pub struct Rejection {
+    /// Index of each channel in its group's member list (meaningful where a > 0).
+    slot: Vec<u32>,
+    /// Members of each group.
+    members: Vec<Vec<u32>>,
+    /// Sum of the members' significands, per group.
+    exact: Vec<u128>,
+    /// `exact` in propensity units as f64, per group.
+    sums: Vec<f64>,
+    /// The non-empty groups, largest exponent first.
+    active: Vec<u16>,
+    /// Channels whose propensity is not a finite number ≥ 0 (then a₀ is NaN).
+    bad: usize,
+}
+
+/// Exponent field of a positive f64.
+#[inline(always)]
+fn group_of(a: f64) -> usize {
+    ((a.to_bits() >> 52) & 0x7ff) as usize
+}
+
+/// The 53-bit significand of a positive f64 (with its leading 1, except for subnormals), the
+/// number of units of 2^(max(g, 1)−1075) that it holds.
+#[inline(always)]
+fn significand(a: f64) -> u64 {
+    let bits = a.to_bits();
+    let frac = bits & ((1 << 52) - 1);
+    frac | (u64::from((bits >> 52) & 0x7ff != 0) << 52)
+}
+
+/// Whether a propensity is a finite number ≥ 0.
+#[inline(always)]
+fn valid(a: f64) -> bool {
+    (0.0..f64::INFINITY).contains(&a)
+}
+
+impl Rejection {
+    /// M channels, all of propensity 0.
+    pub fn new(m: usize) -> Rejection {
+        Rejection {
+            slot: vec![0; m],
+            members: vec![Vec::new(); GROUPS],
+            exact: vec![0; GROUPS],
+            sums: vec![0.0; GROUPS],
+            active: Vec::new(),
+            bad: 0,
+        }
+    }
+
+    /// Number of channels M.
+    pub fn len(&self) -> usize {
+        self.slot.len()
+    }
+
+    /// Whether there are no channels.
+    pub fn is_empty(&self) -> bool {
+        self.slot.is_empty()
+    }
+
+    /// a₀: the group sums added largest exponent first (the order of the scan), or NaN if
+    /// some propensity is not a finite number ≥ 0.
+    #[inline(always)]
+    pub fn total(&self) -> f64 {
+        if self.bad > 0 {
+            return f64::NAN;
+        }
+        let mut sum = -0.0;
+        for &g in &self.active {
+            sum += self.sums[g as usize];
+        }
+        sum
+    }
+
+    /// Channel j's propensity changes from `old` (0 at the start) to `new`, O(1). A value
+    /// that is not a finite number ≥ 0 belongs to no group, and makes [`Rejection::total`]
+    /// NaN while it lasts.
+    #[inline(always)]
+    pub fn set(&mut self, j: usize, old: f64, new: f64) {
+        let (ob, nb) = (old.to_bits(), new.to_bits());
+        let g = group_of(old);
+        // Same sign and exponent field, both positive, and not infinite or NaN (field 0x7ff):
+        // the channel stays in its group.
+        if (ob ^ nb) >> 52 == 0 && old > 0.0 && new > 0.0 && g != 0x7ff {
+            let e = self.exact[g] - u128::from(significand(old)) + u128::from(significand(new));
+            self.exact[g] = e;
+            self.sums[g] = to_f64(e) * unit(g);
+        } else if ob != nb {
+            self.regroup(j, old, new);
+        }
+    }
+
+    /// [`Rejection::set`] where the channel changes group (or enters or leaves every group):
+    /// rarer, and kept out of the event loop's own code.
+    #[cold]
+    #[inline(never)]
+    fn regroup(&mut self, j: usize, old: f64, new: f64) {
+        if !valid(old) {
+            self.bad -= 1;
+        } else if old > 0.0 {
+            self.leave(j, group_of(old), significand(old));
+        }
+        if !valid(new) {
+            self.bad += 1;
+        } else if new > 0.0 {
+            self.join(j, group_of(new), significand(new));
+        }
+    }
+
+    fn leave(&mut self, j: usize, g: usize, m: u64) {
+        let k = self.slot[j] as usize;
+        let list = &mut self.members[g];
+        list.swap_remove(k);
+        if let Some(&moved) = list.get(k) {
+            self.slot[moved as usize] = k as u32;
+        }
+        self.exact[g] -= u128::from(m);
+        if list.is_empty() {
+            self.exact[g] = 0;
+            self.sums[g] = 0.0;
+            if let Some(p) = self.active.iter().position(|&h| h as usize == g) {
+                self.active.remove(p);
+            }
+        } else {
+            self.sums[g] = to_f64(self.exact[g]) * unit(g);
+        }
+    }
+
+    fn join(&mut self, j: usize, g: usize, m: u64) {
+        let list = &mut self.members[g];
+        if list.is_empty() {
+            let p = self.active.partition_point(|&h| h as usize > g);
+            self.active.insert(p, g as u16);
+        }
+        self.slot[j] = list.len() as u32;
+        list.push(j as u32);
+        self.exact[g] += u128::from(m);
+        self.sums[g] = to_f64(self.exact[g]) * unit(g);
+    }
+
+    /// A channel drawn with probability a_j/a₀ (`a` gives each channel's propensity, as last
+    /// [`Rejection::set`]): the group whose cumulative sum in scan order first exceeds
+    /// `target` = u·a₀, then a member by rejection with draws from `rng`. None where rounding
+    /// put `target` at or above every cumulative sum (the caller draws again).
+    #[inline(always)]
+    pub fn select<R: rand::Rng + ?Sized>(
+        &self,
+        target: f64,
+        rng: &mut R,
+        a: impl Fn(usize) -> f64,
+    ) -> Option<usize> {
+        let mut sum = -0.0;
+        let g = *self.active.iter().find(|&&g| {
+            sum += self.sums[g as usize];
+            sum > target
+        })? as usize;
+        let list = &self.members[g];
+        // Subnormals' significands lie below 2^52, the others' in [2^52, 2^53).
+        let shift = if g == 0 { 12 } else { 11 };
+        loop {
+            let j = list[below(rng, list.len() as u64) as usize] as usize;
+            if rng.next_u64() >> shift < significand(a(j)) {
+                return Some(j);
+            }
+        }
+    }
+}
+
+/// A u128 below 2^115 as f64 without the library call: correctly rounded below 2^62, within
+/// one rounding of it above. A group's sum is a
+/// fixed function of its exact integer either way, so nothing drifts.
+#[inline(always)]
+fn to_f64(x: u128) -> f64 {
+    // Two signed conversions (single instructions; unsigned ones are not on x86-64): the part
+    // above 2^62 (below 2^53 for every sum a group can reach, so exact) and the rest.
+    let high = (x >> 62) as i64 as f64;
+    let low = (x as u64 & ((1 << 62) - 1)) as i64 as f64;
+    high * 4_611_686_018_427_387_904.0 + low
+}
+
+/// 2^(max(g, 1)−1075): the value of one unit of a significand of group g (a subnormal power
+/// of two for g ≤ 52).
+#[inline(always)]
+fn unit(g: usize) -> f64 {
+    if g > 52 {
+        f64::from_bits(((g - 52) as u64) << 52)
+    } else {
+        f64::from_bits(1 << (g.max(1) - 1))
+    }
+}
+
+/// A uniform integer in [0, n), n ≥ 1, exactly (Lemire 2019, ACM Trans. Model. Comput. Simul.
+/// 29(1):3, multiply-and-shift with the rare rejection that removes its bias [M]).
+#[inline(always)]
+fn below<R: rand::Rng + ?Sized>(rng: &mut R, n: u64) -> u64 {
+    let mut m = u128::from(rng.next_u64()) * u128::from(n);
+    if (m as u64) < n {
+        let threshold = n.wrapping_neg() % n;
+        while (m as u64) < threshold {
+            m = u128::from(rng.next_u64()) * u128::from(n);
+        }
+    }
+    (m >> 64) as u64
 }
 
 #[cfg(test)]
@@ -326,11 +571,119 @@ mod tests {
         }
     }
 
+    /// Propensities held by the caller, as the event loop holds them, beside the groups.
+    struct Held {
+        a: Vec<f64>,
+        groups: Rejection,
+    }
+
+    impl Held {
+        fn new(w: &[f64]) -> Held {
+            let mut h = Held {
+                a: vec![0.0; w.len()],
+                groups: Rejection::new(w.len()),
+            };
+            for (j, &v) in w.iter().enumerate() {
+                h.set(j, v);
+            }
+            h
+        }
+
+        fn set(&mut self, j: usize, v: f64) {
+            self.groups.set(j, self.a[j], v);
+            self.a[j] = v;
+        }
+
+        fn select(&self, target: f64, rng: &mut Xoshiro256PlusPlus) -> Option<usize> {
+            self.groups.select(target, rng, |j| self.a[j])
+        }
+    }
+
+    #[test]
+    fn rejection_frequencies_are_multinomial() {
+        // Channels spread over several groups (0.05 … 3.5) and zeros, plus a subnormal and a
+        // huge weight in a second set: counts must follow the multinomial law a_j/a₀
+        // (Slepoy, Thompson & Plimpton 2008 [M]; Gillespie 1977 [M]), zero channels never.
+        let huge = [1e-310, 3.0, 0.0, 2.5e300, 1e300, 7e299];
+        for w in [&WEIGHTS[..], &huge[..]] {
+            let h = Held::new(w);
+            let a0 = h.groups.total();
+            let exact: f64 = w.iter().sum();
+            assert!((a0 - exact).abs() <= 1e-15 * exact);
+            let mut rng = Xoshiro256PlusPlus::seed_from_u64(9);
+            let mut counts = vec![0u64; w.len()];
+            for _ in 0..200_000 {
+                let target = rng.random::<f64>() * a0;
+                if let Some(j) = h.select(target, &mut rng) {
+                    counts[j] += 1;
+                }
+            }
+            let positive: Vec<usize> = (0..w.len()).filter(|&j| w[j] > 0.0).collect();
+            for j in (0..w.len()).filter(|j| !positive.contains(j)) {
+                assert_eq!(counts[j], 0, "zero channel {j} chosen");
+            }
+            // Channels whose expected count is at least 5 (the subnormal one never is).
+            let big: Vec<usize> = positive
+                .iter()
+                .copied()
+                .filter(|&j| w[j] / a0 * 200_000.0 >= 5.0)
+                .collect();
+            let mass: f64 = big.iter().map(|&j| w[j]).sum();
+            let observed: Vec<u64> = big.iter().map(|&j| counts[j]).collect();
+            let probs: Vec<f64> = big.iter().map(|&j| w[j] / mass).collect();
+            let r = chi_square_gof(&observed, &probs).unwrap();
+            assert!(r.p_value > 1e-4, "{r:?} {counts:?}");
+        }
+    }
+
+    #[test]
+    fn rejection_bad_values_make_the_total_nan() {
+        let mut h = Held::new(&[1.0, 2.0, 3.0]);
+        assert_eq!(h.groups.total(), 6.0);
+        h.set(1, f64::NAN);
+        assert!(h.groups.total().is_nan());
+        h.set(1, 0.0);
+        assert_eq!(h.groups.total(), 4.0);
+        h.set(0, -0.0);
+        h.set(2, 0.0);
+        assert_eq!(h.groups.total(), 0.0);
+        let mut rng = Xoshiro256PlusPlus::seed_from_u64(1);
+        assert_eq!(h.select(0.0, &mut rng), None);
+    }
+
     fn weight() -> impl Strategy<Value = f64> {
         prop_oneof![Just(0.0), 0.0..1e3f64, 1e-9..1e-6f64]
     }
 
     proptest! {
+        /// After any sequence of updates the groups are exactly those of a fresh build: the
+        /// same a₀ to the bit (no drift), and every selection lands on a positive channel.
+        #[test]
+        fn rejection_updates_do_not_drift(
+            initial in prop::collection::vec(weight(), 1..150),
+            updates in prop::collection::vec((any::<prop::sample::Index>(), weight()), 0..600),
+            targets in prop::collection::vec(0.0..1.0f64, 1..50),
+        ) {
+            let mut h = Held::new(&initial);
+            for (idx, value) in updates {
+                let i = idx.index(h.a.len());
+                h.set(i, value);
+            }
+            let fresh = Held::new(&h.a);
+            prop_assert_eq!(h.groups.total().to_bits(), fresh.groups.total().to_bits());
+            prop_assert_eq!(&h.groups.exact, &fresh.groups.exact);
+            let exact: f64 = h.a.iter().sum();
+            prop_assert!((h.groups.total() - exact).abs() <= 1e-13 * exact);
+            let mut rng = Xoshiro256PlusPlus::seed_from_u64(5);
+            if h.groups.total() > 0.0 {
+                for u in targets {
+                    if let Some(j) = h.select(u * h.groups.total(), &mut rng) {
+                        prop_assert!(h.a[j] > 0.0);
+                    }
+                }
+            }
+        }
+
         #[test]
         fn updates_keep_sums_and_selection(
             initial in prop::collection::vec(weight(), 1..150),

@@ -617,7 +617,7 @@ mod tests {
                       step bind E + S <-> C @ 1, 1\nstep cat C -> E + P @ 1\n";
 
     // Michaelis–Menten scheme E + S <-> C -> E + P conserves E + C and S + C + P
-    // (Briggs & Haldane 1925 [M]; REFERENCES §6: E_T = E + C, S_T = S + C + P).
+    // (Briggs & Haldane 1925 [M]; docs/references.md §6: E_T = E + C, S_T = S + C + P).
     #[test]
     fn michaelis_menten_conservation() {
         let n = net(MM);
@@ -634,7 +634,7 @@ mod tests {
         }
     }
 
-    // Briggs–Haldane: K = (k₋₁ + k₂)/k₁ (Briggs & Haldane 1925 [M], REFERENCES §6 [verified formula]).
+    // Briggs–Haldane: K = (k₋₁ + k₂)/k₁ (Briggs & Haldane 1925 [M], docs/references.md §6 [verified formula]).
     #[test]
     fn enzyme_motif_and_k_half() {
         let src = "volume 1 fL\nspecies E = 100 molecules\nspecies S = 5 uM clamped\nspecies C = 0\nspecies P = 0\n\

@@ -1,4 +1,4 @@
-//! Text → syntax tree for the `.crn` network language (CONTRACT §1).
+//! Text → syntax tree for the `.crn` network language (the README's network language).
 //!
 //! ```text
 //! volume      <number> <volume-unit>

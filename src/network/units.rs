@@ -145,7 +145,7 @@ impl Quantity {
 }
 
 /// A named unit: its factor to canonical units and its dimension, or `None` if `name` is not a
-/// unit. The names are those of the network language (CONTRACT §1).
+/// unit. The names are those of the network language (the README's network language).
 pub fn unit(name: &str) -> Option<(f64, Dim)> {
     let u = match name {
         "M" => (1.0, Dim::CONC),
@@ -212,8 +212,8 @@ mod tests {
         ((a - b) / b).abs()
     }
 
-    // N_A = 6.02214076e23 /mol, exact (SI 2019) [verified, REFERENCES §12].
-    // Numbers below are REFERENCES §12 [C], hand-computable.
+    // N_A = 6.02214076e23 /mol, exact (SI 2019) [verified, docs/references.md §12].
+    // Numbers below are docs/references.md §12 [C], hand-computable.
     #[test]
     fn omega_of_one_femtolitre() {
         let om = omega(1e-15);
@@ -225,11 +225,11 @@ mod tests {
     #[test]
     fn second_order_conversion() {
         let om = omega(1e-15);
-        // A + B: c = k/(N_A V) = 1e6 / 6.02214076e8 = 1.660539067e-3 /s  [C, REFERENCES §12]
+        // A + B: c = k/(N_A V) = 1e6 / 6.02214076e8 = 1.660539067e-3 /s  [C, docs/references.md §12]
         let c = stochastic_constant(1e6, &[1, 1], om);
         assert!(rel(c, 1e6 / 6.022_140_76e8) < 1e-15);
         assert!(rel(c, 1.660_539_067e-3) < 1e-9);
-        // A + A: c = 2k/(N_A V) = 3.321078134e-3 /s  [C, REFERENCES §12]
+        // A + A: c = 2k/(N_A V) = 3.321078134e-3 /s  [C, docs/references.md §12]
         let c2 = stochastic_constant(1e6, &[2], om);
         assert!(rel(c2, 2e6 / 6.022_140_76e8) < 1e-15);
         assert!(rel(c2, 3.321_078_134e-3) < 1e-9);
@@ -239,7 +239,7 @@ mod tests {
     #[test]
     fn zero_first_and_third_order_conversion() {
         let om = omega(1e-15);
-        // zero order: c = k0·N_A·V; 1e-9 M/s in 1 fL = 0.602214076 /s  [C, REFERENCES §12]
+        // zero order: c = k0·N_A·V; 1e-9 M/s in 1 fL = 0.602214076 /s  [C, docs/references.md §12]
         assert!(rel(stochastic_constant(1e-9, &[], om), 0.602_214_076) < 1e-15);
         // first order: c = k
         assert_eq!(stochastic_constant(0.5, &[1], om), 0.5);

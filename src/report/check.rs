@@ -52,7 +52,7 @@ fn event_json(net: &Network, e: &crate::network::Event) -> Value {
     })
 }
 
-/// The JSON document of CONTRACT §3 for `check`.
+/// The JSON document of docs/json.md for `check`.
 pub fn json(net: &Network) -> Value {
     let species: Vec<Value> = net
         .species

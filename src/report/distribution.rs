@@ -1,5 +1,5 @@
 //! The report of `copyloop distribution`: the JSON document (the serialisation of the
-//! library's results, CONTRACT keys at the top level), a table, a long-form CSV of the
+//! library's results, the keys of docs/json.md at the top level), a table, a long-form CSV of the
 //! marginals, and an SVG of marginals at chosen times beside ensemble histograms.
 
 use super::num;
@@ -22,7 +22,7 @@ fn value<T: serde::Serialize>(x: &T) -> Value {
 }
 
 /// The JSON document. With a transient solve its fields are the top level (`truncation_error`,
-/// `states`, `times`, `species` of CONTRACT §3); a stationary-only run keeps those keys, with
+/// `states`, `times`, `species` of docs/json.md); a stationary-only run keeps those keys, with
 /// no times, and its law under `stationary`.
 pub fn json(r: &Results) -> Value {
     let mut doc = match (r.transient, r.stationary) {

@@ -1,4 +1,4 @@
-//! Output for people (aligned tables) and for programs (JSON with the keys of CONTRACT §3).
+//! Output for people (aligned tables) and for programs (JSON with the keys of docs/json.md).
 //! Reports only format; they compute nothing.
 
 pub mod check;

@@ -1,4 +1,4 @@
-//! The report of `copyloop simulate`: table, JSON (CONTRACT §3) and the CSV grid.
+//! The report of `copyloop simulate`: table, JSON (docs/json.md) and the CSV grid.
 //!
 //! Count figures are molecules and seconds (`amount_unit`). Where a species sits in a
 //! compartment with a volume, each count figure has a molar twin with the suffix `_molar`
@@ -62,7 +62,7 @@ fn moments(w: &Welford, molar: Option<f64>) -> Map<String, Value> {
     m
 }
 
-/// The JSON document of CONTRACT §3 for `simulate`, with a few more keys (`window`,
+/// The JSON document of docs/json.md for `simulate`, with a few more keys (`window`,
 /// `grid_points`, `absorbed_replicates`, `firings_first_half`, `within_variance`, `ci95`,
 /// `rate_per_s`).
 pub fn json(net: &Network, r: &EnsembleResult) -> Value {
@@ -572,6 +572,16 @@ pub fn svg(net: &Network, course: Course, species: &[usize]) -> String {
         notes,
     }
     .render()
+}
+
+/// The ODE time course of `species` as an SVG chart (lines, in molecules).
+pub fn ode_svg(net: &Network, tr: &Trajectory, species: &[usize]) -> String {
+    let counts = ode_counts(net, tr);
+    let course = Course::Deterministic {
+        times: &tr.times,
+        counts: &counts,
+    };
+    svg(net, course, species)
 }
 
 /// Adds the comparison with the exact law under `exact` (null, with `exact_note`, where the

@@ -40,7 +40,7 @@ fn eigen_text(z: &nalgebra::Complex<f64>) -> String {
     }
 }
 
-/// The JSON document of CONTRACT §3 for `steady`, with extras.
+/// The JSON document of docs/json.md for `steady`, with extras.
 pub fn json(net: &Network, st: &Steady) -> Value {
     let mut state = Map::new();
     let accumulates = |i: usize| st.outputs.iter().any(|o| o.species == i);

@@ -119,7 +119,7 @@ mod tests {
     use super::*;
     use crate::sbml::eval;
 
-    // The formulas of the network language (CONTRACT §1): sat = x/(K+x), hill = xⁿ/(Kⁿ+xⁿ),
+    // The formulas of the network language (the README's network language): sat = x/(K+x), hill = xⁿ/(Kⁿ+xⁿ),
     // inhib = 1/(1+x/K).
     #[test]
     fn bodies_are_the_formulas() {

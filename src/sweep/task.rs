@@ -101,7 +101,7 @@ pub fn species_metric(task: &str, name: &str) -> Option<String> {
 }
 
 /// The result key a sweep plot draws when none is asked for and the sweep file names none:
-/// the headline figure of each task's document (CONTRACT §3), found in `result` itself (for
+/// the headline figure of each task's document (docs/json.md), found in `result` itself (for
 /// the tasks keyed by species, the first species not marked `clamped` there); for any other
 /// task, the first number in the document. A JSON pointer (RFC 6901) into the point's
 /// `result`.

@@ -54,11 +54,19 @@ class NetworkError(Exception):
         self.reason = reason
 
 
+_FLAG = _re.compile(r"--([a-z][a-z-]*)")
+
+
 def _native_call(f, *args):
+    """Calls the extension; its bad-input errors become NetworkError, and the command-line
+    flags its option errors name (``--burn-in``) become keyword names (``burn_in``)."""
     try:
         return f(*args)
     except _native.InputError as e:
         raise NetworkError(*e.args) from None
+    except ValueError as e:
+        message = _FLAG.sub(lambda m: m.group(1).replace("-", "_"), str(e))
+        raise ValueError(message) from None
 
 
 _NUMBER_WITH_UNIT = _re.compile(

@@ -296,10 +296,12 @@ def test_distribution_to_pandas(tmp_path):
 
 def test_analyses_refuse_bad_options():
     net = copyloop.load(GLAND)
-    with pytest.raises(ValueError):
+    with pytest.raises(ValueError) as e:
         net.reconcile(observe=["H=lots"])
-    with pytest.raises(ValueError):
+    assert str(e.value).startswith("observe H=lots: ")
+    with pytest.raises(ValueError) as e:
         net.reconcile(fit="kon_g")
+    assert "--" not in str(e.value) and "observe" in str(e.value)
     with pytest.raises(ValueError):
         net.reconcile(replicates=0)
     with pytest.raises(ValueError):
@@ -359,3 +361,24 @@ def test_notebook_example_runs_as_a_script(tmp_path, matplotlib):
         assert figure.stat().st_size > 0
     else:
         assert "matplotlib is not installed" in out.stdout and not figure.exists()
+
+
+def test_ctrl_c_during_noise_raises_keyboard_interrupt_when_the_run_returns():
+    script = textwrap.dedent(f"""
+        import sys, copyloop
+        net = copyloop.load({RECEPTOR!r})
+        print("ready", flush=True)
+        try:
+            net.noise(replicates=8, burn_in=10, t_end=20000, threads=1)
+        except KeyboardInterrupt:
+            print("interrupted", flush=True)
+            sys.exit(0)
+        print("finished", flush=True)
+    """)
+    p = subprocess.Popen([sys.executable, "-c", script], stdout=subprocess.PIPE, text=True)
+    assert p.stdout.readline().strip() == "ready"
+    time.sleep(0.5)
+    p.send_signal(signal.SIGINT)
+    out, _ = p.communicate(timeout=300)
+    assert p.returncode == 0
+    assert out.strip() == "interrupted"

@@ -8,7 +8,22 @@ import numpy.typing as npt
 _Value = Union[int, float, str]
 _Time = Union[float, str, None]
 
-__all__: List[str]
+__all__ = [
+    "NetworkError",
+    "Network",
+    "Check",
+    "Simulation",
+    "Steady",
+    "Reconciliation",
+    "MotifFlux",
+    "Noise",
+    "NoiseAtVolume",
+    "Distribution",
+    "SpeciesDistribution",
+    "StationaryDistribution",
+    "load",
+    "parse",
+]
 
 class NetworkError(Exception):
     message: str

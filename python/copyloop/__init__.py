@@ -697,8 +697,8 @@ class Network:
         (or a dict {"H": "2nM±0.2nM"}); ``fit`` names a param to fit to the first of them;
         ``precision`` adds replicates, up to ``max_replicates``, until every motif's 95 %
         half-width is below that fraction of its mean; ``tolerance`` is the relative difference
-        within which a prediction agrees. The GIL is released during the run; a Ctrl-C raises
-        KeyboardInterrupt when it ends."""
+        within which a prediction agrees. The GIL is released during the run; a Ctrl-C stops
+        it before the next replicate and raises KeyboardInterrupt."""
         if isinstance(observe, dict):
             observe = [f"{k}={v}" for k, v in observe.items()]
         args = (
@@ -732,8 +732,8 @@ class Network:
         """Stationary mean, variance, CV and Fano factor of every species from an exact
         ensemble, beside the linear-noise prediction (``copyloop noise``), optionally at
         several ``volumes`` given with units ("0.1pL", "1pL"), amounts kept as concentrations.
-        Times as in :meth:`reconcile`. The GIL is released during the run; a Ctrl-C raises
-        KeyboardInterrupt when it ends."""
+        Times as in :meth:`reconcile`. The GIL is released during the run; a Ctrl-C stops
+        it before the next replicate and raises KeyboardInterrupt."""
         args = (
             _check_int("replicates", replicates, 1),
             _check_time("t_end", t_end),

@@ -1,14 +1,49 @@
 //! The stationary analyses and the exact distributions, each run as its command runs it and
 //! returned as the document its `--json` prints: `reconcile`, `noise`, `distribution`.
 //!
-//! The GIL is released while each runs. The library runs their ensembles in one call, with no
-//! point between replicates where Python could look at its signals, so a Ctrl-C pressed during
-//! one raises KeyboardInterrupt when that call returns (the results are then dropped).
+//! Each runs on a thread of its own with the GIL released while the calling thread looks at
+//! Python's signals; a Ctrl-C asks the job's ensembles to stop before their next replicate
+//! (`copyloop::ensemble::stoppable`) and raises KeyboardInterrupt as soon as they have.
 
 use copyloop::network::{parser::parse_quantity, Dim};
 use copyloop::report::distribution::Results;
-use copyloop::{distribution, noise, reconcile, report, Error, Network};
+use copyloop::{distribution, ensemble, noise, reconcile, report, Error, Network};
 use pyo3::prelude::*;
+use std::sync::atomic::{AtomicBool, Ordering};
+use std::sync::Arc;
+use std::time::Duration;
+
+/// Runs `job` on a scoped thread, with the GIL released, looking at Python's signals between
+/// waits that grow from 1 to 50 ms (short jobs return at once). On a signal the job is asked
+/// to stop, joined, and the signal's exception (KeyboardInterrupt for Ctrl-C) is raised.
+fn interruptible<T: Send>(
+    py: Python<'_>,
+    job: impl FnOnce() -> copyloop::Result<T> + Send,
+) -> PyResult<T> {
+    let stop = Arc::new(AtomicBool::new(false));
+    std::thread::scope(|s| {
+        let flag = stop.clone();
+        let handle = s.spawn(move || ensemble::stoppable(flag, job));
+        let mut wait = Duration::from_millis(1);
+        while !handle.is_finished() {
+            py.detach(|| std::thread::sleep(wait));
+            wait = (wait * 2).min(Duration::from_millis(50));
+            if let Err(e) = py.check_signals() {
+                stop.store(true, Ordering::Relaxed);
+                py.detach(|| {
+                    let _ = handle.join();
+                });
+                return Err(e);
+            }
+        }
+        match py.detach(|| handle.join()) {
+            Ok(r) => r.map_err(crate::errors::to_py),
+            Err(_) => Err(pyo3::exceptions::PyRuntimeError::new_err(
+                "internal error: the job's thread panicked",
+            )),
+        }
+    })
+}
 
 /// What `reconcile` is asked for, as its command's flags.
 pub struct ReconcileArgs {
@@ -49,10 +84,7 @@ pub fn reconcile(py: Python<'_>, net: &Network, a: ReconcileArgs) -> PyResult<se
         progress: a.progress,
     };
     opts.validate().map_err(crate::errors::to_py)?;
-    let r = py
-        .detach(|| reconcile::reconcile(net, &opts))
-        .map_err(crate::errors::to_py)?;
-    py.check_signals()?;
+    let r = interruptible(py, || reconcile::reconcile(net, &opts))?;
     Ok(report::reconcile::json(&r))
 }
 
@@ -95,10 +127,7 @@ pub fn noise(
             .collect::<PyResult<Vec<_>>>()?,
         progress,
     };
-    let r = py
-        .detach(|| noise::noise(net, &opts))
-        .map_err(crate::errors::to_py)?;
-    py.check_signals()?;
+    let r = interruptible(py, || noise::noise(net, &opts))?;
     Ok(report::noise::json(&r))
 }
 

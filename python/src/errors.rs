@@ -30,5 +30,6 @@ pub fn to_py(e: Error) -> PyErr {
         }
         Error::Io { .. } => PyOSError::new_err(text.trim_start_matches("error: ").to_string()),
         Error::Internal(_) => PyRuntimeError::new_err(text),
+        Error::Interrupted => pyo3::exceptions::PyKeyboardInterrupt::new_err(text),
     }
 }

@@ -3,6 +3,7 @@
 //! hands back the same JSON documents the command line prints, plus numpy grids built from
 //! the result's own vectors. Typed Python objects are made in the pure-Python layer.
 
+mod analyses;
 mod ensemble;
 mod errors;
 mod overrides;
@@ -128,6 +129,87 @@ impl NativeNetwork {
         let mean = PyArray1::from_vec(py, mean).reshape([points, species])?;
         let sd = PyArray1::from_vec(py, sd).reshape([points, species])?;
         Ok((doc, times, mean, sd))
+    }
+
+    /// The `reconcile --json` document.
+    #[allow(clippy::too_many_arguments)]
+    #[pyo3(signature = (replicates, t_end, burn_in, observe, fit, precision, max_replicates, tolerance, from_initial, seed, threads, progress))]
+    fn reconcile_json(
+        &self,
+        py: Python<'_>,
+        replicates: u64,
+        t_end: Option<f64>,
+        burn_in: Option<f64>,
+        observe: Vec<String>,
+        fit: Option<String>,
+        precision: Option<f64>,
+        max_replicates: u64,
+        tolerance: f64,
+        from_initial: bool,
+        seed: u64,
+        threads: Option<usize>,
+        progress: bool,
+    ) -> PyResult<String> {
+        let args = analyses::ReconcileArgs {
+            replicates,
+            t_end,
+            burn_in,
+            observe,
+            fit,
+            precision,
+            max_replicates,
+            tolerance,
+            from_initial,
+            seed,
+            threads,
+            progress,
+        };
+        pretty(&analyses::reconcile(py, &self.net, args)?)
+    }
+
+    /// The `noise --json` document.
+    #[allow(clippy::too_many_arguments)]
+    #[pyo3(signature = (replicates, t_end, burn_in, volumes, seed, threads, progress))]
+    fn noise_json(
+        &self,
+        py: Python<'_>,
+        replicates: u64,
+        t_end: Option<f64>,
+        burn_in: Option<f64>,
+        volumes: Vec<String>,
+        seed: u64,
+        threads: Option<usize>,
+        progress: bool,
+    ) -> PyResult<String> {
+        pretty(&analyses::noise(
+            py, &self.net, replicates, t_end, burn_in, &volumes, seed, threads, progress,
+        )?)
+    }
+
+    /// The `distribution --json` document.
+    #[allow(clippy::too_many_arguments)]
+    #[pyo3(signature = (t_end, grid, species, stationary, tolerance, max_states, threads))]
+    fn distribution_json(
+        &self,
+        py: Python<'_>,
+        t_end: Option<f64>,
+        grid: usize,
+        species: Vec<String>,
+        stationary: bool,
+        tolerance: f64,
+        max_states: Option<usize>,
+        threads: Option<usize>,
+    ) -> PyResult<String> {
+        let args = analyses::DistributionArgs {
+            t_end,
+            grid,
+            species,
+            stationary,
+            tolerance,
+            max_states,
+            threads,
+        };
+        pretty(&analyses::distribution(py, &self.net, args)?)
     }
 }
 

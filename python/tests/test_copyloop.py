@@ -162,3 +162,223 @@ def test_ctrl_c_raises_keyboard_interrupt():
     out, _ = p.communicate(timeout=120)
     assert p.returncode == 0
     assert out.strip() == "interrupted"
+
+
+def without_clock_anywhere(value):
+    """The document with every wall-clock key removed, at any depth (noise keeps one per
+    volume)."""
+    if isinstance(value, dict):
+        return {k: without_clock_anywhere(v) for k, v in value.items() if k not in CLOCK}
+    if isinstance(value, list):
+        return [without_clock_anywhere(v) for v in value]
+    return value
+
+
+def same_document(python_json, cli_stdout):
+    return without_clock_anywhere(json.loads(python_json)) == without_clock_anywhere(
+        json.loads(cli_stdout))
+
+
+@pytest.mark.parametrize("threads", [1, 2])
+def test_reconcile_equals_the_cli(threads):
+    net = copyloop.load(GLAND)
+    r = net.reconcile(replicates=6, burn_in=600, t_end="40 min", observe=["H=2nM±0.2nM"],
+                      seed=11, threads=threads)
+    out = cli("reconcile", GLAND, "--replicates", "6", "--burn-in", "600", "--t-end", "40 min",
+              "--observe", "H=2nM±0.2nM", "--seed", "11", "--json")
+    assert out.returncode == 0, out.stderr
+    assert same_document(r.to_json(), out.stdout)
+    doc = json.loads(out.stdout)
+    assert r.replicates == 6 and r.seed == 11
+    assert len(r.motifs) == len(doc["motifs"]) >= 1
+    for arr in (r.ensemble, r.langmuir, r.tqssa, r.ode):
+        assert arr.dtype == np.float64 and arr.shape == (len(r.motifs),)
+    assert r.ensemble_ci95.shape == (len(r.motifs), 2)
+    for i, m in enumerate(doc["motifs"]):
+        assert r.ensemble[i] == m["ensemble"]["mean_per_s"]
+        assert r.ensemble_ci95[i].tolist() == m["ensemble"]["ci95"]
+        assert r.langmuir[i] == m["predicted"]["langmuir_per_s"]
+        assert r.motifs[i].verdict == m["verdict"] in ("agrees", "differs", "undecided")
+    assert [o["name"] for o in r.observations] == ["H"]
+
+
+def test_reconcile_observe_dict_equals_list():
+    net = copyloop.load(GLAND)
+    kw = dict(replicates=2, burn_in=300, t_end=900, seed=2, threads=1)
+    a = net.reconcile(observe={"H": "2nM+-0.2nM"}, **kw)
+    b = net.reconcile(observe=["H=2nM+-0.2nM"], **kw)
+    assert without_clock_anywhere(a.document) == without_clock_anywhere(b.document)
+
+
+def test_reconcile_to_pandas():
+    pd = pytest.importorskip("pandas")
+    r = copyloop.load(GLAND).reconcile(replicates=2, burn_in=300, t_end=900, seed=1)
+    df = r.to_pandas()
+    assert isinstance(df, pd.DataFrame) and len(df) == len(r.motifs)
+    assert df["ensemble"].tolist() == r.ensemble.tolist()
+    assert df["verdict"].tolist() == [m.verdict for m in r.motifs]
+
+
+def test_noise_equals_the_cli():
+    net = copyloop.load(RECEPTOR)
+    n = net.noise(replicates=8, burn_in=20, t_end=200, volumes=["1fL", "4 fL"], seed=5)
+    out = cli("noise", RECEPTOR, "--replicates", "8", "--burn-in", "20", "--t-end", "200",
+              "--volumes", "1fL,4 fL", "--seed", "5", "--json")
+    assert out.returncode == 0, out.stderr
+    assert same_document(n.to_json(), out.stdout)
+    doc = json.loads(out.stdout)
+    assert [v.volume_l for v in n.volumes] == [v["volume_l"] for v in doc["volumes"]]
+    for v, dv in zip(n.volumes, doc["volumes"]):
+        assert v.species == list(dv["species"])
+        assert v.mean.dtype == np.float64 and v.mean.shape == (len(v.species),)
+        assert v.cv_ci95.shape == (len(v.species), 2)
+        assert v.mean.tolist() == [dv["species"][s]["mean"] for s in v.species]
+        assert v.fano.tolist() == [dv["species"][s]["fano"] for s in v.species]
+
+
+def test_noise_to_pandas():
+    pd = pytest.importorskip("pandas")
+    n = copyloop.load(RECEPTOR).noise(replicates=3, burn_in=20, t_end=100, seed=1)
+    df = n.to_pandas()
+    assert isinstance(df, pd.DataFrame)
+    assert df["species"].tolist() == n.volumes[0].species
+    assert df["mean"].tolist() == n.volumes[0].mean.tolist()
+
+
+# Immigration–death: 0 -> A at rate k, A -> 0 at rate g·A. Its stationary law is Poisson with
+# mean k/g, and from A(0) = 0 the law at time t is Poisson with mean (k/g)(1 − e^(−g·t))
+# (Gardiner, Handbook of Stochastic Methods, the birth–death master equation [M]).
+BIRTH_DEATH = """volume 1 pL
+species A = 0 molecules
+param k = 4       # bare: the stochastic constant, molecules per second
+param g = 0.5 /s
+step make  0 -> A @ k
+step decay A -> 0 @ g
+"""
+
+
+def poisson(mean, n):
+    from math import exp, lgamma, log
+    return np.array([exp(i * log(mean) - mean - lgamma(i + 1)) if mean > 0 else float(i == 0)
+                     for i in range(n)])
+
+
+def test_distribution_equals_the_cli_and_the_poisson_law(tmp_path):
+    path = tmp_path / "birth_death.crn"
+    path.write_text(BIRTH_DEATH)
+    d = copyloop.load(str(path)).distribution(t_end=3, grid=4, stationary=True)
+    out = cli("distribution", str(path), "--t-end", "3", "--grid", "4", "--stationary", "--json")
+    assert out.returncode == 0, out.stderr
+    assert same_document(d.to_json(), out.stdout)
+    assert d.times.tolist() == [0.0, 1.0, 2.0, 3.0]
+    law = d.species["A"]
+    assert law.mean.dtype == np.float64 and law.mean.shape == (4,)
+    assert law.marginal.shape[0] == 4
+    # Every probability is within the reported ℓ¹ bound of the exact law.
+    for i, t in enumerate(d.times):
+        exact = poisson(8.0 * (1 - np.exp(-0.5 * t)), law.marginal.shape[1])
+        assert np.abs(law.marginal[i] - exact).sum() <= d.truncation_error + 1e-9
+    st = d.stationary.species["A"]["marginal"]
+    assert np.abs(st - poisson(8.0, len(st))).sum() <= d.stationary.truncation_error + 1e-9
+    assert abs(d.stationary.fluxes["make"] - 4.0) < 1e-6
+
+
+def test_distribution_to_pandas(tmp_path):
+    pd = pytest.importorskip("pandas")
+    d = copyloop.parse(BIRTH_DEATH, name="bd.crn").distribution(t_end=2, grid=3)
+    df = d.to_pandas()
+    assert list(df.columns) == ["time", "species", "mean", "variance", "sd", "fano", "p_zero"]
+    assert df["mean"].tolist() == d.species["A"].mean.tolist()
+    m = d.to_pandas(marginals=True)
+    assert list(m.columns) == ["time", "species", "count", "probability"]
+    assert m["probability"].sum() == pytest.approx(3.0, abs=1e-5)
+
+
+def test_analyses_refuse_bad_options():
+    net = copyloop.load(GLAND)
+    with pytest.raises(ValueError) as e:
+        net.reconcile(observe=["H=lots"])
+    assert str(e.value).startswith("observe H=lots: ")
+    with pytest.raises(ValueError) as e:
+        net.reconcile(fit="kon_g")
+    assert "--" not in str(e.value) and "observe" in str(e.value)
+    with pytest.raises(ValueError):
+        net.reconcile(replicates=0)
+    with pytest.raises(ValueError):
+        net.reconcile(t_end="3 nM")
+    with pytest.raises(ValueError):
+        net.noise(volumes=["3 nM"])
+    bd = copyloop.parse(BIRTH_DEATH, name="bd.crn")
+    with pytest.raises(ValueError):
+        bd.distribution()
+    with pytest.raises(ValueError):
+        bd.distribution(t_end=1, species=["Z"])
+    with pytest.raises(ValueError):
+        bd.distribution(t_end=1, grid=1)
+    with pytest.raises(ValueError):
+        bd.distribution(t_end=1, max_states=3)
+
+
+def test_stubs_and_docstrings_cover_every_public_name():
+    pkg = Path(copyloop.__file__).parent
+    assert (pkg / "py.typed").exists()
+    stub = (pkg / "__init__.pyi").read_text()
+    for name in copyloop.__all__:
+        obj = getattr(copyloop, name)
+        assert (f"class {name}" in stub) or (f"def {name}(" in stub), name
+        assert obj.__doc__ and obj.__doc__.strip(), name
+    for cls in (copyloop.Network, copyloop.Simulation, copyloop.Reconciliation,
+                copyloop.Noise, copyloop.Distribution, copyloop.Check, copyloop.Steady):
+        for attr, member in vars(cls).items():
+            if attr.startswith("_") or not callable(member) and not isinstance(member, property):
+                continue
+            assert f"def {attr}(" in stub, f"{cls.__name__}.{attr}"
+            assert member.__doc__ and member.__doc__.strip(), f"{cls.__name__}.{attr}"
+
+
+NOTEBOOK = str(ROOT / "python" / "examples" / "notebook.py")
+# Runs the example with matplotlib made unimportable (a None entry in sys.modules).
+WITHOUT_MATPLOTLIB = ("import runpy, sys; sys.modules['matplotlib'] = None; "
+                      "sys.modules['matplotlib.pyplot'] = None; "
+                      f"runpy.run_path({NOTEBOOK!r}, run_name='__main__')")
+
+
+@pytest.mark.parametrize("matplotlib", [False, True])
+def test_notebook_example_runs_as_a_script(tmp_path, matplotlib):
+    if matplotlib:
+        pytest.importorskip("matplotlib")
+        args = [sys.executable, NOTEBOOK]
+    else:
+        args = [sys.executable, "-c", WITHOUT_MATPLOTLIB]
+    env = dict(os.environ, MPLBACKEND="Agg", COPYLOOP_EXAMPLE_OUT=str(tmp_path),
+               COPYLOOP_EXAMPLE_REPLICATES="8")
+    out = subprocess.run(args, capture_output=True, text=True, env=env, timeout=600)
+    assert out.returncode == 0, out.stderr
+    assert "verdict: " in out.stdout
+    assert "R/H (receptor, output signal)" in out.stdout
+    figure = tmp_path / "gland_loop_time_course.png"
+    if matplotlib:
+        assert figure.stat().st_size > 0
+    else:
+        assert "matplotlib is not installed" in out.stdout and not figure.exists()
+
+
+def test_ctrl_c_during_noise_raises_keyboard_interrupt_when_the_run_returns():
+    script = textwrap.dedent(f"""
+        import sys, copyloop
+        net = copyloop.load({RECEPTOR!r})
+        print("ready", flush=True)
+        try:
+            net.noise(replicates=8, burn_in=10, t_end=20000, threads=1)
+        except KeyboardInterrupt:
+            print("interrupted", flush=True)
+            sys.exit(0)
+        print("finished", flush=True)
+    """)
+    p = subprocess.Popen([sys.executable, "-c", script], stdout=subprocess.PIPE, text=True)
+    assert p.stdout.readline().strip() == "ready"
+    time.sleep(0.5)
+    p.send_signal(signal.SIGINT)
+    out, _ = p.communicate(timeout=300)
+    assert p.returncode == 0
+    assert out.strip() == "interrupted"

@@ -25,7 +25,30 @@ use crate::kernel::{CompiledKernel, Direct, Integrals, RecordSpec, Recorder};
 use crate::network::Network;
 use crate::numbers::plain;
 use crate::stats::{Bivariate, Welford};
+use std::cell::RefCell;
+use std::sync::atomic::{AtomicBool, Ordering};
+use std::sync::Arc;
 use std::time::Instant;
+
+thread_local! {
+    /// The stop flag of the innermost [`stoppable`] call on this thread.
+    static STOP: RefCell<Option<Arc<AtomicBool>>> = const { RefCell::new(None) };
+}
+
+/// Runs `f` so that every ensemble it starts on this thread stops before its next replicate,
+/// with [`Error::Interrupted`], once `stop` is set (by another thread: a signal watcher, a
+/// notebook binding's Ctrl-C). Jobs built on ensembles (reconcile, noise, sweeps of them) become
+/// interruptible without a flag of their own. A replicate already running finishes first.
+pub fn stoppable<R>(stop: Arc<AtomicBool>, f: impl FnOnce() -> R) -> R {
+    struct Restore(Option<Arc<AtomicBool>>);
+    impl Drop for Restore {
+        fn drop(&mut self) {
+            STOP.with(|s| *s.borrow_mut() = self.0.take());
+        }
+    }
+    let _restore = Restore(STOP.with(|s| s.borrow_mut().replace(stop)));
+    f()
+}
 
 /// Replicates per block, the unit of work and of merging.
 pub const BLOCK: u64 = 16;
@@ -387,10 +410,14 @@ fn run_block(
     first: u64,
     count: u64,
     bar: Option<&indicatif::ProgressBar>,
+    stop: Option<&AtomicBool>,
 ) -> Result<EnsembleResult> {
     let mut part = EnsembleResult::empty(kernel, spec);
     let x0 = spec.initial.as_deref().unwrap_or(&kernel.x0);
     for r in first..first + count {
+        if stop.is_some_and(|s| s.load(Ordering::Relaxed)) {
+            return Err(Error::Interrupted);
+        }
         let mut rng = replicate_rng(spec.seed, spec.first_replicate + r);
         let (absorbed, state) = match &mut ws.sim {
             Sim::Direct(d) => {
@@ -428,7 +455,8 @@ pub fn run(net: &Network, spec: &EnsembleSpec) -> Result<EnsembleResult> {
         .map_err(|e| Error::Internal(format!("cannot start worker threads: {e}")))?;
     let bar = spec.progress.then(|| progress_bar(spec.replicates));
     let started = Instant::now();
-    let total = pool.install(|| run_blocks(net, &kernel, spec, bar.as_ref()));
+    let stop = STOP.with(|s| s.borrow().clone());
+    let total = pool.install(|| run_blocks(net, &kernel, spec, bar.as_ref(), stop.as_deref()));
     let wall_seconds = started.elapsed().as_secs_f64();
     if let Some(b) = &bar {
         b.finish_and_clear();
@@ -453,6 +481,7 @@ fn run_blocks(
     kernel: &CompiledKernel,
     spec: &EnsembleSpec,
     bar: Option<&indicatif::ProgressBar>,
+    stop: Option<&AtomicBool>,
 ) -> Result<EnsembleResult> {
     use rayon::prelude::*;
     let blocks = spec.replicates.div_ceil(BLOCK);
@@ -465,6 +494,9 @@ fn run_blocks(
     let mut total = EnsembleResult::empty(kernel, spec);
     let mut start = 0u64;
     while start < blocks {
+        if stop.is_some_and(|s| s.load(Ordering::Relaxed)) {
+            return Err(Error::Interrupted);
+        }
         let end = (start + wave).min(blocks);
         let parts: Vec<Result<EnsembleResult>> = (start..end)
             .into_par_iter()
@@ -487,7 +519,7 @@ fn run_blocks(
                 |ws, b| {
                     let first = b * BLOCK;
                     let count = BLOCK.min(spec.replicates - first);
-                    run_block(kernel, spec, ws, first, count, bar)
+                    run_block(kernel, spec, ws, first, count, bar, stop)
                 },
             )
             .collect();

@@ -25,7 +25,30 @@ use crate::kernel::{CompiledKernel, Direct, Integrals, RecordSpec, Recorder};
 use crate::network::Network;
 use crate::numbers::plain;
 use crate::stats::{Bivariate, Welford};
+use std::cell::RefCell;
+use std::sync::atomic::{AtomicBool, Ordering};
+use std::sync::Arc;
 use std::time::Instant;
+
+thread_local! {
+    /// The stop flag of the innermost [`stoppable`] call on this thread.
+    static STOP: RefCell<Option<Arc<AtomicBool>>> = const { RefCell::new(None) };
+}
+
+/// Runs `f` so that every ensemble it starts on this thread stops before its next replicate,
+/// with [`Error::Interrupted`], once `stop` is set (by another thread: a signal watcher, a
+/// notebook binding's Ctrl-C). Jobs built on ensembles (reconcile, noise, sweeps of them) become
+/// interruptible without a flag of their own. A replicate already running finishes first.
+pub fn stoppable<R>(stop: Arc<AtomicBool>, f: impl FnOnce() -> R) -> R {
+    struct Restore(Option<Arc<AtomicBool>>);
+    impl Drop for Restore {
+        fn drop(&mut self) {
+            STOP.with(|s| *s.borrow_mut() = self.0.take());
+        }
+    }
+    let _restore = Restore(STOP.with(|s| s.borrow_mut().replace(stop)));
+    f()
+}
 
 /// Replicates per block, the unit of work and of merging.
 pub const BLOCK: u64 = 16;
@@ -271,34 +294,19 @@ impl EnsembleResult {
     }
 }
 
-/// Accumulators of one block (or of all blocks merged so far).
-#[derive(Clone, Debug)]
-struct Partial {
-    final_state: Vec<Welford>,
-    time_average: Vec<Welford>,
-    within_variance: Vec<Welford>,
-    time_moments: Vec<Bivariate>,
-    firings: Vec<Welford>,
-    firings_first_half: Vec<Welford>,
-    half_difference: Vec<Welford>,
-    window_change: Vec<Welford>,
-    grid: Vec<Vec<Welford>>,
-    varying: Vec<usize>,
-    grid_params: Vec<Vec<Welford>>,
-    finals: Vec<Vec<i64>>,
-    events: u64,
-    leaps: u64,
-    exact_steps: u64,
-    absorbed: u64,
-}
-
-impl Partial {
-    fn new(kernel: &CompiledKernel, points: usize) -> Partial {
+/// Accumulating a block of replicates (or all blocks merged so far) uses the result type
+/// itself, so that merging is written once ([`EnsembleResult::merge`]).
+impl EnsembleResult {
+    /// No replicates yet: `spec` with `replicates` 0, accumulators sized for `kernel`.
+    fn empty(kernel: &CompiledKernel, spec: &EnsembleSpec) -> EnsembleResult {
         let (species, reactions) = (kernel.species, kernel.reactions());
+        let points = spec.grid_points;
         let varying = kernel.varying_params().to_vec();
-        Partial {
-            grid_params: vec![vec![Welford::new(); varying.len()]; points],
-            varying,
+        EnsembleResult {
+            spec: EnsembleSpec {
+                replicates: 0,
+                ..spec.clone()
+            },
             final_state: vec![Welford::new(); species],
             time_average: vec![Welford::new(); species],
             within_variance: vec![Welford::new(); species],
@@ -307,22 +315,21 @@ impl Partial {
             firings_first_half: vec![Welford::new(); reactions],
             half_difference: vec![Welford::new(); reactions],
             window_change: vec![Welford::new(); species],
+            grid_times: grid_times(spec.t_end, points),
             grid: vec![vec![Welford::new(); species]; points],
-            finals: Vec::new(),
-            events: 0,
+            grid_params: vec![vec![Welford::new(); varying.len()]; points],
+            varying_params: varying,
+            finals: spec.keep_finals.then(Vec::new),
+            events_total: 0,
             leaps: 0,
             exact_steps: 0,
             absorbed: 0,
+            wall_seconds: 0.0,
         }
     }
 
-    fn push(
-        &mut self,
-        kernel: &CompiledKernel,
-        (rec, int): &(Recorder, Integrals),
-        last: &[i64],
-        keep_final: bool,
-    ) {
+    /// Adds one replicate's observers and final state.
+    fn push(&mut self, kernel: &CompiledKernel, (rec, int): &(Recorder, Integrals), last: &[i64]) {
         let t = int.window_length();
         let mut change = vec![0i64; last.len()];
         for (j, &n) in rec.firings().iter().enumerate() {
@@ -358,42 +365,14 @@ impl Partial {
         }
         for (p, row) in self.grid_params.iter_mut().enumerate() {
             let values = rec.grid_params(p);
-            for (w, &k) in row.iter_mut().zip(&self.varying) {
+            for (w, &k) in row.iter_mut().zip(&self.varying_params) {
                 w.push(values[k]);
             }
         }
-        if keep_final {
-            self.finals.push(last.to_vec());
+        if let Some(f) = &mut self.finals {
+            f.push(last.to_vec());
         }
-    }
-
-    fn merge(&mut self, o: Partial) {
-        for (a, b) in self.time_moments.iter_mut().zip(&o.time_moments) {
-            a.merge(b);
-        }
-        let pairs = [
-            (&mut self.final_state, &o.final_state),
-            (&mut self.time_average, &o.time_average),
-            (&mut self.within_variance, &o.within_variance),
-            (&mut self.firings, &o.firings),
-            (&mut self.firings_first_half, &o.firings_first_half),
-            (&mut self.half_difference, &o.half_difference),
-            (&mut self.window_change, &o.window_change),
-        ];
-        for (a, b) in pairs {
-            a.iter_mut().zip(b).for_each(|(a, b)| a.merge(b));
-        }
-        for (a, b) in self.grid.iter_mut().zip(&o.grid) {
-            a.iter_mut().zip(b).for_each(|(a, b)| a.merge(b));
-        }
-        for (a, b) in self.grid_params.iter_mut().zip(&o.grid_params) {
-            a.iter_mut().zip(b).for_each(|(a, b)| a.merge(b));
-        }
-        self.finals.extend(o.finals);
-        self.events += o.events;
-        self.leaps += o.leaps;
-        self.exact_steps += o.exact_steps;
-        self.absorbed += o.absorbed;
+        self.spec.replicates += 1;
     }
 }
 
@@ -431,27 +410,31 @@ fn run_block(
     first: u64,
     count: u64,
     bar: Option<&indicatif::ProgressBar>,
-) -> Result<Partial> {
-    let mut part = Partial::new(kernel, spec.grid_points);
+    stop: Option<&AtomicBool>,
+) -> Result<EnsembleResult> {
+    let mut part = EnsembleResult::empty(kernel, spec);
     let x0 = spec.initial.as_deref().unwrap_or(&kernel.x0);
     for r in first..first + count {
+        if stop.is_some_and(|s| s.load(Ordering::Relaxed)) {
+            return Err(Error::Interrupted);
+        }
         let mut rng = replicate_rng(spec.seed, spec.first_replicate + r);
         let (absorbed, state) = match &mut ws.sim {
             Sim::Direct(d) => {
                 let summary = d.run(x0, spec.t_end, &mut rng, &mut ws.observers)?;
-                part.events += summary.events;
+                part.events_total += summary.events;
                 (summary.absorbed_at.is_some(), d.state())
             }
             Sim::Tau(tau) => {
                 let summary = tau.run(x0, spec.t_end, &mut rng, &mut ws.observers)?;
-                part.events += summary.events;
+                part.events_total += summary.events;
                 part.leaps += summary.leaps;
                 part.exact_steps += summary.exact_steps;
                 (summary.absorbed_at.is_some(), tau.state())
             }
         };
         part.absorbed += u64::from(absorbed);
-        part.push(kernel, &ws.observers, state, spec.keep_finals);
+        part.push(kernel, &ws.observers, state);
         if let Some(b) = bar {
             b.inc(1);
         }
@@ -472,34 +455,16 @@ pub fn run(net: &Network, spec: &EnsembleSpec) -> Result<EnsembleResult> {
         .map_err(|e| Error::Internal(format!("cannot start worker threads: {e}")))?;
     let bar = spec.progress.then(|| progress_bar(spec.replicates));
     let started = Instant::now();
-    let total = pool.install(|| run_blocks(net, &kernel, spec, bar.as_ref()));
+    let stop = STOP.with(|s| s.borrow().clone());
+    let total = pool.install(|| run_blocks(net, &kernel, spec, bar.as_ref(), stop.as_deref()));
     let wall_seconds = started.elapsed().as_secs_f64();
     if let Some(b) = &bar {
         b.finish_and_clear();
     }
-    let total = total?;
-    let grid_times = grid_times(spec.t_end, spec.grid_points);
-    Ok(EnsembleResult {
-        spec: spec.clone(),
-        final_state: total.final_state,
-        time_average: total.time_average,
-        within_variance: total.within_variance,
-        time_moments: total.time_moments,
-        firings: total.firings,
-        firings_first_half: total.firings_first_half,
-        half_difference: total.half_difference,
-        window_change: total.window_change,
-        grid_times,
-        grid: total.grid,
-        varying_params: total.varying,
-        grid_params: total.grid_params,
-        finals: spec.keep_finals.then_some(total.finals),
-        events_total: total.events,
-        leaps: total.leaps,
-        exact_steps: total.exact_steps,
-        absorbed: total.absorbed,
-        wall_seconds,
-    })
+    let mut total = total?;
+    total.spec = spec.clone();
+    total.wall_seconds = wall_seconds;
+    Ok(total)
 }
 
 fn record_spec(spec: &EnsembleSpec) -> RecordSpec {
@@ -516,7 +481,8 @@ fn run_blocks(
     kernel: &CompiledKernel,
     spec: &EnsembleSpec,
     bar: Option<&indicatif::ProgressBar>,
-) -> Result<Partial> {
+    stop: Option<&AtomicBool>,
+) -> Result<EnsembleResult> {
     use rayon::prelude::*;
     let blocks = spec.replicates.div_ceil(BLOCK);
     // A wave holds one block's accumulators per block in flight: fewer blocks per thread when
@@ -525,11 +491,14 @@ fn run_blocks(
     let block_bytes = (spec.grid_points * kernel.species).max(1) * std::mem::size_of::<Welford>();
     let by_memory = (WAVE_MEMORY / block_bytes).max(threads);
     let wave = (threads * WAVE_PER_THREAD).min(by_memory) as u64;
-    let mut total = Partial::new(kernel, spec.grid_points);
+    let mut total = EnsembleResult::empty(kernel, spec);
     let mut start = 0u64;
     while start < blocks {
+        if stop.is_some_and(|s| s.load(Ordering::Relaxed)) {
+            return Err(Error::Interrupted);
+        }
         let end = (start + wave).min(blocks);
-        let parts: Vec<Result<Partial>> = (start..end)
+        let parts: Vec<Result<EnsembleResult>> = (start..end)
             .into_par_iter()
             .map_init(
                 || Workspace {
@@ -550,12 +519,12 @@ fn run_blocks(
                 |ws, b| {
                     let first = b * BLOCK;
                     let count = BLOCK.min(spec.replicates - first);
-                    run_block(kernel, spec, ws, first, count, bar)
+                    run_block(kernel, spec, ws, first, count, bar, stop)
                 },
             )
             .collect();
         for p in parts {
-            total.merge(p?);
+            total.merge(&p?);
         }
         start = end;
     }

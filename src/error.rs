@@ -147,6 +147,10 @@ pub enum Error {
     /// A failure of copyloop itself.
     #[error("internal error: {0}")]
     Internal(String),
+    /// The caller asked a running job to stop ([`crate::ensemble::stoppable`]); nothing of the
+    /// job's own results is returned.
+    #[error("interrupted")]
+    Interrupted,
 }
 
 fn render_all(diags: &[Diagnostic]) -> String {
@@ -159,11 +163,13 @@ fn render_all(diags: &[Diagnostic]) -> String {
 }
 
 impl Error {
-    /// Process exit status: 2 for bad input, 1 for internal failures.
+    /// Process exit status: 2 for bad input, 1 for internal failures, 130 for an interruption
+    /// (128 + SIGINT, the shells' convention).
     pub fn exit_code(&self) -> i32 {
         match self {
             Error::Input(_) | Error::Usage(_) | Error::Invalid { .. } | Error::Io { .. } => 2,
             Error::Internal(_) => 1,
+            Error::Interrupted => 130,
         }
     }
 

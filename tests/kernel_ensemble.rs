@@ -233,3 +233,42 @@ fn sum_tree_selection_reproduces_the_exact_law() {
         assert!((w.mean() - 10.0 * p).abs() < 4.0 * (10.0 * p * (1.0 - p) / 4000.0f64).sqrt());
     }
 }
+
+// A stop request is honoured before the next replicate and scoped to its `stoppable` call
+// (the contract of `ensemble::stoppable`; Ctrl-C in the Python package rests on it).
+#[test]
+fn a_stop_request_interrupts_between_replicates_and_only_inside_its_scope() {
+    use copyloop::ensemble::stoppable;
+    use std::sync::atomic::{AtomicBool, Ordering};
+    use std::sync::Arc;
+    let n = net("species X = 0\nstep make 0 -> X @ 10\nstep decay X -> 0 @ 0.1\n");
+    let mut spec = EnsembleSpec::new(50.0);
+    spec.replicates = 64;
+    spec.threads = Some(1);
+    let set = Arc::new(AtomicBool::new(true));
+    let r = stoppable(set, || ensemble::run(&n, &spec));
+    assert!(matches!(r, Err(Error::Interrupted)), "{r:?}");
+    assert_eq!(Error::Interrupted.exit_code(), 130);
+    // Outside the scope the same run completes, with every replicate.
+    let full = ensemble::run(&n, &spec).expect("runs");
+    assert_eq!(full.spec.replicates, 64);
+    // A flag that is never set changes nothing: same numbers as without it.
+    let unset = Arc::new(AtomicBool::new(false));
+    let same = stoppable(unset.clone(), || ensemble::run(&n, &spec)).expect("runs");
+    same_numbers(&full, &same);
+    assert!(!unset.load(Ordering::Relaxed));
+    // Set from another thread while a long run is under way.
+    let mut long = EnsembleSpec::new(2e4);
+    long.replicates = 20_000;
+    long.threads = Some(1);
+    let stop = Arc::new(AtomicBool::new(false));
+    let r = std::thread::scope(|s| {
+        let watcher = stop.clone();
+        s.spawn(move || {
+            std::thread::sleep(std::time::Duration::from_millis(200));
+            watcher.store(true, Ordering::Relaxed);
+        });
+        stoppable(stop.clone(), || ensemble::run(&n, &long))
+    });
+    assert!(matches!(r, Err(Error::Interrupted)), "{r:?}");
+}

@@ -15,6 +15,7 @@
 
 use super::timeline::Inputs;
 use crate::error::{Error, Result};
+use crate::network::mass_action::{factorial, falling};
 use crate::network::{Kinetics, Network, Propensity, TimeUse, MAX_COUNT};
 
 /// Networks with fewer reactions than this get padded rows (and linear selection).
@@ -749,13 +750,10 @@ fn mass_action(net: &Network, r: &crate::network::Reaction, c: f64, one: u32) ->
     let mut c = c;
     let mut factors = Vec::new();
     for &(i, nu) in &r.reactants {
-        let nu_factorial: f64 = (1..=nu).map(f64::from).product();
         if net.species[i].clamped {
-            let x = net.species[i].initial;
-            let falling: f64 = (0..nu).map(|k| (x - i64::from(k)) as f64).product();
-            c *= falling / nu_factorial;
+            c *= falling(net.species[i].initial, nu) / factorial(nu);
         } else {
-            c /= nu_factorial;
+            c /= factorial(nu);
             factors.extend((0..nu).map(|k| (i as u32, k as u8)));
         }
     }

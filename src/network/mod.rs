@@ -14,6 +14,7 @@ pub mod expr;
 mod inputs;
 pub mod laws;
 pub mod lexer;
+pub mod mass_action;
 pub mod parser;
 pub mod schedule;
 pub mod units;
@@ -25,6 +26,7 @@ pub use schedule::{Assignment, Dose, Event, Infusion, Target, TimeSeq};
 pub use units::{Dim, Quantity, AVOGADRO};
 
 use crate::error::{Diagnostic, Span};
+use mass_action::factorial;
 
 /// Largest molecule count copyloop accepts (2⁵⁰ ≈ 1.1e15), so that counts stay exact in f64 and
 /// no sum of counts can overflow an i64.
@@ -537,7 +539,7 @@ impl Propensity {
             [(a, 1), (b, 1)] => Propensity::Pair { a: *a, b: *b, c },
             [(a, 2)] => Propensity::Dimer {
                 a: *a,
-                half_c: c / 2.0,
+                half_c: c / factorial(2),
             },
             [(a, 1), (b, 1), (d, 1)] => Propensity::Triple {
                 a: *a,
@@ -548,11 +550,11 @@ impl Propensity {
             [(a, 2), (b, 1)] => Propensity::DimerPlus {
                 a: *a,
                 b: *b,
-                half_c: c / 2.0,
+                half_c: c / factorial(2),
             },
             [(a, 3)] => Propensity::Trimer {
                 a: *a,
-                sixth_c: c / 6.0,
+                sixth_c: c / factorial(3),
             },
             _ => unreachable!("the compiler rejects mass-action orders above 3"),
         }

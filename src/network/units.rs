@@ -182,13 +182,7 @@ pub fn omega(volume_l: f64) -> f64 {
     AVOGADRO * volume_l
 }
 
-/// Π νᵢ! over the reactant coefficients.
-pub fn factorial_product(coefficients: &[u32]) -> f64 {
-    coefficients
-        .iter()
-        .map(|&n| (1..=n).map(f64::from).product::<f64>())
-        .product()
-}
+pub use super::mass_action::factorial_product;
 
 /// Stochastic constant c = k·Π(νᵢ!)/Ω^(m−1) of a mass-action step with macroscopic constant `k`
 /// (concentration units, seconds), reactant coefficients `coefficients` and Ω = N_A·V

@@ -186,12 +186,12 @@ fn too_many_states_is_refused_with_the_count() {
         "--t-end",
         "50",
         "--max-states",
-        "5000",
+        "50",
     ]);
     let err = String::from_utf8_lossy(&out.stderr);
     assert_eq!(out.status.code(), Some(2), "{err}");
     assert!(
-        err.contains("more than 5000 states") && err.contains("5001"),
+        err.contains("more than 50 states") && err.contains("51"),
         "{err}"
     );
     assert!(err.contains("copyloop simulate"), "{err}");

@@ -353,10 +353,12 @@ impl Setup {
             }
             (Some(_), Some(t)) => Forcing::new(net, t)?,
         };
-        let reported = opts
+        let mut reported = opts
             .species
             .clone()
             .unwrap_or_else(|| (0..net.species.len()).collect());
+        let mut seen = vec![false; net.species.len()];
+        reported.retain(|&i| !std::mem::replace(&mut seen[i], true));
         let touched = Forcing::touched(net);
         let outputs: Vec<usize> = net
             .outputs()

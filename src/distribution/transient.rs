@@ -44,10 +44,11 @@
 //! probability a_j/q (q is at least the total rate of every kept transition, self-loops
 //! included), so m₁ after k steps is at most ν_max·k and m₂ at most (ν_max·k)² per unit of
 //! probability, and the series cut at N leaves at most ν_max·Σ_{k>N} k·w_k in the mean and
-//! ν_max²·Σ_{k>N} k²·w_k in the second moment. Then E[P] = P(0) + Σ_x m₁(x)/M and
-//! Var P = Σ_x m₂(x)/M − (Σ_x m₁(x)/M)², with M the probability on the states (the law
-//! conditioned on the projection, as for every other species). The marginal law of P is not
-//! computed (it would need P as a coordinate).
+//! ν_max²·Σ_{k>N} k²·w_k in the second moment; where species are counted the series runs on
+//! until the latter is below the same budget as the probability's tail. Then
+//! E[P] = P(0) + Σ_x m₁(x)/M and Var P = Σ_x m₂(x)/M − (Σ_x m₁(x)/M)², with M the
+//! probability on the states (the law conditioned on the projection, as for every other
+//! species). The marginal law of P is not computed (it would need P as a coordinate).
 //!
 //! Poisson weights are computed outward from the mode in ratios (Fox & Glynn 1988, Commun.
 //! ACM 31:440 [M]), so no weight overflows or underflows before it matters, whatever qΔ.
@@ -60,7 +61,10 @@ use rayon::prelude::*;
 const CHUNK: usize = 1 << 14;
 
 /// e^{−λ} λ^k / k! for k = 0..=N and the bound on the tail beyond N (see the module doc).
-pub fn poisson_weights(lambda: f64, budget: f64) -> (Vec<f64>, f64) {
+/// With `moment` = ν_max² > 0 (counted species), N is also past the point where
+/// ν_max²·Σ_{k>N} k²·w_k ≤ budget, bounded by ν_max²·(N + 1)λ·w_N/(1 − ρ′) with
+/// ρ′ = (N + 2)λ/(N + 1)², the ratio u_{N+2}/u_{N+1} of u_k = k²·w_k, which falls with k.
+pub fn poisson_weights(lambda: f64, budget: f64, moment: f64) -> (Vec<f64>, f64) {
     if lambda <= 0.0 {
         return (vec![1.0], 0.0);
     }
@@ -81,7 +85,16 @@ pub fn poisson_weights(lambda: f64, budget: f64) -> (Vec<f64>, f64) {
         } else {
             f64::INFINITY
         };
-        if tail <= budget {
+        let n = (k + 1) as f64;
+        let rho2 = (n + 1.0) * lambda / (n * n);
+        let moment_tail = if moment == 0.0 {
+            0.0
+        } else if rho2 < 1.0 {
+            moment * n * lambda * w[k] / (1.0 - rho2)
+        } else {
+            f64::INFINITY
+        };
+        if tail <= budget && moment_tail <= budget {
             return (w, tail);
         }
         let next = w[k] * rho;
@@ -337,11 +350,17 @@ impl<'a> Series<'a> {
         budget: f64,
         mut seen: impl FnMut(usize, &Observed, f64) -> bool,
     ) -> (bool, Vec<f64>) {
+        let nu_max = self
+            .counted
+            .iter()
+            .flatten()
+            .fold(0.0f64, |m, &v| m.max(v.abs()));
+        let moment = nu_max * nu_max;
         let weights: Vec<(Vec<f64>, f64)> = offsets
             .iter()
-            .map(|&t| poisson_weights(self.q * t, budget))
+            .map(|&t| poisson_weights(self.q * t, budget, moment))
             .collect();
-        let end_weights = end.map(|t| poisson_weights(self.q * t, budget).0);
+        let end_weights = end.map(|t| poisson_weights(self.q * t, budget, moment).0);
         let last = weights
             .iter()
             .map(|(w, _)| w.len())
@@ -396,7 +415,7 @@ mod tests {
     fn weights_are_the_poisson_pmf_and_the_tail_is_bounded() {
         use statrs::distribution::{Discrete, DiscreteCDF, Poisson};
         for &lambda in &[0.3, 7.0, 250.0, 4.0e4] {
-            let (w, tail) = poisson_weights(lambda, 1e-12);
+            let (w, tail) = poisson_weights(lambda, 1e-12, 0.0);
             let d = Poisson::new(lambda).unwrap();
             for (k, &wk) in w.iter().enumerate().step_by(7) {
                 let exact = d.pmf(k as u64);
@@ -412,6 +431,20 @@ mod tests {
                 "{lambda}: {tail} < {true_tail}"
             );
             assert!(tail <= 1e-12);
+        }
+    }
+
+    // The second-moment tail Σ_{k>N} k²·Pois(k; λ) against a direct sum of statrs' pmf (a
+    // general-purpose reference library): at most budget/ν², ν = 3.
+    #[test]
+    fn the_moment_tail_is_bounded() {
+        use statrs::distribution::{Discrete, Poisson};
+        for &lambda in &[0.3, 7.0, 250.0, 4.0e4] {
+            let (w, _) = poisson_weights(lambda, 1e-10, 9.0);
+            let d = Poisson::new(lambda).unwrap();
+            let n = w.len() as u64 - 1;
+            let tail: f64 = (n + 1..n + 2000).map(|k| (k * k) as f64 * d.pmf(k)).sum();
+            assert!(9.0 * tail <= 1e-10, "{lambda}: {tail:e}");
         }
     }
 }

@@ -186,12 +186,12 @@ fn too_many_states_is_refused_with_the_count() {
         "--t-end",
         "50",
         "--max-states",
-        "5000",
+        "50",
     ]);
     let err = String::from_utf8_lossy(&out.stderr);
     assert_eq!(out.status.code(), Some(2), "{err}");
     assert!(
-        err.contains("more than 5000 states") && err.contains("5001"),
+        err.contains("more than 50 states") && err.contains("51"),
         "{err}"
     );
     assert!(err.contains("copyloop simulate"), "{err}");
@@ -240,4 +240,69 @@ fn simulate_exact_gives_the_suite_statistics() {
     // μ at t = 50 is 10(1 − e^{−5}) (McQuarrie 1967 [verified]).
     let mu = x["exact_mean"][50].as_f64().unwrap();
     assert!((mu - 10.0 * (1.0 - (-5.0f64).exp())).abs() < 1e-4);
+}
+
+// A single enzyme at clamped substrate with its product P, which nothing reads: P is left out
+// of the state space (two states remain), its mean is exact and its distribution is said not
+// to be computed. E[P(t)] = J·t − (k₂α/(α+β)²)(1 − e^{−(α+β)t}) with α = 2, β = 2, k₂ = 1,
+// J = k₂S/(K_M + S) = 0.5 (Kou et al. 2005, J. Phys. Chem. B 109:19068 [verified]; the
+// finite-time term [C]). Asking to draw only P is refused after the results are printed.
+#[test]
+fn an_accumulating_product_is_reported_with_what_is_exact() {
+    let path = temp("enzyme.crn");
+    std::fs::write(
+        &path,
+        "species E = 1\nspecies S = 10 clamped\nspecies C = 0\nspecies P = 0\n\
+         step bind E + S <-> C @ 0.2, 1\nstep cat C -> E + P @ 1\n",
+    )
+    .unwrap();
+    let file = path.to_str().unwrap();
+    let j = json(&[
+        "distribution",
+        file,
+        "--t-end",
+        "20",
+        "--grid",
+        "3",
+        "--stationary",
+        "--json",
+    ]);
+    assert_eq!(j["states"], 2);
+    let p = &j["species"]["P"];
+    assert_eq!(p["accumulates"], true);
+    assert!(p["p_zero"][2].is_null());
+    assert_eq!(p["marginal"][2], serde_json::json!([]));
+    let want = 0.5 * 20.0 - 2.0 / 16.0 * (1.0 - (-80.0f64).exp());
+    assert!((p["mean"][2].as_f64().unwrap() - want).abs() < 1e-6, "{p}");
+    assert_eq!(j["species"]["E"]["accumulates"], false);
+    let s = &j["stationary"]["species"]["P"];
+    assert!(s["mean"].is_null());
+    assert!((s["accumulation_per_s"].as_f64().unwrap() - 0.5).abs() < 1e-12);
+    assert!(j["stationary"]["species"]["C"]["accumulation_per_s"].is_null());
+
+    let out = run(&["distribution", file, "--t-end", "20", "--grid", "3"]);
+    let text = String::from_utf8_lossy(&out.stdout);
+    assert!(out.status.success());
+    assert!(
+        text.contains("only accumulates") && text.contains("not computed"),
+        "{text}"
+    );
+
+    let svg = temp("enzyme.svg");
+    let out = run(&[
+        "distribution",
+        file,
+        "--t-end",
+        "20",
+        "--species",
+        "P",
+        "--svg",
+        svg.to_str().unwrap(),
+    ]);
+    let err = String::from_utf8_lossy(&out.stderr);
+    assert_eq!(out.status.code(), Some(2), "{err}");
+    assert!(err.contains("accumulates"), "{err}");
+    assert!(String::from_utf8_lossy(&out.stdout).contains("not computed"));
+    assert!(!svg.exists());
+    let _ = std::fs::remove_file(&path);
 }

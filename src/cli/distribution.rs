@@ -38,7 +38,7 @@ pub struct DistributionArgs {
     /// Write the marginals as CSV (time_s,species,count,probability)
     #[arg(long, value_name = "F.csv")]
     pub out: Option<String>,
-    /// Draw the marginal of the first reported species at --svg-times to this SVG file
+    /// Draw the marginal of the first reported species (that has one) at --svg-times to this SVG file
     #[arg(long, value_name = "FILE")]
     pub svg: Option<String>,
     /// Times drawn in the SVG (nearest grid points; bare: seconds; default: the last)
@@ -118,7 +118,23 @@ pub fn run(a: &DistributionArgs) -> Result<()> {
     } else {
         None
     };
-    let drawn = species.as_ref().map_or(0, |s| s[0]);
+    // The first reported species whose marginal is computed (an accumulating one has none).
+    let has_marginal = |name: &str| {
+        transient
+            .as_ref()
+            .and_then(|t| t.species.get(name))
+            .map(|l| !l.accumulates)
+            .or(stationary
+                .as_ref()
+                .and_then(|s| s.species.get(name))
+                .map(|l| !l.accumulates))
+            .unwrap_or(false)
+    };
+    let reported = species.unwrap_or_else(|| (0..net.species.len()).collect());
+    let drawn = reported
+        .iter()
+        .copied()
+        .find(|&i| has_marginal(&net.species[i].name));
     let at: Vec<usize> = if times.is_empty() {
         Vec::new()
     } else if a.svg_times.is_empty() {
@@ -134,7 +150,7 @@ pub fn run(a: &DistributionArgs) -> Result<()> {
             .collect()
     };
     let mut histograms = Vec::new();
-    if a.ensemble > 0 && a.svg.is_some() {
+    if let (Some(drawn), true, true) = (drawn, a.ensemble > 0, a.svg.is_some()) {
         for &i in at.iter().filter(|&&i| times[i] > 0.0) {
             histograms.push(compare::ensemble_histogram(
                 &net, drawn, times[i], a.ensemble, a.seed, a.threads,
@@ -151,14 +167,21 @@ pub fn run(a: &DistributionArgs) -> Result<()> {
         std::fs::write(path, report::distribution::csv(&results))
             .map_err(|e| Error::io(path.clone(), e))?;
     }
-    if let Some(path) = &a.svg {
+    if let (Some(path), Some(drawn)) = (&a.svg, drawn) {
         let name = &net.species[drawn].name;
         std::fs::write(path, report::distribution::svg(&results, name, &at))
             .map_err(|e| Error::io(path.clone(), e))?;
     }
     if a.json {
-        super::print_json(&report::distribution::json(&results))
+        super::print_json(&report::distribution::json(&results))?;
     } else {
-        super::print_stdout(&report::distribution::table(&results))
+        super::print_stdout(&report::distribution::table(&results))?;
     }
+    if let (Some(path), None) = (&a.svg, drawn) {
+        return Err(Error::usage(format!(
+            "--svg {path}: no reported species has a computed distribution (a species that only \
+             accumulates is left out of the state space); name another species with --species"
+        )));
+    }
+    Ok(())
 }

@@ -5,7 +5,8 @@
 //! A·v reads each row's sources and writes one entry: rows split into independent chunks for
 //! threads (transient.rs). Rows `states..states + sinks` are the absorbing sinks (Munsky & Khammash 2006,
 //! J. Chem. Phys. 124:044104 [M]): their entries are the rates that leave the projection across
-//! each bound, and their diagonal is zero.
+//! each bound, and their diagonal is zero. A transition of a state to itself (kept only where
+//! its firings are counted) is an entry on row s and part of A_ss, so A is unchanged by it.
 
 use super::space::Projection;
 
@@ -17,6 +18,8 @@ pub struct Generator {
     pub row_ptr: Vec<usize>,
     pub col: Vec<u32>,
     pub rate: Vec<f64>,
+    /// The reaction of each entry.
+    pub reaction: Vec<u32>,
     /// A_ss, the negative total exit rate of each state (sinks: none stored, zero).
     pub diag: Vec<f64>,
 }
@@ -37,6 +40,7 @@ impl Generator {
         let mut next = count;
         let mut col = vec![0u32; p.target.len()];
         let mut rate = vec![0f64; p.target.len()];
+        let mut reaction = vec![0u32; p.target.len()];
         let mut diag = vec![0f64; p.states];
         for (s, d) in diag.iter_mut().enumerate() {
             for e in p.first[s]..p.first[s + 1] {
@@ -44,6 +48,7 @@ impl Generator {
                 col[next[t]] = s as u32;
                 let a = p.rate[e * p.phases + phase];
                 rate[next[t]] = a;
+                reaction[next[t]] = p.reaction[e];
                 next[t] += 1;
                 *d -= a;
             }
@@ -54,6 +59,7 @@ impl Generator {
             row_ptr,
             col,
             rate,
+            reaction,
             diag,
         }
     }
@@ -82,6 +88,7 @@ impl Generator {
         self.row_ptr.len() * std::mem::size_of::<usize>()
             + self.col.len() * 4
             + self.rate.len() * 8
+            + self.reaction.len() * 4
             + self.diag.len() * 8
     }
 }

@@ -26,6 +26,14 @@
 //! √(t_end/t_fail) per round.
 //! Past `max_states` states the request is refused with the count reached.
 //!
+//! Species that only accumulate (produced, read by no propensity, law or event, in no
+//! conservation law, set by no dose or event: a product of an enzyme, a counter) would make
+//! the projection unbounded, and nothing they do reaches the rest of the chain: they are left
+//! out of the state space (space.rs). Their exact transient mean and variance follow from the
+//! projected chain with its firing counts (transient.rs); their marginal law and p(0) are not
+//! computed (null in JSON, empty marginals), and they have no stationary law: the stationary
+//! report gives their exact mean accumulation rate Σ_j ν_j E[a_j(X)] instead.
+//!
 //! Time-dependent inputs (schedule.rs): between breakpoints the generator is constant and one
 //! [`transient::Series`] runs across the interval (its end vector is one more weighted sum of
 //! the same v_k); a dose is a map of states to states applied to that vector at its
@@ -84,7 +92,7 @@ pub const EMBEDDED_MAX_DIMENSIONS: usize = 3;
 /// default tolerance, at most [`EMBEDDED_MAX_STATES`] states in at most
 /// [`EMBEDDED_MAX_DIMENSIONS`] coordinates.
 pub fn stationary_beside(net: &Network, threads: Option<usize>) -> Result<Stationary, FspError> {
-    let dims = Reduction::new(net).dim();
+    let dims = Reduction::from_start(net, net.initial_state(), &[], &net.outputs()).dim();
     if dims > EMBEDDED_MAX_DIMENSIONS {
         return Err(FspError::TooManyDimensions {
             dims,
@@ -212,6 +220,9 @@ impl<T> Named<T> {
 #[derive(Clone, Debug, Serialize, PartialEq)]
 pub struct SpeciesLaw {
     pub clamped: bool,
+    /// Left out of the state space because it only accumulates: mean, variance and Fano
+    /// factor are exact, p(0) is NaN (null in JSON) and the marginals are empty.
+    pub accumulates: bool,
     pub mean: Vec<f64>,
     pub variance: Vec<f64>,
     pub fano: Vec<f64>,
@@ -264,6 +275,12 @@ pub struct Transient {
 #[derive(Clone, Debug, Serialize, PartialEq)]
 pub struct SpeciesStationary {
     pub clamped: bool,
+    /// It only accumulates: it has no stationary law (mean, variance, Fano, p(0) NaN, null in
+    /// JSON; empty marginal), and grows at `accumulation_per_s`.
+    pub accumulates: bool,
+    /// Exact mean accumulation rate Σ_j ν_j E[a_j(X)] (molecules per second) of an
+    /// accumulating species; None otherwise.
+    pub accumulation_per_s: Option<f64>,
     pub mean: f64,
     pub variance: f64,
     pub fano: f64,
@@ -292,7 +309,16 @@ struct Setup {
     first_bounds: Option<Vec<u32>>,
     red: Reduction,
     props: Vec<crate::network::Propensity>,
+    /// Species reported, in the order asked.
+    reported: Vec<usize>,
+    /// The reported species that are coordinates or follow from them (marginals computed).
     species: Vec<usize>,
+    /// The reported species left out of the state space, counted in a transient solve.
+    counted: Vec<usize>,
+    /// `increments[i][j]`: the change of `counted[i]` when reaction j fires.
+    increments: Vec<Vec<f64>>,
+    /// Reactions whose self-transitions are kept (they change a counted species).
+    loops: Vec<bool>,
     n_species: usize,
     forcing: Forcing,
 }
@@ -327,11 +353,40 @@ impl Setup {
             }
             (Some(_), Some(t)) => Forcing::new(net, t)?,
         };
-        let species = opts
+        let mut reported = opts
             .species
             .clone()
             .unwrap_or_else(|| (0..net.species.len()).collect());
-        let red = Reduction::from_start(net, forcing.start(net)?, &Forcing::touched(net));
+        let mut seen = vec![false; net.species.len()];
+        reported.retain(|&i| !std::mem::replace(&mut seen[i], true));
+        let touched = Forcing::touched(net);
+        let outputs: Vec<usize> = net
+            .outputs()
+            .into_iter()
+            .filter(|i| !touched.contains(i))
+            .collect();
+        let red = Reduction::from_start(net, forcing.start(net)?, &touched, &outputs);
+        let (counted, species): (Vec<usize>, Vec<usize>) =
+            reported.iter().partition(|i| outputs.contains(i));
+        let counted = if t_end.is_some() { counted } else { Vec::new() };
+        let increments: Vec<Vec<f64>> = counted
+            .iter()
+            .map(|&i| {
+                net.reactions
+                    .iter()
+                    .map(|r| {
+                        r.change
+                            .iter()
+                            .filter(|c| c.0 == i)
+                            .map(|c| c.1 as f64)
+                            .sum()
+                    })
+                    .collect()
+            })
+            .collect();
+        let loops = (0..net.reactions.len())
+            .map(|j| increments.iter().any(|inc| inc[j] != 0.0))
+            .collect();
         if let Some(b) = &opts.bounds {
             if b.len() != red.dim() {
                 return Err(FspError::Options(format!(
@@ -345,7 +400,11 @@ impl Setup {
             first_bounds: opts.bounds.clone(),
             red,
             props: net.propensities(),
+            reported,
             species,
+            counted,
+            increments,
+            loops,
             n_species: net.species.len(),
             forcing,
         })
@@ -420,18 +479,24 @@ impl Setup {
         leaked: Option<f64>,
         stationary: bool,
     ) -> Result<Projected, FspError> {
-        let p: Projection =
-            space::enumerate(net, &self.red, &self.props, bounds, max, &self.forcing).map_err(
-                |e| match e {
-                    FspError::TooManyStates { found, max, .. } => FspError::TooManyStates {
-                        found,
-                        max,
-                        leaked,
-                        stationary,
-                    },
-                    other => other,
-                },
-            )?;
+        let p: Projection = space::enumerate(
+            net,
+            &self.red,
+            &self.props,
+            bounds,
+            max,
+            &self.forcing,
+            &self.loops,
+        )
+        .map_err(|e| match e {
+            FspError::TooManyStates { found, max, .. } => FspError::TooManyStates {
+                found,
+                max,
+                leaked,
+                stationary,
+            },
+            other => other,
+        })?;
         let g = (0..p.phases)
             .map(|phase| Generator::new(&p, self.red.dim(), phase))
             .collect();
@@ -439,13 +504,16 @@ impl Setup {
     }
 }
 
-/// The distribution after a jump: the mass of each state moves to `to[s]` (a state or a sink);
-/// the sinks keep theirs.
-fn jump(p: &[f64], to: &[u32], states: usize) -> Vec<f64> {
+/// The distribution after a jump: the values of each state (`w` per state: the probability
+/// and the counted species' partial moments, which a dose leaves as they are) move to `to[s]`
+/// (a state or a sink); the sinks keep theirs.
+fn jump(p: &[f64], to: &[u32], states: usize, w: usize) -> Vec<f64> {
     let mut q = vec![0.0; p.len()];
-    q[states..].copy_from_slice(&p[states..]);
-    for (&m, &t) in p[..states].iter().zip(to) {
-        q[t as usize] += m;
+    q[states * w..].copy_from_slice(&p[states * w..]);
+    for (s, &t) in to.iter().enumerate().take(states) {
+        for b in 0..w {
+            q[t as usize * w + b] += p[s * w + b];
+        }
     }
     q
 }
@@ -508,10 +576,12 @@ fn transient_in(
             &setup.species,
             setup.n_species,
         );
-        let mut p: Vec<f64> = (0..g.len())
-            .map(|s| if s == 0 { 1.0 } else { 0.0 })
-            .collect();
+        let w = transient::width(setup.counted.len());
+        let mut p: Vec<f64> = vec![0.0; g.len() * w];
+        p[0] = 1.0;
         let mut laws: Vec<Vec<summary::Moments>> = vec![Vec::new(); setup.species.len()];
+        // (E[P − P(0)], E[(P − P(0))²]) of each counted species per time.
+        let mut counted: Vec<Vec<[f64; 2]>> = vec![Vec::new(); setup.counted.len()];
         let mut by_time = Vec::with_capacity(times.len());
         let mut series_error = 0.0f64;
         let mut sinks = Vec::new();
@@ -522,7 +592,7 @@ fn transient_in(
         let mut first_time = 0;
         for (n, seg) in segments.iter().enumerate() {
             for &dose in &seg.doses {
-                p = jump(&p, &jumps[dose], g.states);
+                p = jump(&p, &jumps[dose], g.states, w);
             }
             let next = segments.get(n + 1).map(|s| s.start);
             let count = times[first_time..].partition_point(|&t| next.is_none_or(|e| t < e));
@@ -530,7 +600,8 @@ fn transient_in(
                 .iter()
                 .map(|&t| t - seg.start)
                 .collect();
-            let mut series = transient::Series::new(&gens[seg.phase], &columns, parallel);
+            let mut series =
+                transient::Series::new(&gens[seg.phase], &columns, &setup.increments, parallel);
             let (ran, end) = series.run(
                 &p,
                 &offsets,
@@ -551,6 +622,9 @@ fn transient_in(
                         law.push(summary::from_marginal(
                             &o.marginals[columns.offsets[k]..end],
                         ));
+                    }
+                    for (c, m) in counted.iter_mut().zip(&o.counted) {
+                        c.push([m[0] / o.mass, m[1] / o.mass]);
                     }
                     true
                 },
@@ -577,22 +651,32 @@ fn transient_in(
             setup.grow(&mut bounds, &sinks, tol, factor);
             continue;
         }
+        let mut laws: Vec<Option<Vec<summary::Moments>>> = laws.into_iter().map(Some).collect();
+        let x0 = setup.red.initial_full();
         let species = setup
-            .species
+            .reported
             .iter()
-            .zip(laws)
-            .map(|(&i, law)| {
-                (
-                    net.species[i].name.clone(),
+            .map(|&i| {
+                let law = if let Some(k) = setup.counted.iter().position(|&c| c == i) {
+                    counted_law(x0[i] as f64, &counted[k])
+                } else {
+                    let k = setup
+                        .species
+                        .iter()
+                        .position(|&c| c == i)
+                        .expect("reported");
+                    let law = laws[k].take().expect("each species once");
                     SpeciesLaw {
                         clamped: net.species[i].clamped,
+                        accumulates: false,
                         mean: law.iter().map(|m| m.mean).collect(),
                         variance: law.iter().map(|m| m.variance).collect(),
                         fano: law.iter().map(|m| m.fano).collect(),
                         p_zero: law.iter().map(|m| m.p_zero).collect(),
                         marginal: law.into_iter().map(|m| m.marginal).collect(),
-                    },
-                )
+                    }
+                };
+                (net.species[i].name.clone(), law)
             })
             .collect();
         return Ok(Transient {
@@ -608,6 +692,29 @@ fn transient_in(
         });
     }
     unreachable!("the loop returns")
+}
+
+/// The law of a counted species from its start count `p0` and its (E[P − P(0)], E[(P − P(0))²])
+/// per time: mean = p0 + E[Δ], variance = E[Δ²] − E[Δ]², Fano = variance/mean (NaN at mean 0).
+fn counted_law(p0: f64, moments: &[[f64; 2]]) -> SpeciesLaw {
+    let mean: Vec<f64> = moments.iter().map(|m| p0 + m[0]).collect();
+    let variance: Vec<f64> = moments
+        .iter()
+        .map(|m| (m[1] - m[0] * m[0]).max(0.0))
+        .collect();
+    SpeciesLaw {
+        clamped: false,
+        accumulates: true,
+        fano: mean
+            .iter()
+            .zip(&variance)
+            .map(|(&m, &v)| if m > 0.0 { v / m } else { f64::NAN })
+            .collect(),
+        p_zero: vec![f64::NAN; mean.len()],
+        marginal: vec![Vec::new(); mean.len()],
+        mean,
+        variance,
+    }
 }
 
 /// The stationary law of `net` reached from its initial state, with the projection grown
@@ -692,26 +799,49 @@ fn stationary_in(net: &Network, opts: &Options, setup: &Setup) -> Result<Station
             &setup.species,
             setup.n_species,
         );
+        let flux = summary::fluxes(&setup.red, &coords, &setup.props, &pi, setup.n_species);
         let species = setup
-            .species
+            .reported
             .iter()
-            .zip(&columns.counts)
-            .map(|(&i, counts)| {
-                let m = summary::moments(counts, &pi);
-                (
-                    net.species[i].name.clone(),
-                    SpeciesStationary {
-                        clamped: net.species[i].clamped,
-                        mean: m.mean,
-                        variance: m.variance,
-                        fano: m.fano,
-                        p_zero: m.p_zero,
-                        marginal: m.marginal,
+            .map(|&i| {
+                let law = match setup.species.iter().position(|&c| c == i) {
+                    Some(k) => {
+                        let m = summary::moments(&columns.counts[k], &pi);
+                        SpeciesStationary {
+                            clamped: net.species[i].clamped,
+                            accumulates: false,
+                            accumulation_per_s: None,
+                            mean: m.mean,
+                            variance: m.variance,
+                            fano: m.fano,
+                            p_zero: m.p_zero,
+                            marginal: m.marginal,
+                        }
+                    }
+                    None => SpeciesStationary {
+                        clamped: false,
+                        accumulates: true,
+                        accumulation_per_s: Some(
+                            net.reactions
+                                .iter()
+                                .zip(&flux)
+                                .map(|(r, f)| {
+                                    let nu: i64 =
+                                        r.change.iter().filter(|c| c.0 == i).map(|c| c.1).sum();
+                                    nu as f64 * f
+                                })
+                                .sum(),
+                        ),
+                        mean: f64::NAN,
+                        variance: f64::NAN,
+                        fano: f64::NAN,
+                        p_zero: f64::NAN,
+                        marginal: Vec::new(),
                     },
-                )
+                };
+                (net.species[i].name.clone(), law)
             })
             .collect();
-        let flux = summary::fluxes(&setup.red, &coords, &setup.props, &pi, setup.n_species);
         let fluxes = net
             .reactions
             .iter()

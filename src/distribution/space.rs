@@ -15,6 +15,12 @@
 //! the projection is measured, and where it leaves says which bound to raise. A coordinate that
 //! a semi-positive conservation law caps (l ≥ 0, l_k > 0: x_k ≤ l·x₀/l_k) is never bounded
 //! below its cap, and so never leaks.
+//!
+//! Species *left out* (a species that only accumulates: produced, read by no propensity, law
+//! or event, in no conservation law) are no coordinates either: they keep their initial count
+//! in every state, and a reaction that changes nothing else is a transition of a state to
+//! itself. Nothing reads them, so the chain of the other species is exactly the same; their
+//! moments follow from it (transient.rs).
 
 use super::schedule::Forcing;
 use super::FspError;
@@ -30,6 +36,8 @@ pub struct Reduction {
     dependent: Vec<Dependent>,
     /// Largest value each independent coordinate can take under the conservation laws.
     pub caps: Vec<Option<u64>>,
+    /// Species that are no coordinate although free (they only accumulate).
+    pub left_out: Vec<usize>,
 }
 
 /// x_species = (total − Σ coefficient·coordinate)/pivot.
@@ -59,19 +67,25 @@ fn normalise(v: &mut [i128]) {
 impl Reduction {
     /// The coordinates of `net`: free species that are not the pivot of a conservation law.
     pub fn new(net: &Network) -> Reduction {
-        Reduction::from_start(net, net.initial_state(), &[])
+        Reduction::from_start(net, net.initial_state(), &[], &[])
     }
 
     /// The coordinates from the start state `template`, using only the conservation laws that
-    /// do not involve a species in `touched` (set by doses or events, which break them).
-    pub fn from_start(net: &Network, template: Vec<i64>, touched: &[usize]) -> Reduction {
+    /// do not involve a species in `touched` (set by doses or events, which break them), with
+    /// the species `left_out` (in no conservation law) kept at their start counts.
+    pub fn from_start(
+        net: &Network,
+        template: Vec<i64>,
+        touched: &[usize],
+        left_out: &[usize],
+    ) -> Reduction {
         let laws: Vec<&Vec<i64>> = net
             .conservation_laws
             .iter()
             .filter(|l| touched.iter().all(|&i| l[i] == 0))
             .collect();
         let free: Vec<usize> = (0..net.species.len())
-            .filter(|&i| !net.species[i].clamped)
+            .filter(|&i| !net.species[i].clamped && !left_out.contains(&i))
             .collect();
         // Fraction-free Gauss–Jordan elimination over the free species' columns.
         let mut rows: Vec<Vec<i128>> = laws
@@ -146,6 +160,7 @@ impl Reduction {
             independent,
             dependent,
             caps,
+            left_out: left_out.to_vec(),
         }
     }
 
@@ -160,6 +175,11 @@ impl Reduction {
             .iter()
             .map(|&i| self.template[i] as u32)
             .collect()
+    }
+
+    /// The full start state (every species).
+    pub fn initial_full(&self) -> &[i64] {
+        &self.template
     }
 
     /// Writes the full state (every species, clamped ones included) of `coords` into `x`.
@@ -243,11 +263,12 @@ pub struct Projection {
     pub coords: Vec<u32>,
     pub dim: usize,
     pub states: usize,
-    /// Transitions by source: `first[s]..first[s + 1]` index `target`, and `rate[e·phases + p]`
-    /// is the rate of transition e in phase p. A target at or above `states` is sink
-    /// `target − states`.
+    /// Transitions by source: `first[s]..first[s + 1]` index `target` and `reaction`, and
+    /// `rate[e·phases + p]` is the rate of transition e in phase p. A target at or above
+    /// `states` is sink `target − states`.
     pub first: Vec<usize>,
     pub target: Vec<u32>,
+    pub reaction: Vec<u32>,
     pub rate: Vec<f64>,
     pub phases: usize,
     /// For each dose, the state (or sink) each state jumps to.
@@ -302,7 +323,8 @@ impl Locate<'_> {
 
 /// Enumerates the states reachable from the start inside `bounds` (one per coordinate) by
 /// breadth-first search, by reactions in any phase of `forcing` and by its doses, with the rate
-/// of every transition in every phase; refuses past `max_states`.
+/// of every transition in every phase; refuses past `max_states`. A transition of a state to
+/// itself is kept only for the reactions `loops` marks (those whose firings are counted).
 pub fn enumerate(
     net: &Network,
     red: &Reduction,
@@ -310,6 +332,7 @@ pub fn enumerate(
     bounds: &[u32],
     max_states: usize,
     forcing: &Forcing,
+    loops: &[bool],
 ) -> Result<Projection, FspError> {
     let d = red.dim();
     let phases = forcing.phase_times.len();
@@ -334,7 +357,8 @@ pub fn enumerate(
     let mut x2 = vec![0i64; n_species];
     let mut y = vec![0u32; d];
     let mut a = vec![0.0; phases];
-    let (mut first, mut target, mut rate) = (vec![0usize], Vec::new(), Vec::new());
+    let (mut first, mut target, mut reaction, mut rate) =
+        (vec![0usize], Vec::new(), Vec::new(), Vec::new());
     let mut jumps: Vec<Vec<u32>> = vec![Vec::new(); net.doses.len()];
     let mut s = 0usize;
     while s < table.len {
@@ -374,8 +398,9 @@ pub fn enumerate(
             }
             forcing.settle(net, &mut x2)?;
             let t = locate.place(&x2, &mut y, &mut coords, &mut table)?;
-            if t as usize != s || t > u32::MAX / 2 {
+            if t as usize != s || t > u32::MAX / 2 || loops[j] {
                 target.push(t);
+                reaction.push(j as u32);
                 rate.extend_from_slice(&a);
             }
         }
@@ -405,6 +430,7 @@ pub fn enumerate(
         states,
         first,
         target,
+        reaction,
         rate,
         phases,
         jumps,

@@ -259,6 +259,7 @@ mod tests {
             states: 3,
             sinks: 0,
             row_ptr,
+            reaction: vec![0; col.len()],
             col,
             rate,
             diag,

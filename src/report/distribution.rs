@@ -32,7 +32,7 @@ pub fn json(r: &Results) -> Value {
             for (name, law) in &s.species.0 {
                 species.insert(
                     name.clone(),
-                    json!({"clamped": law.clamped, "mean": [], "variance": [], "fano": [], "p_zero": [], "marginal": []}),
+                    json!({"clamped": law.clamped, "accumulates": law.accumulates, "mean": [], "variance": [], "fano": [], "p_zero": [], "marginal": []}),
                 );
             }
             json!({
@@ -95,7 +95,15 @@ pub fn table(r: &Results) -> String {
             if law.clamped {
                 continue;
             }
-            out.push_str(&format!("{name} (molecules)\n"));
+            if law.accumulates {
+                out.push_str(&format!(
+                    "{name} (molecules): only accumulates, so it is left out of the state space; its mean, \
+                     variance and Fano factor are exact (from the firings of the projected chain), its \
+                     distribution and p(0) are not computed\n"
+                ));
+            } else {
+                out.push_str(&format!("{name} (molecules)\n"));
+            }
             let mut tab = Table::new(&["time (s)", "mean", "variance", "Fano", "p(0)"]);
             for (i, &time) in t.times.iter().enumerate() {
                 tab.row(vec![
@@ -103,7 +111,11 @@ pub fn table(r: &Results) -> String {
                     num(law.mean[i]),
                     num(law.variance[i]),
                     num(law.fano[i]),
-                    num(law.p_zero[i]),
+                    if law.accumulates {
+                        "not computed".into()
+                    } else {
+                        num(law.p_zero[i])
+                    },
                 ]);
             }
             out.push_str(&tab.render());
@@ -122,6 +134,15 @@ pub fn table(r: &Results) -> String {
         ));
         let mut tab = Table::new(&["species", "mean", "variance", "Fano", "p(0)"]);
         for (name, law) in s.species.0.iter().filter(|(_, l)| !l.clamped) {
+            if let Some(rate) = law.accumulation_per_s {
+                let none = || "none (accumulates)".to_string();
+                tab.row(vec![name.clone(), none(), none(), none(), none()]);
+                out.push_str(&format!(
+                    "{name} only accumulates: no stationary law; it grows at {} molecules/s on average (exact)\n",
+                    num(rate)
+                ));
+                continue;
+            }
             tab.row(vec![
                 name.clone(),
                 num(law.mean),

@@ -285,6 +285,32 @@ fn subcritical_birth_death_is_extinct_in_the_long_run() {
     assert_eq!(s.class_states, 1);
 }
 
+// The benchmark's binding loop from its own start (H = 0, first bounds far below the law):
+// hormone H made at 200/s and cleared at 1/s, binding a pool of 999 receptors. The first
+// projections pile their mass on the cut, where the balance equations have no finite
+// solution; growth must go on and solve a larger one. Checked against two exact facts of the
+// stationary law: the total count H + HR is not conserved, but the free hormone's balance
+// holds in the mean, E[make] = E[clear], i.e. E[H] = 200 (the stationary flux balance of a
+// zero-order inflow and a first-order outflow, common practice); and the binding balance
+// 0.01·E[H·R] = 1·E[HR], which the reported fluxes must show within the residual.
+#[test]
+fn a_first_projection_far_below_the_law_grows_until_it_solves() {
+    let n = net(
+        "species H = 0\nspecies R = 999\nspecies HR = 0\n\
+                 step make 0 -> H @ 200\nstep clear H -> 0 @ 1\nstep bind H + R <-> HR @ 0.01, 1\n",
+    );
+    let s = distribution::stationary(&n, &opts(1e-6)).unwrap();
+    let h = s.species.get("H").unwrap();
+    assert!((h.mean - 200.0).abs() < 1e-3 * 200.0, "E[H] = {}", h.mean);
+    let bind = *s.fluxes.get("bind").unwrap();
+    let unbind = *s.fluxes.get("bind_rev").unwrap();
+    assert!(
+        (bind - unbind).abs() <= 1e-4 * bind,
+        "{bind} against {unbind}"
+    );
+    assert!(s.truncation_error <= 1e-6);
+}
+
 // Pure growth has no stationary law and no finite projection holds it: refused at the limit.
 #[test]
 fn pure_growth_exceeds_the_state_limit() {

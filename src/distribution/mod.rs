@@ -774,7 +774,19 @@ fn stationary_in(net: &Network, opts: &Options, setup: &Setup) -> Result<Station
             setup.grow(&mut bounds, &mass, tol, 1.5);
             continue;
         }
-        let (pi, residual) = stationary::solve(g, &classes, closed[0])?;
+        let (pi, residual) = match stationary::solve(g, &classes, closed[0]) {
+            Ok(solved) => solved,
+            // A projection far smaller than the law (its mass piled up on the cut) can leave the
+            // balance equations without a finite non-negative solution at any reference state:
+            // treat it as a leak through every bound and solve a larger one. Growth ends, at
+            // worst, at `max_states` with its own clear refusal.
+            Err(FspError::Solver(_)) => {
+                leaked = Some(1.0);
+                setup.grow(&mut bounds, &vec![1.0; d], tol, 1.5);
+                continue;
+            }
+            Err(e) => return Err(e),
+        };
         let mut sink_mass = vec![0.0; d];
         let mut boundary = 0.0;
         for s in 0..g.states {

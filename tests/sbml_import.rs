@@ -853,3 +853,28 @@ fn a_reversible_reaction_with_a_general_law_runs_its_net_rate_deterministically(
     let want = 10.0 / 3.0 + 20.0 / 3.0 * (-1.5f64).exp();
     assert!((got - want).abs() < 1e-7 * want, "{got} vs {want}");
 }
+
+#[test]
+fn csymbol_time_in_a_kinetic_law_is_the_clock() {
+    // 0 → A at k·t with k = 2 /s²: A(t) = k·t²/2, A(1) = 1 and A(2) = 4 [C].
+    let law = r#"<apply><times/><ci>k</ci><csymbol encoding="text" definitionURL="http://www.sbml.org/sbml/symbols/time">t</csymbol></apply>"#;
+    let r = format!(
+        r#"<listOfReactions><reaction id="make" reversible="false">
+           <listOfProducts><speciesReference species="A" stoichiometry="1" constant="true"/></listOfProducts>
+           <kineticLaw>{MATH}{law}</math></kineticLaw></reaction></listOfReactions>"#
+    );
+    let doc = l3(&species("A", 0.0), &param("k", 2.0), &r);
+    let (code, out, msg) = run_file(
+        doc.as_bytes(),
+        &[
+            "simulate", "--t-end", "2", "--grid", "3", "--method", "ode", "--json",
+        ],
+    );
+    assert_eq!(code, Some(0), "{msg}");
+    let v: serde_json::Value = serde_json::from_str(&out).unwrap();
+    let grid = &v["grid"]["A"]["mean"];
+    for (k, want) in [(1, 1.0), (2, 4.0)] {
+        let got = grid[k].as_f64().unwrap();
+        assert!((got - want).abs() < 1e-7 * want, "{got} vs {want}");
+    }
+}

@@ -29,10 +29,17 @@
 //! of a law, so it never gates one (except in a law step marked `<copyloop:law/>`, which
 //! copyloop gates by all its reactants, as it does its own law steps).
 //!
+//! - **Own units**: any other model (substance units that are not items, dimensionless or
+//!   mole, none declared, mixed, mole-based amounts in several compartments or beyond 2^50
+//!   molecules, a volume or time unit other than the litre and the second, fractional amounts,
+//!   a reversible reaction with a general law) is read at the counts scale in its own units:
+//!   amounts real-valued in its substance unit, time in its time unit. The deterministic
+//!   method runs it; stochastic methods refuse it, naming the reason
+//!   ([`AmountUnit::stochastic_refusal`]).
+//!
 //! What the network cannot hold yet is refused with [`ErrorKind::NotYet`]: rules, events,
-//! `time` in laws, non-integer amounts or stoichiometries in counts, other substance units,
-//! conversion factors, reversible reactions with a general law, MathML operators beyond
-//! `+ − × ÷ ^ exp ln min max`, and a volume-scale model whose units do not check.
+//! non-integer stoichiometries, conversion factors, MathML operators beyond
+//! `+ − × ÷ ^ exp ln min max` and piecewise in laws.
 
 use super::builtins::{self, Builtin};
 use super::error::{ErrorKind, Loc, SbmlError};
@@ -1079,10 +1086,15 @@ impl Context<'_> {
             },
             MathKind::Boolean(_) => return unsupported("truth values in a kinetic law".into()),
             MathKind::Avogadro => num(SBML_AVOGADRO),
+            // The network's clock, in the model's time unit at the counts scale (seconds at the
+            // volume scale, whose time unit is checked to be the second).
+            // At the counts scale every figure is a bare number: the clock over one second.
             MathKind::Time => {
-                return unsupported(
-                    "time in a kinetic law (it arrives with the network extension)".into(),
-                )
+                let t = Expr::Name(name(crate::network::compile::GRID_TIME, m.loc));
+                match self.scale {
+                    Scale::Counts => bin(BinOp::Div, t, quantity(Quantity::new(1.0, Dim::TIME))),
+                    Scale::Volume { .. } => t,
+                }
             }
             MathKind::Ident(id) => {
                 if let Some(l) = locals.get(id.as_str()) {

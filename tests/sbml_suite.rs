@@ -267,7 +267,8 @@ fn semantic_section(
          thousandth of the case's) at the times of its results file, and every variable its \
          settings name is compared, as an amount or a concentration as they say, by the \
          suite's criterion |sim − expected| ≤ absolute + relative·|expected| with the case's \
-         own tolerances. `cargo test --release --test sbml_semantic` runs a fixed subset; \
+         own tolerances; the case's Level 2 file, where it imports, is compared the same way. \
+         `cargo test --release --test sbml_semantic` runs a fixed subset; \
          `-- --ignored` runs them all.\n",
         outcomes.len()
     )

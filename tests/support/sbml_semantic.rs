@@ -163,18 +163,39 @@ pub fn run(root: &Path, c: &Case, file: &Path) -> Result<Outcome, String> {
 }
 
 /// Every semantic time-course case (of `cases`) whose newest file imports, with its comparison
-/// (or why it could not be run).
+/// (or why it could not be run). Its other-level files that import are compared too; the
+/// first one that fails stands for the case.
 pub fn imported_outcomes(root: &Path, cases: &[Case]) -> Vec<(Case, Result<Outcome, String>)> {
+    use super::sbml_suite::{outcome, Outcome as Import};
     cases
         .iter()
         .filter(|c| c.suite == "semantic" && c.kind == "TimeCourse")
         .filter_map(|c| {
-            let file = c.files(root).into_iter().next()?;
-            matches!(
-                super::sbml_suite::outcome(&file),
-                super::sbml_suite::Outcome::Imported
-            )
-            .then(|| (c.clone(), run(root, c, &file)))
+            let files = c.files(root);
+            let newest = files.first()?;
+            if !matches!(outcome(newest), Import::Imported) {
+                return None;
+            }
+            let mut result = run(root, c, newest);
+            for f in &files[1..] {
+                if !result.as_ref().is_ok_and(|o| o.passed()) {
+                    break;
+                }
+                if !matches!(outcome(f), Import::Imported) {
+                    continue;
+                }
+                let name = f.file_name().unwrap().to_string_lossy().into_owned();
+                let mut values = result.as_ref().map_or(0, |o| o.values);
+                result = run(root, c, f)
+                    .map(|mut o| {
+                        values += o.values;
+                        o.values = values;
+                        o.first_bad = o.first_bad.map(|b| format!("{name}: {b}"));
+                        o
+                    })
+                    .map_err(|e| format!("{name}: {e}"));
+            }
+            Some((c.clone(), result))
         })
         .collect()
 }

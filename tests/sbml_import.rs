@@ -878,3 +878,41 @@ fn csymbol_time_in_a_kinetic_law_is_the_clock() {
         assert!((got - want).abs() < 1e-7 * want, "{got} vs {want}");
     }
 }
+
+#[test]
+fn piecewise_and_comparisons_in_a_kinetic_law() {
+    // 0 → A at piecewise(k1 if t < 1, otherwise k2), k1 = 2, k2 = 5 /s: A(1) = 2 and
+    // A(2) = 2 + 5 = 7 [C].
+    let time = r#"<csymbol encoding="text" definitionURL="http://www.sbml.org/sbml/symbols/time">t</csymbol>"#;
+    let law = format!(
+        "<piecewise><piece><ci>k1</ci><apply><lt/>{time}<cn>1</cn></apply></piece><otherwise><ci>k2</ci></otherwise></piecewise>"
+    );
+    let r = format!(
+        r#"<listOfReactions><reaction id="make" reversible="false">
+           <listOfProducts><speciesReference species="A" stoichiometry="1" constant="true"/></listOfProducts>
+           <kineticLaw>{MATH}{law}</math></kineticLaw></reaction></listOfReactions>"#
+    );
+    let doc = l3(
+        &species("A", 0.0),
+        &format!("{}{}", param("k1", 2.0), param("k2", 5.0)),
+        &r,
+    );
+    let (code, out, msg) = run_file(
+        doc.as_bytes(),
+        &[
+            "simulate", "--t-end", "2", "--grid", "3", "--method", "ode", "--json",
+        ],
+    );
+    assert_eq!(code, Some(0), "{msg}");
+    let v: serde_json::Value = serde_json::from_str(&out).unwrap();
+    let grid = &v["grid"]["A"]["mean"];
+    for (k, want) in [(1, 2.0), (2, 7.0)] {
+        let got = grid[k].as_f64().unwrap();
+        assert!((got - want).abs() < 1e-7 * want, "{got} vs {want}");
+    }
+    // Without <otherwise> the value is undefined where no piece holds: refused by name.
+    let open = doc.replace("<otherwise><ci>k2</ci></otherwise>", "");
+    let (code, _, msg) = run_file(open.as_bytes(), &["check"]);
+    assert_eq!(code, Some(2), "{msg}");
+    assert!(msg.contains("piecewise without <otherwise>"), "{msg}");
+}

@@ -16,10 +16,10 @@ use support::sbml_suite::{cases, suite_dir};
 /// compartment, boundary and constant species, function definitions, non-unit and assigned
 /// stoichiometry, hasOnlySubstanceUnits, local parameters, a reversible reaction, a
 /// zero-dimensional compartment, several compartments, initial assignments, Avogadro's constant
-/// uncommon MathML and time in a law.
-const SUBSET: [&str; 16] = [
+/// uncommon MathML, time and piecewise in a law.
+const SUBSET: [&str; 17] = [
     "00001", "00003", "00007", "00021", "00023", "00025", "00027", "00049", "00054", "00061",
-    "00462", "00958", "00969", "01018", "01323", "00851",
+    "00462", "00958", "00969", "01018", "01323", "00851", "00191",
 ];
 
 #[test]

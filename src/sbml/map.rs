@@ -39,7 +39,8 @@
 //!
 //! What the network cannot hold yet is refused with [`ErrorKind::NotYet`]: rules, events,
 //! non-integer stoichiometries, conversion factors, MathML operators beyond
-//! `+ − × ÷ ^ exp ln min max` and piecewise in laws.
+//! `+ − × ÷ ^ exp ln min max sin cos`, comparisons, `and`, `or` and piecewise with an
+//! `otherwise` in laws.
 
 use super::builtins::{self, Builtin};
 use super::error::{ErrorKind, Loc, SbmlError};
@@ -1183,6 +1184,36 @@ impl Context<'_> {
                     Op::Max | Op::Min if a.len() == 1 => a.into_iter().next().unwrap(),
                     Op::Max => call("max", a),
                     Op::Min => call("min", a),
+                    Op::Sin if a.len() == 1 => call("sin", a),
+                    Op::Cos if a.len() == 1 => call("cos", a),
+                    Op::Gt | Op::Lt | Op::Geq | Op::Leq if a.len() == 2 => {
+                        let code = match op {
+                            Op::Gt => BinOp::Gt,
+                            Op::Lt => BinOp::Lt,
+                            Op::Geq => BinOp::Ge,
+                            _ => BinOp::Le,
+                        };
+                        let mut it = a.into_iter();
+                        let (x, y) = (it.next().unwrap(), it.next().unwrap());
+                        // At the counts scale `time` compared with a settled value is written as
+                        // the clock against that value in seconds, so that the network sees the
+                        // edge where the comparison flips.
+                        let clock = || Expr::Name(name(crate::network::compile::GRID_TIME, m.loc));
+                        let second = || quantity(Quantity::new(1.0, Dim::TIME));
+                        let is_time = |k: usize| matches!(args[k].kind, MathKind::Time);
+                        match self.scale {
+                            Scale::Counts if is_time(0) && !is_time(1) => {
+                                bin(code, clock(), bin(BinOp::Mul, y, second()))
+                            }
+                            Scale::Counts if is_time(1) && !is_time(0) => {
+                                bin(code, bin(BinOp::Mul, x, second()), clock())
+                            }
+                            _ => bin(code, x, y),
+                        }
+                    }
+                    Op::And | Op::Or if a.len() >= 2 => {
+                        fold(if *op == Op::And { BinOp::And } else { BinOp::Or }, 1.0, a)
+                    }
                     other => {
                         return unsupported(format!(
                             "the MathML operator <{}> in a kinetic law (it joins the law evaluator with the network extension)",
@@ -1201,7 +1232,25 @@ impl Context<'_> {
                 }
                 None => unreachable!("calls other than the network's functions are expanded"),
             },
-            MathKind::Piecewise { .. } => return unsupported("piecewise in a kinetic law".into()),
+            // piecewise(v₁, c₁, …, otherwise) = c₁·v₁ + (1 − c₁)·(…), each condition 0 or 1.
+            MathKind::Piecewise { pieces, otherwise } => {
+                let Some(last) = otherwise else {
+                    return unsupported("piecewise without <otherwise> in a kinetic law".into());
+                };
+                let mut acc = self.expr(last, locals, owner)?;
+                for (v, c) in pieces.iter().rev() {
+                    let v = self.expr(v, locals, owner)?;
+                    let c1 = self.expr(c, locals, owner)?;
+                    let c2 = self.expr(c, locals, owner)?;
+                    let keep = bin(BinOp::Sub, num(1.0), c2);
+                    acc = bin(
+                        BinOp::Add,
+                        bin(BinOp::Mul, c1, v),
+                        bin(BinOp::Mul, keep, acc),
+                    );
+                }
+                acc
+            }
             MathKind::Delay(..) | MathKind::RateOf(..) => {
                 unreachable!("delay and rateOf are refused before mapping")
             }

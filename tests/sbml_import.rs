@@ -559,49 +559,151 @@ fn a_mole_based_model_gets_its_compartment_as_the_volume() {
     assert!((a - want).abs() < 1e-12 * want, "{a} vs {want}");
 }
 
+/// Writes `text` to a temporary `.xml` file and runs `copyloop` with `args` after its path.
+fn run_file(text: &[u8], args: &[&str]) -> (Option<i32>, String, String) {
+    let mut f = tempfile::Builder::new().suffix(".xml").tempfile().unwrap();
+    f.write_all(text).unwrap();
+    let path = f.path().to_str().unwrap().to_string();
+    let mut all = vec![args[0], path.as_str()];
+    all.extend(&args[1..]);
+    let out = cli::run(&all);
+    (
+        out.status.code(),
+        String::from_utf8_lossy(&out.stdout).into_owned(),
+        String::from_utf8_lossy(&out.stderr).into_owned(),
+    )
+}
+
 #[test]
-fn mole_based_models_the_network_cannot_hold_are_not_supported_yet() {
-    let law = "<apply><times/><ci>cell</ci><ci>k</ci><ci>A</ci></apply>";
+fn mole_based_models_beyond_molecule_counts_run_deterministically_only() {
+    // Each model decays as A' = −k·A (law cell·k·[A] in amount per time); read in its own
+    // units, amount(1 s) = amount(0)·e^(−0.5) [C].
+    let decay = reaction(
+        "r",
+        &["A"],
+        "<apply><times/><ci>cell</ci><ci>k</ci><ci>A</ci></apply>",
+        "",
+    );
+    let k = r#"<listOfParameters><parameter id="k" value="0.5" units="per_s" constant="true"/></listOfParameters>"#;
+    let with = |conc: f64| {
+        format!(
+            "<listOfSpecies>{}</listOfSpecies>{k}<listOfReactions>{decay}</listOfReactions>",
+            molar_species("A", conc)
+        )
+    };
     let cases = [
-        // a parameter without units: the law's dimension cannot be checked
+        // a parameter without units: the law's dimension cannot be checked in mol/L
         (
-            molar(
-                "1e-15",
-                &format!(
-                    r#"<listOfSpecies>{}</listOfSpecies><listOfParameters><parameter id="k" value="1" constant="true"/></listOfParameters><listOfReactions>{}</listOfReactions>"#,
-                    molar_species("A", 1e-8),
-                    reaction("r", &["A"], &law.replace("<ci>A</ci>", "<apply><power/><ci>A</ci><cn>2</cn></apply>"), "")
-                ),
-            ),
-            "mole-based model whose counts or units",
+            molar("1e-15", &with(1e-8).replace(r#" units="per_s""#, "")),
+            1e-8 * 1e-15,
+            "cannot be held as molecule counts",
         ),
         // a litre of 1 M: 6e23 molecules, more than copyloop counts
-        (
-            molar("1", &format!("<listOfSpecies>{}</listOfSpecies>", molar_species("A", 1.0))),
-            "more than copyloop can count",
-        ),
+        (molar("1", &with(1.0)), 1.0, "more than copyloop can count"),
         // minutes
         (
-            molar("1e-15", &format!("<listOfSpecies>{}</listOfSpecies>", molar_species("A", 1e-8)))
+            molar("1e-15", &with(1e-8))
                 .replace(r#"timeUnits="second""#, r#"timeUnits="minute_u""#)
                 .replace("<listOfUnitDefinitions>", r#"<listOfUnitDefinitions><unitDefinition id="minute_u"><listOfUnits><unit kind="second" exponent="1" scale="0" multiplier="60"/></listOfUnits></unitDefinition>"#),
+            1e-8 * 1e-15,
             "is not the second",
         ),
         // two compartments
         (
-            molar("1e-15", &format!("<listOfSpecies>{}</listOfSpecies>", molar_species("A", 1e-8)))
+            molar("1e-15", &with(1e-8))
                 .replace("</listOfCompartments>", r#"<compartment id="out" spatialDimensions="3" size="1e-12" constant="true"/></listOfCompartments>"#),
+            1e-8 * 1e-15,
             "more than one compartment",
         ),
     ];
-    for (doc, part) in cases {
-        let (code, msg) = check_file(doc.as_bytes());
+    for (doc, amount0, part) in cases {
+        let (code, _, msg) = run_file(doc.as_bytes(), &["check"]);
+        assert_eq!(code, Some(0), "{msg}");
+        let (code, _, msg) = run_file(doc.as_bytes(), &["simulate", "--t-end", "1"]);
         assert_eq!(code, Some(2), "{msg}");
         assert!(
-            msg.contains("not supported yet") && msg.contains(part),
+            msg.contains("cannot run with a stochastic method") && msg.contains(part),
             "{part}: {msg}"
         );
+        let (code, out, msg) = run_file(
+            doc.as_bytes(),
+            &["simulate", "--t-end", "1", "--method", "ode", "--json"],
+        );
+        assert_eq!(code, Some(0), "{msg}");
+        let v: serde_json::Value = serde_json::from_str(&out).unwrap();
+        let got = v["final"]["A"]["mean"].as_f64().unwrap();
+        let want = amount0 * (-0.5f64).exp();
+        assert!((got - want).abs() < 1e-6 * want, "{part}: {got} vs {want}");
+        assert_eq!(v["amount_unit"], "mole", "{part}");
     }
+}
+
+#[test]
+fn fractional_amounts_run_deterministically_and_are_refused_stochastically() {
+    // 2.5 items decaying at 0.5 /s: the deterministic amount at 1 s is 2.5·e^(−0.5) [C]; no
+    // stochastic method can start from half a molecule.
+    let rest = format!(
+        "<listOfReactions>{}</listOfReactions>",
+        reaction(
+            "r",
+            &["A"],
+            "<apply><times/><ci>k</ci><ci>A</ci></apply>",
+            ""
+        )
+        .replace("cell", "c")
+    );
+    let doc = l3(&species("A", 2.5), &param("k", 0.5), &rest);
+    let (code, _, msg) = run_file(doc.as_bytes(), &["simulate", "--t-end", "1"]);
+    assert_eq!(code, Some(2), "{msg}");
+    assert!(
+        msg.contains("2.5 of `A` is not a whole number of molecules"),
+        "{msg}"
+    );
+    let (code, out, msg) = run_file(
+        doc.as_bytes(),
+        &["simulate", "--t-end", "1", "--method", "ode", "--json"],
+    );
+    assert_eq!(code, Some(0), "{msg}");
+    let v: serde_json::Value = serde_json::from_str(&out).unwrap();
+    let got = v["final"]["A"]["mean"].as_f64().unwrap();
+    let want = 2.5 * (-0.5f64).exp();
+    assert!((got - want).abs() < 1e-7 * want, "{got} vs {want}");
+}
+
+#[test]
+fn several_compartments_in_items_read_concentrations_in_their_own_sizes() {
+    // A in c (size 1) and B in d (size 4), B's symbol a concentration: A → ∅ at k·[B] with
+    // [B] = 8/4 = 2, so A(1) = 10·e^(−0.5·2) [C].
+    let doc = l3(
+        &format!(
+            "{}{}",
+            species("A", 10.0),
+            r#"<species id="B" compartment="d" initialAmount="8" hasOnlySubstanceUnits="false" boundaryCondition="true" constant="false"/>"#
+        ),
+        &param("k", 0.5),
+        &format!(
+            "<listOfReactions>{}</listOfReactions>",
+            reaction(
+                "r",
+                &["A"],
+                "<apply><times/><ci>k</ci><ci>B</ci><ci>A</ci></apply>",
+                ""
+            )
+        ),
+    )
+    .replace(
+        "</listOfCompartments>",
+        r#"<compartment id="d" spatialDimensions="3" size="4" constant="true"/></listOfCompartments>"#,
+    );
+    let (code, out, msg) = run_file(
+        doc.as_bytes(),
+        &["simulate", "--t-end", "1", "--method", "ode", "--json"],
+    );
+    assert_eq!(code, Some(0), "{msg}");
+    let v: serde_json::Value = serde_json::from_str(&out).unwrap();
+    let got = v["final"]["A"]["mean"].as_f64().unwrap();
+    let want = 10.0 * (-1.0f64).exp();
+    assert!((got - want).abs() < 1e-7 * want, "{got} vs {want}");
 }
 
 #[test]
@@ -720,4 +822,97 @@ fn a_file_larger_than_the_limit_is_refused_before_parsing() {
         &text,
         &["copyloop reads SBML files of up to 33554432 bytes"],
     );
+}
+
+#[test]
+fn a_reversible_reaction_with_a_general_law_runs_its_net_rate_deterministically() {
+    // A ⇌ B at net rate k1·A − k2·B (A0 = 10, k1 = 1, k2 = 0.5 /s): A(t) = 10/3 + (20/3)·e^(−1.5 t)
+    // [C]; the law can be negative, so it is no propensity and stochastic methods refuse it.
+    let law = "<apply><minus/><apply><times/><ci>k1</ci><ci>A</ci></apply><apply><times/><ci>k2</ci><ci>B</ci></apply></apply>";
+    let r = format!(
+        r#"<listOfReactions><reaction id="flip" reversible="true">
+           <listOfReactants><speciesReference species="A" stoichiometry="1" constant="true"/></listOfReactants>
+           <listOfProducts><speciesReference species="B" stoichiometry="1" constant="true"/></listOfProducts>
+           <kineticLaw>{MATH}{law}</math></kineticLaw></reaction></listOfReactions>"#
+    );
+    let doc = l3(
+        &format!("{}{}", species("A", 10.0), species("B", 0.0)),
+        &format!("{}{}", param("k1", 1.0), param("k2", 0.5)),
+        &r,
+    );
+    let (code, _, msg) = run_file(doc.as_bytes(), &["simulate", "--t-end", "1"]);
+    assert_eq!(code, Some(2), "{msg}");
+    assert!(msg.contains("reaction `flip` is reversible"), "{msg}");
+    let (code, out, msg) = run_file(
+        doc.as_bytes(),
+        &["simulate", "--t-end", "1", "--method", "ode", "--json"],
+    );
+    assert_eq!(code, Some(0), "{msg}");
+    let v: serde_json::Value = serde_json::from_str(&out).unwrap();
+    let got = v["final"]["A"]["mean"].as_f64().unwrap();
+    let want = 10.0 / 3.0 + 20.0 / 3.0 * (-1.5f64).exp();
+    assert!((got - want).abs() < 1e-7 * want, "{got} vs {want}");
+}
+
+#[test]
+fn csymbol_time_in_a_kinetic_law_is_the_clock() {
+    // 0 → A at k·t with k = 2 /s²: A(t) = k·t²/2, A(1) = 1 and A(2) = 4 [C].
+    let law = r#"<apply><times/><ci>k</ci><csymbol encoding="text" definitionURL="http://www.sbml.org/sbml/symbols/time">t</csymbol></apply>"#;
+    let r = format!(
+        r#"<listOfReactions><reaction id="make" reversible="false">
+           <listOfProducts><speciesReference species="A" stoichiometry="1" constant="true"/></listOfProducts>
+           <kineticLaw>{MATH}{law}</math></kineticLaw></reaction></listOfReactions>"#
+    );
+    let doc = l3(&species("A", 0.0), &param("k", 2.0), &r);
+    let (code, out, msg) = run_file(
+        doc.as_bytes(),
+        &[
+            "simulate", "--t-end", "2", "--grid", "3", "--method", "ode", "--json",
+        ],
+    );
+    assert_eq!(code, Some(0), "{msg}");
+    let v: serde_json::Value = serde_json::from_str(&out).unwrap();
+    let grid = &v["grid"]["A"]["mean"];
+    for (k, want) in [(1, 1.0), (2, 4.0)] {
+        let got = grid[k].as_f64().unwrap();
+        assert!((got - want).abs() < 1e-7 * want, "{got} vs {want}");
+    }
+}
+
+#[test]
+fn piecewise_and_comparisons_in_a_kinetic_law() {
+    // 0 → A at piecewise(k1 if t < 1, otherwise k2), k1 = 2, k2 = 5 /s: A(1) = 2 and
+    // A(2) = 2 + 5 = 7 [C].
+    let time = r#"<csymbol encoding="text" definitionURL="http://www.sbml.org/sbml/symbols/time">t</csymbol>"#;
+    let law = format!(
+        "<piecewise><piece><ci>k1</ci><apply><lt/>{time}<cn>1</cn></apply></piece><otherwise><ci>k2</ci></otherwise></piecewise>"
+    );
+    let r = format!(
+        r#"<listOfReactions><reaction id="make" reversible="false">
+           <listOfProducts><speciesReference species="A" stoichiometry="1" constant="true"/></listOfProducts>
+           <kineticLaw>{MATH}{law}</math></kineticLaw></reaction></listOfReactions>"#
+    );
+    let doc = l3(
+        &species("A", 0.0),
+        &format!("{}{}", param("k1", 2.0), param("k2", 5.0)),
+        &r,
+    );
+    let (code, out, msg) = run_file(
+        doc.as_bytes(),
+        &[
+            "simulate", "--t-end", "2", "--grid", "3", "--method", "ode", "--json",
+        ],
+    );
+    assert_eq!(code, Some(0), "{msg}");
+    let v: serde_json::Value = serde_json::from_str(&out).unwrap();
+    let grid = &v["grid"]["A"]["mean"];
+    for (k, want) in [(1, 2.0), (2, 7.0)] {
+        let got = grid[k].as_f64().unwrap();
+        assert!((got - want).abs() < 1e-7 * want, "{got} vs {want}");
+    }
+    // Without <otherwise> the value is undefined where no piece holds: refused by name.
+    let open = doc.replace("<otherwise><ci>k2</ci></otherwise>", "");
+    let (code, _, msg) = run_file(open.as_bytes(), &["check"]);
+    assert_eq!(code, Some(2), "{msg}");
+    assert!(msg.contains("piecewise without <otherwise>"), "{msg}");
 }

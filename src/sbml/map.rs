@@ -29,10 +29,18 @@
 //! of a law, so it never gates one (except in a law step marked `<copyloop:law/>`, which
 //! copyloop gates by all its reactants, as it does its own law steps).
 //!
+//! - **Own units**: any other model (substance units that are not items, dimensionless or
+//!   mole, none declared, mixed, mole-based amounts in several compartments or beyond 2^50
+//!   molecules, a volume or time unit other than the litre and the second, fractional amounts,
+//!   a reversible reaction with a general law) is read at the counts scale in its own units:
+//!   amounts real-valued in its substance unit, time in its time unit. The deterministic
+//!   method runs it; stochastic methods refuse it, naming the reason
+//!   ([`AmountUnit::stochastic_refusal`]).
+//!
 //! What the network cannot hold yet is refused with [`ErrorKind::NotYet`]: rules, events,
-//! `time` in laws, non-integer amounts or stoichiometries in counts, other substance units,
-//! conversion factors, reversible reactions with a general law, MathML operators beyond
-//! `+ − × ÷ ^ exp ln min max`, and a volume-scale model whose units do not check.
+//! non-integer stoichiometries, conversion factors, MathML operators beyond
+//! `+ − × ÷ ^ exp ln min max sin cos`, comparisons, `and`, `or` and piecewise with an
+//! `otherwise` in laws.
 
 use super::builtins::{self, Builtin};
 use super::error::{ErrorKind, Loc, SbmlError};
@@ -44,7 +52,9 @@ use super::units;
 use crate::error::{Diagnostic, Error, Span};
 use crate::network::parser::{Ast, BinOp, Expr, Item, Literal, Name, Operand, Rate, Step, Term};
 use crate::network::units::{macroscopic_constant, omega, stochastic_constant};
-use crate::network::{compile, Dim, Kinetics, Network, Overrides, Quantity};
+use crate::network::{
+    compile, AmountUnit, Dim, Kinetics, Network, Overrides, Quantity, AVOGADRO, MAX_COUNT,
+};
 use std::collections::HashMap;
 
 /// The scale an SBML model is read at.
@@ -65,6 +75,11 @@ pub struct Mapped {
     pub shown: HashMap<String, String>,
     /// Readings that were ignored, and the like.
     pub warnings: Vec<SbmlError>,
+    /// Each species' initial amount in the model's own substance unit, exactly.
+    pub amounts: Vec<f64>,
+    /// The unit amounts are reported in, and why the counts cannot be simulated stochastically
+    /// where they cannot.
+    pub unit: AmountUnit,
 }
 
 /// Compiles `doc` (read from `file`, whose text is `text`) with `overrides`.
@@ -76,11 +91,24 @@ pub fn network(
 ) -> Result<Network, Error> {
     let diag = |e: SbmlError| Error::Input(vec![e.diagnostic(file, text)]);
     let mapped = ast(file, text, doc).map_err(diag)?;
-    let mut net =
-        compile(&std::sync::Arc::new(mapped.ast), overrides).map_err(|d| match mapped.scale {
-            Scale::Counts => Error::Input(d),
-            Scale::Volume { .. } => Error::Input(d.into_iter().map(units_not_yet).collect()),
-        })?;
+    let compiled = compile(&std::sync::Arc::new(mapped.ast.clone()), overrides);
+    let (mapped, mut net) = match (compiled, mapped.scale) {
+        (Ok(net), _) => (mapped, net),
+        (Err(d), Scale::Counts) => return Err(Error::Input(d)),
+        // The molecule counts of a mole-based model do not fit the network (too many
+        // molecules, or units the compiler does not check): the model is read in its own
+        // units, for the deterministic method only.
+        (Err(d), Scale::Volume { .. }) => {
+            let why = format!(
+                "its amounts in mol cannot be held as molecule counts ({}); simulate it with `--method ode`",
+                d[0].message
+            );
+            let mapped = ast_at(file, text, doc, Some(why)).map_err(diag)?;
+            let net = compile(&std::sync::Arc::new(mapped.ast.clone()), overrides)
+                .map_err(|d| Error::Input(d.into_iter().map(units_not_yet).collect()))?;
+            (mapped, net)
+        }
+    };
     for r in &mut net.reactions {
         if let Kinetics::Law { law, .. } = &mut r.kinetics {
             if let Some(t) = mapped.shown.get(r.label.as_str()) {
@@ -88,9 +116,50 @@ pub fn network(
             }
         }
     }
+    // Real-valued amounts for the deterministic engine (a species whose amount is overridden
+    // keeps the compiler's value): in the model's own unit at the counts scale; in molecules
+    // at the volume scale, where a count that is whole to 1e-9 stays the compiler's.
+    for (s, &a) in net.species.iter_mut().zip(&mapped.amounts) {
+        if overrides.values.iter().any(|(n, _)| *n == s.name) {
+            continue;
+        }
+        let exact = match mapped.scale {
+            Scale::Counts => a,
+            Scale::Volume { .. } => a * AVOGADRO,
+        };
+        if (exact - s.initial as f64).abs() > 1e-9 * exact.abs() {
+            s.initial_amount = exact;
+        }
+    }
+    net.amount = mapped.unit.clone();
     net.warnings
         .extend(mapped.warnings.iter().map(|w| w.diagnostic(file, text)));
     Ok(net)
+}
+
+/// The factor from a count of an imported network to an amount in the model's own substance
+/// unit: 1/N_A for a mole-based model read in molecule counts (a network with a volume), 1
+/// where the network holds the model's own amounts.
+pub fn model_amount_per_count(net: &Network) -> f64 {
+    match net.volume_l {
+        Some(_) => 1.0 / AVOGADRO,
+        None => 1.0 / net.amount.count_per_amount,
+    }
+}
+
+/// The factor from parameter `id`'s value in the model's own unit to the value the network
+/// holds (its canonical unit in a volume-scale model; 1 where the model is read in its own
+/// units).
+pub fn param_unit_factor(doc: &Document, net: &Network, id: &str) -> f64 {
+    let m = &doc.model;
+    match (net.volume_l, m.parameters.iter().find(|p| p.id == id)) {
+        (Some(_), Some(p)) => p
+            .units
+            .as_deref()
+            .and_then(|u| units::canonical(m, doc.level, u).ok())
+            .map_or(1.0, |(_, f)| f),
+        _ => 1.0,
+    }
 }
 
 /// A compile error of a volume-scale model: its units do not check in the network compiler,
@@ -157,10 +226,25 @@ fn name(text: &str, loc: Loc) -> Name {
 
 /// The network compiler's syntax tree for the model.
 pub fn ast(file: &str, text: &str, doc: &Document) -> Result<Mapped, SbmlError> {
+    ast_at(file, text, doc, None)
+}
+
+/// The syntax tree at the scale the model's units give, or in the model's own units (the
+/// counts scale, deterministic only) when `own_units` says why it must be.
+fn ast_at(
+    file: &str,
+    text: &str,
+    doc: &Document,
+    own_units: Option<String>,
+) -> Result<Mapped, SbmlError> {
     let m = &doc.model;
     supported(doc)?;
     let values = initial_values(m)?;
-    let scale = scale(doc, &values)?;
+    let (scale, mut refusal) = match own_units {
+        Some(why) => (Scale::Counts, Some(why)),
+        None => scale(doc, &values)?,
+    };
+    let mut amounts = Vec::with_capacity(m.species.len());
     let mut items = Vec::new();
     if let Scale::Volume {
         compartment,
@@ -191,14 +275,18 @@ pub fn ast(file: &str, text: &str, doc: &Document) -> Result<Mapped, SbmlError> 
                 format!("the initial amount {amount} is not a finite number of at least 0"),
             ));
         }
+        amounts.push(amount);
         let amount = match scale {
-            Scale::Counts if amount.fract() != 0.0 => {
-                return Err(not_yet(
-                    "species",
-                    Some(&s.id),
-                    s.loc,
-                    format!("the initial amount {amount} is not a whole number of molecules (real-valued amounts arrive with the network extension)"),
-                ));
+            Scale::Counts if amount.fract() != 0.0 || amount > MAX_COUNT as f64 => {
+                refusal.get_or_insert_with(|| {
+                    format!(
+                        "the initial amount {amount} of `{}` is not a whole number of molecules, so the model runs with `--method ode` only",
+                        s.id
+                    )
+                });
+                // The deterministic engine starts from the exact amount; the compiler's
+                // count is never simulated.
+                bare(amount.round().min(MAX_COUNT as f64), s.loc)
             }
             Scale::Counts => bare(amount, s.loc),
             // mol in V litres: a concentration in mol/L, rounded to whole molecules by the
@@ -267,6 +355,14 @@ pub fn ast(file: &str, text: &str, doc: &Document) -> Result<Mapped, SbmlError> 
     let mut warnings = Vec::new();
     for (j, r) in m.reactions.iter().enumerate() {
         let (step, text, warning) = cx.step(j, r)?;
+        if r.reversible && matches!(step.forward, Rate::Law(_)) {
+            refusal.get_or_insert_with(|| {
+                format!(
+                    "reaction `{}` is reversible and its law is not mass action, so the law is a net rate, not a propensity",
+                    r.id
+                )
+            });
+        }
         if let Some(t) = text {
             shown.insert(r.id.clone(), t);
         }
@@ -282,7 +378,52 @@ pub fn ast(file: &str, text: &str, doc: &Document) -> Result<Mapped, SbmlError> 
         scale,
         shown,
         warnings,
+        amounts,
+        unit: amount_unit(doc, scale, refusal),
     })
+}
+
+/// The unit the model's amounts are reported in.
+fn amount_unit(doc: &Document, scale: Scale, refusal: Option<String>) -> AmountUnit {
+    let m = &doc.model;
+    match scale {
+        // Read in molecule counts, reported as a `.crn` file's are.
+        Scale::Volume { .. } => AmountUnit::molecules(),
+        Scale::Counts => {
+            let mut own: Vec<&str> = m
+                .species
+                .iter()
+                .map(|s| {
+                    s.substance_units
+                        .as_deref()
+                        .or(m.substance_units.as_deref())
+                        .unwrap_or(if doc.level == 2 { "substance" } else { "" })
+                })
+                .collect();
+            own.sort_unstable();
+            own.dedup();
+            let counts = m.species.iter().all(|s| {
+                matches!(
+                    substance(m, doc.level, s.substance_units.as_deref()),
+                    Substance::Items
+                )
+            });
+            let name = match own.as_slice() {
+                _ if counts => "molecules".to_string(),
+                [""] => "the model's amounts (no substance unit declared)".to_string(),
+                [u] => (*u).to_string(),
+                _ => "each species' own substance unit".to_string(),
+            };
+            AmountUnit {
+                concentration_unit: format!("{name} per compartment size"),
+                name,
+                count_per_amount: 1.0,
+                stochastic_refusal: refusal.map(|why| {
+                    format!("this SBML model cannot run with a stochastic method: {why}")
+                }),
+            }
+        }
+    }
 }
 
 /// Refuses what the current network cannot hold.
@@ -353,8 +494,9 @@ fn substance(m: &Model, level: u32, own: Option<&str>) -> Substance {
     }
 }
 
-/// The scale of the model (see the module docs).
-fn scale(doc: &Document, values: &InitialValues) -> Result<Scale, SbmlError> {
+/// The scale of the model (see the module docs), and why its amounts cannot be simulated as
+/// molecule counts where they are read in the model's own units instead.
+fn scale(doc: &Document, values: &InitialValues) -> Result<(Scale, Option<String>), SbmlError> {
     let m = &doc.model;
     let level = doc.level;
     let kinds: Vec<Substance> = m
@@ -362,72 +504,73 @@ fn scale(doc: &Document, values: &InitialValues) -> Result<Scale, SbmlError> {
         .iter()
         .map(|s| substance(m, level, s.substance_units.as_deref()))
         .collect();
-    let other = |s: &super::model::Species, why: &str| {
-        not_yet("species", Some(&s.id), s.loc, why.to_string())
-    };
-    const UNITS: &str = "substance units that are not items, dimensionless or mole (other amounts are converted with the network extension)";
-    const UNDECLARED: &str = "amounts of no declared substance unit (Level 3 has no default; they are read with the network extension)";
+    let own = |why: String| Ok((Scale::Counts, Some(why)));
     if let Some(k) = kinds.iter().position(|k| matches!(k, Substance::Other)) {
-        return Err(other(&m.species[k], UNITS));
+        return own(format!(
+            "the substance unit of `{}` is not item, dimensionless or mole, so its amounts are no molecule counts",
+            m.species[k].id
+        ));
     }
     if let Some(k) = kinds
         .iter()
         .position(|k| matches!(k, Substance::Undeclared))
     {
-        return Err(other(&m.species[k], UNDECLARED));
+        return own(format!(
+            "the amount of `{}` has no declared substance unit (Level 3 has no default), so it is no molecule count",
+            m.species[k].id
+        ));
     }
     let Some(k) = kinds.iter().position(|k| matches!(k, Substance::Mole)) else {
-        return Ok(Scale::Counts);
+        return Ok((Scale::Counts, None));
     };
     if let Some(j) = kinds.iter().position(|k| matches!(k, Substance::Items)) {
-        return Err(other(
-            &m.species[j.max(k)],
-            "species counted in items beside species in mole (mixed substance units arrive with the network extension)",
+        return own(format!(
+            "`{}` is counted in items beside `{}` in mole",
+            m.species[j].id, m.species[k].id
         ));
     }
     let [c] = m.compartments.as_slice() else {
-        return Err(other(
-            &m.species[k],
-            "mole-based amounts in more than one compartment (they arrive with the network extension)",
-        ));
+        return own(
+            "its amounts are in mole in more than one compartment (molecule counts of mole-based models are read in one compartment)".into(),
+        );
     };
-    let c_err = |why: String| not_yet("compartment", Some(&c.id), c.loc, why);
     if c.spatial_dimensions != Some(3.0) {
-        return Err(c_err(
-            "mole-based amounts in a compartment whose spatialDimensions is not 3 (other compartments arrive with the network extension)".into(),
+        return own(format!(
+            "its amounts are in mole in compartment `{}`, whose spatialDimensions is not 3",
+            c.id
         ));
     }
     let default = (level == 2).then_some("volume");
     let Some(unit) = c.units.as_deref().or(m.volume_units.as_deref()).or(default) else {
-        return Err(c_err(
-            "the compartment's volume unit is not declared".into(),
+        return own(format!(
+            "the volume unit of compartment `{}` is not declared",
+            c.id
         ));
     };
     match units::canonical(m, level, unit) {
         Ok((d, f)) if d == Dim::VOLUME && f == 1.0 => {}
-        _ => return Err(c_err(format!("the volume unit `{unit}` is not the litre"))),
+        _ => return own(format!("the volume unit `{unit}` is not the litre")),
     }
     if level == 3 {
         if let Some(t) = &m.time_units {
             match units::canonical(m, level, t) {
                 Ok((d, f)) if d == Dim::TIME && f == 1.0 => {}
-                _ => {
-                    return Err(not_yet(
-                        "model",
-                        m.id.as_deref(),
-                        m.loc,
-                        format!("the time unit `{t}` is not the second"),
-                    ))
-                }
+                _ => return own(format!("the time unit `{t}` is not the second")),
             }
         }
     }
     match values.compartments[0] {
-        Some(v) if v > 0.0 && v.is_finite() => Ok(Scale::Volume {
-            compartment: 0,
-            litres: v,
-        }),
-        _ => Err(c_err("the compartment has no positive, finite size".into())),
+        Some(v) if v > 0.0 && v.is_finite() => Ok((
+            Scale::Volume {
+                compartment: 0,
+                litres: v,
+            },
+            None,
+        )),
+        _ => own(format!(
+            "compartment `{}` has no positive, finite size",
+            c.id
+        )),
     }
 }
 
@@ -600,17 +743,9 @@ impl Context<'_> {
         };
         let forward = match from_reading.or_else(standard) {
             Some(rate) => rate,
-            None => {
-                if r.reversible {
-                    return Err(not_yet(
-                        "reaction",
-                        Some(&r.id),
-                        r.loc,
-                        "a reversible reaction whose law is not mass action (its net rate needs the deterministic reading)",
-                    ));
-                }
-                Rate::Law(self.law(law, &locals, &r.id)?)
-            }
+            // A reversible reaction's law is its net rate: the deterministic rate as written,
+            // but no propensity (the caller refuses stochastic methods for it).
+            None => Rate::Law(self.law(law, &locals, &r.id)?),
         };
         // A boundary species is never consumed; leaving it out of a law's reactants keeps it from
         // gating the law (except in copyloop's own law steps, gated by every listed reactant).
@@ -952,10 +1087,15 @@ impl Context<'_> {
             },
             MathKind::Boolean(_) => return unsupported("truth values in a kinetic law".into()),
             MathKind::Avogadro => num(SBML_AVOGADRO),
+            // The network's clock, in the model's time unit at the counts scale (seconds at the
+            // volume scale, whose time unit is checked to be the second).
+            // At the counts scale every figure is a bare number: the clock over one second.
             MathKind::Time => {
-                return unsupported(
-                    "time in a kinetic law (it arrives with the network extension)".into(),
-                )
+                let t = Expr::Name(name(crate::network::compile::GRID_TIME, m.loc));
+                match self.scale {
+                    Scale::Counts => bin(BinOp::Div, t, quantity(Quantity::new(1.0, Dim::TIME))),
+                    Scale::Volume { .. } => t,
+                }
             }
             MathKind::Ident(id) => {
                 if let Some(l) = locals.get(id.as_str()) {
@@ -1044,6 +1184,36 @@ impl Context<'_> {
                     Op::Max | Op::Min if a.len() == 1 => a.into_iter().next().unwrap(),
                     Op::Max => call("max", a),
                     Op::Min => call("min", a),
+                    Op::Sin if a.len() == 1 => call("sin", a),
+                    Op::Cos if a.len() == 1 => call("cos", a),
+                    Op::Gt | Op::Lt | Op::Geq | Op::Leq if a.len() == 2 => {
+                        let code = match op {
+                            Op::Gt => BinOp::Gt,
+                            Op::Lt => BinOp::Lt,
+                            Op::Geq => BinOp::Ge,
+                            _ => BinOp::Le,
+                        };
+                        let mut it = a.into_iter();
+                        let (x, y) = (it.next().unwrap(), it.next().unwrap());
+                        // At the counts scale `time` compared with a settled value is written as
+                        // the clock against that value in seconds, so that the network sees the
+                        // edge where the comparison flips.
+                        let clock = || Expr::Name(name(crate::network::compile::GRID_TIME, m.loc));
+                        let second = || quantity(Quantity::new(1.0, Dim::TIME));
+                        let is_time = |k: usize| matches!(args[k].kind, MathKind::Time);
+                        match self.scale {
+                            Scale::Counts if is_time(0) && !is_time(1) => {
+                                bin(code, clock(), bin(BinOp::Mul, y, second()))
+                            }
+                            Scale::Counts if is_time(1) && !is_time(0) => {
+                                bin(code, bin(BinOp::Mul, x, second()), clock())
+                            }
+                            _ => bin(code, x, y),
+                        }
+                    }
+                    Op::And | Op::Or if a.len() >= 2 => {
+                        fold(if *op == Op::And { BinOp::And } else { BinOp::Or }, 1.0, a)
+                    }
                     other => {
                         return unsupported(format!(
                             "the MathML operator <{}> in a kinetic law (it joins the law evaluator with the network extension)",
@@ -1062,7 +1232,25 @@ impl Context<'_> {
                 }
                 None => unreachable!("calls other than the network's functions are expanded"),
             },
-            MathKind::Piecewise { .. } => return unsupported("piecewise in a kinetic law".into()),
+            // piecewise(v₁, c₁, …, otherwise) = c₁·v₁ + (1 − c₁)·(…), each condition 0 or 1.
+            MathKind::Piecewise { pieces, otherwise } => {
+                let Some(last) = otherwise else {
+                    return unsupported("piecewise without <otherwise> in a kinetic law".into());
+                };
+                let mut acc = self.expr(last, locals, owner)?;
+                for (v, c) in pieces.iter().rev() {
+                    let v = self.expr(v, locals, owner)?;
+                    let c1 = self.expr(c, locals, owner)?;
+                    let c2 = self.expr(c, locals, owner)?;
+                    let keep = bin(BinOp::Sub, num(1.0), c2);
+                    acc = bin(
+                        BinOp::Add,
+                        bin(BinOp::Mul, c1, v),
+                        bin(BinOp::Mul, keep, acc),
+                    );
+                }
+                acc
+            }
             MathKind::Delay(..) | MathKind::RateOf(..) => {
                 unreachable!("delay and rateOf are refused before mapping")
             }

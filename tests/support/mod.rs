@@ -2,6 +2,7 @@
 #![allow(dead_code)]
 
 pub mod cli;
+pub mod sbml_semantic;
 pub mod sbml_stochastic;
 pub mod sbml_suite;
 pub mod svg;

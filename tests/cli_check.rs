@@ -117,3 +117,39 @@ fn help_carries_the_research_caution() {
         );
     }
 }
+
+/// An unbinding constant at the edge of f64 (1.79e308 /s; f64's largest value is about
+/// 1.798e308, IEEE 754-2019 binary64 [M]) makes K = (k_off + k_cat)/k_on overflow: `check`
+/// warns on the step's line, and `reconcile` names that cause, not `--t-end`, which was never
+/// given.
+#[test]
+fn an_overflowing_k_is_warned_and_named() {
+    let dir = std::env::temp_dir().join(format!("copyloop-cli-check-inf-{}", std::process::id()));
+    std::fs::create_dir_all(&dir).unwrap();
+    let file = dir.join("inf.crn");
+    std::fs::write(
+        &file,
+        "volume 1 pL\nspecies E = 10 nM\nspecies S = 200 nM clamped\nspecies C = 0 nM\n\
+         species P = 0 nM\nstep bind E + S <-> C @ 1e6 /M/s, 1.79e308 /s\n\
+         step turn C -> E + P @ 1 /s\nstep clear P -> 0 @ 0.1 /s\n",
+    )
+    .unwrap();
+    let path = file.to_str().unwrap();
+    let out = support::cli::run(&["check", path]);
+    assert_eq!(out.status.code(), Some(0));
+    let err = String::from_utf8_lossy(&out.stderr);
+    assert!(
+        err.contains("inf.crn:6:1: the half-saturation constant K"),
+        "{err}"
+    );
+    assert!(err.contains("overflows"), "{err}");
+    let out = support::cli::run(&["reconcile", path, "--replicates", "5"]);
+    assert_eq!(out.status.code(), Some(2));
+    let err = String::from_utf8_lossy(&out.stderr);
+    assert!(
+        err.contains("inf.crn:6:") && err.contains("overflows"),
+        "{err}"
+    );
+    assert!(!err.contains("--t-end"), "{err}");
+    std::fs::remove_dir_all(&dir).ok();
+}

@@ -160,13 +160,13 @@ fn table_and_csv_grid() {
     }
     let text = std::fs::read_to_string(&csv).unwrap();
     let lines: Vec<&str> = text.lines().collect();
-    // Counts first, then the concentrations of species in a compartment (the layout in the
-    // report's module docs).
+    // Counts first, then the concentrations of species in a compartment in the unit the file
+    // declared (H in nM; the others, written in molecules, in the file's first concentration
+    // unit), the layout in the report's module docs.
     assert_eq!(
         lines[0],
         "time_s,H_mean,H_sd,E_mean,E_sd,EH_mean,EH_sd,M_mean,M_sd,\
-         H_concentration_mean,H_concentration_sd,E_concentration_mean,E_concentration_sd,\
-         EH_concentration_mean,EH_concentration_sd,M_concentration_mean,M_concentration_sd"
+         H_nM_mean,H_nM_sd,E_nM_mean,E_nM_sd,EH_nM_mean,EH_nM_sd,M_nM_mean,M_nM_sd"
     );
     assert_eq!(lines.len(), 7);
     assert!(
@@ -209,4 +209,71 @@ fn bad_flags_exit_2_with_a_message() {
     let out = run(&["simulate", "no/such/file.crn", "--t-end", "1"]);
     assert_eq!(out.status.code(), Some(2));
     assert!(String::from_utf8_lossy(&out.stderr).contains("no/such/file.crn"));
+}
+
+/// A Python with pandas: CI's venv (target/ci-venv), else the system's python3.
+fn python_with_pandas() -> Option<std::path::PathBuf> {
+    let venv = std::path::Path::new(env!("CARGO_MANIFEST_DIR")).join("target/ci-venv/bin/python3");
+    [venv, "python3".into()].into_iter().find(|py| {
+        std::process::Command::new(py)
+            .args(["-c", "import pandas"])
+            .output()
+            .is_ok_and(|o| o.status.success())
+    })
+}
+
+#[test]
+fn csv_grid_loads_in_pandas_with_counts_and_file_units() {
+    let Some(py) = python_with_pandas() else {
+        println!("skipped: no python3 with pandas (CI installs it in target/ci-venv)");
+        return;
+    };
+    let file = example("enzyme_clearance.crn");
+    let dir = std::env::temp_dir().join(format!("copyloop-cli-pandas-{}", std::process::id()));
+    std::fs::create_dir_all(&dir).unwrap();
+    let csv = dir.join("grid.csv");
+    let out = run(&[
+        "simulate",
+        &file,
+        "--t-end",
+        "10",
+        "--replicates",
+        "3",
+        "--grid",
+        "5",
+        "--out",
+        csv.to_str().unwrap(),
+    ]);
+    assert!(
+        out.status.success(),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    // E + EH = 200 is conserved in every replicate, so in the mean. pandas reads every
+    // column as a number and the concentration of the clamped hormone
+    // back as the file's 50 nM within the rounding to whole molecules: count / (N_A·V) in nM,
+    // N_A = 6.02214076e23 /mol exact (SI Brochure, 9th ed. [M]), V = 1 pL, so half a
+    // molecule is 0.5e9 / 6.02214076e11 nM.
+    let script = r#"
+import sys, pandas as pd
+d = pd.read_csv(sys.argv[1])
+assert list(d.columns[:3]) == ["time_s", "H_mean", "H_sd"], list(d.columns)
+assert len(d) == 5, len(d)
+assert all(str(t) == "float64" or str(t) == "int64" for t in d.dtypes), d.dtypes
+assert list(d["time_s"]) == [0, 2.5, 5, 7.5, 10], list(d["time_s"])
+assert abs(d["H_nM_mean"][0] - 50) <= 0.5e9 / 6.02214076e11, d["H_nM_mean"][0]
+assert ((d["E_mean"] + d["EH_mean"] - 200).abs() < 1e-9).all(), d[["E_mean", "EH_mean"]]
+print("ok", d.shape[0], d.shape[1])
+"#;
+    let out = std::process::Command::new(&py)
+        .args(["-c", script, csv.to_str().unwrap()])
+        .output()
+        .unwrap();
+    assert!(
+        out.status.success(),
+        "pandas failed:\n{}{}",
+        String::from_utf8_lossy(&out.stdout),
+        String::from_utf8_lossy(&out.stderr)
+    );
+    std::fs::remove_dir_all(&dir).ok();
 }

@@ -83,10 +83,27 @@ pub(crate) fn document(a: &NoiseArgs, p: &crate::sweep::Point) -> Result<serde_j
     Ok(report::noise::json(&result))
 }
 
+/// Prints, for each `--volumes` value, the warnings the network gets there and not in its own
+/// volume (amounts rounded to whole molecules), as a sweep over `volume` does.
+fn rounding_warnings(net: &crate::Network, volumes: &[f64]) -> Result<()> {
+    for &v in volumes {
+        let at = net.with_overrides(&Overrides {
+            rescale_volume: Some(v),
+            ..Overrides::default()
+        })?;
+        for w in at.warnings.iter().filter(|w| !net.warnings.contains(w)) {
+            let text = w.to_string().replacen("error:", "warning:", 1);
+            eprintln!("at volume {} L: {text}\n", crate::numbers::plain(v));
+        }
+    }
+    Ok(())
+}
+
 pub fn run(a: &NoiseArgs) -> Result<()> {
     let net = load(&a.file, &Overrides::default())?;
     super::print_warnings(&net);
     let opts = options(a)?;
+    rounding_warnings(&net, &opts.volumes)?;
     let result = noise::noise(&net, &opts)?;
     if let Some(path) = &a.svg {
         std::fs::write(path, report::noise::svg(&result)).map_err(|e| Error::io(path, e))?;

@@ -5,14 +5,14 @@
 use crate::error::Error;
 use crate::network::{parser::parse_quantity, Dim};
 
-/// A time in seconds from `text`: a number with a time unit (`s`, `min`, `h`), or a bare
+/// A time in seconds from `text`: a number with a time unit (`s`, `min`, `h`, `d`), or a bare
 /// number of seconds. Negative and non-finite values pass, so that the job can say what is
 /// wrong with them in its own terms.
 pub fn time(text: &str) -> Result<f64, String> {
     let (q, unit) = parse_quantity(text.trim())?;
     if unit.is_some() && q.dim != Dim::TIME {
         return Err(format!(
-            "`{text}` is not a time; write e.g. `600`, `10 min` or `2h` (units s, min, h)"
+            "`{text}` is not a time; write e.g. `600`, `10 min` or `2h` (units s, min, h, d)"
         ));
     }
     Ok(q.value)
@@ -60,6 +60,8 @@ mod tests {
         assert_eq!(time("600").unwrap(), 600.0);
         assert_eq!(time("10 min").unwrap(), 600.0);
         assert_eq!(time("2h").unwrap(), 7200.0);
+        // A day is 86,400 s (SI Brochure, 9th ed., table 8 [M]).
+        assert_eq!(time("2 d").unwrap(), 172_800.0);
         assert_eq!(time("-1").unwrap(), -1.0);
         assert!(time("3 nM").is_err());
         assert!(time("soon").is_err());

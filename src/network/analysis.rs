@@ -581,6 +581,33 @@ pub fn usage_warnings(net: &mut Network, ast: &Ast) {
             ));
         }
     }
+    // A constant or half-saturation constant past f64's range reads as infinity and every
+    // engine then divides by it: say so where the file is still at hand.
+    for r in &net.reactions {
+        if let Some(c) = r.stochastic_constant().filter(|c| !c.is_finite()) {
+            warnings.push(at(
+                r.span,
+                format!(
+                    "the constant of `{}` overflows to {} (past 1.8e308): no engine can use it; give a finite constant",
+                    r.label,
+                    crate::numbers::short(c)
+                ),
+            ));
+        }
+    }
+    for m in net.motifs.iter().filter(|m| !m.k_half.is_finite()) {
+        let r = &net.reactions[m.unbind.unwrap_or(m.output)];
+        warnings.push(at(
+            r.span,
+            format!(
+                "the half-saturation constant K of motif {}·{} overflows (K = (unbind + output constant) / bind is {}): its fluxes cannot be reconciled; give `{}` a constant below 1e300",
+                net.species[m.carrier].name,
+                net.species[m.ligand].name,
+                crate::numbers::short(m.k_half),
+                r.label
+            ),
+        ));
+    }
     net.warnings.extend(warnings);
 }
 

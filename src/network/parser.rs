@@ -47,6 +47,48 @@ pub struct Literal {
     pub span: Span,
 }
 
+impl Ast {
+    /// The unit the file wrote after the value of `name` (a species, a param or `volume`) and
+    /// its factor to canonical units, e.g. `("/min", 1/60)` for `param k = 60 /min`; `None`
+    /// where the value is bare or the text does not show its unit (an imported model).
+    pub fn written_unit(&self, name: &str) -> Option<(String, f64)> {
+        let lit = self.items.iter().find_map(|item| match item {
+            Item::Volume(lit) if name == "volume" => Some(lit),
+            Item::Param { name: n, value, .. } if n.text == name => Some(value),
+            Item::Species {
+                name: n, amount, ..
+            } if n.text == name => Some(amount),
+            _ => None,
+        })?;
+        if lit.bare {
+            return None;
+        }
+        let line = self
+            .source
+            .lines()
+            .nth((lit.span.line as usize).checked_sub(1)?)?;
+        let text: String = line
+            .chars()
+            .skip((lit.span.col as usize).saturating_sub(1))
+            .take(lit.span.len as usize)
+            .collect();
+        let (q, unit) = parse_quantity(text.trim()).ok()?;
+        let unit = unit?;
+        let digits = text
+            .trim_start()
+            .trim_start_matches(|c: char| c.is_ascii_digit() || "+-.".contains(c));
+        // The exponent of the number, if any (`1e-3 /s`), is not part of the unit.
+        let rest = match digits.strip_prefix(['e', 'E']) {
+            Some(r) if r.starts_with(|c: char| c.is_ascii_digit() || c == '-' || c == '+') => {
+                r.trim_start_matches(|c: char| c.is_ascii_digit() || "+-".contains(c))
+            }
+            _ => digits,
+        };
+        (q.dim == lit.quantity.dim && (unit - lit.unit_factor).abs() <= 1e-12 * unit.abs())
+            .then(|| (rest.trim().to_string(), lit.unit_factor))
+    }
+}
+
 #[derive(Clone, Debug, PartialEq)]
 pub enum Item {
     Volume(Literal),
@@ -1138,7 +1180,7 @@ impl<'a> LineParser<'a> {
 }
 
 const UNIT_HELP: &str = "units are M mM uM µM nM pM fM, molecules, L mL uL µL nL pL fL um3, \
-                         s min h, joined by `*`, `/` or a space, with powers like `^-1`";
+                         s min h d, joined by `*`, `/` or a space, with powers like `^-1`";
 
 trait WithHelp {
     fn with_help_boxed(self, help: impl Into<String>) -> Self;

@@ -165,6 +165,9 @@ pub fn unit(name: &str) -> Option<(f64, Dim)> {
         "s" => (1.0, Dim::TIME),
         "min" => (60.0, Dim::TIME),
         "h" => (3600.0, Dim::TIME),
+        // A day of 86,400 s (SI Brochure, 9th ed., table 8: non-SI units accepted for use
+        // with the SI [M]); dosing schedules are written in days.
+        "d" => (86_400.0, Dim::TIME),
         _ => return None,
     };
     Some(u)
@@ -249,6 +252,8 @@ mod tests {
         assert_eq!(unit("nM"), Some((1e-9, Dim::CONC)));
         assert_eq!(unit("µM"), unit("uM"));
         assert_eq!(unit("min"), Some((60.0, Dim::TIME)));
+        // 1 d = 86,400 s (SI Brochure, 9th ed., table 8 [M]).
+        assert_eq!(unit("d"), Some((86_400.0, Dim::TIME)));
         assert_eq!(unit("um3"), Some((1e-15, Dim::VOLUME)));
         assert_eq!(unit("parsec"), None);
     }

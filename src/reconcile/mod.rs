@@ -407,6 +407,7 @@ pub struct Reconciliation {
 /// Runs the reconciliation of `net`.
 pub fn reconcile(net: &Network, opts: &Options) -> Result<Reconciliation> {
     opts.validate()?;
+    finite_constants(net)?;
     let steady = solve(net, &SteadyOptions::default())?;
     let plan = stationary::plan(
         net,
@@ -804,6 +805,34 @@ pub fn sensitivities(net: &Network, i: usize, steady: &Steady) -> Result<Vec<(St
         out.push((p.name.clone(), s));
     }
     Ok(out)
+}
+
+/// Refuses a motif whose half-saturation constant overflows (`check` warns of it): its
+/// predictions and its relaxation times would be infinite, and the failure would otherwise
+/// surface far from its cause.
+fn finite_constants(net: &Network) -> Result<()> {
+    if let Some(r) = net
+        .reactions
+        .iter()
+        .find(|r| r.stochastic_constant().is_some_and(|c| !c.is_finite()))
+    {
+        return Err(Error::usage(format!(
+            "{}:{}: the constant of step `{}` overflows to infinity; give a finite constant",
+            net.file, r.span.line, r.label
+        )));
+    }
+    if let Some(m) = net.motifs.iter().find(|m| !m.k_half.is_finite()) {
+        let r = &net.reactions[m.unbind.unwrap_or(m.output)];
+        return Err(Error::usage(format!(
+            "{}:{}: the half-saturation constant K of motif {}·{} overflows (K = (unbind + output constant) / bind is not finite), so its fluxes cannot be reconciled; give step `{}` a smaller constant",
+            net.file,
+            r.span.line,
+            net.species[m.carrier].name,
+            net.species[m.ligand].name,
+            r.label
+        )));
+    }
+    Ok(())
 }
 
 fn fit_param(

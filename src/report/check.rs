@@ -218,7 +218,7 @@ pub fn table(net: &Network) -> String {
         )),
     }
     let several = net.compartments.len() > 1;
-    let mut head = vec!["species", "initial (molecules)", "initial (M)", "held"];
+    let mut head = vec!["species", "initial (molecules)", "initial", "held"];
     if several {
         head.push("compartment");
     }
@@ -227,8 +227,9 @@ pub fn table(net: &Network) -> String {
         let mut row = vec![
             s.name.clone(),
             s.initial.to_string(),
-            net.concentration_factor(i)
-                .map_or("-".into(), |f| num(s.initial as f64 * f)),
+            net.concentration_factor(i).map_or("-".into(), |f| {
+                super::units::level(net, i, s.initial as f64 * f)
+            }),
             if s.clamped {
                 "clamped".into()
             } else {
@@ -250,7 +251,11 @@ pub fn table(net: &Network) -> String {
         let rate = match &r.kinetics {
             crate::network::Kinetics::MassAction { k, .. } => {
                 if net.volume_l.is_some() {
-                    format!("k = {} (M, s)", num(*k))
+                    format!(
+                        "k = {} {}",
+                        num(*k),
+                        super::units::mass_action_unit(r.order())
+                    )
                 } else {
                     "mass action".into()
                 }
@@ -307,7 +312,7 @@ pub fn table(net: &Network) -> String {
             "complex",
             "steps",
             "K (molecules)",
-            "K (M)",
+            "K",
         ]);
         for m in &net.motifs {
             let label = |j: usize| net.reactions[j].label.clone();
@@ -321,8 +326,9 @@ pub fn table(net: &Network) -> String {
                 net.species[m.complex].name.clone(),
                 steps.join(", "),
                 num(m.k_half),
-                net.volume_l
-                    .map_or("-".into(), |_| num(m.k_half / net.reaction_omega(m.bind))),
+                net.volume_l.map_or("-".into(), |_| {
+                    super::units::level(net, m.ligand, m.k_half / net.reaction_omega(m.bind))
+                }),
             ]);
         }
         out.push_str(&t.render());

@@ -10,6 +10,7 @@ pub mod simulate;
 pub mod steady;
 pub mod sweep;
 pub mod table;
+pub mod units;
 
 /// `2 A + B`, or `0` for an empty side.
 pub fn side(net: &crate::Network, terms: &[(usize, u32)]) -> String {

@@ -174,17 +174,24 @@ pub fn table(net: &Network, r: &Reconciliation) -> String {
         out.push_str(&t.render());
         out.push('\n');
     }
-    let unit = if net.volume_l.is_some() {
-        "M"
-    } else {
-        "molecules"
+    // Each species in its own compartment, in the unit the file declared it with.
+    let with_volume = |i: usize| net.species_molar_omega(i).is_some();
+    let shown = |i: usize, count: f64| match net.species_molar_omega(i) {
+        Some(w) => super::units::species_unit(net, i).of(count / w),
+        None => count,
     };
-    // Each species in its own compartment.
-    let scale_of = |i: usize| net.species_molar_omega(i).map_or(1.0, |w| 1.0 / w);
+    let unit_of = |i: usize| {
+        if with_volume(i) {
+            super::units::species_unit(net, i).name
+        } else {
+            "molecules".to_string()
+        }
+    };
     if !r.observations.is_empty() {
-        out.push_str(&format!("observed steady levels ({unit})\n"));
+        out.push_str("observed steady levels\n");
         let mut t = Table::new(&[
             "species",
+            "unit",
             "observed",
             "deterministic",
             "ensemble",
@@ -192,15 +199,16 @@ pub fn table(net: &Network, r: &Reconciliation) -> String {
             "verdict",
         ]);
         for o in &r.observations {
-            let scale = scale_of(o.observation.species);
+            let i = o.observation.species;
             t.row(vec![
                 o.name.clone(),
-                format!("{} ± {}", num(o.observed * scale), num(o.sd * scale)),
-                num(o.deterministic * scale),
+                unit_of(i),
+                format!("{} ± {}", num(shown(i, o.observed)), num(shown(i, o.sd))),
+                num(shown(i, o.deterministic)),
                 format!(
                     "{} ± {}",
-                    num(o.ensemble.mean * scale),
-                    num(o.ensemble.half_width() * scale)
+                    num(shown(i, o.ensemble.mean)),
+                    num(shown(i, o.ensemble.half_width()))
                 ),
                 num(o.z),
                 o.verdict.as_str().into(),
@@ -229,25 +237,25 @@ pub fn table(net: &Network, r: &Reconciliation) -> String {
     if let Some(f) = &r.fit {
         match (f.value, &f.why) {
             (Some(v), _) => {
-                let ci = f.ci95.map_or(String::new(), |c| {
-                    format!(", 95 % interval [{}, {}]", num(c[0]), num(c[1]))
-                });
+                let value = |x: f64| super::units::param_value(net, &f.param, x);
+                let ci = f.ci95.map_or(
+                    " (no 95 % interval: give the observation an SD, NAME=VALUE±SD)".to_string(),
+                    |c| format!(", 95 % interval [{}, {}]", value(c[0]), value(c[1])),
+                );
                 out.push_str(&format!(
-                    "fit: {} = {}{ci} (canonical units; the file has {}) makes the deterministic level match\n",
+                    "fit: {} = {}{ci} (the file has {}) makes the deterministic level match\n",
                     f.param,
-                    num(v),
-                    num(f.original)
+                    value(v),
+                    value(f.original)
                 ));
                 if let Some(c) = &f.confirmation {
                     // The fit is to the first observation.
-                    let scale = r
-                        .observations
-                        .first()
-                        .map_or(1.0, |o| scale_of(o.observation.species));
+                    let i = r.observations.first().map_or(0, |o| o.observation.species);
                     out.push_str(&format!(
-                        "  ensemble at the fitted value: {} ± {} {unit}, z = {}, {}\n",
-                        num(c.ensemble.mean * scale),
-                        num(c.ensemble.half_width() * scale),
+                        "  ensemble at the fitted value: {} ± {} {}, z = {}, {}\n",
+                        num(shown(i, c.ensemble.mean)),
+                        num(shown(i, c.ensemble.half_width())),
+                        unit_of(i),
                         num(c.z),
                         c.verdict.as_str()
                     ));

@@ -10,8 +10,11 @@
 //! CSV layout (`--out`): one header row, then one row per grid time:
 //! `time_s,<A>_mean,<A>_sd,<B>_mean,<B>_sd,…` with species in file order, counts in molecules
 //! across replicates (sd is the sample SD over replicates; `NaN` with a single replicate),
-//! then `<A>_concentration_mean,<A>_concentration_sd,…` (mol/L) for every species in a
-//! compartment, then `<p>_mean,<p>_sd` for every param that events change.
+//! then `<A>_<unit>_mean,<A>_<unit>_sd,…` for every species in a compartment, in the
+//! concentration unit the file declared it with (`H_nM_mean`; `uM` for µM), then
+//! `<p>_mean,<p>_sd` for every param that events change. Numbers are written by
+//! [`crate::numbers::csv`] (fifteen significant digits, no rounding noise), so the file loads
+//! as is in pandas (`read_csv`) and R (`read.csv`).
 //!
 //! `--method ode` has its own report ([`ode_json`], [`ode_table`], [`ode_csv`]): the same
 //! grid keys with the deterministic value under `mean` and no `sd`.
@@ -212,8 +215,8 @@ pub fn table(net: &Network, r: &EnsembleResult) -> String {
         "time average ± sd (molecules)",
     ];
     if any_molar {
-        header.push("final mean (M)");
-        header.push("time average (M)");
+        header.push("final mean");
+        header.push("time average");
     }
     let mut t = Table::new(&header);
     for i in 0..net.species.len() {
@@ -226,8 +229,8 @@ pub fn table(net: &Network, r: &EnsembleResult) -> String {
         if any_molar {
             match molar_factor(net, i) {
                 Some(f) => {
-                    row.push(num(r.final_state[i].mean() * f));
-                    row.push(num(r.time_average[i].mean() * f));
+                    row.push(super::units::level(net, i, r.final_state[i].mean() * f));
+                    row.push(super::units::level(net, i, r.time_average[i].mean() * f));
                 }
                 None => row.extend(["-".to_string(), "-".to_string()]),
             }
@@ -270,30 +273,29 @@ pub fn csv(net: &Network, r: &EnsembleResult) -> String {
     for s in &net.species {
         out.push_str(&format!(",{0}_mean,{0}_sd", s.name));
     }
-    let conc: Vec<(usize, f64)> = (0..net.species.len())
-        .filter_map(|i| molar_factor(net, i).map(|f| (i, f)))
-        .collect();
-    for &(i, _) in &conc {
+    let conc = csv_concentrations(net);
+    for (i, _, unit) in &conc {
         out.push_str(&format!(
-            ",{0}_concentration_mean,{0}_concentration_sd",
-            net.species[i].name
+            ",{0}_{unit}_mean,{0}_{unit}_sd",
+            net.species[*i].name
         ));
     }
     for &p in &r.varying_params {
         out.push_str(&format!(",{0}_mean,{0}_sd", net.params[p].name));
     }
     out.push('\n');
+    let n = crate::numbers::csv;
     for (p, &time) in r.grid_times.iter().enumerate() {
-        out.push_str(&format!("{time}"));
+        out.push_str(&n(time));
         for w in &r.grid[p] {
-            out.push_str(&format!(",{},{}", w.mean(), w.sd()));
+            out.push_str(&format!(",{},{}", n(w.mean()), n(w.sd())));
         }
-        for &(i, f) in &conc {
+        for &(i, f, _) in &conc {
             let w = &r.grid[p][i];
-            out.push_str(&format!(",{},{}", w.mean() * f, w.sd() * f));
+            out.push_str(&format!(",{},{}", n(w.mean() * f), n(w.sd() * f)));
         }
         for w in &r.grid_params[p] {
-            out.push_str(&format!(",{},{}", w.mean(), w.sd()));
+            out.push_str(&format!(",{},{}", n(w.mean()), n(w.sd())));
         }
         out.push('\n');
     }
@@ -383,7 +385,7 @@ pub fn ode_table(net: &Network, tr: &Trajectory, t_end: f64, wall_seconds: f64) 
     let any_molar = (0..net.species.len()).any(|i| molar_factor(net, i).is_some());
     let mut header = vec!["species", "final (molecules)"];
     if any_molar {
-        header.push("final (M)");
+        header.push("final");
     }
     let mut t = Table::new(&header);
     let last = counts.last();
@@ -391,7 +393,9 @@ pub fn ode_table(net: &Network, tr: &Trajectory, t_end: f64, wall_seconds: f64) 
         let c = last.map_or(f64::NAN, |row| row[i]);
         let mut row = vec![species_label(net, i), num(amount(net, c))];
         if any_molar {
-            row.push(molar_factor(net, i).map_or("-".into(), |f| num(c * f)));
+            row.push(
+                molar_factor(net, i).map_or("-".into(), |f| super::units::level(net, i, c * f)),
+            );
         }
         t.row(row);
     }
@@ -399,8 +403,21 @@ pub fn ode_table(net: &Network, tr: &Trajectory, t_end: f64, wall_seconds: f64) 
     out
 }
 
+/// Species with a concentration in the CSV: index, factor from a count to the file's unit,
+/// and the unit's ASCII name.
+fn csv_concentrations(net: &Network) -> Vec<(usize, f64, String)> {
+    (0..net.species.len())
+        .filter_map(|i| {
+            molar_factor(net, i).map(|f| {
+                let u = super::units::species_unit(net, i);
+                (i, f / u.factor, u.ascii())
+            })
+        })
+        .collect()
+}
+
 /// The grid of `simulate --method ode` as CSV: `time_s,<A>_mean,…`, then
-/// `<A>_concentration_mean,…` for species in a compartment, then `<p>_mean` for params that
+/// `<A>_<unit>_mean,…` for species in a compartment, then `<p>_mean` for params that
 /// events change.
 pub fn ode_csv(net: &Network, tr: &Trajectory) -> String {
     let counts = ode_counts(net, tr);
@@ -408,11 +425,9 @@ pub fn ode_csv(net: &Network, tr: &Trajectory) -> String {
     for s in &net.species {
         out.push_str(&format!(",{}_mean", s.name));
     }
-    let conc: Vec<(usize, f64)> = (0..net.species.len())
-        .filter_map(|i| molar_factor(net, i).map(|f| (i, f)))
-        .collect();
-    for &(i, _) in &conc {
-        out.push_str(&format!(",{}_concentration_mean", net.species[i].name));
+    let conc = csv_concentrations(net);
+    for (i, _, unit) in &conc {
+        out.push_str(&format!(",{}_{unit}_mean", net.species[*i].name));
     }
     let varying: Vec<usize> = (0..net.params.len())
         .filter(|&p| net.params[p].varies)
@@ -422,15 +437,16 @@ pub fn ode_csv(net: &Network, tr: &Trajectory) -> String {
     }
     out.push('\n');
     for (k, &time) in tr.times.iter().enumerate() {
-        out.push_str(&format!("{time}"));
+        let n = crate::numbers::csv;
+        out.push_str(&n(time));
         for &c in &counts[k] {
-            out.push_str(&format!(",{}", amount(net, c)));
+            out.push_str(&format!(",{}", n(amount(net, c))));
         }
-        for &(i, f) in &conc {
-            out.push_str(&format!(",{}", counts[k][i] * f));
+        for &(i, f, _) in &conc {
+            out.push_str(&format!(",{}", n(counts[k][i] * f)));
         }
         for &p in &varying {
-            out.push_str(&format!(",{}", tr.params[k][p]));
+            out.push_str(&format!(",{}", n(tr.params[k][p])));
         }
         out.push('\n');
     }

@@ -1,6 +1,7 @@
 //! The report of `copyloop steady`.
 
 use super::table::Table;
+use super::units;
 use super::{jnum, num, side};
 use crate::deterministic::Steady;
 use crate::network::law_text;
@@ -139,7 +140,7 @@ pub fn table(net: &Network, st: &Steady) -> String {
     let with_volume = net.volume_l.is_some();
     let mut head = vec!["species", "molecules"];
     if with_volume {
-        head.push("M");
+        head.push("concentration");
     }
     head.push("held");
     let mut t = Table::new(&head);
@@ -147,7 +148,7 @@ pub fn table(net: &Network, st: &Steady) -> String {
         if let Some(o) = st.outputs.iter().find(|o| o.species == i) {
             let mut row = vec![s.name.clone(), format!("+{}/s", num(o.rate_per_s))];
             if with_volume {
-                row.push(format!("+{}/s", num(o.rate)));
+                row.push(format!("+{}/s", units::level(net, i, o.rate)));
             }
             row.push("accumulates".into());
             t.row(row);
@@ -157,7 +158,7 @@ pub fn table(net: &Network, st: &Steady) -> String {
         if with_volume {
             row.push(
                 net.species_molar_omega(i)
-                    .map_or("-".into(), |w| num(st.counts[i] / w)),
+                    .map_or("-".into(), |w| units::level(net, i, st.counts[i] / w)),
             );
         }
         row.push(if s.clamped {
@@ -176,7 +177,7 @@ pub fn table(net: &Network, st: &Steady) -> String {
     out.push('\n');
     let mut head = vec!["reaction", "step", "flux (molecules/s)"];
     if with_volume {
-        head.push("flux (M/s)");
+        head.push("flux (concentration/s)");
     }
     let mut t = Table::new(&head);
     for (j, r) in net.reactions.iter().enumerate() {
@@ -186,10 +187,12 @@ pub fn table(net: &Network, st: &Steady) -> String {
             num(st.fluxes_per_s[j]),
         ];
         if with_volume {
-            row.push(
-                net.reaction_molar_omega(j)
-                    .map_or("-".into(), |w| num(st.fluxes_per_s[j] / w)),
-            );
+            row.push(net.reaction_molar_omega(j).map_or("-".into(), |w| {
+                format!(
+                    "{}/s",
+                    units::reaction_level(net, j, st.fluxes_per_s[j] / w)
+                )
+            }));
         }
         t.row(row);
     }
@@ -198,7 +201,10 @@ pub fn table(net: &Network, st: &Steady) -> String {
         out.push_str("\nconserved totals\n");
         for (l, &total) in net.conservation_laws.iter().zip(&st.totals) {
             let molar = match law_omega(net, l) {
-                Some(w) => format!(" ({} M)", num(total * net.omega / w)),
+                Some(w) => {
+                    let i = l.iter().position(|&c| c != 0).unwrap_or(0);
+                    format!(" ({})", units::level(net, i, total * net.omega / w))
+                }
                 None => String::new(),
             };
             out.push_str(&format!(

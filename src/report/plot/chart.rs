@@ -4,6 +4,7 @@
 
 use super::axis::{label, AxisSpec, Scale};
 use super::canvas::{Anchor, Canvas, Paint};
+use super::frame::{self, WIDTH};
 use super::ramp::series_colour;
 use super::text::{fit, width};
 
@@ -107,11 +108,8 @@ pub struct Chart {
     pub notes: Vec<String>,
 }
 
-const WIDTH: f64 = 760.0;
 const MIN_HEIGHT: f64 = 480.0;
 const TOP: f64 = 48.0;
-const TITLE_SIZE: f64 = 15.0;
-const LABEL_SIZE: f64 = 13.0;
 const TICK_SIZE: f64 = 11.0;
 const LEGEND_SIZE: f64 = 12.0;
 const POINT_LABEL_SIZE: f64 = 10.0;
@@ -214,15 +212,7 @@ impl Chart {
     pub fn render(&self) -> String {
         let l = self.layout();
         let mut k = Canvas::new(WIDTH, l.height);
-        let size = fit(&self.title, TITLE_SIZE, WIDTH - 20.0);
-        k.text(
-            "title",
-            (WIDTH / 2.0, 26.0),
-            &self.title,
-            size,
-            Anchor::Middle,
-            false,
-        );
+        frame::title(&mut k, &self.title);
         self.frame(&mut k, &l);
         let mut markers: Vec<Bounds> = Vec::new();
         let mut labels: Vec<(f64, f64, &str)> = Vec::new();
@@ -282,43 +272,14 @@ impl Chart {
                 );
             }
         }
-        k.rect(
-            "frame",
-            (x0, y0),
-            (x1 - x0, y1 - y0),
-            Paint::stroke("#333333", 1.0),
-            None,
-        );
         let below = y1 + 18.0 * l.category_rows as f64 + 22.0;
-        let size = fit(&self.x.label, LABEL_SIZE, x1 - x0);
-        k.text(
-            "x-label",
-            ((x0 + x1) / 2.0, below),
-            &self.x.label,
-            size,
-            Anchor::Middle,
-            false,
+        frame::labels(
+            k,
+            l.area,
+            below,
+            (&self.x.label, &self.y.label),
+            &self.notes,
         );
-        let size = fit(&self.y.label, LABEL_SIZE, y1 - y0);
-        k.text(
-            "y-label",
-            (18.0, (y0 + y1) / 2.0),
-            &self.y.label,
-            size,
-            Anchor::Middle,
-            true,
-        );
-        for (n, note) in self.notes.iter().enumerate() {
-            let size = fit(note, 10.5, WIDTH - x0 - 10.0);
-            k.text(
-                "note",
-                (x0, below + 17.0 + 15.0 * n as f64),
-                note,
-                size,
-                Anchor::Start,
-                false,
-            );
-        }
     }
 
     fn legend(&self, k: &mut Canvas, l: &Layout) {

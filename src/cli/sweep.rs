@@ -6,7 +6,7 @@
 
 use crate::error::{Error, Result};
 use crate::report;
-use crate::sweep::{self, DesignKind, Plan, Point, Shard, Store, Task};
+use crate::sweep::{self, DesignKind, Fault, Plan, Point, Shard, Store, Task};
 use clap::{ArgMatches, Args, Command, FromArgMatches, ValueEnum};
 use serde_json::{Map, Value};
 use std::io::IsTerminal;
@@ -355,13 +355,15 @@ pub fn run(a: SweepArgs) -> Result<()> {
         );
         std::process::exit(130);
     }
-    if let Some((p, msg, internal)) = outcome.failed.first() {
+    if let Some(first) = outcome.failed.first() {
         let text = format!(
-            "{} of {} points failed (their lines in {out} carry `error`); point {p}: {msg}",
+            "{} of {} points failed (their lines in {out} carry `error`); point {}: {}",
             outcome.failed.len(),
-            members.len()
+            members.len(),
+            first.point,
+            first.message
         );
-        let any_internal = *internal || outcome.failed.iter().any(|f| f.2);
+        let any_internal = outcome.failed.iter().any(|f| f.fault == Fault::Internal);
         return Err(if any_internal {
             Error::Internal(text)
         } else {

@@ -23,7 +23,7 @@ pub mod task;
 
 pub use design::{point_seed, Design, DesignKind};
 pub use response::{response, Axis, Response};
-pub use run::{run, Outcome, RunOptions};
+pub use run::{run, FailedPoint, Fault, Outcome, RunOptions};
 pub use shard::{merge, Merged, Shard};
 pub use spec::Vary;
 pub use store::{scan, Header, Store};

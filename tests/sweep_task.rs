@@ -3,7 +3,7 @@
 
 use copyloop::network::Overrides;
 use copyloop::sweep::{
-    self, DesignKind, Fault, FnTask, Plan, Point, RunOptions, Shard, Store, Task,
+    self, DesignKind, Fault, FnTask, Job, Point, RunOptions, Shard, Store, Task,
 };
 use rand::{RngExt, SeedableRng};
 use rand_xoshiro::Xoshiro256PlusPlus;
@@ -17,9 +17,9 @@ const NET: &str = "# test network\nvolume 1 pL\nspecies H = 50 nM clamped\n\
                    species E = 200 molecules\nspecies C = 0\nparam kon = 2e7 /M/s\n\
                    param koff = 0.5 /s\nstep bind E + H <-> C @ kon, koff\n";
 
-fn plan(specs: &[&str], seed: u64, shard: Option<Shard>) -> Plan {
+fn plan(specs: &[&str], seed: u64, shard: Option<Shard>) -> Job {
     let specs: Vec<String> = specs.iter().map(|s| s.to_string()).collect();
-    Plan::from_source(
+    Job::from_source(
         "t.crn",
         NET.as_bytes().to_vec(),
         &specs,
@@ -50,7 +50,7 @@ fn probe() -> FnTask {
 }
 
 /// Runs `plan` with `task` into a new file at `path`; returns the outcome.
-fn run_to(plan: &Plan, task: &dyn Task, path: &Path, threads: usize) -> sweep::Outcome {
+fn run_to(plan: &Job, task: &dyn Task, path: &Path, threads: usize) -> sweep::Outcome {
     let store = Store::create(path.to_str().unwrap(), &plan.header(task)).unwrap();
     let todo: Vec<u64> = plan.members().collect();
     let stop = AtomicBool::new(false);

@@ -6,7 +6,7 @@
 
 use crate::error::{Error, Result};
 use crate::report;
-use crate::sweep::{self, DesignKind, Fault, Plan, Point, Shard, Store, Task};
+use crate::sweep::{self, DesignKind, Fault, Job, Point, Shard, Store, Task};
 use clap::{ArgMatches, Args, Command, FromArgMatches, ValueEnum};
 use serde_json::{Map, Value};
 use std::io::IsTerminal;
@@ -279,7 +279,7 @@ pub fn run(a: SweepArgs) -> Result<()> {
         DesignArg::Grid => DesignKind::Grid,
         DesignArg::Lhs => DesignKind::Lhs,
     };
-    let plan = Plan::load(&a.file, &a.vary, kind, a.points, a.seed.unwrap_or(0), shard)?;
+    let plan = Job::load(&a.file, &a.vary, kind, a.points, a.seed.unwrap_or(0), shard)?;
     if a.svg.is_some() {
         sweep::response::check_drawable(plan.design.vary.len())?;
     }

@@ -41,16 +41,16 @@ pub enum Interval {
 /// One point: x (a category index on a categorical chart), y, an optional interval
 /// [low, high] and an optional label written beside it.
 #[derive(Clone, Debug, PartialEq)]
-pub struct Point {
+pub struct Datum {
     pub x: f64,
     pub y: f64,
     pub interval: Option<[f64; 2]>,
     pub label: Option<String>,
 }
 
-impl Point {
-    pub fn new(x: f64, y: f64) -> Point {
-        Point {
+impl Datum {
+    pub fn new(x: f64, y: f64) -> Datum {
+        Datum {
             x,
             y,
             interval: None,
@@ -58,12 +58,12 @@ impl Point {
         }
     }
 
-    pub fn with_interval(mut self, low: f64, high: f64) -> Point {
+    pub fn with_interval(mut self, low: f64, high: f64) -> Datum {
         self.interval = Some([low, high]);
         self
     }
 
-    pub fn with_label(mut self, text: impl Into<String>) -> Point {
+    pub fn with_label(mut self, text: impl Into<String>) -> Datum {
         self.label = Some(text.into());
         self
     }
@@ -73,7 +73,7 @@ impl Point {
 #[derive(Clone, Debug, PartialEq)]
 pub struct Series {
     pub name: String,
-    pub points: Vec<Point>,
+    pub points: Vec<Datum>,
     pub line: Option<Dash>,
     pub marker: Option<Marker>,
     pub interval: Interval,
@@ -83,7 +83,7 @@ pub struct Series {
 
 impl Series {
     /// A series of `points` drawn with nothing yet: set `line`, `marker`, `interval`.
-    pub fn new(name: impl Into<String>, points: Vec<Point>) -> Series {
+    pub fn new(name: impl Into<String>, points: Vec<Datum>) -> Series {
         Series {
             name: name.into(),
             points,
@@ -363,7 +363,7 @@ fn draw_series<'s>(
     labels: &mut Vec<(f64, f64, &'s str)>,
 ) {
     k.open("series");
-    let px = |p: &Point| l.x.px(p.x + s.offset);
+    let px = |p: &Datum| l.x.px(p.x + s.offset);
     if s.interval == Interval::Band {
         let paint = Paint {
             fill_opacity: Some(BAND_OPACITY),

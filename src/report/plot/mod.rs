@@ -28,5 +28,5 @@ pub mod ramp;
 pub mod text;
 
 pub use axis::AxisSpec;
-pub use chart::{Chart, Dash, Interval, Marker, Point, Series};
+pub use chart::{Chart, Dash, Datum, Interval, Marker, Series};
 pub use heat::{Cell, Dot, HeatMap};

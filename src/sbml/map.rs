@@ -37,7 +37,8 @@
 //!   method runs it; stochastic methods refuse it, naming the reason
 //!   ([`AmountUnit::stochastic_refusal`]).
 //!
-//! What the network cannot hold yet is refused with [`ErrorKind::NotYet`]: rules, events,
+//! Events become the network's own events (map/events.rs). What the network cannot hold yet is
+//! refused with [`ErrorKind::NotYet`]: rules,
 //! non-integer stoichiometries, conversion factors, MathML operators beyond
 //! `+ − × ÷ ^ exp ln min max sin cos`, comparisons, `and`, `or` and piecewise with an
 //! `otherwise` in laws.
@@ -56,6 +57,8 @@ use crate::network::{
     compile, AmountUnit, Dim, Kinetics, Network, Overrides, Quantity, AVOGADRO, MAX_COUNT,
 };
 use std::collections::HashMap;
+
+mod events;
 
 /// The scale an SBML model is read at.
 #[derive(Clone, Copy, Debug, PartialEq)]
@@ -369,6 +372,9 @@ fn ast_at(
         warnings.extend(warning);
         items.push(Item::Step(step));
     }
+    for (k, e) in m.events.iter().enumerate() {
+        items.extend(cx.event(k, e)?.map(Item::When));
+    }
     Ok(Mapped {
         ast: Ast {
             file: file.to_string(),
@@ -439,14 +445,6 @@ fn supported(doc: &Document) -> Result<(), SbmlError> {
             r.variable.as_deref(),
             r.loc,
             "assignment and rate rules (they arrive with the network extension)",
-        ));
-    }
-    if let Some(e) = m.events.first() {
-        return Err(not_yet(
-            "event",
-            e.id.as_deref(),
-            e.loc,
-            "events (they arrive with the network extension)",
         ));
     }
     if let Some(cf) = &m.conversion_factor {
@@ -1085,7 +1083,8 @@ impl Context<'_> {
                     ))
                 }
             },
-            MathKind::Boolean(_) => return unsupported("truth values in a kinetic law".into()),
+            // A truth value as the comparison that has it (true = 1, false = 0).
+            MathKind::Boolean(b) => bin(BinOp::Gt, num(f64::from(u8::from(*b))), num(0.5)),
             MathKind::Avogadro => num(SBML_AVOGADRO),
             // The network's clock, in the model's time unit at the counts scale (seconds at the
             // volume scale, whose time unit is checked to be the second).

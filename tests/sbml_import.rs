@@ -461,12 +461,38 @@ fn presentation_packages_are_ignored_with_a_warning() {
 #[test]
 fn what_the_network_cannot_hold_yet_is_refused_with_the_reason() {
     let rule = format!(
-        r#"<listOfRules><rateRule variable="p">{MATH}<cn>1</cn></math></rateRule></listOfRules>"#
+        r#"<listOfRules><assignmentRule variable="A">{MATH}<cn>1</cn></math></assignmentRule></listOfRules>"#
     );
-    let doc = l3("", &param("p", 0.0).replace("true", "false"), &rule);
+    let doc = l3(&species("A", 0.0), "", &rule);
     let (code, msg) = check_file(doc.as_bytes());
     assert_eq!(code, Some(2));
-    assert!(msg.contains("<rateRule> `p`: not supported yet"), "{msg}");
+    assert!(
+        msg.contains("<assignmentRule> `A`: not supported yet: an assignment rule on species `A`"),
+        "{msg}"
+    );
+}
+
+#[test]
+fn rules_on_parameters_hold_at_every_instant() {
+    // dp/dt = 2 from p = 0 (p = 2t), q = 3·p by an assignment rule, and 0 → A at rate q:
+    // A(t) = ∫ 6t dt = 3t², A(1) = 3 and A(2) = 12 [C].
+    let rules = format!(
+        r#"<listOfRules><rateRule variable="p">{MATH}<cn>2</cn></math></rateRule>
+           <assignmentRule variable="q">{MATH}<apply><times/><cn>3</cn><ci>p</ci></apply></math></assignmentRule></listOfRules>
+           <listOfReactions><reaction id="make" reversible="false">
+           <listOfProducts><speciesReference species="A" stoichiometry="1" constant="true"/></listOfProducts>
+           <kineticLaw>{MATH}<ci>q</ci></math></kineticLaw></reaction></listOfReactions>"#
+    );
+    let params = r#"<parameter id="p" value="0" constant="false"/><parameter id="q" value="0" constant="false"/>"#;
+    let doc = l3(&species("A", 0.0), params, &rules);
+    let a = a_by_ode(&doc);
+    for (k, want) in [(1, 3.0), (2, 12.0)] {
+        assert!((a[k] - want).abs() < 1e-6 * want, "{a:?}");
+    }
+    // A stochastic run cannot integrate the rate rule: refused with the reason.
+    let (code, _, msg) = run_file(doc.as_bytes(), &["simulate", "--t-end", "2"]);
+    assert_eq!(code, Some(2), "{msg}");
+    assert!(msg.contains("the rate rule on `p`"), "{msg}");
 }
 
 // --- mole-based models: the volume scale ---------------------------------------------------

@@ -73,6 +73,31 @@ impl Context<'_> {
         }))
     }
 
+    /// Refuses two events with the same priority formula: SBML runs such events, when they
+    /// execute at one instant, in random order (§4.12.7 [M]); the network runs them in
+    /// declaration order.
+    pub(super) fn equal_priorities(&self) -> Result<(), SbmlError> {
+        let events = &self.m.events;
+        for (b, e) in events.iter().enumerate() {
+            let Some(pb) = &e.priority else { continue };
+            for a in &events[..b] {
+                if a.priority.as_ref().is_some_and(|pa| pa.same(pb)) {
+                    return Err(not_yet(
+                        "priority",
+                        e.id.as_deref(),
+                        pb.loc,
+                        format!(
+                            "events `{}` and `{}` have the same priority, so SBML executes them in random order at one instant; copyloop runs simultaneous events in a fixed order",
+                            a.id.as_deref().unwrap_or(""),
+                            e.id.as_deref().unwrap_or("")
+                        ),
+                    ));
+                }
+            }
+        }
+        Ok(())
+    }
+
     /// A trigger as a comparison: a formula that is a number (`true`, a parameter) is true
     /// where it is not 0.
     fn condition(&self, e: Expr, loc: Loc) -> Expr {

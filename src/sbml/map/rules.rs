@@ -110,6 +110,15 @@ pub(super) fn rate_rule_refusal(m: &Model) -> Option<String> {
     ))
 }
 
+/// The model's assignment rules that have both a variable and a formula, in document order.
+fn assignment_rules(doc: &Document) -> impl Iterator<Item = (&str, &Math)> {
+    doc.model
+        .rules
+        .iter()
+        .filter(|r| r.kind == RuleKind::Assignment)
+        .filter_map(|r| Some((r.variable.as_deref()?, r.math.as_ref()?)))
+}
+
 /// `doc` with every assignment rule's parameter replaced by its formula wherever it is read
 /// (the rules themselves stay, for their values at t = 0).
 pub(super) fn substituted(doc: &Document, assigned: &[String]) -> Document {
@@ -117,12 +126,8 @@ pub(super) fn substituted(doc: &Document, assigned: &[String]) -> Document {
     if assigned.is_empty() {
         return out;
     }
-    let rules: Vec<(String, Math)> = doc
-        .model
-        .rules
-        .iter()
-        .filter(|r| r.kind == RuleKind::Assignment)
-        .filter_map(|r| Some((r.variable.clone()?, r.math.clone()?)))
+    let rules: Vec<(String, Math)> = assignment_rules(doc)
+        .map(|(v, m)| (v.to_string(), m.clone()))
         .collect();
     let m = &mut out.model;
     for r in &mut m.reactions {
@@ -212,13 +217,7 @@ pub fn rule_values(
     value: &dyn Fn(&str) -> Option<f64>,
     t: f64,
 ) -> Vec<(String, Option<f64>)> {
-    let rules: Vec<(&str, &Math)> = doc
-        .model
-        .rules
-        .iter()
-        .filter(|r| r.kind == RuleKind::Assignment)
-        .filter_map(|r| Some((r.variable.as_deref()?, r.math.as_ref()?)))
-        .collect();
+    let rules: Vec<(&str, &Math)> = assignment_rules(doc).collect();
     let mut known: Vec<(String, Option<f64>)> = Vec::new();
     for _ in 0..=rules.len() {
         for (v, f) in &rules {

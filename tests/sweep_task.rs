@@ -260,10 +260,11 @@ fn a_task_can_recompile_its_point_at_another_volume() {
     let f = dir.path().join("v.jsonl");
     run_to(&plan(&["E=list:100", "H=list:10nM"], 0, None), &task, &f, 1);
     let r = &lines(&f)[&0]["result"];
-    // Amounts kept as concentrations: twice the volume, twice the molecules. 10 nM in 1 pL is
-    // 6022.14 molecules (N_A·V, SI 2019 [verified, docs/references.md §12]).
+    // An amount given as a concentration keeps it: twice the volume, twice the molecules. 10 nM
+    // in 1 pL is 6022.14 molecules (N_A·V, SI 2019 [verified, docs/references.md §12]). An
+    // amount given in molecules keeps its count.
     assert_eq!(r["E"], 100);
-    assert_eq!(r["E_at_2pL"], 200);
+    assert_eq!(r["E_at_2pL"], 100);
     assert_eq!(r["H"], 6022);
     assert_eq!(r["H_at_2pL"], 12044);
 }

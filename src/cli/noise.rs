@@ -22,7 +22,8 @@ pub struct NoiseArgs {
     /// Statistics are taken over [burn-in, t-end] (default: 5 relaxation times, reported)
     #[arg(long, value_parser = super::values::time, allow_negative_numbers = true)]
     pub burn_in: Option<f64>,
-    /// Repeat at these volumes, amounts kept as concentrations, e.g. 0.1pL,1pL,10pL
+    /// Repeat at these volumes, e.g. 0.1pL,1pL,10pL: amounts given as concentrations keep
+    /// their concentration, amounts given in molecules keep their count, rate constants keep k
     #[arg(long, value_delimiter = ',', value_name = "V1,V2,…")]
     pub volumes: Vec<String>,
     /// Master seed; the same seed gives the same numbers whatever the thread count

@@ -260,6 +260,20 @@ impl SweepArgs {
     }
 }
 
+/// Prints the warnings the sweep's probe points (every listed value, the ends of each range)
+/// get and point 0 does not, such as an amount rounded to whole molecules at a small volume.
+fn probe_warnings(plan: &Plan, first: &crate::Network) {
+    for (words, o) in plan.design.probes() {
+        let Ok(net) = crate::network::compile::compile(&plan.ast, &o) else {
+            continue;
+        };
+        for w in net.warnings.iter().filter(|w| !first.warnings.contains(w)) {
+            let text = w.to_string().replacen("error:", "warning:", 1);
+            eprintln!("at the sweep point {words}: {text}\n");
+        }
+    }
+}
+
 pub fn run(a: SweepArgs) -> Result<()> {
     let (a, task_tokens) = a.settle()?;
     let task_name = a.task.as_deref().ok_or_else(|| {
@@ -286,6 +300,7 @@ pub fn run(a: SweepArgs) -> Result<()> {
     let task = task(task_name, &a.file, &task_tokens)?;
     let first = plan.check()?;
     super::print_warnings(&first);
+    probe_warnings(&plan, &first);
     let header = plan.header(task.as_ref());
     let (store, done) = if a.resume {
         Store::resume(out, &header)?

@@ -41,8 +41,11 @@ pub enum Override {
 #[derive(Clone, Debug, Default, PartialEq)]
 pub struct Overrides {
     pub values: Vec<(String, Override)>,
-    /// Compile at this volume (litres) with every amount and constant kept as a concentration:
-    /// counts and count-unit constants are rescaled by Ω_new/Ω_file to their power.
+    /// Compile at this volume (litres), every compartment scaled by the same factor, keeping
+    /// what the file gave: an amount given as a concentration keeps its concentration (its
+    /// count follows Ω), an amount given in molecules keeps its count, and every rate constant
+    /// keeps its macroscopic k (so c = k·Πνᵢ!/Ω^(m−1) follows Ω, a constant written bare or in
+    /// molecule units included). An override of `volume` compiles the same way.
     pub rescale_volume: Option<f64>,
 }
 
@@ -241,6 +244,7 @@ impl<'a> Compiler<'a> {
         let mut volume_seen: Option<Span> = None;
         let mut named_seen: Option<Span> = None;
         let mut file_first: Option<f64> = None;
+        let mut written_first: Option<f64> = None;
         for item in &self.ast.items {
             let (name, lit) = match item {
                 Item::Volume(lit) => {
@@ -299,9 +303,12 @@ impl<'a> Compiler<'a> {
                 continue;
             }
             let first = *file_first.get_or_insert(q.value);
+            let written = *written_first.get_or_insert(lit.quantity.value);
             let ratio = self.overrides.rescale_volume.map_or(1.0, |v| v / first);
             let v = q.value * ratio;
-            self.count_ratio = ratio;
+            if written > 0.0 && written.is_finite() {
+                self.count_ratio = first * ratio / written;
+            }
             let span = match item {
                 Item::Compartment { name, .. } => name.span,
                 _ => lit.span,
@@ -552,7 +559,7 @@ impl<'a> Compiler<'a> {
             }
             q.value * omega
         } else if q.dim == Dim::COUNT || q.dim.is_none() {
-            if q.value.fract() != 0.0 && self.count_ratio == 1.0 {
+            if q.value.fract() != 0.0 {
                 self.error_help(
                     lit.span,
                     format!("`{name}` = {} is not a whole number of molecules", q.value),
@@ -560,7 +567,7 @@ impl<'a> Compiler<'a> {
                 );
                 return 0;
             }
-            q.value * self.count_ratio
+            q.value
         } else {
             self.error_help(
                 lit.span,

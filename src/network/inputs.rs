@@ -111,7 +111,11 @@ impl<'a> Compiler<'a> {
                 return None;
             };
             q.value * self.compartments[c].omega
-        } else if q.dim == Dim::COUNT || q.dim.is_none() {
+        } else if q.dim == Dim::COUNT {
+            // A dose in molecules keeps its count at another volume; `operand` scaled it as a
+            // constant.
+            q.value / self.count_ratio
+        } else if q.dim.is_none() {
             q.value
         } else {
             self.error_help(

@@ -262,9 +262,9 @@ impl SweepArgs {
 
 /// Prints the warnings the sweep's probe points (every listed value, the ends of each range)
 /// get and point 0 does not, such as an amount rounded to whole molecules at a small volume.
-fn probe_warnings(plan: &Plan, first: &crate::Network) {
-    for (words, o) in plan.design.probes() {
-        let Ok(net) = crate::network::compile::compile(&plan.ast, &o) else {
+fn probe_warnings(job: &Job, first: &crate::Network) {
+    for (words, o) in job.design.probes() {
+        let Ok(net) = crate::network::compile::compile(&job.ast, &o) else {
             continue;
         };
         for w in net.warnings.iter().filter(|w| !first.warnings.contains(w)) {

@@ -182,7 +182,17 @@ fn deterministic_time_course_draws_lines_without_bands() {
 
 #[test]
 fn noise_plot_labels_every_point_with_species_and_volume_and_shows_intervals() {
-    let net = load(&example("receptor_signal.crn"), &Overrides::default()).unwrap();
+    // The receptors given as a concentration (≈ 150 molecules in 2 fL), so that each volume
+    // has its own copy numbers: an amount given in molecules keeps its count at every volume.
+    let text = std::fs::read_to_string(example("receptor_signal.crn")).unwrap();
+    let text = text.replace("R  = 150 molecules", "R  = 125 nM");
+    assert!(text.contains("R  = 125 nM"));
+    let net = load_source(
+        "receptor_signal.crn",
+        text.as_bytes(),
+        &Overrides::default(),
+    )
+    .unwrap();
     let opts = copyloop::noise::Options {
         replicates: 20,
         threads: Some(1),

@@ -126,11 +126,12 @@ pub(crate) fn document(a: &SimulateArgs, p: &crate::sweep::Point) -> Result<serd
     };
     let result = ensemble::run(p.net, &spec)
         .map_err(|e| super::values::with_flags(e, super::values::SIMULATE_FLAGS))?;
-    let mut doc = report::simulate::json(p.net, &result);
-    if a.exact {
-        report::simulate::add_exact_json(&mut doc, &exact(p.net, &result, Some(p.threads)));
-    }
-    Ok(doc)
+    let compared = a.exact.then(|| exact(p.net, &result, Some(p.threads)));
+    Ok(report::simulate::json_with_exact(
+        p.net,
+        &result,
+        compared.as_ref(),
+    ))
 }
 
 /// `--exact`: the grid against the transient law, with the defaults of `copyloop distribution`.
@@ -209,11 +210,11 @@ pub fn run(a: &SimulateArgs) -> Result<()> {
         )?;
     }
     if a.json {
-        let mut doc = report::simulate::json(&net, &result);
-        if let Some(e) = &exact {
-            report::simulate::add_exact_json(&mut doc, e);
-        }
-        super::print_json(&doc)
+        super::print_json(&report::simulate::json_with_exact(
+            &net,
+            &result,
+            exact.as_ref(),
+        ))
     } else {
         let mut text = report::simulate::table(&net, &result);
         if let Some(e) = &exact {

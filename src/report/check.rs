@@ -1,20 +1,154 @@
 //! The report of `copyloop check`.
 
+use super::schema::Named;
 use super::table::Table;
-use super::{jnum, num, side};
+use super::{num, side};
 use crate::network::{law_text, Network};
-use serde_json::{json, Map, Value};
+use schemars::JsonSchema;
+use serde::Serialize;
+use serde_json::Value;
 
-fn coefficients(net: &Network, terms: &[(usize, u32)]) -> Value {
-    let mut m = Map::new();
-    for &(i, n) in terms {
-        m.insert(net.species[i].name.clone(), json!(n));
-    }
-    Value::Object(m)
+/// The `--json` document of `check` (docs/json.md): the compiled network as programs read it.
+#[derive(Serialize, JsonSchema)]
+pub struct CheckDocument {
+    pub file: String,
+    /// Volume of the only compartment in litres, or null.
+    pub volume_l: Option<f64>,
+    /// Ω = N_A·V in molecules per mol/L, or null without a volume.
+    pub omega: Option<f64>,
+    pub amount_unit: String,
+    pub compartments: Vec<CompartmentEntry>,
+    pub species: Vec<SpeciesEntry>,
+    pub reactions: Vec<ReactionEntry>,
+    /// Rows are species in `species` order, columns reactions in `reactions` order.
+    pub stoichiometry: Vec<Vec<i64>>,
+    /// Each law as {species: coefficient}; Σ coefficient·count is constant.
+    pub conservation_laws: Vec<Named<i64>>,
+    pub motifs: Vec<MotifEntry>,
+    pub doses: Vec<DoseEntry>,
+    pub infusions: Vec<InfusionEntry>,
+    pub events: Vec<EventEntry>,
+    pub warnings: Vec<WarningEntry>,
 }
 
-fn compartment_of(net: &Network, c: Option<usize>) -> Value {
-    json!(c.map(|c| net.compartments[c].name.clone()))
+/// A compartment: its volume and Ω_c = N_A·V_c.
+#[derive(Serialize, JsonSchema)]
+pub struct CompartmentEntry {
+    pub name: String,
+    pub volume_l: Option<f64>,
+    pub omega: f64,
+}
+
+/// A species as compiled: its initial molecule count.
+#[derive(Serialize, JsonSchema)]
+pub struct SpeciesEntry {
+    pub name: String,
+    pub initial_count: i64,
+    pub clamped: bool,
+    pub compartment: Option<String>,
+}
+
+/// A reaction: sides, order and its stochastic constant c (molecules, s).
+#[derive(Serialize, JsonSchema)]
+pub struct ReactionEntry {
+    pub label: String,
+    pub reactants: Named<u32>,
+    pub products: Named<u32>,
+    pub order: u32,
+    /// c in molecules and seconds; null for a `law`.
+    pub stochastic_constant: Option<f64>,
+    pub compartment: Option<String>,
+    pub transport: bool,
+    /// The law's text, for a reaction whose rate is a `law`.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub law: Option<String>,
+    /// The param a mass-action constant follows, where events change it.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub follows: Option<String>,
+}
+
+/// A carrier motif found in the network (an enzyme or a receptor).
+#[derive(Serialize, JsonSchema)]
+pub struct MotifEntry {
+    /// `enzyme` or `receptor`.
+    pub kind: String,
+    pub carrier: String,
+    pub ligand: String,
+    pub complex: String,
+    pub bind: String,
+    pub unbind: Option<String>,
+    /// K = (k_off + k_cat)/k_on in molecules.
+    pub k_half: f64,
+    pub k_half_molar: Option<f64>,
+    pub compartment: Option<String>,
+    /// The enzyme's catalytic step.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub turnover: Option<String>,
+    /// The receptor's signalling step.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub signal: Option<String>,
+}
+
+/// A dose: a jump of molecules at one or more times.
+#[derive(Serialize, JsonSchema)]
+pub struct DoseEntry {
+    pub species: String,
+    pub molecules: i64,
+    pub first_s: f64,
+    pub period_s: Option<f64>,
+    pub count: u64,
+    pub last_s: f64,
+    pub line: u32,
+}
+
+/// An infusion: a constant inflow over a time window.
+#[derive(Serialize, JsonSchema)]
+pub struct InfusionEntry {
+    pub species: String,
+    pub reaction: String,
+    pub molecules_per_s: f64,
+    pub from_s: f64,
+    pub to_s: f64,
+    pub line: u32,
+}
+
+/// An event: a trigger and the assignments it makes.
+#[derive(Serialize, JsonSchema)]
+pub struct EventEntry {
+    pub label: String,
+    pub condition: String,
+    pub at_start: bool,
+    pub reads_state: bool,
+    pub assignments: Vec<AssignmentEntry>,
+    pub line: u32,
+}
+
+/// One assignment of an event: `target op value`.
+#[derive(Serialize, JsonSchema)]
+pub struct AssignmentEntry {
+    pub target: String,
+    /// `=` or `+=`.
+    pub op: String,
+    pub value: String,
+}
+
+/// A warning of the compiler with its position in the file.
+#[derive(Serialize, JsonSchema)]
+pub struct WarningEntry {
+    pub line: u32,
+    pub column: u32,
+    pub message: String,
+}
+
+fn coefficients(net: &Network, terms: &[(usize, u32)]) -> Named<u32> {
+    terms
+        .iter()
+        .map(|&(i, n)| (net.species[i].name.clone(), n))
+        .collect()
+}
+
+fn compartment_of(net: &Network, c: Option<usize>) -> Option<String> {
+    c.map(|c| net.compartments[c].name.clone())
 }
 
 /// `time ≥ T`-style text of a time sequence: "at 3600 s, every 86400 s, 7 times".
@@ -30,155 +164,157 @@ fn schedule_text(d: &crate::network::Dose) -> String {
     }
 }
 
-fn event_json(net: &Network, e: &crate::network::Event) -> Value {
-    let assignments: Vec<Value> = e
+fn event_entry(net: &Network, e: &crate::network::Event) -> EventEntry {
+    let assignments = e
         .assignments
         .iter()
-        .map(|a| {
-            let target = match a.target {
+        .map(|a| AssignmentEntry {
+            target: match a.target {
                 crate::network::Target::Species(i) => net.species[i].name.clone(),
                 crate::network::Target::Param(p) => net.params[p].name.clone(),
-            };
-            json!({"target": target, "op": if a.add { "+=" } else { "=" }, "value": a.value.text})
+            },
+            op: if a.add { "+=" } else { "=" }.to_string(),
+            value: a.value.text.clone(),
         })
         .collect();
-    json!({
-        "label": e.label,
-        "condition": e.trigger.text,
-        "at_start": !e.initial_value,
-        "reads_state": e.reads_state(),
-        "assignments": assignments,
-        "line": e.span.line,
-    })
+    EventEntry {
+        label: e.label.clone(),
+        condition: e.trigger.text.clone(),
+        at_start: !e.initial_value,
+        reads_state: e.reads_state(),
+        assignments,
+        line: e.span.line,
+    }
+}
+
+/// The typed document of `check`.
+pub fn document(net: &Network) -> CheckDocument {
+    use crate::network::{Kinetics, MotifKind};
+    let reactions = net
+        .reactions
+        .iter()
+        .map(|r| ReactionEntry {
+            label: r.label.clone(),
+            reactants: coefficients(net, &r.reactants),
+            products: coefficients(net, &r.products),
+            order: r.order(),
+            stochastic_constant: r.stochastic_constant(),
+            compartment: compartment_of(net, r.compartment),
+            transport: r.transport,
+            law: match &r.kinetics {
+                Kinetics::Law { law, .. } => Some(law.text.clone()),
+                _ => None,
+            },
+            follows: match &r.kinetics {
+                Kinetics::MassAction {
+                    follows: Some(f), ..
+                } => Some(net.params[f.param].name.clone()),
+                _ => None,
+            },
+        })
+        .collect();
+    let motifs = net
+        .motifs
+        .iter()
+        .map(|m| {
+            let output = Some(net.reactions[m.output].label.clone());
+            let enzyme = matches!(m.kind, MotifKind::Enzyme);
+            MotifEntry {
+                kind: m.kind.as_str().to_string(),
+                carrier: net.species[m.carrier].name.clone(),
+                ligand: net.species[m.ligand].name.clone(),
+                complex: net.species[m.complex].name.clone(),
+                bind: net.reactions[m.bind].label.clone(),
+                unbind: m.unbind.map(|j| net.reactions[j].label.clone()),
+                k_half: m.k_half,
+                k_half_molar: net.volume_l.map(|_| m.k_half / net.reaction_omega(m.bind)),
+                compartment: compartment_of(net, net.reactions[m.bind].compartment),
+                turnover: if enzyme { output.clone() } else { None },
+                signal: if enzyme { None } else { output },
+            }
+        })
+        .collect();
+    CheckDocument {
+        file: net.file.clone(),
+        volume_l: net.volume_l,
+        omega: net.volume_l.map(|_| net.omega),
+        amount_unit: net.amount.name.to_string(),
+        compartments: net
+            .compartments
+            .iter()
+            .map(|c| CompartmentEntry {
+                name: c.name.clone(),
+                volume_l: c.volume_l,
+                omega: c.omega,
+            })
+            .collect(),
+        species: net
+            .species
+            .iter()
+            .map(|s| SpeciesEntry {
+                name: s.name.clone(),
+                initial_count: s.initial,
+                clamped: s.clamped,
+                compartment: compartment_of(net, s.compartment),
+            })
+            .collect(),
+        reactions,
+        stoichiometry: (0..net.species.len())
+            .map(|i| net.stoichiometry.dense_row(i))
+            .collect(),
+        conservation_laws: net
+            .conservation_laws
+            .iter()
+            .map(|l| {
+                l.iter()
+                    .enumerate()
+                    .filter(|(_, &c)| c != 0)
+                    .map(|(i, &c)| (net.species[i].name.clone(), c))
+                    .collect()
+            })
+            .collect(),
+        motifs,
+        doses: net
+            .doses
+            .iter()
+            .map(|d| DoseEntry {
+                species: net.species[d.species].name.clone(),
+                molecules: d.count,
+                first_s: d.times.start,
+                period_s: d.times.period,
+                count: d.times.count,
+                last_s: d.times.last(),
+                line: d.span.line,
+            })
+            .collect(),
+        infusions: net
+            .infusions
+            .iter()
+            .map(|f| InfusionEntry {
+                species: net.species[f.species].name.clone(),
+                reaction: net.reactions[f.reaction].label.clone(),
+                molecules_per_s: f.rate,
+                from_s: f.from,
+                to_s: f.to,
+                line: f.span.line,
+            })
+            .collect(),
+        events: net.events.iter().map(|e| event_entry(net, e)).collect(),
+        warnings: net
+            .warnings
+            .iter()
+            .map(|w| WarningEntry {
+                line: w.span.line,
+                column: w.span.col,
+                message: w.message.clone(),
+            })
+            .collect(),
+    }
 }
 
 /// The JSON document of docs/json.md for `check`.
 pub fn json(net: &Network) -> Value {
-    let species: Vec<Value> = net
-        .species
-        .iter()
-        .map(|s| {
-            json!({
-                "name": s.name,
-                "initial_count": s.initial,
-                "clamped": s.clamped,
-                "compartment": compartment_of(net, s.compartment),
-            })
-        })
-        .collect();
-    let compartments: Vec<Value> = net
-        .compartments
-        .iter()
-        .map(|c| json!({"name": c.name, "volume_l": c.volume_l, "omega": jnum(c.omega)}))
-        .collect();
-    let doses: Vec<Value> = net
-        .doses
-        .iter()
-        .map(|d| {
-            json!({
-                "species": net.species[d.species].name,
-                "molecules": d.count,
-                "first_s": jnum(d.times.start),
-                "period_s": d.times.period.map(jnum),
-                "count": d.times.count,
-                "last_s": jnum(d.times.last()),
-                "line": d.span.line,
-            })
-        })
-        .collect();
-    let infusions: Vec<Value> = net
-        .infusions
-        .iter()
-        .map(|f| {
-            json!({
-                "species": net.species[f.species].name,
-                "reaction": net.reactions[f.reaction].label,
-                "molecules_per_s": jnum(f.rate),
-                "from_s": jnum(f.from),
-                "to_s": jnum(f.to),
-                "line": f.span.line,
-            })
-        })
-        .collect();
-    let events: Vec<Value> = net.events.iter().map(|e| event_json(net, e)).collect();
-    let reactions: Vec<Value> = net
-        .reactions
-        .iter()
-        .map(|r| {
-            let mut v = json!({
-                "label": r.label,
-                "reactants": coefficients(net, &r.reactants),
-                "products": coefficients(net, &r.products),
-                "order": r.order(),
-                "stochastic_constant": r.stochastic_constant().map(jnum),
-                "compartment": compartment_of(net, r.compartment),
-                "transport": r.transport,
-            });
-            match &r.kinetics {
-                crate::network::Kinetics::Law { law, .. } => v["law"] = json!(law.text),
-                crate::network::Kinetics::MassAction {
-                    follows: Some(f), ..
-                } => v["follows"] = json!(net.params[f.param].name),
-                _ => {}
-            }
-            v
-        })
-        .collect();
-    let laws: Vec<Value> = net
-        .conservation_laws
-        .iter()
-        .map(|l| {
-            let mut m = Map::new();
-            for (i, &c) in l.iter().enumerate().filter(|(_, &c)| c != 0) {
-                m.insert(net.species[i].name.clone(), json!(c));
-            }
-            Value::Object(m)
-        })
-        .collect();
-    let motifs: Vec<Value> = net
-        .motifs
-        .iter()
-        .map(|m| {
-            let out_key = match m.kind {
-                crate::network::MotifKind::Enzyme => "turnover",
-                crate::network::MotifKind::Receptor => "signal",
-            };
-            let mut v = json!({
-                "kind": m.kind.as_str(),
-                "carrier": net.species[m.carrier].name,
-                "ligand": net.species[m.ligand].name,
-                "complex": net.species[m.complex].name,
-                "bind": net.reactions[m.bind].label,
-                "unbind": m.unbind.map(|j| net.reactions[j].label.clone()),
-                "k_half": jnum(m.k_half),
-                "k_half_molar": net.volume_l.map(|_| jnum(m.k_half / net.reaction_omega(m.bind))),
-                "compartment": compartment_of(net, net.reactions[m.bind].compartment),
-            });
-            v[out_key] = json!(net.reactions[m.output].label);
-            v
-        })
-        .collect();
-    let warnings: Vec<Value> = net
-        .warnings
-        .iter()
-        .map(|w| json!({"line": w.span.line, "column": w.span.col, "message": w.message}))
-        .collect();
-    json!({
-        "file": net.file,
-        "volume_l": net.volume_l,
-        "omega": net.volume_l.map(|_| net.omega),
-        "amount_unit": net.amount.name,
-        "compartments": compartments,
-        "species": species,
-        "reactions": reactions,
-        "stoichiometry": net.stoichiometry,
-        "conservation_laws": laws,
-        "motifs": motifs,
-        "doses": doses,
-        "infusions": infusions,
-        "events": events,
-        "warnings": warnings,
-    })
+    super::schema::to_value(&document(net))
 }
 
 /// The readable report of `check`.

@@ -6,6 +6,7 @@ pub mod distribution;
 pub mod noise;
 pub mod plot;
 pub mod reconcile;
+pub mod schema;
 pub mod simulate;
 pub mod steady;
 pub mod sweep;
@@ -34,13 +35,4 @@ pub fn side(net: &crate::Network, terms: &[(usize, u32)]) -> String {
 /// A number in a short readable form: four significant digits ([`crate::numbers::short`]).
 pub fn num(x: f64) -> String {
     crate::numbers::short(x)
-}
-
-/// A JSON number, or null when not finite (JSON has no NaN or infinity).
-pub fn jnum(x: f64) -> serde_json::Value {
-    if x.is_finite() {
-        serde_json::json!(x)
-    } else {
-        serde_json::Value::Null
-    }
 }

@@ -19,13 +19,16 @@
 //! `--method ode` has its own report ([`ode_json`], [`ode_table`], [`ode_csv`]): the same
 //! grid keys with the deterministic value under `mean` and no `sd`.
 
+use super::num;
+use super::schema::Named;
 use super::table::Table;
-use super::{jnum, num};
 use crate::deterministic::Trajectory;
 use crate::ensemble::EnsembleResult;
 use crate::network::Network;
 use crate::stats::Welford;
-use serde_json::{json, Map, Value};
+use schemars::JsonSchema;
+use serde::Serialize;
+use serde_json::Value;
 
 /// 1/Ω_c of species `i`'s compartment, where it has one.
 fn molar_factor(net: &Network, i: usize) -> Option<f64> {
@@ -46,117 +49,300 @@ fn compartment_name(net: &Network, i: usize) -> Option<&str> {
         .map(|c| net.compartments[c].name.as_str())
 }
 
-fn moments(w: &Welford, molar: Option<f64>) -> Map<String, Value> {
-    let mut m = Map::new();
-    m.insert("mean".into(), jnum(w.mean()));
-    m.insert("sd".into(), jnum(w.sd()));
-    m.insert("stderr".into(), jnum(w.stderr()));
+/// The `--json` document of `simulate`: an ensemble's, or (`--method ode`) the
+/// deterministic time course's.
+#[derive(Serialize, JsonSchema)]
+#[serde(untagged)]
+pub enum SimulateDocument {
+    Ensemble(Box<EnsembleDocument>),
+    Ode(Box<OdeDocument>),
+}
+
+/// The ensemble's document (docs/json.md): moments over replicates of the final state, the
+/// time averages over the window, the firings, and the grid.
+#[derive(Serialize, JsonSchema)]
+pub struct EnsembleDocument {
+    pub method: String,
+    pub amount_unit: String,
+    pub replicates: u64,
+    pub seed: u64,
+    pub t_end: f64,
+    /// Start of the averaging window, s.
+    pub window: f64,
+    pub grid_points: usize,
+    pub events_total: u64,
+    pub leaps: u64,
+    pub exact_steps: u64,
+    pub wall_seconds: f64,
+    pub events_per_second: f64,
+    /// Replicates that reached a state where nothing can fire before `t_end`.
+    pub absorbed_replicates: u64,
+    #[serde(rename = "final")]
+    pub final_state: Named<Moments>,
+    pub time_average: Named<Average>,
+    /// Firings of each reaction in the averaging window.
+    pub firings: Named<Firings>,
+    pub firings_first_half: Named<MeanSd>,
+    pub grid: Grid,
+    /// The comparison with the exact distribution (`--exact`); null where the network does
+    /// not fit a finite state projection, with `exact_note` saying why.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub exact: Option<Exact>,
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub exact_note: Option<String>,
+}
+
+/// The comparison with the exact distribution, where `--exact` asked for it.
+#[derive(Serialize, JsonSchema)]
+#[serde(untagged)]
+pub enum Exact {
+    /// The network does not fit a finite state projection (printed as `null`).
+    Unavailable,
+    /// Z and Y statistics per species and grid time.
+    Compared(serde_json::Value),
+}
+
+/// Mean, SD, standard error and 95 % interval over replicates, in molecules, with their
+/// molar twins where the species (or reaction) has a compartment with a volume.
+#[derive(Serialize, JsonSchema)]
+pub struct Moments {
+    pub mean: f64,
+    pub sd: f64,
+    pub stderr: f64,
+    pub ci95: [f64; 2],
+    #[serde(flatten)]
+    pub molar: Option<MolarMoments>,
+}
+
+/// The molar twins of [`Moments`]: count/Ω_c in mol/L.
+#[derive(Serialize, JsonSchema)]
+pub struct MolarMoments {
+    pub mean_molar: f64,
+    pub sd_molar: f64,
+    pub stderr_molar: f64,
+    pub ci95_molar: [f64; 2],
+}
+
+/// A species' time average over the window, with the mean within-trajectory variance.
+#[derive(Serialize, JsonSchema)]
+pub struct Average {
+    #[serde(flatten)]
+    pub moments: Moments,
+    pub within_variance: f64,
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub within_variance_molar: Option<f64>,
+}
+
+/// A reaction's firings in the window and the rate they imply.
+#[derive(Serialize, JsonSchema)]
+pub struct Firings {
+    #[serde(flatten)]
+    pub moments: Moments,
+    pub rate_per_s: f64,
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub rate_molar_per_s: Option<f64>,
+}
+
+/// A mean and SD over replicates.
+#[derive(Serialize, JsonSchema)]
+pub struct MeanSd {
+    pub mean: f64,
+    pub sd: f64,
+}
+
+/// The grid: `time`, then one series per species and per param that changes during the run.
+#[derive(Serialize, JsonSchema)]
+pub struct Grid {
+    pub time: Vec<f64>,
+    #[serde(flatten)]
+    pub series: Named<Series>,
+}
+
+/// One column of the grid. Species: the mean (and, for an ensemble, the SD) in molecules,
+/// and in concentration where the compartment has a volume. Params: `kind` is `"param"`.
+#[derive(Serialize, JsonSchema)]
+pub struct Series {
+    pub mean: Vec<f64>,
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub sd: Option<Vec<f64>>,
+    #[serde(flatten)]
+    pub concentration: Option<Concentration>,
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub kind: Option<SeriesKind>,
+}
+
+/// What a grid series that is not a species holds.
+#[derive(Serialize, JsonSchema)]
+#[serde(rename_all = "snake_case")]
+pub enum SeriesKind {
+    Param,
+}
+
+/// A species series in concentration (mol/L under `_molar`, the file's unit under
+/// `concentration_`).
+#[derive(Serialize, JsonSchema)]
+pub struct Concentration {
+    pub mean_molar: Vec<f64>,
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub sd_molar: Option<Vec<f64>>,
+    pub concentration_mean: Vec<f64>,
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub concentration_sd: Option<Vec<f64>>,
+    pub concentration_unit: String,
+    pub compartment: Option<String>,
+}
+
+/// The deterministic time course's document (`--method ode`).
+#[derive(Serialize, JsonSchema)]
+pub struct OdeDocument {
+    /// Always `ode`.
+    pub method: String,
+    pub amount_unit: String,
+    pub t_end: f64,
+    pub grid_points: usize,
+    pub wall_seconds: f64,
+    pub steps_accepted: usize,
+    pub steps_rejected: usize,
+    pub breakpoints: usize,
+    #[serde(rename = "final")]
+    pub final_state: Named<OdeFinal>,
+    pub grid: Grid,
+}
+
+/// A species' final deterministic value, in the amount unit and in concentration.
+#[derive(Serialize, JsonSchema)]
+pub struct OdeFinal {
+    pub mean: f64,
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub mean_molar: Option<f64>,
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub concentration_mean: Option<f64>,
+}
+
+fn moments(w: &Welford, molar: Option<f64>) -> Moments {
     let ci = w.ci95();
-    m.insert("ci95".into(), json!([jnum(ci[0]), jnum(ci[1])]));
-    if let Some(f) = molar {
-        m.insert("mean_molar".into(), jnum(w.mean() * f));
-        m.insert("sd_molar".into(), jnum(w.sd() * f));
-        m.insert("stderr_molar".into(), jnum(w.stderr() * f));
-        m.insert(
-            "ci95_molar".into(),
-            json!([jnum(ci[0] * f), jnum(ci[1] * f)]),
+    Moments {
+        mean: w.mean(),
+        sd: w.sd(),
+        stderr: w.stderr(),
+        ci95: ci,
+        molar: molar.map(|f| MolarMoments {
+            mean_molar: w.mean() * f,
+            sd_molar: w.sd() * f,
+            stderr_molar: w.stderr() * f,
+            ci95_molar: [ci[0] * f, ci[1] * f],
+        }),
+    }
+}
+
+/// The typed document of an ensemble run.
+pub fn document(net: &Network, r: &EnsembleResult) -> EnsembleDocument {
+    let t = r.window_length();
+    let mut final_state = Named::new();
+    let mut time_average = Named::new();
+    for (i, s) in net.species.iter().enumerate() {
+        let molar = molar_factor(net, i);
+        final_state.insert(s.name.clone(), moments(&r.final_state[i], molar));
+        let wv = r.within_variance[i].mean();
+        time_average.insert(
+            s.name.clone(),
+            Average {
+                moments: moments(&r.time_average[i], molar),
+                within_variance: wv,
+                within_variance_molar: molar.map(|f| wv * f * f),
+            },
         );
     }
-    m
+    let mut firings = Named::new();
+    let mut halves = Named::new();
+    for (j, rx) in net.reactions.iter().enumerate() {
+        let molar = reaction_molar(net, j);
+        let w = &r.firings[j];
+        firings.insert(
+            rx.label.clone(),
+            Firings {
+                moments: moments(w, molar),
+                rate_per_s: w.mean() / t,
+                rate_molar_per_s: molar.map(|f| w.mean() / t * f),
+            },
+        );
+        let h = &r.firings_first_half[j];
+        halves.insert(
+            rx.label.clone(),
+            MeanSd {
+                mean: h.mean(),
+                sd: h.sd(),
+            },
+        );
+    }
+    let mut series = Named::new();
+    for (i, s) in net.species.iter().enumerate() {
+        let col = |f: &dyn Fn(&Welford) -> f64| -> Vec<f64> {
+            r.grid.iter().map(|row| f(&row[i])).collect()
+        };
+        series.insert(
+            s.name.clone(),
+            Series {
+                mean: col(&|w| w.mean()),
+                sd: Some(col(&|w| w.sd())),
+                concentration: molar_factor(net, i).map(|f| Concentration {
+                    mean_molar: col(&|w| w.mean() * f),
+                    sd_molar: Some(col(&|w| w.sd() * f)),
+                    concentration_mean: col(&|w| w.mean() * f),
+                    concentration_sd: Some(col(&|w| w.sd() * f)),
+                    concentration_unit: net.amount.concentration_unit.clone(),
+                    compartment: compartment_name(net, i).map(str::to_string),
+                }),
+                kind: None,
+            },
+        );
+    }
+    for (k, &p) in r.varying_params.iter().enumerate() {
+        let col = |f: &dyn Fn(&Welford) -> f64| -> Vec<f64> {
+            r.grid_params.iter().map(|row| f(&row[k])).collect()
+        };
+        series.insert(
+            net.params[p].name.clone(),
+            Series {
+                mean: col(&|w| w.mean()),
+                sd: Some(col(&|w| w.sd())),
+                concentration: None,
+                kind: Some(SeriesKind::Param),
+            },
+        );
+    }
+    EnsembleDocument {
+        method: r.spec.method.name().to_string(),
+        amount_unit: net.amount.name.clone(),
+        replicates: r.spec.replicates,
+        seed: r.spec.seed,
+        t_end: r.spec.t_end,
+        window: r.spec.window,
+        grid_points: r.spec.grid_points,
+        events_total: r.events_total,
+        leaps: r.leaps,
+        exact_steps: r.exact_steps,
+        wall_seconds: r.wall_seconds,
+        events_per_second: r.events_per_second(),
+        absorbed_replicates: r.absorbed,
+        final_state,
+        time_average,
+        firings,
+        firings_first_half: halves,
+        grid: Grid {
+            time: r.grid_times.clone(),
+            series,
+        },
+        exact: None,
+        exact_note: None,
+    }
 }
 
 /// The JSON document of docs/json.md for `simulate`, with a few more keys (`window`,
 /// `grid_points`, `absorbed_replicates`, `firings_first_half`, `within_variance`, `ci95`,
 /// `rate_per_s`).
 pub fn json(net: &Network, r: &EnsembleResult) -> Value {
-    let t = r.window_length();
-    let mut finals = Map::new();
-    let mut averages = Map::new();
-    for (i, s) in net.species.iter().enumerate() {
-        let molar = molar_factor(net, i);
-        finals.insert(
-            s.name.clone(),
-            Value::Object(moments(&r.final_state[i], molar)),
-        );
-        let mut a = moments(&r.time_average[i], molar);
-        let wv = r.within_variance[i].mean();
-        a.insert("within_variance".into(), jnum(wv));
-        if let Some(f) = molar {
-            a.insert("within_variance_molar".into(), jnum(wv * f * f));
-        }
-        averages.insert(s.name.clone(), Value::Object(a));
-    }
-    let mut firings = Map::new();
-    let mut halves = Map::new();
-    for (j, rx) in net.reactions.iter().enumerate() {
-        let molar = reaction_molar(net, j);
-        let w = &r.firings[j];
-        let mut m = moments(w, molar);
-        m.insert("rate_per_s".into(), jnum(w.mean() / t));
-        if let Some(f) = molar {
-            m.insert("rate_molar_per_s".into(), jnum(w.mean() / t * f));
-        }
-        firings.insert(rx.label.clone(), Value::Object(m));
-        let h = &r.firings_first_half[j];
-        halves.insert(
-            rx.label.clone(),
-            json!({"mean": jnum(h.mean()), "sd": jnum(h.sd())}),
-        );
-    }
-    let mut grid = Map::new();
-    grid.insert(
-        crate::network::compile::GRID_TIME.into(),
-        Value::Array(r.grid_times.iter().map(|&x| jnum(x)).collect()),
-    );
-    for (i, s) in net.species.iter().enumerate() {
-        let col = |f: &dyn Fn(&Welford) -> f64| -> Value {
-            Value::Array(r.grid.iter().map(|row| jnum(f(&row[i]))).collect())
-        };
-        let mut m = Map::new();
-        m.insert("mean".into(), col(&|w| w.mean()));
-        m.insert("sd".into(), col(&|w| w.sd()));
-        if let Some(f) = molar_factor(net, i) {
-            m.insert("mean_molar".into(), col(&|w| w.mean() * f));
-            m.insert("sd_molar".into(), col(&|w| w.sd() * f));
-            m.insert("concentration_mean".into(), col(&|w| w.mean() * f));
-            m.insert("concentration_sd".into(), col(&|w| w.sd() * f));
-            m.insert(
-                "concentration_unit".into(),
-                json!(net.amount.concentration_unit),
-            );
-            m.insert("compartment".into(), json!(compartment_name(net, i)));
-        }
-        grid.insert(s.name.clone(), Value::Object(m));
-    }
-    for (k, &p) in r.varying_params.iter().enumerate() {
-        let col = |f: &dyn Fn(&Welford) -> f64| -> Value {
-            Value::Array(r.grid_params.iter().map(|row| jnum(f(&row[k]))).collect())
-        };
-        grid.insert(
-            net.params[p].name.clone(),
-            json!({"mean": col(&|w| w.mean()), "sd": col(&|w| w.sd()), "kind": "param"}),
-        );
-    }
-    json!({
-        "method": r.spec.method.name(),
-        "amount_unit": net.amount.name,
-        "replicates": r.spec.replicates,
-        "seed": r.spec.seed,
-        "t_end": jnum(r.spec.t_end),
-        "window": jnum(r.spec.window),
-        "grid_points": r.spec.grid_points,
-        "events_total": r.events_total,
-        "leaps": r.leaps,
-        "exact_steps": r.exact_steps,
-        "wall_seconds": jnum(r.wall_seconds),
-        "events_per_second": jnum(r.events_per_second()),
-        "absorbed_replicates": r.absorbed,
-        "final": finals,
-        "time_average": averages,
-        "firings": firings,
-        "firings_first_half": halves,
-        "grid": grid,
-    })
+    super::schema::to_value(&document(net, r))
 }
 
 fn pm(w: &Welford) -> String {
@@ -316,56 +502,74 @@ fn amount(net: &Network, count: f64) -> f64 {
     count / net.amount.count_per_amount
 }
 
-/// The `--json` document of `simulate --method ode`: the grid of the deterministic time
+/// The typed document of `simulate --method ode`: the grid of the deterministic time
 /// course (amounts under `mean`, concentrations under `concentration_mean`, no `sd`), the
 /// final state, the params that events change, and the integrator's work.
-pub fn ode_json(net: &Network, tr: &Trajectory, t_end: f64, wall_seconds: f64) -> Value {
+pub fn ode_document(net: &Network, tr: &Trajectory, t_end: f64, wall_seconds: f64) -> OdeDocument {
     let counts = ode_counts(net, tr);
-    let mut grid = Map::new();
-    grid.insert(
-        crate::network::compile::GRID_TIME.into(),
-        Value::Array(tr.times.iter().map(|&x| jnum(x)).collect()),
-    );
-    let mut finals = Map::new();
+    let mut series = Named::new();
+    let mut final_state = Named::new();
     for (i, s) in net.species.iter().enumerate() {
-        let col = |f: &dyn Fn(f64) -> f64| -> Value {
-            Value::Array(counts.iter().map(|row| jnum(f(row[i]))).collect())
-        };
-        let mut m = Map::new();
-        m.insert("mean".into(), col(&|c| amount(net, c)));
+        let col =
+            |f: &dyn Fn(f64) -> f64| -> Vec<f64> { counts.iter().map(|row| f(row[i])).collect() };
         let last = counts.last().map_or(f64::NAN, |row| row[i]);
-        let mut fin = Map::new();
-        fin.insert("mean".into(), jnum(amount(net, last)));
-        if let Some(f) = molar_factor(net, i) {
-            m.insert("mean_molar".into(), col(&|c| c * f));
-            m.insert("concentration_mean".into(), col(&|c| c * f));
-            m.insert(
-                "concentration_unit".into(),
-                json!(net.amount.concentration_unit),
-            );
-            m.insert("compartment".into(), json!(compartment_name(net, i)));
-            fin.insert("mean_molar".into(), jnum(last * f));
-            fin.insert("concentration_mean".into(), jnum(last * f));
-        }
-        grid.insert(s.name.clone(), Value::Object(m));
-        finals.insert(s.name.clone(), Value::Object(fin));
+        let factor = molar_factor(net, i);
+        series.insert(
+            s.name.clone(),
+            Series {
+                mean: col(&|c| amount(net, c)),
+                sd: None,
+                concentration: factor.map(|f| Concentration {
+                    mean_molar: col(&|c| c * f),
+                    sd_molar: None,
+                    concentration_mean: col(&|c| c * f),
+                    concentration_sd: None,
+                    concentration_unit: net.amount.concentration_unit.clone(),
+                    compartment: compartment_name(net, i).map(str::to_string),
+                }),
+                kind: None,
+            },
+        );
+        final_state.insert(
+            s.name.clone(),
+            OdeFinal {
+                mean: amount(net, last),
+                mean_molar: factor.map(|f| last * f),
+                concentration_mean: factor.map(|f| last * f),
+            },
+        );
     }
     for (p, param) in net.params.iter().enumerate().filter(|(_, p)| p.varies) {
-        let col: Vec<Value> = tr.params.iter().map(|row| jnum(row[p])).collect();
-        grid.insert(param.name.clone(), json!({"mean": col, "kind": "param"}));
+        series.insert(
+            param.name.clone(),
+            Series {
+                mean: tr.params.iter().map(|row| row[p]).collect(),
+                sd: None,
+                concentration: None,
+                kind: Some(SeriesKind::Param),
+            },
+        );
     }
-    json!({
-        "method": "ode",
-        "amount_unit": net.amount.name,
-        "t_end": jnum(t_end),
-        "grid_points": tr.times.len(),
-        "wall_seconds": jnum(wall_seconds),
-        "steps_accepted": tr.accepted_steps,
-        "steps_rejected": tr.rejected_steps,
-        "breakpoints": tr.breakpoints,
-        "final": finals,
-        "grid": grid,
-    })
+    OdeDocument {
+        method: "ode".to_string(),
+        amount_unit: net.amount.name.clone(),
+        t_end,
+        grid_points: tr.times.len(),
+        wall_seconds,
+        steps_accepted: tr.accepted_steps,
+        steps_rejected: tr.rejected_steps,
+        breakpoints: tr.breakpoints,
+        final_state,
+        grid: Grid {
+            time: tr.times.clone(),
+            series,
+        },
+    }
+}
+
+/// The `--json` document of `simulate --method ode` ([`ode_document`]).
+pub fn ode_json(net: &Network, tr: &Trajectory, t_end: f64, wall_seconds: f64) -> Value {
+    super::schema::to_value(&ode_document(net, tr, t_end, wall_seconds))
 }
 
 /// The table of `simulate --method ode`: the final state and the integrator's work.
@@ -600,22 +804,24 @@ pub fn ode_svg(net: &Network, tr: &Trajectory, species: &[usize]) -> String {
     svg(net, course, species)
 }
 
-/// Adds the comparison with the exact law under `exact` (null, with `exact_note`, where the
-/// network does not fit a finite state projection).
-pub fn add_exact_json(
-    doc: &mut Value,
-    exact: &Result<crate::distribution::compare::ExactComparison, String>,
-) {
-    let obj = doc.as_object_mut().expect("an object");
+/// The JSON document of an ensemble run with, where `--exact` asked for it, the comparison
+/// with the exact law under `exact` (null, with `exact_note`, where the network does not fit
+/// a finite state projection).
+pub fn json_with_exact(
+    net: &Network,
+    r: &EnsembleResult,
+    exact: Option<&Result<crate::distribution::compare::ExactComparison, String>>,
+) -> Value {
+    let mut doc = document(net, r);
     match exact {
-        Ok(c) => {
-            obj.insert("exact".into(), serde_json::to_value(c).expect("serialises"));
+        Some(Ok(c)) => doc.exact = Some(Exact::Compared(super::schema::to_value(c))),
+        Some(Err(note)) => {
+            doc.exact = Some(Exact::Unavailable);
+            doc.exact_note = Some(note.clone());
         }
-        Err(note) => {
-            obj.insert("exact".into(), Value::Null);
-            obj.insert("exact_note".into(), Value::from(note.clone()));
-        }
+        None => {}
     }
+    super::schema::to_value(&doc)
 }
 
 /// The comparison with the exact law: per species the largest |Z| and |Y| over the grid and

@@ -1,17 +1,20 @@
 //! The report of `copyloop steady`.
 
+use super::schema::Named;
 use super::table::Table;
 use super::units;
-use super::{jnum, num, side};
+use super::{num, side};
 use crate::deterministic::Steady;
 use crate::network::law_text;
 use crate::network::Network;
-use serde_json::{json, Map, Value};
+use schemars::JsonSchema;
+use serde::Serialize;
+use serde_json::Value;
 
 /// A molar figure beside a count figure: `x/Ω_c` with `own` the Ω_c of the compartment it
 /// refers to, or null without one.
-fn molar(own: Option<f64>, x: f64) -> Value {
-    own.map_or(Value::Null, |w| jnum(x / w))
+fn molar(own: Option<f64>, x: f64) -> Option<f64> {
+    own.map(|w| x / w)
 }
 
 /// Ω of the only compartment, for figures of no one species or step (totals, residual).
@@ -41,93 +44,162 @@ fn eigen_text(z: &nalgebra::Complex<f64>) -> String {
     }
 }
 
-/// The JSON document of docs/json.md for `steady`, with extras.
-pub fn json(net: &Network, st: &Steady) -> Value {
-    let mut state = Map::new();
+/// The `--json` document of `steady` (docs/json.md).
+#[derive(Serialize, JsonSchema)]
+pub struct SteadyDocument {
+    pub file: String,
+    pub volume_l: Option<f64>,
+    pub state: Named<Level>,
+    pub fluxes: Named<Flux>,
+    /// Species that only accumulate, with their rate.
+    pub outputs: Named<Output>,
+    /// max |dx/dt| at the reported state, molecules/s.
+    pub residual: f64,
+    pub residual_molar: Option<f64>,
+    pub residual_relative: f64,
+    pub stable: bool,
+    pub stability: String,
+    /// Eigenvalues of the Jacobian on the independent species.
+    pub eigenvalues: Vec<Eigenvalue>,
+    /// The species left after the conservation laws remove one each.
+    pub independent: Vec<String>,
+    pub conservation: Vec<ConservedTotal>,
+    /// How the state was found.
+    pub method: String,
+    pub iterations: usize,
+    pub integrated_time: f64,
+    pub ode_steps: usize,
+}
+
+/// A species' steady level; null for one that only accumulates (its rate is in `outputs`).
+#[derive(Serialize, JsonSchema)]
+pub struct Level {
+    pub count: Option<f64>,
+    pub molar: Option<f64>,
+    pub clamped: bool,
+    pub accumulates: bool,
+}
+
+/// A reaction's steady flux.
+#[derive(Serialize, JsonSchema)]
+pub struct Flux {
+    pub per_s: f64,
+    pub molar_per_s: Option<f64>,
+}
+
+/// The rate at which a species that only accumulates grows.
+#[derive(Serialize, JsonSchema)]
+pub struct Output {
+    pub rate_per_s: f64,
+    pub rate_molar_per_s: Option<f64>,
+    /// Always null here: `steady` runs no ensemble (the key is shared with `reconcile`).
+    pub ensemble_rate_per_s: Option<f64>,
+}
+
+/// A complex number.
+#[derive(Serialize, JsonSchema)]
+pub struct Eigenvalue {
+    pub re: f64,
+    pub im: f64,
+}
+
+/// A conservation law {species: coefficient} and the total it keeps, in molecules.
+#[derive(Serialize, JsonSchema)]
+pub struct ConservedTotal {
+    pub law: Named<i64>,
+    pub total: f64,
+    pub total_molar: Option<f64>,
+}
+
+/// The typed document of `steady`.
+pub fn document(net: &Network, st: &Steady) -> SteadyDocument {
     let accumulates = |i: usize| st.outputs.iter().any(|o| o.species == i);
-    for (i, s) in net.species.iter().enumerate() {
-        // A species that only accumulates has no steady level: its rate is under `outputs`.
-        let count = if accumulates(i) {
-            Value::Null
-        } else {
-            jnum(st.counts[i])
-        };
-        let molar_count = if accumulates(i) {
-            Value::Null
-        } else {
-            molar(net.species_molar_omega(i), st.counts[i])
-        };
-        state.insert(
-            s.name.clone(),
-            json!({
-                "count": count,
-                "molar": molar_count,
-                "clamped": s.clamped,
-                "accumulates": accumulates(i),
-            }),
-        );
-    }
-    let mut outputs = Map::new();
-    for o in &st.outputs {
-        outputs.insert(
-            net.species[o.species].name.clone(),
-            json!({
-                "rate_per_s": jnum(o.rate_per_s),
-                "rate_molar_per_s": molar(net.species_molar_omega(o.species), o.rate_per_s),
-                "ensemble_rate_per_s": Value::Null,
-            }),
-        );
-    }
-    let mut fluxes = Map::new();
-    for (j, r) in net.reactions.iter().enumerate() {
-        fluxes.insert(
-            r.label.clone(),
-            json!({
-                "per_s": jnum(st.fluxes_per_s[j]),
-                "molar_per_s": molar(net.reaction_molar_omega(j), st.fluxes_per_s[j]),
-            }),
-        );
-    }
-    let conservation: Vec<Value> = net
+    let state = net
+        .species
+        .iter()
+        .enumerate()
+        .map(|(i, s)| {
+            let level = (!accumulates(i)).then_some(st.counts[i]);
+            let entry = Level {
+                count: level,
+                molar: level.and_then(|c| molar(net.species_molar_omega(i), c)),
+                clamped: s.clamped,
+                accumulates: accumulates(i),
+            };
+            (s.name.clone(), entry)
+        })
+        .collect();
+    let outputs = st
+        .outputs
+        .iter()
+        .map(|o| {
+            let out = Output {
+                rate_per_s: o.rate_per_s,
+                rate_molar_per_s: molar(net.species_molar_omega(o.species), o.rate_per_s),
+                ensemble_rate_per_s: None,
+            };
+            (net.species[o.species].name.clone(), out)
+        })
+        .collect();
+    let fluxes = net
+        .reactions
+        .iter()
+        .enumerate()
+        .map(|(j, r)| {
+            let f = Flux {
+                per_s: st.fluxes_per_s[j],
+                molar_per_s: molar(net.reaction_molar_omega(j), st.fluxes_per_s[j]),
+            };
+            (r.label.clone(), f)
+        })
+        .collect();
+    let conservation = net
         .conservation_laws
         .iter()
         .zip(&st.totals)
-        .map(|(l, &t)| {
-            let mut m = Map::new();
-            for (i, &c) in l.iter().enumerate().filter(|(_, &c)| c != 0) {
-                m.insert(net.species[i].name.clone(), json!(c));
-            }
-            json!({
-                "law": Value::Object(m),
-                "total": jnum(t * net.omega),
-                "total_molar": molar(law_omega(net, l), t * net.omega),
-            })
+        .map(|(l, &t)| ConservedTotal {
+            law: l
+                .iter()
+                .enumerate()
+                .filter(|(_, &c)| c != 0)
+                .map(|(i, &c)| (net.species[i].name.clone(), c))
+                .collect(),
+            total: t * net.omega,
+            total_molar: molar(law_omega(net, l), t * net.omega),
         })
         .collect();
-    let eigenvalues: Vec<Value> = st
-        .eigenvalues
-        .iter()
-        .map(|z| json!({"re": jnum(z.re), "im": jnum(z.im)}))
-        .collect();
-    json!({
-        "file": net.file,
-        "volume_l": net.volume_l,
-        "state": state,
-        "fluxes": fluxes,
-        "outputs": outputs,
-        "residual": jnum(st.residual.max_abs_per_s),
-        "residual_molar": molar(single(net), st.residual.max_abs_per_s),
-        "residual_relative": jnum(st.residual.relative),
-        "stable": st.stable(),
-        "stability": st.stability.as_str(),
-        "eigenvalues": eigenvalues,
-        "independent": st.independent.iter().map(|&i| net.species[i].name.clone()).collect::<Vec<_>>(),
-        "conservation": conservation,
-        "method": st.method.as_str(),
-        "iterations": st.iterations,
-        "integrated_time": jnum(st.integrated_time),
-        "ode_steps": st.ode_steps,
-    })
+    SteadyDocument {
+        file: net.file.clone(),
+        volume_l: net.volume_l,
+        state,
+        fluxes,
+        outputs,
+        residual: st.residual.max_abs_per_s,
+        residual_molar: molar(single(net), st.residual.max_abs_per_s),
+        residual_relative: st.residual.relative,
+        stable: st.stable(),
+        stability: st.stability.as_str().to_string(),
+        eigenvalues: st
+            .eigenvalues
+            .iter()
+            .map(|z| Eigenvalue { re: z.re, im: z.im })
+            .collect(),
+        independent: st
+            .independent
+            .iter()
+            .map(|&i| net.species[i].name.clone())
+            .collect(),
+        conservation,
+        method: st.method.as_str().to_string(),
+        iterations: st.iterations,
+        integrated_time: st.integrated_time,
+        ode_steps: st.ode_steps,
+    }
+}
+
+/// The JSON document of docs/json.md for `steady`, with extras.
+pub fn json(net: &Network, st: &Steady) -> Value {
+    super::schema::to_value(&document(net, st))
 }
 
 /// The readable report of `steady`.

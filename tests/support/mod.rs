@@ -5,5 +5,6 @@ pub mod cli;
 pub mod sbml_semantic;
 pub mod sbml_stochastic;
 pub mod sbml_suite;
+pub mod schema;
 pub mod stats;
 pub mod svg;

@@ -2,42 +2,83 @@
 
 pub mod response;
 
-use super::jnum;
+use super::schema::Named;
 use crate::network::Network;
 use crate::sweep::FailedPoint;
-use serde_json::{json, Map, Value};
+use schemars::JsonSchema;
+use serde::Serialize;
+use serde_json::Value;
 
 /// The `initial` task's document: what a point compiles to — the volume, each species'
 /// initial count (and concentration where a volume is set), each param in canonical units
 /// (mol/L, s, molecules, L) and each reaction's stochastic constant.
 pub fn initial(net: &Network) -> Value {
-    let mut species = Map::new();
-    for (i, s) in net.species.iter().enumerate() {
-        let mut v = json!({"initial_count": s.initial, "clamped": s.clamped});
-        if let Some(w) = net.species_molar_omega(i) {
-            // In the species' own compartment.
-            v["initial_molar"] = jnum(s.initial as f64 / w);
-        }
-        species.insert(s.name.clone(), v);
+    super::schema::to_value(&initial_document(net))
+}
+
+/// The `initial` task's document.
+#[derive(Serialize, JsonSchema)]
+pub struct InitialDocument {
+    pub volume_l: Option<f64>,
+    pub omega: Option<f64>,
+    pub species: Named<InitialSpecies>,
+    pub params: Named<ParamValue>,
+    /// c of each reaction in molecules and seconds; null for a `law`.
+    pub stochastic_constants: Named<Option<f64>>,
+}
+
+/// A species' initial state at a sweep point.
+#[derive(Serialize, JsonSchema)]
+pub struct InitialSpecies {
+    pub initial_count: i64,
+    pub clamped: bool,
+    /// In the species' own compartment, where it has a volume.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub initial_molar: Option<f64>,
+}
+
+/// A param's value in canonical units and its dimension.
+#[derive(Serialize, JsonSchema)]
+pub struct ParamValue {
+    pub value: f64,
+    pub dimension: String,
+}
+
+/// The typed `initial` document of a compiled point.
+pub fn initial_document(net: &Network) -> InitialDocument {
+    InitialDocument {
+        volume_l: net.volume_l,
+        omega: net.volume_l.map(|_| net.omega),
+        species: net
+            .species
+            .iter()
+            .enumerate()
+            .map(|(i, s)| {
+                let entry = InitialSpecies {
+                    initial_count: s.initial,
+                    clamped: s.clamped,
+                    initial_molar: net.species_molar_omega(i).map(|w| s.initial as f64 / w),
+                };
+                (s.name.clone(), entry)
+            })
+            .collect(),
+        params: net
+            .params
+            .iter()
+            .map(|p| {
+                let v = ParamValue {
+                    value: p.value.value,
+                    dimension: p.value.dim.to_string(),
+                };
+                (p.name.clone(), v)
+            })
+            .collect(),
+        stochastic_constants: net
+            .reactions
+            .iter()
+            .map(|r| (r.label.clone(), r.stochastic_constant()))
+            .collect(),
     }
-    let mut params = Map::new();
-    for p in &net.params {
-        params.insert(
-            p.name.clone(),
-            json!({"value": jnum(p.value.value), "dimension": p.value.dim.to_string()}),
-        );
-    }
-    let mut constants = Map::new();
-    for r in &net.reactions {
-        constants.insert(r.label.clone(), json!(r.stochastic_constant().map(jnum)));
-    }
-    json!({
-        "volume_l": net.volume_l.map(jnum),
-        "omega": net.volume_l.map(|_| jnum(net.omega)),
-        "species": species,
-        "params": params,
-        "stochastic_constants": constants,
-    })
 }
 
 /// What one run of `copyloop sweep` did.
@@ -57,28 +98,56 @@ pub struct SweepSummary<'a> {
     pub svg: Option<&'a str>,
 }
 
+/// The `--json` document of `sweep`: what the run wrote, what was there, what failed.
+#[derive(Serialize, JsonSchema)]
+pub struct SweepDocument {
+    pub out: String,
+    pub fingerprint: String,
+    pub task: String,
+    pub points_total: u64,
+    pub shard: Option<String>,
+    pub points_in_run: u64,
+    pub already_done: u64,
+    pub written: u64,
+    pub done: u64,
+    pub failed: Vec<FailedEntry>,
+    pub stopped: bool,
+    pub svg: Option<String>,
+}
+
+/// A point whose task failed, with the message its line carries.
+#[derive(Serialize, JsonSchema)]
+pub struct FailedEntry {
+    pub point: u64,
+    pub error: String,
+}
+
+/// The `--json` document of `sweep`.
 pub fn sweep_json(s: &SweepSummary) -> Value {
-    let failed: Vec<Value> = s
-        .failed
-        .iter()
-        .map(|f| json!({"point": f.point, "error": f.message}))
-        .collect();
-    json!({
-        "out": s.out,
-        "fingerprint": s.fingerprint,
-        "task": s.task,
-        "points_total": s.points_total,
-        "shard": s.shard,
-        "points_in_run": s.points_here,
-        "already_done": s.already_done,
-        "written": s.written,
-        "done": s.already_done + s.written,
-        "failed": failed,
-        "stopped": s.stopped,
-        "svg": s.svg,
+    super::schema::to_value(&SweepDocument {
+        out: s.out.to_string(),
+        fingerprint: s.fingerprint.to_string(),
+        task: s.task.to_string(),
+        points_total: s.points_total,
+        shard: s.shard.clone(),
+        points_in_run: s.points_here,
+        already_done: s.already_done,
+        written: s.written,
+        done: s.already_done + s.written,
+        failed: s
+            .failed
+            .iter()
+            .map(|f| FailedEntry {
+                point: f.point,
+                error: f.message.clone(),
+            })
+            .collect(),
+        stopped: s.stopped,
+        svg: s.svg.map(str::to_string),
     })
 }
 
+/// The readable report of `sweep`.
 pub fn sweep_text(s: &SweepSummary) -> String {
     let share = match &s.shard {
         Some(sh) => format!(
@@ -126,19 +195,35 @@ pub struct MergeSummary<'a> {
     pub svg: Option<&'a str>,
 }
 
+/// The `--json` document of `merge`.
+#[derive(Serialize, JsonSchema)]
+pub struct MergeDocument {
+    pub out: String,
+    pub fingerprint: String,
+    pub files: usize,
+    pub points: u64,
+    pub points_total: u64,
+    pub missing: u64,
+    /// Lines that were cut short (a run killed while writing), left out of the merge.
+    pub torn: Vec<String>,
+    pub svg: Option<String>,
+}
+
+/// The `--json` document of `merge`.
 pub fn merge_json(s: &MergeSummary) -> Value {
-    json!({
-        "out": s.out,
-        "fingerprint": s.fingerprint,
-        "files": s.files,
-        "points": s.points,
-        "points_total": s.points_total,
-        "missing": s.points_total - s.points,
-        "torn": s.torn,
-        "svg": s.svg,
+    super::schema::to_value(&MergeDocument {
+        out: s.out.to_string(),
+        fingerprint: s.fingerprint.to_string(),
+        files: s.files,
+        points: s.points,
+        points_total: s.points_total,
+        missing: s.points_total - s.points,
+        torn: s.torn.to_vec(),
+        svg: s.svg.map(str::to_string),
     })
 }
 
+/// The readable report of `merge`.
 pub fn merge_text(s: &MergeSummary) -> String {
     let mut out = format!(
         "merged {} files into {} ({}): {} of {} points\n",

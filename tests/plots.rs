@@ -8,7 +8,7 @@
 mod support;
 
 use copyloop::ensemble::{self, EnsembleSpec};
-use copyloop::network::{load, load_source, Overrides};
+use copyloop::network::{load_source, Overrides};
 use copyloop::report::simulate::{default_species, Course};
 use copyloop::report::{self, plot::ramp::series_colour};
 use support::svg::{parse, path_points, pixels_of, render, Plot};

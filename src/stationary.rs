@@ -11,6 +11,7 @@
 use crate::deterministic::Steady;
 use crate::ensemble::EnsembleSpec;
 use crate::network::Network;
+use schemars::JsonSchema;
 use serde::Serialize;
 
 /// Burn-in in units of the slowest relaxation time.
@@ -23,7 +24,7 @@ pub const WINDOW_TAUS: f64 = 20.0;
 pub const RELIABLE_TAUS: f64 = 3.0;
 
 /// Where replicates start.
-#[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize)]
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize, JsonSchema)]
 #[serde(rename_all = "snake_case")]
 pub enum Start {
     /// The deterministic steady state rounded to whole molecules, conservation laws kept.
@@ -43,7 +44,7 @@ impl Start {
 }
 
 /// Why copyloop measured over a shorter stretch than its rule asks.
-#[derive(Clone, Copy, Debug, PartialEq, Serialize)]
+#[derive(Clone, Copy, Debug, PartialEq, Serialize, JsonSchema)]
 pub struct Shortening {
     /// The burn-in and end time the rule asked for (s).
     pub full_burn_in: f64,
@@ -69,7 +70,7 @@ pub struct Plan {
 }
 
 /// How many relaxation times a plan's burn-in and window cover.
-#[derive(Clone, Copy, Debug, PartialEq, Serialize)]
+#[derive(Clone, Copy, Debug, PartialEq, Serialize, JsonSchema)]
 pub struct Coverage {
     /// burn-in/τ and (t_end − burn-in)/τ (null where τ is unknown).
     pub burn_in_relaxation_times: Option<f64>,
@@ -126,27 +127,59 @@ impl Plan {
 /// The plan as reports show it: `burn_in`, `t_end`, `shortened` and its `reason` (null, or
 /// `"event_budget"` with the times the rule asked for), where replicates started, the
 /// relaxation time and the coverage.
+#[derive(Serialize, JsonSchema)]
+pub struct PlanView {
+    pub burn_in: f64,
+    pub t_end: f64,
+    pub shortened: bool,
+    pub reason: Option<ShortenReason>,
+    #[serde(flatten)]
+    pub full: Option<Shortening>,
+    pub burn_in_found: bool,
+    pub started_from: Start,
+    pub relaxation_time: f64,
+    #[serde(flatten)]
+    pub coverage: Coverage,
+}
+
+/// Why a plan is shorter than its rule asks.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize, JsonSchema)]
+#[serde(rename_all = "snake_case")]
+pub enum ShortenReason {
+    /// The rule's window would have cost more events than the budget allows.
+    EventBudget,
+}
+
+impl Plan {
+    /// What reports print of the plan.
+    pub fn view(&self) -> PlanView {
+        PlanView {
+            burn_in: self.burn_in,
+            t_end: self.t_end,
+            shortened: self.shortened.is_some(),
+            reason: self.shortened.map(|_| ShortenReason::EventBudget),
+            full: self.shortened,
+            burn_in_found: self.burn_in_found,
+            started_from: self.started_from,
+            relaxation_time: self.relaxation_time,
+            coverage: self.coverage(),
+        }
+    }
+}
+
 impl Serialize for Plan {
     fn serialize<S: serde::Serializer>(&self, s: S) -> Result<S::Ok, S::Error> {
-        use serde::ser::SerializeMap;
-        let mut m = s.serialize_map(None)?;
-        m.serialize_entry("burn_in", &self.burn_in)?;
-        m.serialize_entry("t_end", &self.t_end)?;
-        m.serialize_entry("shortened", &self.shortened.is_some())?;
-        m.serialize_entry("reason", &self.shortened.map(|_| "event_budget"))?;
-        if let Some(sh) = &self.shortened {
-            m.serialize_entry("full_burn_in", &sh.full_burn_in)?;
-            m.serialize_entry("full_t_end", &sh.full_t_end)?;
-            m.serialize_entry("event_budget", &sh.event_budget)?;
-        }
-        m.serialize_entry("burn_in_found", &self.burn_in_found)?;
-        m.serialize_entry("started_from", &self.started_from)?;
-        m.serialize_entry("relaxation_time", &self.relaxation_time)?;
-        let c = self.coverage();
-        m.serialize_entry("burn_in_relaxation_times", &c.burn_in_relaxation_times)?;
-        m.serialize_entry("window_relaxation_times", &c.window_relaxation_times)?;
-        m.serialize_entry("reliable", &c.reliable)?;
-        m.end()
+        self.view().serialize(s)
+    }
+}
+
+impl JsonSchema for Plan {
+    fn schema_name() -> std::borrow::Cow<'static, str> {
+        PlanView::schema_name()
+    }
+
+    fn json_schema(generator: &mut schemars::SchemaGenerator) -> schemars::Schema {
+        PlanView::json_schema(generator)
     }
 }
 

@@ -9,6 +9,7 @@
 //! The tests' own statistics (histograms, chi-square and Kolmogorov–Smirnov tests) live with
 //! the tests, in tests/support/stats.rs: the shipped library does not carry them.
 
+use schemars::JsonSchema;
 use serde::{Deserialize, Serialize};
 use statrs::distribution::{ContinuousCDF, Normal, StudentsT};
 
@@ -24,7 +25,7 @@ use statrs::distribution::{ContinuousCDF, Normal, StudentsT};
 ///
 /// For n = 0 the mean is NaN; for n < 2 the sample variance, SD and standard error are NaN
 /// (undefined, serialised by serde_json as `null`), never a misleading 0.
-#[derive(Clone, Debug, Default, PartialEq, Serialize, Deserialize)]
+#[derive(Clone, Debug, Default, PartialEq, Serialize, Deserialize, JsonSchema)]
 pub struct Welford {
     n: u64,
     mean: f64,
@@ -129,7 +130,7 @@ impl FromIterator<f64> for Welford {
 /// Cₙ = Cₙ₋₁ + δx·(y − ȳₙ) (Welford 1962 [M]), and two accumulators merge with
 /// C = C_a + C_b + δx·δy·n_a·n_b/n (Chan, Golub & LeVeque 1979 [M]). Sample covariance
 /// C/(n − 1).
-#[derive(Clone, Debug, Default, PartialEq, Serialize, Deserialize)]
+#[derive(Clone, Debug, Default, PartialEq, Serialize, Deserialize, JsonSchema)]
 pub struct Bivariate {
     x: Welford,
     y: Welford,

@@ -147,6 +147,22 @@ fn the_validator_rejects_a_missing_key_an_unknown_key_and_a_wrong_type() {
     let mut wrong = good;
     wrong["stable"] = Value::from("yes");
     assert!(validate(&schema, &wrong, Closed::Yes).is_err());
+    // A document whose top level is an untagged, flattened choice: a key that none of the
+    // branches declares is still caught.
+    let simulate = committed("simulate");
+    let mut ode = support::cli::json(&[
+        "simulate",
+        &example("enzyme_clearance.crn"),
+        "--t-end",
+        "1",
+        "--method",
+        "ode",
+        "--json",
+    ]);
+    validate(&simulate, &ode, Closed::Yes).unwrap();
+    ode["replicates"] = Value::from(3);
+    assert!(validate(&simulate, &ode, Closed::Yes).is_err());
+    assert!(validate(&simulate, &ode, Closed::No).is_ok());
 }
 
 #[test]
@@ -185,4 +201,33 @@ fn sweep_merge_and_the_initial_task_conform() {
     args.extend(["--out", merged.to_str().unwrap(), "--json"]);
     conforms("merge", &support::cli::json(&args));
     std::fs::remove_dir_all(&dir).ok();
+}
+
+#[test]
+fn distribution_output_conforms_transient_and_stationary() {
+    let file = example("receptor_signal.crn");
+    let transient = support::cli::json(&[
+        "distribution",
+        &file,
+        "--t-end",
+        "2",
+        "--grid",
+        "3",
+        "--json",
+    ]);
+    conforms("distribution", &transient);
+    let stationary = support::cli::json(&["distribution", &file, "--stationary", "--json"]);
+    assert!(stationary["stationary"].is_object(), "{stationary}");
+    conforms("distribution", &stationary);
+    let both = support::cli::json(&[
+        "distribution",
+        &file,
+        "--t-end",
+        "2",
+        "--grid",
+        "3",
+        "--stationary",
+        "--json",
+    ]);
+    conforms("distribution", &both);
 }

@@ -14,10 +14,11 @@
 use super::{Named, Transient};
 use crate::ensemble::{self, EnsembleResult, EnsembleSpec};
 use crate::network::Network;
+use schemars::JsonSchema;
 use serde::Serialize;
 
 /// An ensemble's histogram of one species at one time.
-#[derive(Clone, Debug, Serialize, PartialEq)]
+#[derive(Clone, Debug, Serialize, JsonSchema, PartialEq)]
 pub struct Histogram {
     pub species: String,
     pub time: f64,
@@ -63,7 +64,7 @@ pub fn ensemble_histogram(
 }
 
 /// One species: the exact moments and the two statistics at every grid time.
-#[derive(Clone, Debug, Serialize, PartialEq)]
+#[derive(Clone, Debug, Serialize, JsonSchema, PartialEq)]
 pub struct SpeciesComparison {
     pub exact_mean: Vec<f64>,
     pub exact_sd: Vec<f64>,
@@ -79,7 +80,7 @@ pub struct SpeciesComparison {
 }
 
 /// An ensemble grid against the exact transient law on the same times.
-#[derive(Clone, Debug, Serialize, PartialEq)]
+#[derive(Clone, Debug, Serialize, JsonSchema, PartialEq)]
 pub struct ExactComparison {
     pub replicates: u64,
     pub truncation_error: f64,

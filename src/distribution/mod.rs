@@ -55,6 +55,7 @@ pub mod transient;
 use crate::network::Network;
 use generator::Generator;
 use schedule::Forcing;
+use schemars::JsonSchema;
 use serde::ser::SerializeMap;
 use serde::{Serialize, Serializer};
 use space::{Projection, Reduction};
@@ -210,6 +211,20 @@ impl<T: Serialize> Serialize for Named<T> {
     }
 }
 
+/// A JSON object of `T` under free keys (the names).
+impl<T: JsonSchema> JsonSchema for Named<T> {
+    fn schema_name() -> std::borrow::Cow<'static, str> {
+        format!("Named_{}", T::schema_name()).into()
+    }
+
+    fn json_schema(generator: &mut schemars::SchemaGenerator) -> schemars::Schema {
+        schemars::json_schema!({
+            "type": "object",
+            "additionalProperties": generator.subschema_for::<T>(),
+        })
+    }
+}
+
 impl<T> Named<T> {
     pub fn get(&self, name: &str) -> Option<&T> {
         self.0.iter().find(|(k, _)| k == name).map(|(_, v)| v)
@@ -217,7 +232,7 @@ impl<T> Named<T> {
 }
 
 /// One species' law on the time grid.
-#[derive(Clone, Debug, Serialize, PartialEq)]
+#[derive(Clone, Debug, Serialize, JsonSchema, PartialEq)]
 pub struct SpeciesLaw {
     pub clamped: bool,
     /// Left out of the state space because it only accumulates: mean, variance and Fano
@@ -232,7 +247,7 @@ pub struct SpeciesLaw {
 }
 
 /// The bound of one independent coordinate in the final projection.
-#[derive(Clone, Debug, Serialize, PartialEq)]
+#[derive(Clone, Debug, Serialize, JsonSchema, PartialEq)]
 pub struct Bound {
     pub species: String,
     pub max_count: u32,
@@ -241,7 +256,7 @@ pub struct Bound {
 }
 
 /// The size and cost of the final projection.
-#[derive(Clone, Debug, Serialize, PartialEq)]
+#[derive(Clone, Debug, Serialize, JsonSchema, PartialEq)]
 pub struct ProjectionInfo {
     pub states: usize,
     /// Independent coordinates (species left once conservation laws are used).
@@ -254,7 +269,7 @@ pub struct ProjectionInfo {
 }
 
 /// The transient solution on a time grid.
-#[derive(Clone, Debug, Serialize, PartialEq)]
+#[derive(Clone, Debug, Serialize, JsonSchema, PartialEq)]
 pub struct Transient {
     /// Bound on the ℓ¹ error of the distribution at every reported time (the leaked probability
     /// at the last time, which is the largest).
@@ -272,7 +287,7 @@ pub struct Transient {
 }
 
 /// One species' stationary law.
-#[derive(Clone, Debug, Serialize, PartialEq)]
+#[derive(Clone, Debug, Serialize, JsonSchema, PartialEq)]
 pub struct SpeciesStationary {
     pub clamped: bool,
     /// It only accumulates: it has no stationary law (mean, variance, Fano, p(0) NaN, null in
@@ -289,7 +304,7 @@ pub struct SpeciesStationary {
 }
 
 /// The stationary law of the projected chain.
-#[derive(Clone, Debug, Serialize, PartialEq)]
+#[derive(Clone, Debug, Serialize, JsonSchema, PartialEq)]
 pub struct Stationary {
     /// Stationary probability of the states with a transition out of the projection.
     pub truncation_error: f64,

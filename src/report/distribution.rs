@@ -4,10 +4,13 @@
 
 use super::num;
 use super::plot::{AxisSpec, Chart, Dash, Datum, Marker, Series};
+use super::schema::Named;
 use super::table::Table;
 use crate::distribution::compare::Histogram;
 use crate::distribution::{Stationary, Transient};
-use serde_json::{json, Map, Value};
+use schemars::JsonSchema;
+use serde::Serialize;
+use serde_json::Value;
 
 /// What one run of the command computed.
 pub struct Results<'a> {
@@ -17,38 +20,89 @@ pub struct Results<'a> {
     pub histograms: &'a [Histogram],
 }
 
-fn value<T: serde::Serialize>(x: &T) -> Value {
-    serde_json::to_value(x).expect("results serialise")
+/// The `--json` document of `distribution`. With a transient solve its fields are the top
+/// level (`truncation_error`, `states`, `times`, `species` of docs/json.md); a stationary-only
+/// run keeps those keys, with no times, and its law under `stationary`.
+#[derive(Serialize, JsonSchema)]
+pub struct DistributionDocument<'a> {
+    #[serde(flatten)]
+    pub transient: TopLevel<'a>,
+    pub file: &'a str,
+    pub stationary: Option<&'a Stationary>,
+    pub ensemble_histograms: &'a [Histogram],
 }
 
-/// The JSON document. With a transient solve its fields are the top level (`truncation_error`,
-/// `states`, `times`, `species` of docs/json.md); a stationary-only run keeps those keys, with
-/// no times, and its law under `stationary`.
-pub fn json(r: &Results) -> Value {
-    let mut doc = match (r.transient, r.stationary) {
-        (Some(t), _) => value(t),
-        (None, Some(s)) => {
-            let mut species = Map::new();
-            for (name, law) in &s.species.0 {
-                species.insert(
-                    name.clone(),
-                    json!({"clamped": law.clamped, "accumulates": law.accumulates, "mean": [], "variance": [], "fano": [], "p_zero": [], "marginal": []}),
-                );
-            }
-            json!({
-                "truncation_error": s.truncation_error,
-                "states": s.states,
-                "times": [],
-                "species": species,
-            })
-        }
-        (None, None) => json!({}),
+/// The top level: the transient solution, or the stationary run's summary in its shape.
+#[derive(Serialize, JsonSchema)]
+#[serde(untagged)]
+pub enum TopLevel<'a> {
+    Transient(&'a Transient),
+    Stationary(StationaryTop),
+    /// Neither was asked for.
+    Empty {},
+}
+
+/// A stationary-only run's top level: the law's bound and size, no times, and for each
+/// species only whether it is clamped or accumulates (its law is under `stationary`).
+#[derive(Serialize, JsonSchema)]
+pub struct StationaryTop {
+    pub truncation_error: f64,
+    pub states: usize,
+    pub times: [f64; 0],
+    pub species: Named<SpeciesFlags>,
+}
+
+/// A species of a stationary-only run at the top level, with empty series.
+#[derive(Serialize, JsonSchema)]
+pub struct SpeciesFlags {
+    pub clamped: bool,
+    pub accumulates: bool,
+    pub mean: [f64; 0],
+    pub variance: [f64; 0],
+    pub fano: [f64; 0],
+    pub p_zero: [f64; 0],
+    pub marginal: [Vec<f64>; 0],
+}
+
+/// The typed document of a run.
+pub fn document<'a>(r: &Results<'a>) -> DistributionDocument<'a> {
+    let top = match (r.transient, r.stationary) {
+        (Some(t), _) => TopLevel::Transient(t),
+        (None, Some(s)) => TopLevel::Stationary(StationaryTop {
+            truncation_error: s.truncation_error,
+            states: s.states,
+            times: [],
+            species: s
+                .species
+                .0
+                .iter()
+                .map(|(name, law)| {
+                    let flags = SpeciesFlags {
+                        clamped: law.clamped,
+                        accumulates: law.accumulates,
+                        mean: [],
+                        variance: [],
+                        fano: [],
+                        p_zero: [],
+                        marginal: [],
+                    };
+                    (name.clone(), flags)
+                })
+                .collect(),
+        }),
+        (None, None) => TopLevel::Empty {},
     };
-    let obj = doc.as_object_mut().expect("an object");
-    obj.insert("file".into(), json!(r.file));
-    obj.insert("stationary".into(), r.stationary.map_or(Value::Null, value));
-    obj.insert("ensemble_histograms".into(), value(&r.histograms));
-    doc
+    DistributionDocument {
+        transient: top,
+        file: r.file,
+        stationary: r.stationary,
+        ensemble_histograms: r.histograms,
+    }
+}
+
+/// The JSON document ([`DistributionDocument`]).
+pub fn json(r: &Results) -> Value {
+    super::schema::to_value(&document(r))
 }
 
 fn header(r: &Results) -> String {

@@ -35,6 +35,10 @@ pub fn all() -> Vec<(&'static str, Value)> {
         ("check", schema::<super::check::CheckDocument>()),
         ("simulate", schema::<super::simulate::SimulateDocument>()),
         ("steady", schema::<super::steady::SteadyDocument>()),
+        (
+            "distribution",
+            schema::<super::distribution::DistributionDocument>(),
+        ),
         ("sweep", schema::<super::sweep::SweepDocument>()),
         ("merge", schema::<super::sweep::MergeDocument>()),
         ("sweep-initial", schema::<super::sweep::InitialDocument>()),

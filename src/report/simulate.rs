@@ -99,7 +99,7 @@ pub enum Exact {
     /// The network does not fit a finite state projection (printed as `null`).
     Unavailable,
     /// Z and Y statistics per species and grid time.
-    Compared(serde_json::Value),
+    Compared(Box<crate::distribution::compare::ExactComparison>),
 }
 
 /// Mean, SD, standard error and 95 % interval over replicates, in molecules, with their
@@ -814,7 +814,7 @@ pub fn json_with_exact(
 ) -> Value {
     let mut doc = document(net, r);
     match exact {
-        Some(Ok(c)) => doc.exact = Some(Exact::Compared(super::schema::to_value(c))),
+        Some(Ok(c)) => doc.exact = Some(Exact::Compared(Box::new(c.clone()))),
         Some(Err(note)) => {
             doc.exact = Some(Exact::Unavailable);
             doc.exact_note = Some(note.clone());

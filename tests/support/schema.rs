@@ -6,9 +6,11 @@
 
 use serde_json::Value;
 
-/// Whether an object schema that declares `properties` and says nothing of
-/// `additionalProperties` rejects keys it does not declare. The specification's default is
-/// open; `Yes` makes the check two-way: the output may hold no key the schema does not name.
+/// Whether an object may hold keys that no schema at its place declares. The specification's
+/// default is open; `Yes` makes the check two-way, as `unevaluatedProperties: false` at every
+/// object would: the output may hold no key the schema does not name. A key counts as declared
+/// when `properties` names it, `additionalProperties` admits it, or a subschema applied at the
+/// same place (`$ref`, `allOf`, a matching `anyOf`/`oneOf` branch) declares it.
 #[derive(Clone, Copy, PartialEq)]
 pub enum Closed {
     Yes,
@@ -17,7 +19,30 @@ pub enum Closed {
 
 /// Checks `doc` against `schema`; the error names the JSON path of the first mismatch.
 pub fn validate(schema: &Value, doc: &Value, closed: Closed) -> Result<(), String> {
-    check(schema, schema, doc, "$", closed)
+    check(schema, schema, doc, "$", closed).map(|_| ())
+}
+
+/// The keys a schema declares at one place.
+enum Declared {
+    All,
+    Names(Vec<String>),
+}
+
+impl Declared {
+    fn join(&mut self, other: Declared) {
+        match (&mut *self, other) {
+            (Declared::All, _) => {}
+            (_, Declared::All) => *self = Declared::All,
+            (Declared::Names(a), Declared::Names(b)) => a.extend(b),
+        }
+    }
+
+    fn has(&self, key: &str) -> bool {
+        match self {
+            Declared::All => true,
+            Declared::Names(n) => n.iter().any(|k| k == key),
+        }
+    }
 }
 
 fn resolve<'a>(root: &'a Value, reference: &str) -> Result<&'a Value, String> {
@@ -42,15 +67,37 @@ fn type_matches(t: &str, v: &Value) -> bool {
     }
 }
 
-fn check(root: &Value, s: &Value, v: &Value, path: &str, closed: Closed) -> Result<(), String> {
+fn check(
+    root: &Value,
+    s: &Value,
+    v: &Value,
+    path: &str,
+    closed: Closed,
+) -> Result<Declared, String> {
     let s = match s {
-        Value::Bool(true) => return Ok(()),
+        Value::Bool(true) => return Ok(Declared::All),
         Value::Bool(false) => return Err(format!("{path}: no value is allowed here")),
         Value::Object(m) => m,
         _ => return Err(format!("{path}: a schema must be an object or a boolean")),
     };
+    let describes_objects = [
+        "properties",
+        "additionalProperties",
+        "$ref",
+        "allOf",
+        "anyOf",
+        "oneOf",
+    ]
+    .iter()
+    .any(|k| s.contains_key(*k))
+        || s.get("type").is_some_and(|t| t == "object");
+    let mut declared = if describes_objects {
+        Declared::Names(Vec::new())
+    } else {
+        Declared::All
+    };
     if let Some(r) = s.get("$ref").and_then(Value::as_str) {
-        check(root, resolve(root, r)?, v, path, closed)?;
+        declared.join(check(root, resolve(root, r)?, v, path, Closed::No)?);
     }
     if let Some(t) = s.get("type") {
         let ok = match t {
@@ -77,18 +124,23 @@ fn check(root: &Value, s: &Value, v: &Value, path: &str, closed: Closed) -> Resu
     }
     if let Some(Value::Array(all)) = s.get("allOf") {
         for sub in all {
-            check(root, sub, v, path, closed)?;
+            declared.join(check(root, sub, v, path, Closed::No)?);
         }
     }
     for (key, exactly_one) in [("anyOf", false), ("oneOf", true)] {
         if let Some(Value::Array(options)) = s.get(key) {
-            let results: Vec<_> = options
-                .iter()
-                .map(|sub| check(root, sub, v, path, closed))
-                .collect();
-            let passed = results.iter().filter(|r| r.is_ok()).count();
+            let mut passed = 0;
+            let mut why = Vec::new();
+            for sub in options {
+                match check(root, sub, v, path, Closed::No) {
+                    Ok(d) => {
+                        passed += 1;
+                        declared.join(d);
+                    }
+                    Err(e) => why.push(e),
+                }
+            }
             if passed == 0 || (exactly_one && passed > 1) {
-                let why: Vec<String> = results.into_iter().filter_map(Result::err).collect();
                 return Err(format!(
                     "{path}: {passed} of the {key} alternatives match ({})",
                     why.join("; ")
@@ -102,21 +154,26 @@ fn check(root: &Value, s: &Value, v: &Value, path: &str, closed: Closed) -> Resu
         }
     }
     if let Value::Object(obj) = v {
-        check_object(root, s, obj, path, closed)?;
+        declared.join(check_object(root, s, obj, path)?);
+        if closed == Closed::Yes {
+            if let Some(key) = obj.keys().find(|k| !declared.has(k)) {
+                return Err(format!("{path}: the key `{key}` is not in the schema"));
+            }
+        }
     }
     if let Value::Array(items) = v {
-        check_array(root, s, items, path, closed)?;
+        check_array(root, s, items, path)?;
     }
-    Ok(())
+    Ok(declared)
 }
 
+/// Checks the keys this schema itself names; returns what it declares.
 fn check_object(
     root: &Value,
     s: &serde_json::Map<String, Value>,
     obj: &serde_json::Map<String, Value>,
     path: &str,
-    closed: Closed,
-) -> Result<(), String> {
+) -> Result<Declared, String> {
     if let Some(Value::Array(required)) = s.get("required") {
         for key in required.iter().filter_map(Value::as_str) {
             if !obj.contains_key(key) {
@@ -125,21 +182,21 @@ fn check_object(
         }
     }
     let properties = s.get("properties").and_then(Value::as_object);
+    let extra = s.get("additionalProperties");
     for (key, value) in obj {
         let here = format!("{path}.{key}");
-        match (
-            properties.and_then(|p| p.get(key)),
-            s.get("additionalProperties"),
-        ) {
-            (Some(sub), _) => check(root, sub, value, &here, closed)?,
-            (None, Some(extra)) => check(root, extra, value, &here, closed)?,
-            (None, None) if properties.is_some() && closed == Closed::Yes => {
-                return Err(format!("{path}: the key `{key}` is not in the schema"));
+        match (properties.and_then(|p| p.get(key)), extra) {
+            (Some(sub), _) | (None, Some(sub)) => {
+                check(root, sub, value, &here, Closed::Yes)?;
             }
             (None, None) => {}
         }
     }
-    Ok(())
+    Ok(match (extra, properties) {
+        (Some(_), _) => Declared::All,
+        (None, Some(p)) => Declared::Names(p.keys().cloned().collect()),
+        (None, None) => Declared::Names(Vec::new()),
+    })
 }
 
 fn check_array(
@@ -147,7 +204,6 @@ fn check_array(
     s: &serde_json::Map<String, Value>,
     items: &[Value],
     path: &str,
-    closed: Closed,
 ) -> Result<(), String> {
     let len = items.len() as u64;
     if let Some(min) = s.get("minItems").and_then(Value::as_u64) {
@@ -167,7 +223,9 @@ fn check_array(
     for (k, item) in items.iter().enumerate() {
         let here = format!("{path}[{k}]");
         match (prefix.get(k), s.get("items")) {
-            (Some(sub), _) | (None, Some(sub)) => check(root, sub, item, &here, closed)?,
+            (Some(sub), _) | (None, Some(sub)) => {
+                check(root, sub, item, &here, Closed::Yes)?;
+            }
             (None, None) => {}
         }
     }

@@ -26,6 +26,7 @@ use crate::serial::{by_name, molar, Named};
 use crate::stationary::{self, Plan};
 use crate::stats::{total_variance, Bivariate, DeltaEstimate, Welford};
 use crate::Result;
+use schemars::JsonSchema;
 use serde::Serialize;
 
 #[derive(Clone, Debug)]
@@ -55,7 +56,7 @@ impl Default for Options {
 }
 
 /// Stationary noise of one species, counts in molecules; intervals are two-sided 95 %.
-#[derive(Clone, Debug, PartialEq, Serialize)]
+#[derive(Clone, Debug, PartialEq, Serialize, JsonSchema)]
 pub struct SpeciesNoise {
     #[serde(skip)]
     pub name: String,
@@ -89,7 +90,7 @@ impl Named for SpeciesNoise {
 }
 
 /// A species that only accumulates: its rate, deterministic and in the ensemble.
-#[derive(Clone, Debug, PartialEq, Serialize)]
+#[derive(Clone, Debug, PartialEq, Serialize, JsonSchema)]
 pub struct OutputRate {
     #[serde(skip)]
     pub name: String,
@@ -108,7 +109,7 @@ impl Named for OutputRate {
 }
 
 /// The noise at one volume.
-#[derive(Clone, Debug, Serialize)]
+#[derive(Clone, Debug, Serialize, JsonSchema)]
 pub struct VolumeNoise {
     pub volume_l: Option<f64>,
     /// Ω = N_A·V (null without a volume).
@@ -116,8 +117,10 @@ pub struct VolumeNoise {
     pub plan: Plan,
     pub replicates: u64,
     #[serde(serialize_with = "by_name")]
+    #[schemars(with = "std::collections::BTreeMap<String, SpeciesNoise>")]
     pub species: Vec<SpeciesNoise>,
     #[serde(serialize_with = "by_name")]
+    #[schemars(with = "std::collections::BTreeMap<String, OutputRate>")]
     pub outputs: Vec<OutputRate>,
     pub events_total: u64,
     pub wall_seconds: f64,
@@ -131,7 +134,7 @@ pub struct VolumeNoise {
 }
 
 /// Everything `copyloop noise` reports.
-#[derive(Clone, Debug, Serialize)]
+#[derive(Clone, Debug, Serialize, JsonSchema)]
 pub struct NoiseReport {
     pub file: String,
     pub seed: u64,

@@ -231,3 +231,22 @@ fn distribution_output_conforms_transient_and_stationary() {
     ]);
     conforms("distribution", &both);
 }
+
+#[test]
+fn noise_and_reconcile_output_conforms() {
+    for n in ["receptor_signal.crn", "enzyme_clearance.crn"] {
+        let file = example(n);
+        let noise = support::cli::json(&[
+            "noise",
+            &file,
+            "--replicates",
+            "4",
+            "--volumes",
+            "1fL,4fL",
+            "--json",
+        ]);
+        conforms("noise", &noise);
+        let reconcile = support::cli::json(&["reconcile", &file, "--replicates", "4", "--json"]);
+        conforms("reconcile", &reconcile);
+    }
+}

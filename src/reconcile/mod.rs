@@ -31,6 +31,7 @@ use crate::stationary::{self, Plan, Start};
 use crate::stats::{total_variance, Welford};
 use crate::{Error, Result};
 pub use observe::{parse_observation, Observation};
+use schemars::JsonSchema;
 use serde::Serialize;
 pub use verdict::{Cause, CauseKind, Judgement, Verdict};
 
@@ -146,7 +147,7 @@ impl Estimate {
 }
 
 /// A flux as the ensemble measured it (molecules/s).
-#[derive(Clone, Copy, Debug, PartialEq, Serialize)]
+#[derive(Clone, Copy, Debug, PartialEq, Serialize, JsonSchema)]
 pub struct Flux {
     pub mean_per_s: f64,
     pub stderr_per_s: f64,
@@ -166,7 +167,7 @@ impl From<Estimate> for Flux {
 }
 
 /// The three predictions of a motif's flux (molecules/s).
-#[derive(Clone, Copy, Debug, PartialEq, Serialize)]
+#[derive(Clone, Copy, Debug, PartialEq, Serialize, JsonSchema)]
 pub struct Predicted {
     pub langmuir_per_s: f64,
     /// `None` where the ligand is clamped (the tQSSA form is then the Langmuir form).
@@ -175,7 +176,7 @@ pub struct Predicted {
 }
 
 /// Each prediction's judgement.
-#[derive(Clone, Debug, PartialEq, Serialize)]
+#[derive(Clone, Debug, PartialEq, Serialize, JsonSchema)]
 pub struct Verdicts {
     pub langmuir: Judgement,
     pub tqssa: Option<Judgement>,
@@ -187,13 +188,14 @@ fn kind_name<S: serde::Serializer>(k: &MotifKind, s: S) -> std::result::Result<S
 }
 
 /// One carrier motif reconciled.
-#[derive(Clone, Debug, Serialize)]
+#[derive(Clone, Debug, Serialize, JsonSchema)]
 pub struct MotifReport {
     #[serde(skip)]
     pub motif: usize,
     pub carrier: String,
     pub ligand: String,
     #[serde(serialize_with = "kind_name")]
+    #[schemars(with = "String")]
     pub kind: MotifKind,
     /// The output step's label.
     pub output: String,
@@ -229,7 +231,7 @@ pub struct MotifReport {
 }
 
 /// A motif's exact stationary output flux beside the predictions and the ensemble.
-#[derive(Clone, Debug, Serialize)]
+#[derive(Clone, Debug, Serialize, JsonSchema)]
 pub struct ExactFlux {
     pub mean_per_s: f64,
     /// (exact − Langmuir)/Langmuir: the low-copy shift of the mean flux, exactly.
@@ -239,7 +241,7 @@ pub struct ExactFlux {
 }
 
 /// A chain of motifs in series, reconciled end to end.
-#[derive(Clone, Debug, Serialize)]
+#[derive(Clone, Debug, Serialize, JsonSchema)]
 pub struct ChainReport {
     /// The carriers of the stages, in order.
     pub stages: Vec<String>,
@@ -256,14 +258,14 @@ pub struct ChainReport {
 }
 
 /// A chain's judgements.
-#[derive(Clone, Debug, PartialEq, Serialize)]
+#[derive(Clone, Debug, PartialEq, Serialize, JsonSchema)]
 pub struct ChainVerdicts {
     pub ode: Judgement,
     pub langmuir: Judgement,
 }
 
 /// Whether an observed level fits the model (a z-test with the observation's own SD).
-#[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize)]
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize, JsonSchema)]
 #[serde(rename_all = "snake_case")]
 pub enum Consistency {
     Consistent,
@@ -280,7 +282,7 @@ impl Consistency {
 }
 
 /// An observed steady level against the model (levels in molecules, `_molar` beside them).
-#[derive(Clone, Debug, Serialize)]
+#[derive(Clone, Debug, Serialize, JsonSchema)]
 pub struct ObservationReport {
     pub name: String,
     #[serde(skip)]
@@ -303,6 +305,7 @@ pub struct ObservationReport {
     pub ci95_molar: Option<[f64; 2]>,
     /// d ln(level)/d ln(param) for every positive param, in param order.
     #[serde(serialize_with = "sensitivity_map")]
+    #[schemars(with = "std::collections::BTreeMap<String, f64>")]
     pub sensitivities: Vec<(String, f64)>,
 }
 
@@ -319,7 +322,7 @@ fn sensitivity_map<S: serde::Serializer>(
 }
 
 /// The outcome of `--fit`.
-#[derive(Clone, Debug, Serialize)]
+#[derive(Clone, Debug, Serialize, JsonSchema)]
 pub struct FitReport {
     pub param: String,
     /// The file's value, canonical units.
@@ -335,7 +338,7 @@ pub struct FitReport {
 }
 
 /// A species that only accumulates, deterministic and in the ensemble (molecules/s).
-#[derive(Clone, Debug, PartialEq, Serialize)]
+#[derive(Clone, Debug, PartialEq, Serialize, JsonSchema)]
 pub struct OutputRate {
     #[serde(skip)]
     pub name: String,
@@ -377,7 +380,7 @@ pub fn output_rates(
 }
 
 /// Everything `copyloop reconcile` reports.
-#[derive(Clone, Debug, Serialize)]
+#[derive(Clone, Debug, Serialize, JsonSchema)]
 pub struct Reconciliation {
     pub file: String,
     pub seed: u64,
@@ -390,9 +393,11 @@ pub struct Reconciliation {
     pub observations: Vec<ObservationReport>,
     /// The first observation's sensitivities.
     #[serde(serialize_with = "sensitivity_map")]
+    #[schemars(with = "std::collections::BTreeMap<String, f64>")]
     pub sensitivities: Vec<(String, f64)>,
     pub fit: Option<FitReport>,
     #[serde(serialize_with = "by_name")]
+    #[schemars(with = "std::collections::BTreeMap<String, OutputRate>")]
     pub outputs: Vec<OutputRate>,
     pub tolerance: f64,
     pub events_total: u64,

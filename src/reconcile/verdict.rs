@@ -20,13 +20,14 @@
 //! observed difference |d|.
 
 use super::Estimate;
+use schemars::JsonSchema;
 use serde::Serialize;
 
 /// A named cause is shown when its expected size is at least this share of the difference.
 pub const COMPARABLE: f64 = 0.25;
 
 /// Agreement of one prediction with the ensemble, to a tolerance.
-#[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize)]
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize, JsonSchema)]
 #[serde(rename_all = "snake_case")]
 pub enum Verdict {
     Agrees,
@@ -45,7 +46,7 @@ impl Verdict {
 }
 
 /// What can make a deterministic form miss the ensemble's flux.
-#[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize)]
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize, JsonSchema)]
 #[serde(rename_all = "snake_case")]
 pub enum CauseKind {
     /// The Langmuir form counts all ligand as free (sQSSA); bound ligand depletes it. Expected
@@ -64,14 +65,14 @@ pub enum CauseKind {
 }
 
 /// A cause with its expected size (relative, in the sign convention of d = (m̂ − P)/P).
-#[derive(Clone, Copy, Debug, PartialEq, Serialize)]
+#[derive(Clone, Copy, Debug, PartialEq, Serialize, JsonSchema)]
 pub struct Cause {
     pub cause: CauseKind,
     pub expected_relative_error: f64,
 }
 
 /// One prediction judged against the ensemble.
-#[derive(Clone, Debug, PartialEq, Serialize)]
+#[derive(Clone, Debug, PartialEq, Serialize, JsonSchema)]
 pub struct Judgement {
     pub verdict: Verdict,
     pub relative_difference: f64,

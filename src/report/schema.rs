@@ -35,6 +35,8 @@ pub fn all() -> Vec<(&'static str, Value)> {
         ("check", schema::<super::check::CheckDocument>()),
         ("simulate", schema::<super::simulate::SimulateDocument>()),
         ("steady", schema::<super::steady::SteadyDocument>()),
+        ("noise", schema::<crate::noise::NoiseReport>()),
+        ("reconcile", schema::<crate::reconcile::Reconciliation>()),
         (
             "distribution",
             schema::<super::distribution::DistributionDocument>(),

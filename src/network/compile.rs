@@ -900,7 +900,8 @@ impl<'a> Compiler<'a> {
                         op.span(),
                         format!(
                             "a clearance is a volume per time, at least 0, but this is {} {}",
-                            q.value, q.dim
+                            crate::numbers::plain(q.value),
+                            q.dim
                         ),
                         "write e.g. `clearance 5 L/h`",
                     );
@@ -946,7 +947,8 @@ impl<'a> Compiler<'a> {
                         op.span(),
                         format!(
                             "a half-life must be a positive time, but this is {} {}",
-                            q.value, q.dim
+                            crate::numbers::plain(q.value),
+                            q.dim
                         ),
                         "write e.g. `half-life 40 min`",
                     );
@@ -1092,7 +1094,7 @@ impl<'a> Compiler<'a> {
                 span,
                 format!(
                     "a rate constant must be finite and at least 0, found {}",
-                    q.value
+                    crate::numbers::plain(q.value)
                 ),
                 "rate constants are never negative; to make a step run backwards, swap its sides",
             );

@@ -11,13 +11,18 @@
 //! - `immigration_death`: 0 → X (10/s), X → 0 (0.1/s per molecule).
 //! - `random_200`: 200 random mass-conserving reactions over 100 species (sum-tree selection).
 //! - `ensemble_threads`: 1000 replicates of the motif on 1 and 2 threads (replicates per second).
+//!
+//! `KERNEL_PROFILE=<observers>,<t_end>` (observers `none`, or `all`: grid, firing counts and
+//! integrals, what `simulate` keeps) runs the motif once instead and prints its events, for
+//! counting instructions under callgrind: the figure per event is the difference of two runs
+//! of different t_end, divided by the difference of their events.
 
 use copyloop::ensemble::{self, EnsembleSpec};
 use copyloop::kernel::rng::{replicate_rng, uniform};
 use copyloop::kernel::ziggurat::exp_ziggurat;
 use copyloop::kernel::{CompiledKernel, Direct, Integrals, RecordSpec, Recorder};
 use copyloop::network::{load_source, Network, Overrides};
-use criterion::{criterion_group, criterion_main, BenchmarkId, Criterion, Throughput};
+use criterion::{criterion_group, BenchmarkId, Criterion, Throughput};
 use rand::Rng;
 use std::hint::black_box;
 use std::time::Duration;
@@ -225,4 +230,35 @@ criterion_group! {
     config = configure();
     targets = bench_mm, bench_other, bench_ensemble
 }
-criterion_main!(benches);
+
+/// One run of the motif as `KERNEL_PROFILE` says (see the module docs).
+fn profile(spec: &str) {
+    let Some((observers, t_end)) = spec.split_once(',') else {
+        panic!("KERNEL_PROFILE=<observers>,<t_end>, got {spec}");
+    };
+    let t_end: f64 = t_end.parse().expect("t_end");
+    let network = net(MM);
+    let k = CompiledKernel::new(&network).unwrap();
+    let mut d = Direct::new(&k);
+    let mut rng = replicate_rng(1, 0);
+    let summary = match observers {
+        "all" => {
+            let mut obs = (
+                Recorder::new(record(t_end), &k),
+                Integrals::new(t_end, 0.0, &k),
+            );
+            d.run(&k.x0, t_end, &mut rng, &mut obs)
+        }
+        _ => d.run(&k.x0, t_end, &mut rng, &mut ()),
+    };
+    println!("{} events", summary.unwrap().events);
+}
+
+fn main() {
+    if let Ok(spec) = std::env::var("KERNEL_PROFILE") {
+        profile(&spec);
+        return;
+    }
+    benches();
+    Criterion::default().configure_from_args().final_summary();
+}

@@ -13,7 +13,7 @@
 //! `cargo bench --bench sweep` prints both and their ratio at the end.
 
 use copyloop::network::{compile, Network};
-use copyloop::sweep::{self, DesignKind, FnTask, Plan, RunOptions, Store, Task};
+use copyloop::sweep::{self, DesignKind, FnTask, Job, RunOptions, Store, Task};
 use criterion::Criterion;
 use rand::{RngExt, SeedableRng};
 use rand_xoshiro::Xoshiro256PlusPlus;
@@ -55,7 +55,7 @@ fn sweep_once(points: usize, task: &dyn Task, threads: usize) -> Duration {
     let dir = tempfile::tempdir().unwrap();
     let out = dir.path().join("bench.jsonl");
     let spec = vec![format!("kon=log:1e6..1e8:{points}")];
-    let plan = Plan::load(&example(), &spec, DesignKind::Grid, None, 1, None).unwrap();
+    let plan = Job::load(&example(), &spec, DesignKind::Grid, None, 1, None).unwrap();
     let start = Instant::now();
     let store = Store::create(out.to_str().unwrap(), &plan.header(task)).unwrap();
     let todo: Vec<u64> = plan.members().collect();
@@ -155,7 +155,7 @@ fn benches(c: &mut Criterion) {
             total
         })
     });
-    let plan = Plan::load(
+    let plan = Job::load(
         &example(),
         &["kon=log:1e6..1e8:10".to_string()],
         DesignKind::Grid,
@@ -176,7 +176,7 @@ fn benches(c: &mut Criterion) {
 
 /// The machinery's work for one point without the disk: compile the point's network, encode
 /// its line.
-fn cpu_part(plan: &Plan, doc: &Value, i: u64) -> usize {
+fn cpu_part(plan: &Job, doc: &Value, i: u64) -> usize {
     let net = compile(&plan.ast, &plan.design.overrides(i)).unwrap();
     let line = sweep::store::point_line(&plan.design, i, Ok(doc));
     net.species.len() + line.len()
@@ -187,7 +187,7 @@ fn main() {
     benches(&mut c);
     c.final_summary();
 
-    let plan = Plan::load(
+    let plan = Job::load(
         &example(),
         &["kon=log:1e6..1e8:1000".to_string()],
         DesignKind::Grid,

@@ -4,7 +4,7 @@
 //! iteration (its throughput, benchmark.json). Run after the bench:
 //! `cargo run --release --example scale_plot`. Prints the figures as a table too.
 
-use copyloop::report::plot::{AxisSpec, Chart, Dash, Marker, Point, Series};
+use copyloop::report::plot::{AxisSpec, Chart, Dash, Datum, Marker, Series};
 use std::path::Path;
 
 /// The sizes of benches/scale.rs.
@@ -51,10 +51,10 @@ fn main() {
         println!("| {m} | {} |", cells.join(" | "));
     }
     for ((_, label), r) in names.iter().zip(&rates) {
-        let points: Vec<Point> = SIZES
+        let points: Vec<Datum> = SIZES
             .iter()
             .zip(r)
-            .filter_map(|(&m, v)| v.map(|v| Point::new(m as f64, v)))
+            .filter_map(|(&m, v)| v.map(|v| Datum::new(m as f64, v)))
             .collect();
         let mut s = Series::new(*label, points);
         s.line = Some(if label.contains("decades") {

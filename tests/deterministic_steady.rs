@@ -1,7 +1,7 @@
 //! Steady states against hand formulas, and the reasons given when there is none.
 
 use copyloop::deterministic::langmuir;
-use copyloop::deterministic::{solve, Method, Stability, Steady, SteadyOptions};
+use copyloop::deterministic::{solve, Route, Stability, Steady, SteadyOptions};
 use copyloop::network::{load_source, Network, Overrides};
 use copyloop::Error;
 
@@ -58,7 +58,7 @@ fn fed_enzyme_steady_state() {
         assert!(rel(st.fluxes_per_s[n_cat], v_in) < 1e-9);
         assert!(st.stable());
         assert!(st.residual.relative < 1e-10);
-        assert_eq!(st.method, Method::NewtonConfirmed);
+        assert_eq!(st.method, Route::NewtonConfirmed);
         // E + C is conserved at 100.
         assert_eq!(st.totals.len(), 1);
         assert!(rel(st.totals[0], 100.0) < 1e-12);
@@ -235,7 +235,7 @@ fn near_guess_uses_newton_only() {
     let mut guess = base.conc.clone();
     guess[0] *= 1.01;
     let st = solve(&n, &SteadyOptions::near(guess)).unwrap();
-    assert_eq!(st.method, Method::Newton);
+    assert_eq!(st.method, Route::Newton);
     assert!(st.iterations <= 6, "{}", st.iterations);
     assert!(rel(st.counts[0], 300.0) < 1e-10);
 }

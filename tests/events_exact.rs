@@ -9,14 +9,17 @@
 //! law with the deterministic mean: Kingman 1993, *Poisson Processes*, §2 and §5 [M]; binomial
 //! survival of independent first-order molecules [C]).
 
+mod support;
+
 use copyloop::ensemble::{self, EnsembleSpec, Method};
 use copyloop::kernel::observe::RecordSpec;
 use copyloop::kernel::rng::replicate_rng;
 use copyloop::kernel::tau::{Switch, Tau};
 use copyloop::kernel::{CompiledKernel, Direct, Observer, Recorder};
 use copyloop::network::{load_source, Network, Overrides, AVOGADRO};
-use copyloop::stats::{chi_square_gof, Welford};
+use copyloop::stats::Welford;
 use statrs::distribution::{Binomial, Discrete, Poisson};
+use support::stats::chi_square_gof;
 
 fn net(src: &str) -> Network {
     load_source("test.crn", src.as_bytes(), &Overrides::default()).expect("test network")

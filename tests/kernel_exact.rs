@@ -6,12 +6,15 @@
 //! known), variances within 4 standard errors of the sample variance, chi-square and
 //! Kolmogorov–Smirnov tests passed when p > 1e-4; fixed seeds throughout.
 
+mod support;
+
 use copyloop::ensemble::{self, EnsembleSpec};
 use copyloop::kernel::rng::replicate_rng;
 use copyloop::kernel::{CompiledKernel, Direct, Observer};
 use copyloop::network::{load_source, Network, Overrides};
-use copyloop::stats::{chi_square_gof, ks_statistic, Welford};
+use copyloop::stats::Welford;
 use statrs::distribution::{Binomial, Discrete, Poisson};
+use support::stats::{chi_square_gof, ks_statistic};
 
 fn net(src: &str) -> Network {
     load_source("test.crn", src.as_bytes(), &Overrides::default()).expect("test network")

@@ -1,14 +1,16 @@
 //! Tau-leaping against the exact method and exact laws.
 
+mod support;
+
 use copyloop::ensemble::{self, EnsembleSpec, Method};
 use copyloop::kernel::rng::replicate_rng;
 use copyloop::kernel::tau::{Switch, Tau};
 use copyloop::kernel::{CompiledKernel, Observer};
 use copyloop::network::{load_source, Network, Overrides};
-use copyloop::stats::{
+use proptest::prelude::*;
+use support::stats::{
     chi_square_gof, common_histograms, expected_self_distance, histogram_distance,
 };
-use proptest::prelude::*;
 
 fn net(src: &str) -> Network {
     load_source("t.crn", src.as_bytes(), &Overrides::default()).unwrap_or_else(|e| panic!("{e}"))

@@ -461,12 +461,38 @@ fn presentation_packages_are_ignored_with_a_warning() {
 #[test]
 fn what_the_network_cannot_hold_yet_is_refused_with_the_reason() {
     let rule = format!(
-        r#"<listOfRules><rateRule variable="p">{MATH}<cn>1</cn></math></rateRule></listOfRules>"#
+        r#"<listOfRules><assignmentRule variable="A">{MATH}<cn>1</cn></math></assignmentRule></listOfRules>"#
     );
-    let doc = l3("", &param("p", 0.0).replace("true", "false"), &rule);
+    let doc = l3(&species("A", 0.0), "", &rule);
     let (code, msg) = check_file(doc.as_bytes());
     assert_eq!(code, Some(2));
-    assert!(msg.contains("<rateRule> `p`: not supported yet"), "{msg}");
+    assert!(
+        msg.contains("<assignmentRule> `A`: not supported yet: an assignment rule on species `A`"),
+        "{msg}"
+    );
+}
+
+#[test]
+fn rules_on_parameters_hold_at_every_instant() {
+    // dp/dt = 2 from p = 0 (p = 2t), q = 3·p by an assignment rule, and 0 → A at rate q:
+    // A(t) = ∫ 6t dt = 3t², A(1) = 3 and A(2) = 12 [C].
+    let rules = format!(
+        r#"<listOfRules><rateRule variable="p">{MATH}<cn>2</cn></math></rateRule>
+           <assignmentRule variable="q">{MATH}<apply><times/><cn>3</cn><ci>p</ci></apply></math></assignmentRule></listOfRules>
+           <listOfReactions><reaction id="make" reversible="false">
+           <listOfProducts><speciesReference species="A" stoichiometry="1" constant="true"/></listOfProducts>
+           <kineticLaw>{MATH}<ci>q</ci></math></kineticLaw></reaction></listOfReactions>"#
+    );
+    let params = r#"<parameter id="p" value="0" constant="false"/><parameter id="q" value="0" constant="false"/>"#;
+    let doc = l3(&species("A", 0.0), params, &rules);
+    let a = a_by_ode(&doc);
+    for (k, want) in [(1, 3.0), (2, 12.0)] {
+        assert!((a[k] - want).abs() < 1e-6 * want, "{a:?}");
+    }
+    // A stochastic run cannot integrate the rate rule: refused with the reason.
+    let (code, _, msg) = run_file(doc.as_bytes(), &["simulate", "--t-end", "2"]);
+    assert_eq!(code, Some(2), "{msg}");
+    assert!(msg.contains("the rate rule on `p`"), "{msg}");
 }
 
 // --- mole-based models: the volume scale ---------------------------------------------------
@@ -915,4 +941,189 @@ fn piecewise_and_comparisons_in_a_kinetic_law() {
     let (code, _, msg) = run_file(open.as_bytes(), &["check"]);
     assert_eq!(code, Some(2), "{msg}");
     assert!(msg.contains("piecewise without <otherwise>"), "{msg}");
+}
+
+// --- events ------------------------------------------------------------------------------
+
+const TIME: &str =
+    r#"<csymbol encoding="text" definitionURL="http://www.sbml.org/sbml/symbols/time">t</csymbol>"#;
+
+/// `0 → A` at 1 item/s from A = 0, and the event `events` (a `listOfEvents`' content).
+fn producing(events: &str) -> String {
+    let r = format!(
+        r#"<listOfReactions><reaction id="make" reversible="false">
+           <listOfProducts><speciesReference species="A" stoichiometry="1" constant="true"/></listOfProducts>
+           <kineticLaw>{MATH}<ci>k</ci></math></kineticLaw></reaction></listOfReactions>
+           <listOfEvents>{events}</listOfEvents>"#
+    );
+    l3(&species("A", 0.0), &param("k", 1.0), &r)
+}
+
+/// An event that sets A to `value` (MathML) `delay` s after `trigger` turns true.
+fn event(
+    id: &str,
+    trigger: &str,
+    persistent: bool,
+    delay: f64,
+    at_trigger: bool,
+    value: &str,
+) -> String {
+    format!(
+        r#"<event id="{id}" useValuesFromTriggerTime="{at_trigger}">
+             <trigger initialValue="true" persistent="{persistent}">{MATH}{trigger}</math></trigger>
+             <delay>{MATH}<cn>{delay}</cn></math></delay>
+             <listOfEventAssignments><eventAssignment variable="A">{MATH}{value}</math></eventAssignment></listOfEventAssignments>
+           </event>"#
+    )
+}
+
+/// A at t = 0, 1, 2 by the deterministic method.
+fn a_by_ode(doc: &str) -> Vec<f64> {
+    let (code, out, msg) = run_file(
+        doc.as_bytes(),
+        &[
+            "simulate", "--t-end", "2", "--grid", "3", "--method", "ode", "--json",
+        ],
+    );
+    assert_eq!(code, Some(0), "{msg}");
+    let v: serde_json::Value = serde_json::from_str(&out).unwrap();
+    let grid = v["grid"]["A"]["mean"].as_array().unwrap().clone();
+    grid.iter().map(|x| x.as_f64().unwrap()).collect()
+}
+
+#[test]
+fn an_event_delay_takes_its_values_at_trigger_or_at_execution() {
+    // A(t) = t; at t = 1 the event triggers, at t = 1.5 it sets A = A + 10, with A read at
+    // trigger time (1 + 10 = 11, so A(2) = 11.5) or at execution (1.5 + 10, A(2) = 12) [C].
+    let trigger = format!("<apply><geq/>{TIME}<cn>1</cn></apply>");
+    let plus = "<apply><plus/><ci>A</ci><cn>10</cn></apply>";
+    for (at_trigger, want) in [(true, 11.5), (false, 12.0)] {
+        let doc = producing(&event("bump", &trigger, true, 0.5, at_trigger, plus));
+        let a = a_by_ode(&doc);
+        assert!((a[1] - 1.0).abs() < 1e-7, "{a:?}");
+        assert!((a[2] - want).abs() < 1e-7 * want, "{at_trigger}: {a:?}");
+    }
+}
+
+#[test]
+fn a_non_persistent_event_is_dropped_when_its_trigger_turns_false_first() {
+    // Trigger 1 ≤ t < 1.2, delay 0.5: persistent, it sets A = 0 at t = 1.5 and A(2) = 0.5;
+    // not persistent, the trigger turned false at 1.2, nothing happens and A(2) = 2 [C].
+    let trigger = format!(
+        "<apply><and/><apply><geq/>{TIME}<cn>1</cn></apply><apply><lt/>{TIME}<cn>1.2</cn></apply></apply>"
+    );
+    for (persistent, want) in [(true, 0.5), (false, 2.0)] {
+        let doc = producing(&event(
+            "reset",
+            &trigger,
+            persistent,
+            0.5,
+            true,
+            "<cn>0</cn>",
+        ));
+        let a = a_by_ode(&doc);
+        assert!((a[2] - want).abs() < 1e-7, "{persistent}: {a:?}");
+    }
+}
+
+#[test]
+fn events_at_one_instant_run_in_decreasing_priority() {
+    // Both trigger at t = 1 with no delay: `set` (A = 5) and `double` (A = 2·A, read at
+    // execution). Priority set > double: A = 10 then A(2) = 11; double > set: A = 5, A(2) = 6 [C].
+    let trigger = format!("<apply><geq/>{TIME}<cn>1</cn></apply>");
+    let with_priority = |e: String, p: f64| {
+        e.replace(
+            "<delay>",
+            &format!("<priority>{MATH}<cn>{p}</cn></math></priority><delay>"),
+        )
+        .replace(
+            "<delay><math xmlns=\"http://www.w3.org/1998/Math/MathML\"><cn>0</cn></math></delay>",
+            "",
+        )
+    };
+    for ((p_set, p_double), want) in [((2.0, 1.0), 11.0), ((1.0, 2.0), 6.0)] {
+        let set = with_priority(
+            event("set", &trigger, true, 0.0, false, "<cn>5</cn>"),
+            p_set,
+        );
+        let double = with_priority(
+            event(
+                "double",
+                &trigger,
+                true,
+                0.0,
+                false,
+                "<apply><times/><cn>2</cn><ci>A</ci></apply>",
+            ),
+            p_double,
+        );
+        let doc = producing(&format!("{set}{double}"));
+        assert!(!doc.contains("<delay>"));
+        let a = a_by_ode(&doc);
+        assert!((a[2] - want).abs() < 1e-7, "{p_set} {p_double}: {a:?}");
+    }
+}
+
+#[test]
+fn a_stochastic_run_executes_an_event_exactly() {
+    // A → ∅ at 0.1 /s from A = 0; at t = 1 an event sets A = 100. At t = 2 each molecule has
+    // survived with p = e^(−0.1): A(2) ~ Binomial(100, p), mean 100p and variance 100p(1 − p)
+    // (the binomial law, common practice). 4,000 replicates, fixed seed; 4 standard errors.
+    let r = format!(
+        r#"<listOfReactions><reaction id="decay" reversible="false">
+           <listOfReactants><speciesReference species="A" stoichiometry="1" constant="true"/></listOfReactants>
+           <kineticLaw>{MATH}<apply><times/><ci>k</ci><ci>A</ci></apply></math></kineticLaw></reaction></listOfReactions>
+           <listOfEvents>{}</listOfEvents>"#,
+        event(
+            "fill",
+            &format!("<apply><geq/>{TIME}<cn>1</cn></apply>"),
+            true,
+            0.0,
+            true,
+            "<cn>100</cn>"
+        )
+    );
+    let doc = l3(&species("A", 0.0), &param("k", 0.1), &r);
+    let n = 4000.0;
+    let (code, out, msg) = run_file(
+        doc.as_bytes(),
+        &[
+            "simulate",
+            "--t-end",
+            "2",
+            "--grid",
+            "3",
+            "--replicates",
+            "4000",
+            "--seed",
+            "7",
+            "--json",
+        ],
+    );
+    assert_eq!(code, Some(0), "{msg}");
+    let v: serde_json::Value = serde_json::from_str(&out).unwrap();
+    let mean = v["grid"]["A"]["mean"].as_array().unwrap();
+    assert_eq!(mean[1].as_f64().unwrap(), 100.0);
+    let p = (-0.1f64).exp();
+    let (mu, var) = (100.0 * p, 100.0 * p * (1.0 - p));
+    let got = mean[2].as_f64().unwrap();
+    assert!((got - mu).abs() < 4.0 * (var / n).sqrt(), "{got} vs {mu}");
+}
+
+#[test]
+fn an_event_that_resizes_a_compartment_is_refused_by_name() {
+    let e = format!(
+        r#"<listOfEvents><event id="grow" useValuesFromTriggerTime="true">
+             <trigger initialValue="true" persistent="true">{MATH}<apply><geq/>{TIME}<cn>1</cn></apply></math></trigger>
+             <listOfEventAssignments><eventAssignment variable="c">{MATH}<cn>2</cn></math></eventAssignment></listOfEventAssignments>
+           </event></listOfEvents>"#
+    );
+    let doc =
+        l3(&species("A", 1.0), "", &e).replace(r#"constant="true"/>"#, r#"constant="false"/>"#);
+    let (code, msg) = check_file(doc.as_bytes());
+    assert_eq!(code, Some(2), "{msg}");
+    assert!(
+        msg.contains("event `grow` changes the size of compartment `c`"),
+        "{msg}"
+    );
 }

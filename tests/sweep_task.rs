@@ -2,7 +2,9 @@
 //! initial counts and three numbers drawn with rand from the point's seed.
 
 use copyloop::network::Overrides;
-use copyloop::sweep::{self, DesignKind, FnTask, Plan, Point, RunOptions, Shard, Store, Task};
+use copyloop::sweep::{
+    self, DesignKind, Fault, FnTask, Job, Point, RunOptions, Shard, Store, Task,
+};
 use rand::{RngExt, SeedableRng};
 use rand_xoshiro::Xoshiro256PlusPlus;
 use serde_json::{json, Value};
@@ -15,9 +17,9 @@ const NET: &str = "# test network\nvolume 1 pL\nspecies H = 50 nM clamped\n\
                    species E = 200 molecules\nspecies C = 0\nparam kon = 2e7 /M/s\n\
                    param koff = 0.5 /s\nstep bind E + H <-> C @ kon, koff\n";
 
-fn plan(specs: &[&str], seed: u64, shard: Option<Shard>) -> Plan {
+fn plan(specs: &[&str], seed: u64, shard: Option<Shard>) -> Job {
     let specs: Vec<String> = specs.iter().map(|s| s.to_string()).collect();
-    Plan::from_source(
+    Job::from_source(
         "t.crn",
         NET.as_bytes().to_vec(),
         &specs,
@@ -48,7 +50,7 @@ fn probe() -> FnTask {
 }
 
 /// Runs `plan` with `task` into a new file at `path`; returns the outcome.
-fn run_to(plan: &Plan, task: &dyn Task, path: &Path, threads: usize) -> sweep::Outcome {
+fn run_to(plan: &Job, task: &dyn Task, path: &Path, threads: usize) -> sweep::Outcome {
     let store = Store::create(path.to_str().unwrap(), &plan.header(task)).unwrap();
     let todo: Vec<u64> = plan.members().collect();
     let stop = AtomicBool::new(false);
@@ -175,8 +177,8 @@ fn a_failing_or_panicking_point_is_written_as_an_error_and_the_rest_go_on() {
     let f = dir.path().join("e.jsonl");
     let out = run_to(&plan(&["E=lin:0..100:6"], 0, None), &task, &f, 2);
     assert_eq!(out.written, 6);
-    let failed: Vec<(u64, bool)> = out.failed.iter().map(|f| (f.0, f.2)).collect();
-    assert_eq!(failed, vec![(2, false), (4, true)]);
+    let failed: Vec<(u64, Fault)> = out.failed.iter().map(|f| (f.point, f.fault)).collect();
+    assert_eq!(failed, vec![(2, Fault::Input), (4, Fault::Internal)]);
     let got = lines(&f);
     assert_eq!(got[&2]["error"], "no steady state here");
     assert!(got[&4]["error"]

@@ -6,7 +6,7 @@
 
 use crate::error::{Error, Result};
 use crate::report;
-use crate::sweep::{self, DesignKind, Plan, Point, Shard, Store, Task};
+use crate::sweep::{self, DesignKind, Fault, Job, Point, Shard, Store, Task};
 use clap::{ArgMatches, Args, Command, FromArgMatches, ValueEnum};
 use serde_json::{Map, Value};
 use std::io::IsTerminal;
@@ -262,9 +262,9 @@ impl SweepArgs {
 
 /// Prints the warnings the sweep's probe points (every listed value, the ends of each range)
 /// get and point 0 does not, such as an amount rounded to whole molecules at a small volume.
-fn probe_warnings(plan: &Plan, first: &crate::Network) {
-    for (words, o) in plan.design.probes() {
-        let Ok(net) = crate::network::compile::compile(&plan.ast, &o) else {
+fn probe_warnings(job: &Job, first: &crate::Network) {
+    for (words, o) in job.design.probes() {
+        let Ok(net) = crate::network::compile::compile(&job.ast, &o) else {
             continue;
         };
         for w in net.warnings.iter().filter(|w| !first.warnings.contains(w)) {
@@ -293,7 +293,7 @@ pub fn run(a: SweepArgs) -> Result<()> {
         DesignArg::Grid => DesignKind::Grid,
         DesignArg::Lhs => DesignKind::Lhs,
     };
-    let plan = Plan::load(&a.file, &a.vary, kind, a.points, a.seed.unwrap_or(0), shard)?;
+    let plan = Job::load(&a.file, &a.vary, kind, a.points, a.seed.unwrap_or(0), shard)?;
     if a.svg.is_some() {
         sweep::response::check_drawable(plan.design.vary.len())?;
     }
@@ -370,13 +370,15 @@ pub fn run(a: SweepArgs) -> Result<()> {
         );
         std::process::exit(130);
     }
-    if let Some((p, msg, internal)) = outcome.failed.first() {
+    if let Some(first) = outcome.failed.first() {
         let text = format!(
-            "{} of {} points failed (their lines in {out} carry `error`); point {p}: {msg}",
+            "{} of {} points failed (their lines in {out} carry `error`); point {}: {}",
             outcome.failed.len(),
-            members.len()
+            members.len(),
+            first.point,
+            first.message
         );
-        let any_internal = *internal || outcome.failed.iter().any(|f| f.2);
+        let any_internal = outcome.failed.iter().any(|f| f.fault == Fault::Internal);
         return Err(if any_internal {
             Error::Internal(text)
         } else {

@@ -24,5 +24,5 @@ pub mod system;
 pub use langmuir::{predict, MotifPrediction};
 pub use lna::{at_steady_state, stationary, Lna};
 pub use ode::{integrate, OdeOptions, Trajectory};
-pub use steady::{solve, Accumulation, Method, Residual, Stability, Steady, SteadyOptions};
+pub use steady::{solve, Accumulation, Residual, Route, Stability, Steady, SteadyOptions};
 pub use system::System;

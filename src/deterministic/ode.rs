@@ -308,9 +308,22 @@ impl<'s, 'a> Integrator<'s, 'a> {
         let n = self.sys.n();
         if n == 0 || t_out <= self.t {
             if n == 0 && t_out > self.t && changed(t_out, &self.y) {
-                let t = self.t;
-                self.t = t_out;
-                return Ok(Some(t.max(t_out)));
+                // Nothing to integrate: the first time the trigger changes, by bisection.
+                let (mut lo, mut hi) = (self.t, t_out);
+                for _ in 0..200 {
+                    let mid = 0.5 * (lo + hi);
+                    if hi - lo <= 1e-12 * hi.abs().max(f64::MIN_POSITIVE) || mid <= lo || mid >= hi
+                    {
+                        break;
+                    }
+                    if changed(mid, &self.y) {
+                        hi = mid;
+                    } else {
+                        lo = mid;
+                    }
+                }
+                self.t = hi;
+                return Ok(Some(hi));
             }
             self.t = self.t.max(t_out);
             return Ok(None);

@@ -552,6 +552,9 @@ pub struct DenseTables {
     pub offsets: Vec<[[f64; 3]; 4]>,
     /// Row j holds the state change of event j, padded to four with (constant slot, 0).
     pub change: Vec<[(u32, i64); 4]>,
+    /// The widest row of `change` before padding (1 ..= 4): entries past it are padding in
+    /// every row, so an event applies only this many.
+    pub change_width: usize,
 }
 
 impl SmallTables {
@@ -693,16 +696,18 @@ fn dense(rates: &[Rate], changes: &[&[(u32, i64)]], one: u32) -> Option<DenseTab
     }
     let idle = Rate::idle(one);
     let rate = |k: usize| if k < m { rates[k] } else { idle };
-    let offsets = changes
-        .iter()
-        .map(|row| {
-            let delta = |i: u32| -> i64 { row.iter().filter(|c| c.0 == i).map(|c| c.1).sum() };
-            std::array::from_fn(|k| {
-                let r = rate(k);
-                std::array::from_fn(|f| (i64::from(r.o[f]) - delta(r.i[f])) as f64)
-            })
+    let delta = |j: usize, i: u32| -> i64 {
+        changes
+            .get(j)
+            .map_or(0, |row| row.iter().filter(|c| c.0 == i).map(|c| c.1).sum())
+    };
+    let offset_row = |j: usize| -> [[f64; 3]; 4] {
+        std::array::from_fn(|k| {
+            let r = rate(k);
+            std::array::from_fn(|f| (i64::from(r.o[f]) - delta(j, r.i[f])) as f64)
         })
-        .collect();
+    };
+    let offsets: Vec<[[f64; 3]; 4]> = (0..m).map(offset_row).collect();
     let change = changes
         .iter()
         .map(|row| std::array::from_fn(|e| row.get(e).copied().unwrap_or((one, 0))))
@@ -712,6 +717,7 @@ fn dense(rates: &[Rate], changes: &[&[(u32, i64)]], one: u32) -> Option<DenseTab
         i: std::array::from_fn(|k| rate(k).i),
         offsets,
         change,
+        change_width: changes.iter().map(|r| r.len()).max().unwrap_or(0).max(1),
     })
 }
 

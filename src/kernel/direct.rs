@@ -258,11 +258,16 @@ fn dispatch<Tr: Triggers, R: Rng + Clone, O: Observer>(
                 return Err(Error::Internal("small network without tables".into()));
             };
             if let Some(d) = tables.dense() {
-                let a = [0.0; LANES];
-                return match tables.order() {
-                    1 => run_loop::<_, _, _, Tr>(k, x, Dense::<1> { k, d, a }, run),
-                    2 => run_loop::<_, _, _, Tr>(k, x, Dense::<2> { k, d, a }, run),
-                    _ => run_loop::<_, _, _, Tr>(k, x, Dense::<3> { k, d, a }, run),
+                return match (tables.order(), d.change_width) {
+                    (1, ..=2) => run_dense::<1, 2, Tr, R, O>(k, d, x, run),
+                    (1, 3) => run_dense::<1, 3, Tr, R, O>(k, d, x, run),
+                    (1, _) => run_dense::<1, 4, Tr, R, O>(k, d, x, run),
+                    (2, ..=2) => run_dense::<2, 2, Tr, R, O>(k, d, x, run),
+                    (2, 3) => run_dense::<2, 3, Tr, R, O>(k, d, x, run),
+                    (2, _) => run_dense::<2, 4, Tr, R, O>(k, d, x, run),
+                    (_, ..=2) => run_dense::<3, 2, Tr, R, O>(k, d, x, run),
+                    (_, 3) => run_dense::<3, 3, Tr, R, O>(k, d, x, run),
+                    _ => run_dense::<3, 4, Tr, R, O>(k, d, x, run),
                 };
             }
             match tables.order() {
@@ -277,6 +282,18 @@ fn dispatch<Tr: Triggers, R: Rng + Clone, O: Observer>(
             run_loop::<_, _, _, Tr>(k, x, Groups { k, groups, kept }, run)
         }
     }
+}
+
+/// [`run_loop`] for a network in the form of [`DenseTables`] whose rates have `ORDER` factors
+/// and whose state changes are `CW` wide.
+fn run_dense<const ORDER: usize, const CW: usize, Tr: Triggers, R: Rng + Clone, O: Observer>(
+    k: &CompiledKernel,
+    d: &DenseTables,
+    x: &mut [i64],
+    run: Run<R, O>,
+) -> Result<RunSummary> {
+    let a = [0.0; LANES];
+    run_loop::<_, _, _, Tr>(k, x, Dense::<ORDER, CW> { k, d, a }, run)
 }
 
 /// [`run_loop`] for a small network whose rates have `ORDER` factors, with the row width
@@ -414,14 +431,14 @@ impl<const ORDER: usize, const W: usize> Channels for Small<'_, ORDER, W> {
 /// are a value of the view, kept in registers by the event loop, so that a₀ and the
 /// selection read no memory. Same numbers as [`Small`], bit for bit: the factors are
 /// differences of integers below 2⁵³, exact in f64, and the sums run in the same order.
-struct Dense<'a, const ORDER: usize> {
+struct Dense<'a, const ORDER: usize, const CW: usize> {
     k: &'a CompiledKernel,
     d: &'a DenseTables,
     /// The channels' propensities, the last ones idle (always 0).
     a: [f64; LANES],
 }
 
-impl<const ORDER: usize> Channels for Dense<'_, ORDER> {
+impl<const ORDER: usize, const CW: usize> Channels for Dense<'_, ORDER, CW> {
     fn init(&mut self, x: &[i64], params: &[f64], t: f64) -> Result<()> {
         init_flat(self.k, &mut self.a[..], x, params, t)
     }
@@ -476,8 +493,8 @@ impl<const ORDER: usize> Channels for Dense<'_, ORDER> {
             }
             self.a[k] = a;
         }
-        // SAFETY: as for the factors.
-        unsafe { apply(d.change.get_unchecked(j), x, t, obs) }
+        // SAFETY: as for the factors; CW ≤ 4.
+        unsafe { apply(&d.change.get_unchecked(j)[..CW], x, t, obs) }
     }
 }
 
@@ -907,6 +924,8 @@ fn leg<C: Channels, R: Rng + Clone, O: Observer, Tr: Triggers>(
 ) -> (Leg, C) {
     let mut ch = ch.local();
     let due = obs.due().min(brk);
+    // t_new ≥ limit ⇔ t_new ≥ due or t_new > t_end (one comparison per event).
+    let limit = due.min(f64::from_bits(t_end.abs().to_bits() + 1));
     // A local copy of the generator stays in registers; it is written back at the end.
     let mut local = rng_out.clone();
     let rng = &mut local;
@@ -935,13 +954,10 @@ fn leg<C: Channels, R: Rng + Clone, O: Observer, Tr: Triggers>(
                     },
                 };
                 let t_new = t + e / a0;
-                if t_new > t_end {
-                    if t_new >= brk {
-                        break Leg::Due(t_new);
+                if t_new >= limit {
+                    if t_new > t_end && t_new < brk {
+                        break Leg::Stop(Stop::End);
                     }
-                    break Leg::Stop(Stop::End);
-                }
-                if t_new >= due {
                     break Leg::Due(t_new);
                 }
                 t_new
@@ -1177,15 +1193,24 @@ mod tests {
             },
         );
         if let Some(d) = tables.dense() {
-            check_kept(
-                &k,
-                Dense::<ORDER> {
-                    k: &k,
-                    d,
-                    a: [0.0; LANES],
-                },
-            );
+            match d.change_width {
+                ..=2 => check_dense::<ORDER, 2>(&k, d),
+                3 => check_dense::<ORDER, 3>(&k, d),
+                _ => check_dense::<ORDER, 4>(&k, d),
+            }
         }
+    }
+
+    /// The dense form of a network, its change rows `CW` wide.
+    fn check_dense<const ORDER: usize, const CW: usize>(k: &CompiledKernel, d: &DenseTables) {
+        check_kept(
+            k,
+            Dense::<ORDER, CW> {
+                k,
+                d,
+                a: [0.0; LANES],
+            },
+        );
     }
 
     fn check_kept<C: Channels>(k: &CompiledKernel, mut ch: C) {
@@ -1195,6 +1220,12 @@ mod tests {
         for _ in 0..2000 {
             let a0 = ch.total();
             assert!(a0 > 0.0, "the test network must not absorb");
+            // a₀ against the sum of fresh propensities: any order of summing m terms errs
+            // by at most (m − 1)·ε·Σ|a| (Higham 2002, "Accuracy and Stability of Numerical
+            // Algorithms", §4.2 [M]); the flat forms sum left to right and agree to the bit.
+            let fresh = (0..k.reactions()).fold(-0.0, |s, d| s + k.propensity(d, &x));
+            let bound = k.reactions() as f64 * f64::EPSILON * fresh;
+            assert!((a0 - fresh).abs() <= bound, "a0 {a0} against {fresh}");
             let target = rng.random::<f64>() * a0;
             let j = ch.select(target, a0, &mut rng).unwrap();
             assert!(ch.get(j) > 0.0);

@@ -396,11 +396,14 @@ impl Observer for Integrals {
     #[inline(always)]
     fn moved(&mut self, t: f64, i: usize, before: i64, dx: i64) {
         let (v, d) = (before as f64, dx as f64);
-        if let Some(s) = self.sums.get_mut(i) {
-            let td = t * d;
-            s[0] += td;
-            s[1] += td * (2.0 * v + d);
-        }
+        // An index past the species (a padding entry, dx = 0) lands on the spare slot; the
+        // index is clamped rather than checked, so that an event pays no branch per entry.
+        let slot = i.min(self.sums.len() - 1);
+        // SAFETY: `sums` has species + 1 ≥ 1 entries (Integrals::new), so slot < len.
+        let s = unsafe { self.sums.get_unchecked_mut(slot) };
+        let td = t * d;
+        s[0] += td;
+        s[1] += td * (2.0 * v + d);
     }
 
     fn finish(&mut self, t_end: f64, x: &[i64]) {

@@ -416,10 +416,16 @@ fn below<R: rand::Rng + ?Sized>(rng: &mut R, n: u64) -> u64 {
     (m >> 64) as u64
 }
 
+/// The tests' chi-square test, shared with the integration tests (not part of the library).
+#[cfg(test)]
+#[path = "../../tests/support/stats.rs"]
+#[allow(dead_code)]
+mod test_stats;
+
 #[cfg(test)]
 mod tests {
+    use super::test_stats::chi_square_gof;
     use super::*;
-    use crate::stats::chi_square_gof;
     use proptest::prelude::*;
     use rand::{RngExt, SeedableRng};
     use rand_xoshiro::Xoshiro256PlusPlus;

@@ -369,7 +369,8 @@ impl<'a> Compiler<'a> {
                 );
                 continue;
             }
-            if trigger.species.is_empty()
+            if w.form.is_none()
+                && trigger.species.is_empty()
                 && trigger.params.is_empty()
                 && trigger.time == TimeUse::None
             {
@@ -381,7 +382,9 @@ impl<'a> Compiler<'a> {
                 );
                 continue;
             }
-            if trigger.time == TimeUse::Smooth {
+            // An imported event may vary smoothly with time: the ODE engine locates its
+            // crossing, the stochastic kernels refuse it.
+            if trigger.time == TimeUse::Smooth && w.form.is_none() {
                 self.error_help(
                     cspan,
                     "in a condition, `time` may only be compared with a fixed time",
@@ -409,14 +412,33 @@ impl<'a> Compiler<'a> {
             if !ok {
                 continue;
             }
+            let Some(form) = &w.form else {
+                out.push(Event {
+                    label: format!("when_{}", w.span.line),
+                    trigger,
+                    initial_value: !w.at_start,
+                    persistent: true,
+                    delay: None,
+                    priority: None,
+                    values_at_trigger: true,
+                    assignments,
+                    span: w.span,
+                });
+                continue;
+            };
+            let delay = form.delay.as_ref().map(|d| self.program(d));
+            let priority = form.priority.as_ref().map(|p| self.program(p));
+            if matches!(delay, Some(None)) || matches!(priority, Some(None)) {
+                continue;
+            }
             out.push(Event {
-                label: format!("when_{}", w.span.line),
+                label: form.label.clone(),
                 trigger,
-                initial_value: !w.at_start,
-                persistent: true,
-                delay: None,
-                priority: None,
-                values_at_trigger: true,
+                initial_value: form.initial_value,
+                persistent: form.persistent,
+                delay: delay.flatten(),
+                priority: priority.flatten(),
+                values_at_trigger: form.values_at_trigger,
                 assignments,
                 span: w.span,
             });
@@ -526,7 +548,13 @@ impl<'a> Compiler<'a> {
             });
         }
         for e in events {
-            if e.reads_state() || !e.trigger.params.is_empty() {
+            // A priority orders executions at one instant; a delay moves them (imported events
+            // only).
+            if e.reads_state()
+                || !e.trigger.params.is_empty()
+                || e.priority.is_some()
+                || e.delay.is_some()
+            {
                 continue;
             }
             let mut reads = Vec::new();

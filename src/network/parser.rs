@@ -150,7 +150,24 @@ pub struct When {
     pub assignments: Vec<Assign>,
     /// `at start`: fire at t = 0 when the condition holds then.
     pub at_start: bool,
+    /// SBML's further event fields, for an imported model (`None` for a `when` line).
+    pub form: Option<EventForm>,
     pub span: Span,
+}
+
+/// An imported SBML event's fields beyond a `when` line's (SBML Level 3 Version 2 core §4.12
+/// [M]); the compiler copies them into [`super::Event`].
+#[derive(Clone, Debug, PartialEq)]
+pub struct EventForm {
+    /// The event's name in reports and messages.
+    pub label: String,
+    /// Time from trigger to execution, in seconds (no dimension check).
+    pub delay: Option<Expr>,
+    pub priority: Option<Expr>,
+    pub persistent: bool,
+    /// The trigger's value just before t = 0 (replaces `at start`).
+    pub initial_value: bool,
+    pub values_at_trigger: bool,
 }
 
 /// `<name> = <expr>` or `<name> += <expr>`.
@@ -764,6 +781,7 @@ impl<'a> LineParser<'a> {
             condition,
             assignments,
             at_start,
+            form: None,
             span: self.last_span(head),
         })
     }

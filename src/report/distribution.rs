@@ -3,7 +3,7 @@
 //! marginals, and an SVG of marginals at chosen times beside ensemble histograms.
 
 use super::num;
-use super::plot::{AxisSpec, Chart, Dash, Marker, Point, Series};
+use super::plot::{AxisSpec, Chart, Dash, Datum, Marker, Series};
 use super::table::Table;
 use crate::distribution::compare::Histogram;
 use crate::distribution::{Stationary, Transient};
@@ -190,10 +190,10 @@ pub fn csv(r: &Results) -> String {
 /// species and time if one was run.
 pub fn svg(r: &Results, species: &str, at: &[usize]) -> String {
     let mut series = Vec::new();
-    let bars = |p: &[f64]| -> Vec<Point> {
+    let bars = |p: &[f64]| -> Vec<Datum> {
         p.iter()
             .enumerate()
-            .map(|(k, &y)| Point::new(k as f64, y))
+            .map(|(k, &y)| Datum::new(k as f64, y))
             .collect()
     };
     if let Some(t) = r.transient {

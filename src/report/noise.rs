@@ -1,7 +1,7 @@
 //! The report of `copyloop noise`.
 
 use super::num;
-use super::plot::{AxisSpec, Chart, Dash, Interval, Marker, Point, Series};
+use super::plot::{AxisSpec, Chart, Dash, Datum, Interval, Marker, Series};
 use super::table::Table;
 use crate::noise::NoiseReport;
 use crate::stationary::{self, Plan};
@@ -178,7 +178,7 @@ pub fn svg(report: &NoiseReport) -> String {
             };
             if drawable(s.mean, s.cv) {
                 ensemble.push(
-                    Point::new(s.mean, s.cv)
+                    Datum::new(s.mean, s.cv)
                         .with_interval(s.cv_ci95[0], s.cv_ci95[1])
                         .with_label(name.clone()),
                 );
@@ -186,7 +186,7 @@ pub fn svg(report: &NoiseReport) -> String {
                 absent.push(name.clone());
             }
             if drawable(s.lna_mean, s.lna_cv) {
-                lna.push(Point::new(s.lna_mean, s.lna_cv));
+                lna.push(Datum::new(s.lna_mean, s.lna_cv));
             }
         }
         let at = vol.as_deref().unwrap_or("the file's volume");
@@ -206,8 +206,8 @@ pub fn svg(report: &NoiseReport) -> String {
     let (lo, hi) = xs.fold((f64::INFINITY, 0.0f64), |(a, b), x| (a.min(x), b.max(x)));
     let poisson = if lo.is_finite() {
         vec![
-            Point::new(lo, 1.0 / lo.sqrt()),
-            Point::new(hi, 1.0 / hi.sqrt()),
+            Datum::new(lo, 1.0 / lo.sqrt()),
+            Datum::new(hi, 1.0 / hi.sqrt()),
         ]
     } else {
         Vec::new()

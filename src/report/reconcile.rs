@@ -1,7 +1,7 @@
 //! The report of `copyloop reconcile`.
 
 use super::num;
-use super::plot::{AxisSpec, Chart, Interval, Marker, Point, Series};
+use super::plot::{AxisSpec, Chart, Datum, Interval, Marker, Series};
 use super::table::Table;
 use crate::network::Network;
 use crate::reconcile::{Cause, CauseKind, Flux, Judgement, MotifReport, Reconciliation, Verdict};
@@ -274,8 +274,8 @@ pub fn table(net: &Network, r: &Reconciliation) -> String {
 /// (offset so that none hides another). The flux axis is logarithmic when the motifs' fluxes
 /// span more than a factor of 30.
 pub fn svg(net: &Network, r: &Reconciliation) -> String {
-    let at = |k: usize, y: f64| Point::new(k as f64, y);
-    let ensemble: Vec<Point> = r
+    let at = |k: usize, y: f64| Datum::new(k as f64, y);
+    let ensemble: Vec<Datum> = r
         .motifs
         .iter()
         .enumerate()
@@ -283,7 +283,7 @@ pub fn svg(net: &Network, r: &Reconciliation) -> String {
             at(k, m.ensemble.mean_per_s).with_interval(m.ensemble.ci95[0], m.ensemble.ci95[1])
         })
         .collect();
-    let predicted = |f: &dyn Fn(&MotifReport) -> Option<f64>| -> Vec<Point> {
+    let predicted = |f: &dyn Fn(&MotifReport) -> Option<f64>| -> Vec<Datum> {
         r.motifs
             .iter()
             .enumerate()

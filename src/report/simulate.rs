@@ -495,7 +495,7 @@ fn time_unit(t_end: f64) -> (&'static str, f64) {
 /// chart: a line per species through its level at every grid time, in molecules, and for an
 /// ensemble of two or more replicates a band of mean ± SD.
 pub fn svg(net: &Network, course: Course, species: &[usize]) -> String {
-    use super::plot::{AxisSpec, Chart, Dash, Interval, Point, Series};
+    use super::plot::{AxisSpec, Chart, Dash, Datum, Interval, Series};
     let (times, title, banded) = match course {
         Course::Ensemble(r) => {
             let n = r.spec.replicates;
@@ -523,20 +523,20 @@ pub fn svg(net: &Network, course: Course, species: &[usize]) -> String {
         .iter()
         .filter(|&&i| i < net.species.len())
         .map(|&i| {
-            let points: Vec<Point> = times
+            let points: Vec<Datum> = times
                 .iter()
                 .enumerate()
                 .map(|(p, &t)| match course {
                     Course::Ensemble(r) => {
                         let w = &r.grid[p][i];
-                        let pt = Point::new(t / per, w.mean());
+                        let pt = Datum::new(t / per, w.mean());
                         if banded {
                             pt.with_interval(w.mean() - w.sd(), w.mean() + w.sd())
                         } else {
                             pt
                         }
                     }
-                    Course::Deterministic { counts, .. } => Point::new(
+                    Course::Deterministic { counts, .. } => Datum::new(
                         t / per,
                         counts
                             .get(p)

@@ -37,7 +37,9 @@
 //!   method runs it; stochastic methods refuse it, naming the reason
 //!   ([`AmountUnit::stochastic_refusal`]).
 //!
-//! What the network cannot hold yet is refused with [`ErrorKind::NotYet`]: rules, events,
+//! Events become the network's own events (map/events.rs); assignment rules on parameters and
+//! rate rules on parameters and free species map as map/rules.rs says. What the network cannot
+//! hold yet is refused with [`ErrorKind::NotYet`]: other rules,
 //! non-integer stoichiometries, conversion factors, MathML operators beyond
 //! `+ − × ÷ ^ exp ln min max sin cos`, comparisons, `and`, `or` and piecewise with an
 //! `otherwise` in laws.
@@ -56,6 +58,9 @@ use crate::network::{
     compile, AmountUnit, Dim, Kinetics, Network, Overrides, Quantity, AVOGADRO, MAX_COUNT,
 };
 use std::collections::HashMap;
+
+mod events;
+pub mod rules;
 
 /// The scale an SBML model is read at.
 #[derive(Clone, Copy, Debug, PartialEq)]
@@ -237,11 +242,20 @@ fn ast_at(
     doc: &Document,
     own_units: Option<String>,
 ) -> Result<Mapped, SbmlError> {
-    let m = &doc.model;
     supported(doc)?;
-    let values = initial_values(m)?;
+    let assigned = rules::check(&doc.model)?;
+    let values = initial_values(&doc.model)?;
+    let doc = &rules::substituted(doc, &assigned);
+    let m = &doc.model;
+    let rate_ruled: Vec<String> = m
+        .rules
+        .iter()
+        .filter(|r| r.kind == super::model::RuleKind::Rate)
+        .filter_map(|r| r.variable.clone())
+        .collect();
     let (scale, mut refusal) = match own_units {
         Some(why) => (Scale::Counts, Some(why)),
+        None if rules::has_rate_rules(m) => (Scale::Counts, rules::rate_rule_refusal(m)),
         None => scale(doc, &values)?,
     };
     let mut amounts = Vec::with_capacity(m.species.len());
@@ -312,9 +326,36 @@ fn ast_at(
                 "the id `time` is the clock in copyloop's expressions; a parameter of that name is not supported yet",
             ));
         }
+        if assigned.contains(&p.id) {
+            continue;
+        }
         let Some(v) = values.parameters[i] else {
             continue;
         };
+        if rate_ruled.contains(&p.id) {
+            // A state of the network, changed by its rule's law step.
+            if !(v >= 0.0 && v.is_finite()) {
+                return Err(not_yet(
+                    "parameter",
+                    Some(&p.id),
+                    p.loc,
+                    format!("a rate rule on a parameter whose initial value {v} is below 0"),
+                ));
+            }
+            if v.fract() != 0.0 {
+                refusal.get_or_insert_with(|| {
+                    format!("the rate-rule parameter `{}` is not a whole number", p.id)
+                });
+            }
+            amounts.push(v);
+            items.push(Item::Species {
+                name: name(&p.id, p.loc),
+                compartment: None,
+                amount: bare(v.round().min(MAX_COUNT as f64), p.loc),
+                clamped: false,
+            });
+            continue;
+        }
         if !v.is_finite() {
             return Err(not_yet(
                 "parameter",
@@ -368,6 +409,13 @@ fn ast_at(
         }
         warnings.extend(warning);
         items.push(Item::Step(step));
+    }
+    for r in &m.rules {
+        items.extend(cx.rate_rule(r)?.map(Item::Step));
+    }
+    cx.equal_priorities()?;
+    for (k, e) in m.events.iter().enumerate() {
+        items.extend(cx.event(k, e)?.map(Item::When));
     }
     Ok(Mapped {
         ast: Ast {
@@ -429,26 +477,6 @@ fn amount_unit(doc: &Document, scale: Scale, refusal: Option<String>) -> AmountU
 /// Refuses what the current network cannot hold.
 fn supported(doc: &Document) -> Result<(), SbmlError> {
     let m = &doc.model;
-    if let Some(r) = m.rules.first() {
-        let element = match r.kind {
-            super::model::RuleKind::Assignment => "assignmentRule",
-            _ => "rateRule",
-        };
-        return Err(not_yet(
-            element,
-            r.variable.as_deref(),
-            r.loc,
-            "assignment and rate rules (they arrive with the network extension)",
-        ));
-    }
-    if let Some(e) = m.events.first() {
-        return Err(not_yet(
-            "event",
-            e.id.as_deref(),
-            e.loc,
-            "events (they arrive with the network extension)",
-        ));
-    }
     if let Some(cf) = &m.conversion_factor {
         return Err(not_yet(
             "model",
@@ -782,6 +810,8 @@ impl Context<'_> {
                 }
                 match self.symbols.get(id.as_str())? {
                     Symbol::Compartment(k) => Some(Factor::Compartment(*k)),
+                    // A parameter that rules or events change is read where the law is.
+                    Symbol::Parameter(p) if self.varied(&self.m.parameters[*p].id) => None,
                     Symbol::Parameter(p) => Some(Factor::Parameter(*p)),
                     Symbol::Species(i) => Some(Factor::Species(*i)),
                     _ => None,
@@ -1085,7 +1115,8 @@ impl Context<'_> {
                     ))
                 }
             },
-            MathKind::Boolean(_) => return unsupported("truth values in a kinetic law".into()),
+            // A truth value as the comparison that has it (true = 1, false = 0).
+            MathKind::Boolean(b) => bin(BinOp::Gt, num(f64::from(u8::from(*b))), num(0.5)),
             MathKind::Avogadro => num(SBML_AVOGADRO),
             // The network's clock, in the model's time unit at the counts scale (seconds at the
             // volume scale, whose time unit is checked to be the second).

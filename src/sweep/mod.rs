@@ -3,7 +3,7 @@
 //! ```text
 //! --vary specs ─▶ spec::Vary ─▶ design::Design (grid | Latin hypercube, point seeds)
 //!                                   │
-//!            Plan (network text + design + shard) ─▶ run::run ─▶ store::Store (JSON lines)
+//!            Job (network text + design + shard) ─▶ run::run ─▶ store::Store (JSON lines)
 //!                                   ▲                    │             │
 //!                              task::Task ◀──────────────┘   shard::merge (shard files → one)
 //! ```
@@ -23,7 +23,7 @@ pub mod task;
 
 pub use design::{point_seed, Design, DesignKind};
 pub use response::{response, Axis, Response};
-pub use run::{run, Outcome, RunOptions};
+pub use run::{run, FailedPoint, Fault, Outcome, RunOptions};
 pub use shard::{merge, Merged, Shard};
 pub use spec::Vary;
 pub use store::{scan, Header, Store};
@@ -35,7 +35,7 @@ use crate::network::{compile, Network};
 
 /// A sweep ready to run: the network file, its design and the share of it this run does.
 #[derive(Debug)]
-pub struct Plan {
+pub struct Job {
     pub file: String,
     pub source: Vec<u8>,
     pub ast: std::sync::Arc<Ast>,
@@ -43,7 +43,7 @@ pub struct Plan {
     pub shard: Option<Shard>,
 }
 
-impl Plan {
+impl Job {
     /// Reads the network file and builds the design from the `--vary` specs.
     pub fn load(
         file: &str,
@@ -52,12 +52,12 @@ impl Plan {
         points: Option<u64>,
         seed: u64,
         shard: Option<Shard>,
-    ) -> Result<Plan> {
+    ) -> Result<Job> {
         let source = std::fs::read(file).map_err(|e| Error::io(file, e))?;
-        Plan::from_source(file, source, specs, kind, points, seed, shard)
+        Job::from_source(file, source, specs, kind, points, seed, shard)
     }
 
-    /// As [`Plan::load`], with the file's bytes given.
+    /// As [`Job::load`], with the file's bytes given.
     pub fn from_source(
         file: &str,
         source: Vec<u8>,
@@ -66,7 +66,7 @@ impl Plan {
         points: Option<u64>,
         seed: u64,
         shard: Option<Shard>,
-    ) -> Result<Plan> {
+    ) -> Result<Job> {
         let ast = if crate::sbml::is_sbml_path(file) {
             crate::sbml::syntax_tree(file, &source)?
         } else {
@@ -88,7 +88,7 @@ impl Plan {
             }
             DesignKind::Lhs => Design::lhs(vary, points, seed)?,
         };
-        Ok(Plan {
+        Ok(Job {
             file: file.to_string(),
             source,
             ast: std::sync::Arc::new(ast),

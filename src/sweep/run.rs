@@ -34,8 +34,8 @@ pub struct RunOptions<'a> {
 pub struct Outcome {
     /// Points written by this run (failed ones included).
     pub written: u64,
-    /// Points whose task failed: (point, message, whether the failure is copyloop's own).
-    pub failed: Vec<(u64, String, bool)>,
+    /// Points whose task failed, in point order.
+    pub failed: Vec<FailedPoint>,
     /// Whether a stop request ended the run before every point was done.
     pub stopped: bool,
 }
@@ -79,8 +79,12 @@ pub fn run(
                     abort.store(true, Ordering::SeqCst);
                     return;
                 }
-                if let Err((msg, internal)) = outcome {
-                    failed.lock().unwrap().push((i, msg, internal));
+                if let Err((message, fault)) = outcome {
+                    failed.lock().unwrap().push(FailedPoint {
+                        point: i,
+                        message,
+                        fault,
+                    });
                 }
                 let n = finished.fetch_add(1, Ordering::SeqCst) + 1;
                 (opts.progress)(n);
@@ -92,7 +96,7 @@ pub fn run(
     }
     let written = finished.load(Ordering::SeqCst);
     let mut failed = failed.into_inner().unwrap();
-    failed.sort_by_key(|f| f.0);
+    failed.sort_by_key(|f: &FailedPoint| f.point);
     Ok(Outcome {
         written,
         failed,
@@ -100,8 +104,27 @@ pub fn run(
     })
 }
 
-/// A failed point: its message, and whether the failure is copyloop's own.
-type Failure = (String, bool);
+/// A point whose task failed.
+#[derive(Clone, Debug, PartialEq, Eq)]
+pub struct FailedPoint {
+    /// The point's number in the design.
+    pub point: u64,
+    /// The error's text, without the leading `error: `.
+    pub message: String,
+    /// Whose fault it is.
+    pub fault: Fault,
+}
+
+/// Whose fault a failed point is: the point's model or values (exit status 2), or copyloop's
+/// own (an internal error or a panic, exit status 1).
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+pub enum Fault {
+    Input,
+    Internal,
+}
+
+/// Why `run_point` failed, before the point's number is attached.
+type Failure = (String, Fault);
 
 /// Compiles point `i` and runs the task there. A panic inside the task is caught and reported
 /// as that point's failure, so one bad point does not end a night's sweep.
@@ -113,7 +136,7 @@ fn run_point(
     threads: usize,
 ) -> std::result::Result<serde_json::Value, Failure> {
     let overrides = design.overrides(i);
-    let net = compile(ast, &overrides).map_err(|d| (message(&Error::Input(d)), false))?;
+    let net = compile(ast, &overrides).map_err(|d| (message(&Error::Input(d)), Fault::Input))?;
     let point = Point {
         index: i,
         seed: design.seed_of(i),
@@ -125,8 +148,12 @@ fn run_point(
     match std::panic::catch_unwind(std::panic::AssertUnwindSafe(|| task.run(&point))) {
         Ok(Ok(v)) => Ok(v),
         Ok(Err(e)) => {
-            let internal = e.exit_code() == 1;
-            Err((message(&e), internal))
+            let fault = if e.exit_code() == 1 {
+                Fault::Internal
+            } else {
+                Fault::Input
+            };
+            Err((message(&e), fault))
         }
         Err(payload) => {
             let what = payload
@@ -134,7 +161,7 @@ fn run_point(
                 .map(|s| s.to_string())
                 .or_else(|| payload.downcast_ref::<String>().cloned())
                 .unwrap_or_else(|| "a panic".into());
-            Err((format!("internal error: {what}"), true))
+            Err((format!("internal error: {what}"), Fault::Internal))
         }
     }
 }

@@ -5,4 +5,5 @@ pub mod cli;
 pub mod sbml_semantic;
 pub mod sbml_stochastic;
 pub mod sbml_suite;
+pub mod stats;
 pub mod svg;

@@ -110,14 +110,28 @@ pub fn run(root: &Path, c: &Case, file: &Path) -> Result<Outcome, String> {
     for var in &settings.variables {
         let expected = table.column(var)?;
         // A function of the grid point giving the variable in the model's own units.
-        let series: Vec<f64> = if let Some(i) = net.species_index(var) {
-            let s = m
-                .species
-                .iter()
-                .find(|s| &s.id == var)
-                .ok_or(format!("`{var}` is not an SBML species"))?;
-            let as_concentration = settings.concentration.contains(var);
-            let size = size_of(&s.compartment);
+        let ruled = m.rules.iter().any(|r| {
+            r.kind == sbml::model::RuleKind::Assignment
+                && r.variable.as_deref() == Some(var)
+                && r.math.is_some()
+        });
+        let series: Vec<f64> = if ruled {
+            // An assignment rule's parameter holds no state: its formula on the trajectory.
+            (0..times.len())
+                .map(|k| {
+                    let value = |id: &str| symbol_value(&net, &doc, &values, &tr, k, id);
+                    sbml::map::rules::rule_values(&doc, &value, times[k])
+                        .into_iter()
+                        .find(|(v, _)| v == var)
+                        .and_then(|(_, x)| x)
+                        .unwrap_or(f64::NAN)
+                })
+                .collect()
+        } else if let Some(i) = net.species_index(var) {
+            // A rate rule's parameter is a state of the network, as an amount.
+            let s = m.species.iter().find(|s| &s.id == var);
+            let as_concentration = s.is_some() && settings.concentration.contains(var);
+            let size = s.and_then(|s| size_of(&s.compartment));
             tr.states
                 .iter()
                 .map(|y| {
@@ -198,4 +212,40 @@ pub fn imported_outcomes(root: &Path, cases: &[Case]) -> Vec<(Case, Result<Outco
             Some((c.clone(), result))
         })
         .collect()
+}
+
+/// Symbol `id` at grid point `k` as SBML reads it: a species' amount or concentration, a
+/// parameter's value (held by the network, or constant), a compartment's size.
+fn symbol_value(
+    net: &copyloop::network::Network,
+    doc: &sbml::Document,
+    values: &sbml::initial::InitialValues,
+    tr: &copyloop::deterministic::Trajectory,
+    k: usize,
+    id: &str,
+) -> Option<f64> {
+    let m = &doc.model;
+    let per_count = sbml::map::model_amount_per_count(net);
+    if let Some(i) = net.species_index(id) {
+        let amount = tr.states[k][i] * net.omega * per_count;
+        return match m.species.iter().position(|s| s.id == id) {
+            Some(j) if !sbml::initial::symbol_is_amount(m, j) => {
+                let c = m
+                    .compartments
+                    .iter()
+                    .position(|c| c.id == m.species[j].compartment)?;
+                Some(amount / values.compartments[c]?)
+            }
+            _ => Some(amount),
+        };
+    }
+    if let Some(p) = net.param_index(id) {
+        let f = sbml::map::param_unit_factor(doc, net, id);
+        return Some(tr.params[k][p] / f);
+    }
+    if let Some(c) = m.compartments.iter().position(|c| c.id == id) {
+        return values.compartments[c];
+    }
+    let p = m.parameters.iter().position(|p| p.id == id)?;
+    values.parameters[p]
 }

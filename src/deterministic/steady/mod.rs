@@ -89,7 +89,7 @@ impl SteadyOptions {
 
 /// Which route found the steady state.
 #[derive(Clone, Copy, Debug, PartialEq, Eq)]
-pub enum Method {
+pub enum Route {
     /// Newton's method alone (no check by integration was asked for).
     Newton,
     /// Newton's method, and the trajectory from the initial state was seen to approach it.
@@ -98,12 +98,12 @@ pub enum Method {
     IntegrationThenNewton,
 }
 
-impl Method {
+impl Route {
     pub fn as_str(self) -> &'static str {
         match self {
-            Method::Newton => "newton",
-            Method::NewtonConfirmed => "newton, confirmed by integration",
-            Method::IntegrationThenNewton => "integration, then newton",
+            Route::Newton => "newton",
+            Route::NewtonConfirmed => "newton, confirmed by integration",
+            Route::IntegrationThenNewton => "integration, then newton",
         }
     }
 }
@@ -164,7 +164,7 @@ pub struct Steady {
     pub totals: Vec<f64>,
     /// Newton iterations of the attempt that produced the answer.
     pub iterations: usize,
-    pub method: Method,
+    pub method: Route,
     /// Time integrated (s) and accepted ODE steps, 0 when no integration ran.
     pub integrated_time: f64,
     pub ode_steps: usize,
@@ -283,7 +283,7 @@ fn solve_closed(net: &Network, opts: &SteadyOptions) -> Result<Steady> {
         let st = finish(
             &ctx,
             first.y.clone(),
-            Method::Newton,
+            Route::Newton,
             first.iterations,
             0.0,
             0,
@@ -304,7 +304,7 @@ fn solve_closed(net: &Network, opts: &SteadyOptions) -> Result<Steady> {
 fn finish(
     ctx: &Ctx,
     mut y: Vec<f64>,
-    method: Method,
+    method: Route,
     iterations: usize,
     integrated_time: f64,
     ode_steps: usize,

@@ -6,7 +6,7 @@ use super::diagnose::{
     classify, negative_during_run, no_steady_state, no_steady_state_because, Watch,
 };
 use super::newton::{eigenvalues, newton, norm_distance, slowest_time, spectral_radius, Ctx};
-use super::{finish, Method, Stability, Steady, SteadyOptions};
+use super::{finish, Route, Stability, Steady, SteadyOptions};
 use crate::deterministic::ode::Integrator;
 use crate::Result;
 /// Samples per doubling segment of the time course.
@@ -82,7 +82,7 @@ pub(super) fn integrate_then_polish(
                 if polished.converged && ctx.distance(&polished.y, cy) < 1e-6 {
                     let c = c.clone();
                     return Ok(Steady {
-                        method: Method::NewtonConfirmed,
+                        method: Route::NewtonConfirmed,
                         integrated_time: int.t(),
                         ode_steps: int.accepted,
                         ..c
@@ -97,7 +97,7 @@ pub(super) fn integrate_then_polish(
                     return finish(
                         ctx,
                         polished.y,
-                        Method::IntegrationThenNewton,
+                        Route::IntegrationThenNewton,
                         polished.iterations,
                         int.t(),
                         int.accepted,

@@ -4,6 +4,7 @@
 
 use super::axis::{label, AxisSpec, Scale};
 use super::canvas::{Anchor, Canvas, Paint};
+use super::frame::{self, WIDTH};
 use super::ramp::series_colour;
 use super::text::{fit, width};
 
@@ -40,16 +41,16 @@ pub enum Interval {
 /// One point: x (a category index on a categorical chart), y, an optional interval
 /// [low, high] and an optional label written beside it.
 #[derive(Clone, Debug, PartialEq)]
-pub struct Point {
+pub struct Datum {
     pub x: f64,
     pub y: f64,
     pub interval: Option<[f64; 2]>,
     pub label: Option<String>,
 }
 
-impl Point {
-    pub fn new(x: f64, y: f64) -> Point {
-        Point {
+impl Datum {
+    pub fn new(x: f64, y: f64) -> Datum {
+        Datum {
             x,
             y,
             interval: None,
@@ -57,12 +58,12 @@ impl Point {
         }
     }
 
-    pub fn with_interval(mut self, low: f64, high: f64) -> Point {
+    pub fn with_interval(mut self, low: f64, high: f64) -> Datum {
         self.interval = Some([low, high]);
         self
     }
 
-    pub fn with_label(mut self, text: impl Into<String>) -> Point {
+    pub fn with_label(mut self, text: impl Into<String>) -> Datum {
         self.label = Some(text.into());
         self
     }
@@ -72,7 +73,7 @@ impl Point {
 #[derive(Clone, Debug, PartialEq)]
 pub struct Series {
     pub name: String,
-    pub points: Vec<Point>,
+    pub points: Vec<Datum>,
     pub line: Option<Dash>,
     pub marker: Option<Marker>,
     pub interval: Interval,
@@ -82,7 +83,7 @@ pub struct Series {
 
 impl Series {
     /// A series of `points` drawn with nothing yet: set `line`, `marker`, `interval`.
-    pub fn new(name: impl Into<String>, points: Vec<Point>) -> Series {
+    pub fn new(name: impl Into<String>, points: Vec<Datum>) -> Series {
         Series {
             name: name.into(),
             points,
@@ -107,11 +108,8 @@ pub struct Chart {
     pub notes: Vec<String>,
 }
 
-const WIDTH: f64 = 760.0;
 const MIN_HEIGHT: f64 = 480.0;
 const TOP: f64 = 48.0;
-const TITLE_SIZE: f64 = 15.0;
-const LABEL_SIZE: f64 = 13.0;
 const TICK_SIZE: f64 = 11.0;
 const LEGEND_SIZE: f64 = 12.0;
 const POINT_LABEL_SIZE: f64 = 10.0;
@@ -214,15 +212,7 @@ impl Chart {
     pub fn render(&self) -> String {
         let l = self.layout();
         let mut k = Canvas::new(WIDTH, l.height);
-        let size = fit(&self.title, TITLE_SIZE, WIDTH - 20.0);
-        k.text(
-            "title",
-            (WIDTH / 2.0, 26.0),
-            &self.title,
-            size,
-            Anchor::Middle,
-            false,
-        );
+        frame::title(&mut k, &self.title);
         self.frame(&mut k, &l);
         let mut markers: Vec<Bounds> = Vec::new();
         let mut labels: Vec<(f64, f64, &str)> = Vec::new();
@@ -282,43 +272,14 @@ impl Chart {
                 );
             }
         }
-        k.rect(
-            "frame",
-            (x0, y0),
-            (x1 - x0, y1 - y0),
-            Paint::stroke("#333333", 1.0),
-            None,
-        );
         let below = y1 + 18.0 * l.category_rows as f64 + 22.0;
-        let size = fit(&self.x.label, LABEL_SIZE, x1 - x0);
-        k.text(
-            "x-label",
-            ((x0 + x1) / 2.0, below),
-            &self.x.label,
-            size,
-            Anchor::Middle,
-            false,
+        frame::labels(
+            k,
+            l.area,
+            below,
+            (&self.x.label, &self.y.label),
+            &self.notes,
         );
-        let size = fit(&self.y.label, LABEL_SIZE, y1 - y0);
-        k.text(
-            "y-label",
-            (18.0, (y0 + y1) / 2.0),
-            &self.y.label,
-            size,
-            Anchor::Middle,
-            true,
-        );
-        for (n, note) in self.notes.iter().enumerate() {
-            let size = fit(note, 10.5, WIDTH - x0 - 10.0);
-            k.text(
-                "note",
-                (x0, below + 17.0 + 15.0 * n as f64),
-                note,
-                size,
-                Anchor::Start,
-                false,
-            );
-        }
     }
 
     fn legend(&self, k: &mut Canvas, l: &Layout) {
@@ -402,7 +363,7 @@ fn draw_series<'s>(
     labels: &mut Vec<(f64, f64, &'s str)>,
 ) {
     k.open("series");
-    let px = |p: &Point| l.x.px(p.x + s.offset);
+    let px = |p: &Datum| l.x.px(p.x + s.offset);
     if s.interval == Interval::Band {
         let paint = Paint {
             fill_opacity: Some(BAND_OPACITY),

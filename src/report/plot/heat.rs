@@ -3,6 +3,7 @@
 
 use super::axis::{label, nice_ticks, AxisSpec, Scale};
 use super::canvas::{Anchor, Canvas, Paint};
+use super::frame::{self, LABEL_SIZE, WIDTH};
 use super::ramp::{hex, ramp, MISSING, RAMP};
 use super::text::{fit, width};
 
@@ -38,11 +39,9 @@ pub struct HeatMap {
     pub notes: Vec<String>,
 }
 
-const WIDTH: f64 = 760.0;
 const HEIGHT: f64 = 480.0;
 const TOP: f64 = 48.0;
 const TICK_SIZE: f64 = 11.0;
-const LABEL_SIZE: f64 = 13.0;
 const BAR_W: f64 = 18.0;
 
 impl HeatMap {
@@ -127,15 +126,7 @@ impl HeatMap {
         let left = 28.0 + tick_w + 10.0;
         let x = Scale::fit(&self.x, xs, pad, left, right);
         let mut k = Canvas::new(WIDTH, HEIGHT);
-        let size = fit(&self.title, 15.0, WIDTH - 20.0);
-        k.text(
-            "title",
-            (WIDTH / 2.0, 26.0),
-            &self.title,
-            size,
-            Anchor::Middle,
-            false,
-        );
+        frame::title(&mut k, &self.title);
         k.open_crisp("cells");
         for c in &self.cells {
             let (Some(xa), Some(xb), Some(ya), Some(yb)) =
@@ -196,43 +187,13 @@ impl HeatMap {
                 false,
             );
         }
-        k.rect(
-            "frame",
-            (left, TOP),
-            (right - left, bottom - TOP),
-            ink,
-            None,
+        frame::labels(
+            k,
+            (left, TOP, right, bottom),
+            bottom + 40.0,
+            (&self.x.label, &self.y.label),
+            &self.notes,
         );
-        let below = bottom + 40.0;
-        let size = fit(&self.x.label, LABEL_SIZE, right - left);
-        k.text(
-            "x-label",
-            ((left + right) / 2.0, below),
-            &self.x.label,
-            size,
-            Anchor::Middle,
-            false,
-        );
-        let size = fit(&self.y.label, LABEL_SIZE, bottom - TOP);
-        k.text(
-            "y-label",
-            (18.0, (TOP + bottom) / 2.0),
-            &self.y.label,
-            size,
-            Anchor::Middle,
-            true,
-        );
-        for (n, note) in self.notes.iter().enumerate() {
-            let size = fit(note, 10.5, WIDTH - left - 10.0);
-            k.text(
-                "note",
-                (left, below + 17.0 + 15.0 * n as f64),
-                note,
-                size,
-                Anchor::Start,
-                false,
-            );
-        }
     }
 
     fn colour_bar(&self, k: &mut Canvas, s: &Scale, ticks: &[f64], x: f64, bottom: f64) {

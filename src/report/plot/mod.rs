@@ -9,6 +9,7 @@
 //! - `axis.rs`: scales (linear, log₁₀), round ticks, tick labels;
 //! - `ramp.rs`: the heat maps' perceptually ordered ramp and the series' palette;
 //! - `canvas.rs`: the document writer (finite coordinates only);
+//! - `frame.rs`: the title, frame, axis labels and notes every plot draws;
 //! - `chart.rs` and `heat.rs`: the two shapes.
 //!
 //! Every element carries a `class` saying what it is, so that programs (and the tests) can
@@ -21,10 +22,11 @@
 pub mod axis;
 pub mod canvas;
 pub mod chart;
+pub mod frame;
 pub mod heat;
 pub mod ramp;
 pub mod text;
 
 pub use axis::AxisSpec;
-pub use chart::{Chart, Dash, Interval, Marker, Point, Series};
+pub use chart::{Chart, Dash, Datum, Interval, Marker, Series};
 pub use heat::{Cell, Dot, HeatMap};

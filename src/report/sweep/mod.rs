@@ -4,6 +4,7 @@ pub mod response;
 
 use super::jnum;
 use crate::network::Network;
+use crate::sweep::FailedPoint;
 use serde_json::{json, Map, Value};
 
 /// The `initial` task's document: what a point compiles to — the volume, each species'
@@ -51,7 +52,7 @@ pub struct SweepSummary<'a> {
     pub points_here: u64,
     pub already_done: u64,
     pub written: u64,
-    pub failed: &'a [(u64, String, bool)],
+    pub failed: &'a [FailedPoint],
     pub stopped: bool,
     pub svg: Option<&'a str>,
 }
@@ -60,7 +61,7 @@ pub fn sweep_json(s: &SweepSummary) -> Value {
     let failed: Vec<Value> = s
         .failed
         .iter()
-        .map(|(p, m, _)| json!({"point": p, "error": m}))
+        .map(|f| json!({"point": f.point, "error": f.message}))
         .collect();
     json!({
         "out": s.out,
@@ -100,8 +101,8 @@ pub fn sweep_text(s: &SweepSummary) -> String {
         out.push_str(&format!(
             "  failed          {} (their lines carry `error`; first: point {}: {})\n",
             s.failed.len(),
-            s.failed[0].0,
-            s.failed[0].1.lines().next().unwrap_or("")
+            s.failed[0].point,
+            s.failed[0].message.lines().next().unwrap_or("")
         ));
     }
     if s.stopped {

@@ -1,7 +1,7 @@
 //! The swept response as a plot: a line over one varied value, a heat map over two, axes
 //! labelled with each varied name and its unit, the drawn figure named with its unit.
 
-use crate::report::plot::{AxisSpec, Cell, Chart, Dash, Dot, HeatMap, Marker, Point, Series};
+use crate::report::plot::{AxisSpec, Cell, Chart, Dash, Datum, Dot, HeatMap, Marker, Series};
 use crate::sweep::{Axis, Response};
 
 /// The axis title of a varied value: its name and unit (the one the sweep gave, else the one
@@ -133,7 +133,7 @@ fn line(r: &Response, title: String, notes: Vec<String>) -> String {
     pts.sort_by(|a, b| a.0.total_cmp(&b.0));
     let points = pts
         .iter()
-        .map(|&(x, y)| Point::new(x, y.unwrap_or(f64::NAN)))
+        .map(|&(x, y)| Datum::new(x, y.unwrap_or(f64::NAN)))
         .collect();
     let label = metric_label(&r.metric);
     Chart {

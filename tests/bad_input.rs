@@ -321,3 +321,61 @@ fn a_byte_order_mark_is_accepted() {
     let without = load("species A = 4\nstep s A -> 0 @ 1\n".into()).unwrap();
     assert_eq!(with.species, without.species);
 }
+
+/// The longest run of ASCII digits in `text`.
+fn longest_digits(text: &str) -> usize {
+    let (mut best, mut run) = (0, 0);
+    for b in text.bytes() {
+        run = if b.is_ascii_digit() { run + 1 } else { 0 };
+        best = best.max(run);
+    }
+    best
+}
+
+/// Messages show huge and tiny numbers in exponent form, as the file or command line wrote
+/// them: Rust's `{}` would print 1e-308 with 308 zeros. An f64 has at most 17 significant
+/// digits in shortest round-trip form (IEEE 754-2019 §5.12.2 [M]), so no message needs a run
+/// of more than 22 digits when the input has none.
+#[test]
+fn messages_show_extreme_numbers_in_exponent_form() {
+    let dir = scratch();
+    let files: &[(&str, &str, &[&str], &str)] = &[
+        ("tiny count", "species A = 1e-308\n", &["check"], "`A` = 1e-308 is not a whole number"),
+        ("nearly whole count", "species A = 3.0000000000000004\n", &["check"], "`A` = 3.0000000000000004 is not"),
+        (
+            "pulse of a huge negative period",
+            "species A = 1\nstep s 0 -> A @ law 1 molecules/s * pulse(time, -1e300 s, 0 s)\n",
+            &["check"],
+            "found period -1e300 and width 0",
+        ),
+        (
+            "events in conflict at 1e300 s",
+            "species A = 1\nstep s A -> 0 @ 1\ndose A += 5 molecules at 1e300 s\nwhen time >= 1e300 s : A = 0\n",
+            &["check"],
+            "at t = 1e300 s",
+        ),
+        ("precision of 1e300", "species A = 1\nstep s A -> 0 @ 1\n", &["reconcile", "--precision", "1e300"], "got 1e300"),
+        ("tolerance of -1e-300", "species A = 1\nstep s A -> 0 @ 1\n", &["reconcile", "--tolerance=-1e-300"], "got -1e-300"),
+        ("t-end of -1e300", "species A = 1\nstep s A -> 0 @ 1\n", &["distribution", "--t-end=-1e300"], "got -1e300"),
+    ];
+    let mut failures = Vec::new();
+    for (k, (name, text, args, says)) in files.iter().enumerate() {
+        let path = dir.join(format!("extreme{k}.crn"));
+        std::fs::write(&path, text).unwrap();
+        let out = Command::new(env!("CARGO_BIN_EXE_copyloop"))
+            .arg(args[0])
+            .arg(&path)
+            .args(&args[1..])
+            .output()
+            .unwrap();
+        let stderr = String::from_utf8_lossy(&out.stderr);
+        if out.status.code() != Some(2) || !stderr.contains(says) || longest_digits(&stderr) > 22 {
+            failures.push(format!(
+                "{name}: status {:?}, wanted `{says}`, got:\n{stderr}",
+                out.status.code()
+            ));
+        }
+    }
+    let _ = std::fs::remove_dir_all(&dir);
+    assert!(failures.is_empty(), "{}", failures.join("\n\n"));
+}

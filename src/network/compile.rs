@@ -562,7 +562,10 @@ impl<'a> Compiler<'a> {
             if q.value.fract() != 0.0 {
                 self.error_help(
                     lit.span,
-                    format!("`{name}` = {} is not a whole number of molecules", q.value),
+                    format!(
+                        "`{name}` = {} is not a whole number of molecules",
+                        crate::numbers::round_trip(q.value)
+                    ),
                     "give a whole count, or a concentration with a unit such as `nM`",
                 );
                 return 0;
@@ -601,8 +604,10 @@ impl<'a> Compiler<'a> {
             let d = self.diag(
                 lit.span,
                 format!(
-                    "`{name}` is {exact:.4} molecules in this volume; rounded to {rounded}, which changes it by {:.1} %",
-                    100.0 * ((rounded - exact) / exact).abs()
+                    "`{name}` is {} molecules in this volume; rounded to {}, which changes it by {} %",
+                    crate::numbers::plain(exact),
+                    crate::numbers::plain(rounded),
+                    crate::numbers::short(100.0 * ((rounded - exact) / exact).abs())
                 ),
             );
             self.warnings.push(d);

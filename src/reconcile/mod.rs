@@ -64,6 +64,8 @@ pub struct Options {
     pub fit: Option<String>,
     /// Start replicates from the file's initial state instead of the rounded steady state.
     pub from_initial: bool,
+    /// Most states of the exact stationary law solved beside the ensemble (0: none).
+    pub exact_states: usize,
     pub progress: bool,
 }
 
@@ -81,6 +83,7 @@ impl Default for Options {
             observations: Vec::new(),
             fit: None,
             from_initial: false,
+            exact_states: distribution::EMBEDDED_MAX_STATES,
             progress: false,
         }
     }
@@ -95,14 +98,15 @@ impl Options {
         if let Some(p) = self.precision {
             if !(p > 0.0 && p < 1.0) {
                 return Err(Error::usage(format!(
-                    "--precision must lie strictly between 0 and 1, got {p}"
+                    "--precision must lie strictly between 0 and 1, got {}",
+                    crate::numbers::round_trip(p)
                 )));
             }
         }
         if !(self.tolerance > 0.0 && self.tolerance.is_finite()) {
             return Err(Error::usage(format!(
                 "--tolerance must be a positive relative difference such as 0.05, got {}",
-                self.tolerance
+                crate::numbers::round_trip(self.tolerance)
             )));
         }
         if self.fit.is_some() && self.observations.is_empty() {
@@ -430,10 +434,7 @@ pub fn reconcile(net: &Network, opts: &Options) -> Result<Reconciliation> {
     let (exact, exact_note) = if net.motifs.is_empty() {
         (None, None)
     } else {
-        match distribution::stationary_beside(net, opts.threads) {
-            Ok(e) => (Some(e), None),
-            Err(e) => (None, Some(e.to_string())),
-        }
+        crate::noise::exact_beside(net, opts.exact_states, opts.threads)
     };
     let motifs: Vec<MotifReport> = (0..net.motifs.len())
         .map(|m| {
@@ -489,13 +490,14 @@ fn validate_plan(plan: &Plan) -> Result<()> {
     if !(plan.t_end.is_finite() && plan.t_end > 0.0) {
         return Err(Error::usage(format!(
             "the end time must be a finite time above 0 (it came out as {} s: no finite relaxation time; give --t-end)",
-            plan.t_end
+            crate::numbers::plain(plan.t_end)
         )));
     }
     if !(plan.burn_in >= 0.0 && plan.burn_in < plan.t_end) {
         return Err(Error::usage(format!(
             "--burn-in must satisfy 0 <= burn-in < t-end ({} s), got {} s",
-            plan.t_end, plan.burn_in
+            crate::numbers::plain(plan.t_end),
+            crate::numbers::plain(plan.burn_in)
         )));
     }
     Ok(())

@@ -166,15 +166,16 @@ fn catalogue() -> Vec<Case> {
     v
 }
 
-fn scratch() -> PathBuf {
-    let dir = std::env::temp_dir().join(format!("copyloop-bad-{}", std::process::id()));
+/// A scratch directory of its own for each test (tests run in parallel and remove theirs).
+fn scratch(test: &str) -> PathBuf {
+    let dir = std::env::temp_dir().join(format!("copyloop-bad-{}-{test}", std::process::id()));
     std::fs::create_dir_all(&dir).unwrap();
     dir
 }
 
 #[test]
 fn every_bad_input_exits_2_with_its_location() {
-    let dir = scratch();
+    let dir = scratch("catalogue");
     let cases = catalogue();
     assert!(cases.len() >= 25);
     let mut failures = Vec::new();
@@ -287,7 +288,7 @@ fn nesting_at_the_limit_compiles_on_a_small_stack() {
 /// `check` shows a law exactly as written, its closing parenthesis included.
 #[test]
 fn check_shows_a_law_as_written() {
-    let dir = scratch();
+    let dir = scratch("paren");
     let path = dir.join("paren.crn");
     let law = "ks * K / (K + H)";
     std::fs::write(
@@ -338,7 +339,7 @@ fn longest_digits(text: &str) -> usize {
 /// of more than 22 digits when the input has none.
 #[test]
 fn messages_show_extreme_numbers_in_exponent_form() {
-    let dir = scratch();
+    let dir = scratch("extreme");
     let files: &[(&str, &str, &[&str], &str)] = &[
         ("tiny count", "species A = 1e-308\n", &["check"], "`A` = 1e-308 is not a whole number"),
         ("nearly whole count", "species A = 3.0000000000000004\n", &["check"], "`A` = 3.0000000000000004 is not"),
@@ -372,6 +373,57 @@ fn messages_show_extreme_numbers_in_exponent_form() {
         if out.status.code() != Some(2) || !stderr.contains(says) || longest_digits(&stderr) > 22 {
             failures.push(format!(
                 "{name}: status {:?}, wanted `{says}`, got:\n{stderr}",
+                out.status.code()
+            ));
+        }
+    }
+    let _ = std::fs::remove_dir_all(&dir);
+    assert!(failures.is_empty(), "{}", failures.join("\n\n"));
+}
+
+/// When `steady` finds no steady state it names the steps at fault with file:line:column:
+/// those that make and remove a species that grows without bound (A -> 2 A at 1/s against
+/// A -> 0 at 0.5/s: dA/dt = 0.5·A, exponential growth [C]), those that move an oscillating
+/// species (the Lotka system, a centre with eigenvalues ±10i, Lotka 1920 [M]), and the law
+/// that removes a species when none is left (a constant 5 molecules/s).
+#[test]
+fn steady_names_the_steps_at_fault() {
+    let dir = scratch("steady");
+    let cases: &[(&str, &str, &[&str])] = &[
+        (
+            "growth",
+            "species A = 10\nstep grow A -> 2 A @ 1\nstep die A -> 0 @ 0.5\n",
+            &["grows without bound", "what makes it, step `grow` (@:2:1)", "what removes it, step `die` (@:3:1)"],
+        ),
+        (
+            "oscillation",
+            "species Y1 = 1500\nspecies Y2 = 800\nstep a Y1 -> 2 Y1 @ 10\nstep b Y1 + Y2 -> 2 Y2 @ 0.01\nstep c Y2 -> 0 @ 10\n",
+            &["sustained oscillation", "step `", "(@:"],
+        ),
+        (
+            "negative",
+            "species X = 10\nspecies Y = 0\nstep out X -> Y @ law 5\n",
+            &["X becomes negative", "step `out` (@:3:1)"],
+        ),
+    ];
+    let mut failures = Vec::new();
+    for (name, text, says) in cases {
+        let path = dir.join(format!("{name}.crn"));
+        std::fs::write(&path, text).unwrap();
+        let out = Command::new(env!("CARGO_BIN_EXE_copyloop"))
+            .args(["steady", path.to_str().unwrap()])
+            .output()
+            .unwrap();
+        let stderr = String::from_utf8_lossy(&out.stderr);
+        let file = path.to_str().unwrap();
+        let missing: Vec<String> = says
+            .iter()
+            .map(|s| s.replace('@', file))
+            .filter(|s| !stderr.contains(s.as_str()))
+            .collect();
+        if out.status.code() != Some(2) || !missing.is_empty() {
+            failures.push(format!(
+                "{name}: status {:?}, missing {missing:?} in:\n{stderr}",
                 out.status.code()
             ));
         }

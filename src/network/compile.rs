@@ -604,10 +604,10 @@ impl<'a> Compiler<'a> {
             let d = self.diag(
                 lit.span,
                 format!(
-                    "`{name}` is {} molecules in this volume; rounded to {}, which changes it by {} %",
-                    crate::numbers::plain(exact),
-                    crate::numbers::plain(rounded),
-                    crate::numbers::short(100.0 * ((rounded - exact) / exact).abs())
+                    "`{name}` is {} molecules in this volume; rounded to {}, which changes it by {:.1} %",
+                    crate::numbers::short(exact),
+                    rounded as i64,
+                    100.0 * ((rounded - exact) / exact).abs()
                 ),
             );
             self.warnings.push(d);

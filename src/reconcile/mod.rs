@@ -326,6 +326,13 @@ fn sensitivity_map<S: serde::Serializer>(
 #[derive(Clone, Debug, Serialize)]
 pub struct FitReport {
     pub param: String,
+    /// The unit the file wrote the param in (`/min` for `60 /min`); null where it wrote a
+    /// bare number, whose unit is the canonical one (molecules, litres, seconds).
+    pub unit: Option<String>,
+    /// The file's value, the fitted value and its 95 % interval in that unit.
+    pub original_in_unit: f64,
+    pub value_in_unit: Option<f64>,
+    pub ci95_in_unit: Option<[f64; 2]>,
     /// The file's value, canonical units.
     pub original: f64,
     /// The fitted value in canonical units, or `None` with `why`.
@@ -880,9 +887,17 @@ fn fit_param(
         }
         _ => None,
     };
+    let (unit, factor) = match net.source.written_unit(name) {
+        Some((u, f)) => (Some(u), f),
+        None => (None, 1.0),
+    };
+    let in_unit = |x: f64| match &unit {
+        Some(u) => format!("{} {u}", crate::numbers::plain(x / factor)),
+        None => crate::numbers::plain(x),
+    };
     let (value, why) = match found {
         Ok(v) => (Some(v), None),
-        Err(f) => (None, Some(f.to_string())),
+        Err(f) => (None, Some(f.describe(&in_unit))),
     };
     let confirmation = match value {
         Some(v) => {
@@ -902,6 +917,10 @@ fn fit_param(
     };
     Ok(FitReport {
         param: name.to_string(),
+        unit,
+        original_in_unit: original / factor,
+        value_in_unit: value.map(|v| v / factor),
+        ci95_in_unit: ci95.map(|c| [c[0] / factor, c[1] / factor]),
         original,
         value,
         ci95,

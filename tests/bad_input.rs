@@ -503,3 +503,80 @@ fn option_errors_name_the_flag_and_come_first() {
     let _ = std::fs::remove_dir_all(&dir);
     assert!(failures.is_empty(), "{}", failures.join("\n\n"));
 }
+
+/// Sizes past what the machine can hold are refused with the stated limit, before any
+/// allocation (a `--grid` of 2^64 − 1 once panicked on capacity overflow, 2^32 aborted on
+/// allocation, a `--vary` of 2^64 − 1 values panicked, and `--threads` had no bound).
+#[test]
+fn huge_sizes_are_refused_with_their_limit() {
+    let dir = scratch("sizes");
+    let file = dir.join("bd.crn");
+    std::fs::write(
+        &file,
+        "species X = 10\nparam k = 10\nstep make 0 -> X @ k\nstep decay X -> 0 @ 1 /s\n",
+    )
+    .unwrap();
+    let out_file = dir.join("s.jsonl");
+    let (f, o) = (file.to_str().unwrap(), out_file.to_str().unwrap());
+    let cases: Vec<(Vec<&str>, &str)> = vec![
+        (
+            vec![
+                "simulate",
+                f,
+                "--t-end",
+                "1",
+                "--grid",
+                "18446744073709551615",
+            ],
+            "2 to 1000000 points",
+        ),
+        (
+            vec!["simulate", f, "--t-end", "1", "--grid", "4294967296"],
+            "2 to 1000000 points",
+        ),
+        (
+            vec![
+                "simulate",
+                f,
+                "--t-end",
+                "1",
+                "--threads",
+                "18446744073709551615",
+            ],
+            "at most 1024 threads",
+        ),
+        (
+            vec!["simulate", f, "--t-end", "1", "--threads", "100000"],
+            "at most 1024 threads",
+        ),
+        (
+            vec![
+                "sweep",
+                f,
+                "--vary",
+                "k=lin:1..2:18446744073709551615",
+                "--task",
+                "steady",
+                "--out",
+                o,
+            ],
+            "more than a sweep may have (100000000)",
+        ),
+    ];
+    let mut failures = Vec::new();
+    for (args, says) in &cases {
+        let out = Command::new(env!("CARGO_BIN_EXE_copyloop"))
+            .args(args)
+            .output()
+            .unwrap();
+        let stderr = String::from_utf8_lossy(&out.stderr);
+        if out.status.code() != Some(2) || !stderr.contains(says) || stderr.contains("panicked") {
+            failures.push(format!(
+                "{args:?}: status {:?}, wanted `{says}`:\n{stderr}",
+                out.status.code()
+            ));
+        }
+    }
+    let _ = std::fs::remove_dir_all(&dir);
+    assert!(failures.is_empty(), "{}", failures.join("\n\n"));
+}

@@ -38,6 +38,8 @@ pub struct Options {
     pub burn_in: Option<f64>,
     /// Volumes (L) to repeat at; empty means the file's own.
     pub volumes: Vec<f64>,
+    /// Most states of the exact stationary law solved beside the ensemble (0: none).
+    pub exact_states: usize,
     pub progress: bool,
 }
 
@@ -50,6 +52,7 @@ impl Default for Options {
             t_end: None,
             burn_in: None,
             volumes: Vec::new(),
+            exact_states: distribution::EMBEDDED_MAX_STATES,
             progress: false,
         }
     }
@@ -141,6 +144,50 @@ pub struct NoiseReport {
     pub volumes: Vec<VolumeNoise>,
 }
 
+/// The exact stationary law (finite state projection) beside an ensemble of `noise` or
+/// `reconcile`, on at most `max_states` states and [`distribution::EMBEDDED_MAX_DIMENSIONS`]
+/// independent coordinates, or why there is none. `max_states` 0 skips it: its solve can
+/// take seconds where the ensemble takes less (`--exact-states 0`).
+pub fn exact_beside(
+    net: &Network,
+    max_states: usize,
+    threads: Option<usize>,
+) -> (Option<distribution::Stationary>, Option<String>) {
+    if max_states == 0 {
+        return (None, Some("not computed (--exact-states 0)".into()));
+    }
+    let result = if max_states == distribution::EMBEDDED_MAX_STATES {
+        distribution::stationary_beside(net, threads)
+    } else {
+        let dims = distribution::space::Reduction::from_start(
+            net,
+            net.initial_state(),
+            &[],
+            &net.outputs(),
+        )
+        .dim();
+        if dims > distribution::EMBEDDED_MAX_DIMENSIONS {
+            Err(distribution::FspError::TooManyDimensions {
+                dims,
+                max: distribution::EMBEDDED_MAX_DIMENSIONS,
+            })
+        } else {
+            distribution::stationary(
+                net,
+                &distribution::Options {
+                    max_states,
+                    threads,
+                    ..distribution::Options::default()
+                },
+            )
+        }
+    };
+    match result {
+        Ok(e) => (Some(e), None),
+        Err(e) => (None, Some(e.to_string())),
+    }
+}
+
 /// Runs the noise analysis of `net` at each requested volume.
 pub fn noise(net: &Network, opts: &Options) -> Result<NoiseReport> {
     let nets: Vec<Network> = if opts.volumes.is_empty() {
@@ -202,10 +249,7 @@ fn at_volume(net: &Network, opts: &Options) -> Result<VolumeNoise> {
         Ok(l) => (Some(l), None),
         Err(e) => (None, Some(e.to_string())),
     };
-    let (exact, exact_note) = match distribution::stationary_beside(net, opts.threads) {
-        Ok(e) => (Some(e), None),
-        Err(e) => (None, Some(e.to_string())),
-    };
+    let (exact, exact_note) = exact_beside(net, opts.exact_states, opts.threads);
     let plan = stationary::plan(
         net,
         Some(&steady),

@@ -6,6 +6,10 @@
 //!   wrote or must copy back (messages, constants): f64 rounding noise such as
 //!   24921.999999999996 reads 24922, and 1e300 reads `1e300`, not 301 digits.
 //!
+//! - [`round_trip`]: the shortest text that reads back as the same f64, in exponent notation
+//!   outside [1e-4, 1e16), for messages that must show a value exactly (`3.0000000000000004
+//!   is not a whole number`), never the 309 digits Rust's `{}` gives 1e-308.
+//!
 //! - [`csv`]: the value rounded to fifteen significant digits (the most an f64 always keeps,
 //!   IEEE 754-2019 §3.6 [M]) in the shortest text that reads back as it, for files that
 //!   programs load: 24921.999999999996 reads 24922, 0.1 + 0.2 reads 0.3.
@@ -21,6 +25,23 @@ pub fn short(x: f64) -> String {
 /// Up to twelve significant digits (see the module docs).
 pub fn plain(x: f64) -> String {
     sig(x, 12, 1e-4, 1e9)
+}
+
+/// The shortest text that reads back as `x` (see the module docs): Rust's `{}` and `{:e}`
+/// both print the shortest round-trip digits (Steele & White / Ryū, common practice); this
+/// picks the form, so no message spells out hundreds of zeros.
+pub fn round_trip(x: f64) -> String {
+    if x.is_nan() {
+        return "nan".into();
+    }
+    if x.is_infinite() {
+        return if x > 0.0 { "inf".into() } else { "-inf".into() };
+    }
+    if x == 0.0 || (1e-4..1e16).contains(&x.abs()) {
+        format!("{x}")
+    } else {
+        format!("{x:e}")
+    }
 }
 
 /// Fifteen significant digits in the shortest text that reads back (see the module docs);
@@ -99,6 +120,26 @@ mod tests {
         assert_eq!(plain(602214076.0), "602214076");
         assert_eq!(plain(1.5e-9), "1.5e-9");
         assert_eq!(plain(f64::INFINITY), "inf");
+    }
+
+    #[test]
+    fn round_trip_numbers_read_back_exactly_and_stay_short() {
+        assert_eq!(round_trip(1e-308), "1e-308");
+        assert_eq!(round_trip(1.79e308), "1.79e308");
+        assert_eq!(round_trip(3.0000000000000004), "3.0000000000000004");
+        assert_eq!(round_trip(0.5), "0.5");
+        assert_eq!(round_trip(-0.0), "-0");
+        assert_eq!(round_trip(5e-324), "5e-324");
+        for x in [
+            std::f64::consts::PI * 1e200,
+            1.0 / 3.0,
+            123456789012345680.0,
+            5e-324,
+        ] {
+            let s = round_trip(x);
+            assert_eq!(s.parse::<f64>().unwrap(), x, "{s}");
+            assert!(s.len() <= 24, "{s}");
+        }
     }
 
     #[test]

@@ -53,7 +53,7 @@ fn a_sweep_over_volume_keeps_concentrations_and_counts_as_given() {
         .skip(1)
         .map(|l| serde_json::from_str(l).unwrap())
         .collect();
-    // Points are written as they finish, not in order.
+    // Points are written as they finish, in any order.
     points.sort_by_key(|p| p["point"].as_u64());
     assert_eq!(points.len(), 3);
     assert_eq!(h_count(1e-12), 6022.0);

@@ -112,7 +112,8 @@ fn overrides_replace_values_in_the_written_unit() {
     .unwrap();
     assert!(rel(big.omega, 10.0 * net(src).omega) < 1e-15);
     assert_eq!(big.species[0].initial, (1e-9 * big.omega).round() as i64);
-    // A count-given amount keeps its count (molecules are what the file gave).
+    // A count-given amount keeps its count at another volume (an amount in molecules is a
+    // count, not a concentration).
     let counts = "volume 1 pL\nspecies A = 30 molecules\nstep s A -> 0 @ 1 /s\n";
     let o = Overrides {
         rescale_volume: Some(5e-12),

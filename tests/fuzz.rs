@@ -6,7 +6,10 @@
 //! token repeated into a long line. Every mutant goes through the compiler and the `check`
 //! report in this process (a panic is caught and reported with the mutant); a few hundred of
 //! the accepted ones go through `simulate`, `steady` and `noise` as child processes with short
-//! budgets and a time limit, which must exit 0 or 2 and print valid JSON.
+//! budgets and a time limit (two at a time), which must exit 0 or 2 and print valid JSON
+//! (`noise` with `--exact-states 0`: its exact solve would take longer than its ensemble).
+//! No message prints a number longer than the mutant itself holds: shortest round-trip or
+//! scientific form, never the 300 digits of a plain 1e300.
 
 mod support;
 
@@ -17,7 +20,7 @@ use std::process::{Command, Stdio};
 use std::time::{Duration, Instant};
 
 /// Mutants per bundled network through the compiler.
-const MUTANTS: usize = 7_000;
+const MUTANTS: usize = 20_000;
 /// Accepted mutants per bundled network run through the engines.
 const RUNS: usize = 40;
 /// Time limit of one engine run.
@@ -142,8 +145,26 @@ fn mutate(text: &str, rng: &mut Xoshiro256PlusPlus) -> String {
     t.concat()
 }
 
+/// The longest run of ASCII digits in `text`.
+fn longest_digits(text: &str) -> usize {
+    let (mut best, mut run) = (0, 0);
+    for b in text.bytes() {
+        run = if b.is_ascii_digit() { run + 1 } else { 0 };
+        best = best.max(run);
+    }
+    best
+}
+
+/// Digits a message may print in a row: an f64 in shortest round-trip form has at most 17
+/// significant digits, and a plain form up to 1e21 at most 22 (common practice); longer runs
+/// only where the mutant itself has them (a message may quote the file).
+fn digits_allowed(mutant: &str) -> usize {
+    longest_digits(mutant).max(22)
+}
+
 // Every mutant compiles or is refused with exit status 2 and a location, and the accepted ones
-// render their `check` report; nothing panics.
+// render their `check` report; nothing panics, and no message or report spells out a number
+// longer than the file does.
 #[test]
 fn mutants_never_panic_the_compiler() {
     let mut refused = 0usize;
@@ -161,18 +182,42 @@ fn mutants_never_panic_the_compiler() {
                     Ok(net) => {
                         let json = copyloop::report::check::json(&net);
                         serde_json::to_string(&json).expect("check JSON encodes");
-                        let _ = copyloop::report::check::table(&net);
-                        Ok(())
+                        let table = copyloop::report::check::table(&net);
+                        let warnings: String =
+                            net.warnings.iter().map(|w| w.message.clone()).collect();
+                        Ok(longest_digits(&table).max(longest_digits(&warnings)))
                     }
-                    Err(e) => Err(e.exit_code()),
+                    Err(e) => {
+                        let messages: String = match &e {
+                            copyloop::Error::Input(d) => d
+                                .iter()
+                                .map(|d| {
+                                    format!("{} {}", d.message, d.help.as_deref().unwrap_or(""))
+                                })
+                                .collect(),
+                            other => other.to_string(),
+                        };
+                        Err((e.exit_code(), longest_digits(&messages)))
+                    }
                 }
             });
+            let allowed = digits_allowed(&mutant);
             match outcome {
-                Ok(Ok(())) => accepted += 1,
-                Ok(Err(code)) => {
+                Ok(Ok(digits)) => {
+                    assert!(
+                        digits <= allowed,
+                        "{name} mutant {m}: its check report or warnings print {digits} digits in a row:\n{mutant}"
+                    );
+                    accepted += 1;
+                }
+                Ok(Err((code, digits))) => {
                     assert_eq!(
                         code, 2,
                         "{name} mutant {m} refused with exit {code}:\n{mutant}"
+                    );
+                    assert!(
+                        digits <= allowed,
+                        "{name} mutant {m}: its error prints {digits} digits in a row:\n{mutant}"
                     );
                     refused += 1;
                 }
@@ -221,13 +266,40 @@ fn run_limited(file: &std::path::Path, args: &[&str]) -> (Option<i32>, String, S
     }
 }
 
+/// Engine runs at once (the compiler test runs beside them on a core of its own).
+const PARALLEL: usize = 2;
+
+/// One engine run of an accepted mutant.
+struct Job {
+    name: String,
+    mutant: String,
+    path: std::path::PathBuf,
+    args: Vec<String>,
+}
+
+/// What is wrong with a finished run, if anything.
+fn judge(job: &Job, code: Option<i32>, out: &str, err: &str) -> Option<String> {
+    let (name, args, mutant) = (&job.name, &job.args, &job.mutant);
+    match code {
+        Some(0) if serde_json::from_str::<serde_json::Value>(out).is_err() => {
+            Some(format!("{name}: {args:?} printed invalid JSON:\n{mutant}"))
+        }
+        Some(0) => None,
+        Some(2) if !err.contains("error") => Some(format!("{args:?}: {err}")),
+        Some(2) => None,
+        None => Some(format!("{name}: {args:?} ran past {LIMIT:?} on:\n{mutant}")),
+        Some(c) => Some(format!("{name}: {args:?} exited {c}:\n{err}\n{mutant}")),
+    }
+}
+
 // Accepted mutants through the engines with short budgets: each exits 0 or 2 within its time
 // limit, never panics (exit 101) or aborts, and a successful run prints one valid JSON document
 // (JSON has no NaN or infinity: serde_json refuses to read them).
 #[test]
 fn accepted_mutants_run_or_are_refused() {
     let dir = tempfile::tempdir().unwrap();
-    let mut ran = 0;
+    let mut jobs = Vec::new();
+    let mut accepted = 0;
     for (name, text) in bundled() {
         let mut rng = Xoshiro256PlusPlus::seed_from_u64(0xf00d ^ name.len() as u64);
         let mut done = 0;
@@ -241,6 +313,7 @@ fn accepted_mutants_run_or_are_refused() {
                 continue;
             };
             done += 1;
+            accepted += 1;
             // A short budget: about 10⁶ events at the initial rate, at most 2 s.
             let x0 = net.initial_state();
             let a0: f64 = net.propensities().iter().map(|p| p.eval(&x0).abs()).sum();
@@ -251,13 +324,14 @@ fn accepted_mutants_run_or_are_refused() {
             };
             let t_end = format!("{t_end:e}");
             let burn_in = format!("{:e}", 0.3 * t_end.parse::<f64>().unwrap());
-            let path = dir.path().join(format!("m{done}.crn"));
+            let path = dir.path().join(format!("m{accepted}.crn"));
             std::fs::write(&path, &mutant).unwrap();
+            let t = t_end.as_str();
             for args in [
                 &[
                     "simulate",
                     "--t-end",
-                    &t_end,
+                    t,
                     "--replicates",
                     "2",
                     "--grid",
@@ -269,7 +343,7 @@ fn accepted_mutants_run_or_are_refused() {
                 &[
                     "simulate",
                     "--t-end",
-                    &t_end,
+                    t,
                     "--method",
                     "tau",
                     "--threads",
@@ -284,28 +358,43 @@ fn accepted_mutants_run_or_are_refused() {
                     "--burn-in",
                     &burn_in,
                     "--t-end",
-                    &t_end,
+                    t,
                     "--threads",
                     "1",
+                    "--exact-states",
+                    "0",
                     "--json",
                 ],
             ] {
-                let (code, out, err) = run_limited(&path, args);
-                match code {
-                    Some(0) => {
-                        let v: Result<serde_json::Value, _> = serde_json::from_str(&out);
-                        assert!(
-                            v.is_ok(),
-                            "{name}: {args:?} printed invalid JSON:\n{mutant}"
-                        );
-                    }
-                    Some(2) => assert!(err.contains("error"), "{args:?}: {err}"),
-                    None => panic!("{name}: {args:?} ran past {LIMIT:?} on:\n{mutant}"),
-                    Some(c) => panic!("{name}: {args:?} exited {c}:\n{err}\n{mutant}"),
-                }
-                ran += 1;
+                jobs.push(Job {
+                    name: name.clone(),
+                    mutant: mutant.clone(),
+                    path: path.clone(),
+                    args: args.iter().map(|a| a.to_string()).collect(),
+                });
             }
         }
     }
-    assert!(ran >= 100, "only {ran} engine runs");
+    let next = std::sync::atomic::AtomicUsize::new(0);
+    let failures = std::sync::Mutex::new(Vec::new());
+    std::thread::scope(|s| {
+        for _ in 0..PARALLEL {
+            s.spawn(|| loop {
+                let k = next.fetch_add(1, std::sync::atomic::Ordering::Relaxed);
+                let Some(job) = jobs.get(k) else { break };
+                let args: Vec<&str> = job.args.iter().map(String::as_str).collect();
+                let (code, out, err) = run_limited(&job.path, &args);
+                if let Some(f) = judge(job, code, &out, &err) {
+                    failures.lock().unwrap().push(f);
+                }
+            });
+        }
+    });
+    let failures = failures.into_inner().unwrap();
+    assert!(failures.is_empty(), "{}", failures.join("\n\n"));
+    assert!(
+        accepted >= 150 && jobs.len() >= 4 * 150,
+        "only {accepted} accepted mutants, {} engine runs",
+        jobs.len()
+    );
 }

@@ -61,7 +61,8 @@ pub fn run(a: &DistributionArgs) -> Result<()> {
     if let Some(t) = a.t_end {
         if !(t > 0.0 && t.is_finite()) {
             return Err(Error::usage(format!(
-                "--t-end must be a finite time above 0 seconds, got {t}"
+                "--t-end must be a finite time above 0 seconds, got {}",
+                crate::numbers::round_trip(t)
             )));
         }
     }

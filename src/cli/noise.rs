@@ -26,6 +26,10 @@ pub struct NoiseArgs {
     /// their concentration, amounts given in molecules keep their count, rate constants keep k
     #[arg(long, value_delimiter = ',', value_name = "V1,V2,…")]
     pub volumes: Vec<String>,
+    /// Most states of the exact stationary law solved beside the ensemble (finite state
+    /// projection; its columns are left out when the law needs more); 0 skips it
+    #[arg(long, value_name = "N", default_value_t = crate::distribution::EMBEDDED_MAX_STATES)]
+    pub exact_states: usize,
     /// Master seed; the same seed gives the same numbers whatever the thread count
     #[arg(long, default_value_t = 0)]
     pub seed: u64,
@@ -66,6 +70,7 @@ fn options(a: &NoiseArgs) -> Result<Options> {
         t_end: a.t_end,
         burn_in: a.burn_in,
         volumes,
+        exact_states: a.exact_states,
         progress: std::io::stderr().is_terminal(),
     };
     Ok(opts)

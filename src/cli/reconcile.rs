@@ -41,6 +41,10 @@ pub struct ReconcileArgs {
     /// Start every replicate from the file's initial state (default: the rounded steady state)
     #[arg(long)]
     pub from_initial: bool,
+    /// Most states of the exact stationary law solved beside the ensemble (finite state
+    /// projection; its columns are left out when the law needs more); 0 skips it
+    #[arg(long, value_name = "N", default_value_t = crate::distribution::EMBEDDED_MAX_STATES)]
+    pub exact_states: usize,
     /// Master seed; the same seed gives the same numbers whatever the thread count
     #[arg(long, default_value_t = 0)]
     pub seed: u64,
@@ -74,6 +78,7 @@ fn options(a: &ReconcileArgs, net: &crate::Network) -> Result<Options> {
         observations,
         fit: a.fit.clone(),
         from_initial: a.from_initial,
+        exact_states: a.exact_states,
         progress: std::io::stderr().is_terminal(),
     };
     opts.validate()?;

@@ -557,10 +557,16 @@ impl crate::kernel::timeline::EventState for OdeState<'_, '_> {
             return Err("a clamped species cannot change".into());
         };
         if !count.is_finite() {
-            return Err(format!("the amount would be {count}"));
+            return Err(format!(
+                "the amount would be {}",
+                crate::numbers::plain(count)
+            ));
         }
         if count < 0.0 {
-            return Err(format!("the amount would be {count} molecules, below 0"));
+            return Err(format!(
+                "the amount would be {} molecules, below 0",
+                crate::numbers::plain(count)
+            ));
         }
         self.y[k] = count / self.sys.net.omega;
         Ok(())

@@ -562,7 +562,10 @@ impl<'a> Compiler<'a> {
             if q.value.fract() != 0.0 {
                 self.error_help(
                     lit.span,
-                    format!("`{name}` = {} is not a whole number of molecules", q.value),
+                    format!(
+                        "`{name}` = {} is not a whole number of molecules",
+                        crate::numbers::round_trip(q.value)
+                    ),
                     "give a whole count, or a concentration with a unit such as `nM`",
                 );
                 return 0;
@@ -601,7 +604,9 @@ impl<'a> Compiler<'a> {
             let d = self.diag(
                 lit.span,
                 format!(
-                    "`{name}` is {exact:.4} molecules in this volume; rounded to {rounded}, which changes it by {:.1} %",
+                    "`{name}` is {} molecules in this volume; rounded to {}, which changes it by {:.1} %",
+                    crate::numbers::short(exact),
+                    rounded as i64,
                     100.0 * ((rounded - exact) / exact).abs()
                 ),
             );
@@ -900,7 +905,8 @@ impl<'a> Compiler<'a> {
                         op.span(),
                         format!(
                             "a clearance is a volume per time, at least 0, but this is {} {}",
-                            q.value, q.dim
+                            crate::numbers::plain(q.value),
+                            q.dim
                         ),
                         "write e.g. `clearance 5 L/h`",
                     );
@@ -946,7 +952,8 @@ impl<'a> Compiler<'a> {
                         op.span(),
                         format!(
                             "a half-life must be a positive time, but this is {} {}",
-                            q.value, q.dim
+                            crate::numbers::plain(q.value),
+                            q.dim
                         ),
                         "write e.g. `half-life 40 min`",
                     );
@@ -1092,7 +1099,7 @@ impl<'a> Compiler<'a> {
                 span,
                 format!(
                     "a rate constant must be finite and at least 0, found {}",
-                    q.value
+                    crate::numbers::plain(q.value)
                 ),
                 "rate constants are never negative; to make a step run backwards, swap its sides",
             );

@@ -880,7 +880,10 @@ impl Ctx<'_> {
         match t.constant {
             Some(v) if !v.is_finite() => err(
                 expr.span(),
-                format!("this part of the expression is the constant {v}, not a finite number"),
+                format!(
+                    "this part of the expression is the constant {}, not a finite number",
+                    crate::numbers::plain(v)
+                ),
             ),
             _ => Ok(t),
         }
@@ -934,7 +937,7 @@ impl Ctx<'_> {
                     if let Some(v) = acc.constant.filter(|v| !v.is_finite()) {
                         return err(
                             node.span(),
-                            format!("this part of the expression is the constant {v}, not a finite number"),
+                            format!("this part of the expression is the constant {}, not a finite number", crate::numbers::plain(v)),
                         );
                     }
                 }
@@ -1098,7 +1101,9 @@ impl Ctx<'_> {
                             span,
                             format!(
                                 "pulse(s, period, width) needs period > 0 and 0 ≤ width ≤ period, \
-                                 found period {p} and width {w} (in seconds for times)"
+                                 found period {} and width {} (in seconds for times)",
+                                crate::numbers::plain(p),
+                                crate::numbers::plain(w)
                             ),
                         );
                     }

@@ -140,7 +140,9 @@ impl<'a> Compiler<'a> {
             let d = self.diag(
                 op.span(),
                 format!(
-                    "this dose is {exact:.4} molecules; rounded to {rounded}, which changes it by {:.1} %",
+                    "this dose is {} molecules; rounded to {}, which changes it by {:.1} %",
+                    crate::numbers::short(exact),
+                    rounded as i64,
                     100.0 * ((rounded - exact) / exact).abs()
                 ),
             );
@@ -281,7 +283,12 @@ impl<'a> Compiler<'a> {
                 k += 1;
             }
             self.labels.insert(label.clone(), f.span);
-            let text = format!("{} molecules/s for {} s <= time < {} s", rate, from, to);
+            let text = format!(
+                "{} molecules/s for {} s <= time < {} s",
+                crate::numbers::plain(rate),
+                crate::numbers::plain(from),
+                crate::numbers::plain(to)
+            );
             let law = window_law(rate, from, to, f.span, &text, self.volume_l.is_none());
             let comp = self.species[i].compartment;
             list.push(Infusion {
@@ -581,9 +588,10 @@ impl<'a> Compiler<'a> {
                     self.error_help(
                         span,
                         format!(
-                            "this conflicts with line {line} at t = {t} s: both act at the same \
+                            "this conflicts with line {line} at t = {} s: both act at the same \
                              instant on a value the other sets, so their order would decide the \
-                             result"
+                             result",
+                            crate::numbers::round_trip(t)
                         ),
                         "move one of them to another time, or merge them into one `when` line",
                     );

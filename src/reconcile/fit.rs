@@ -16,15 +16,20 @@ pub enum FitFailure {
     Failed { at: f64, why: String },
 }
 
-impl std::fmt::Display for FitFailure {
-    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+impl FitFailure {
+    /// The failure in words, with each param value written by `value` (in the file's unit).
+    pub fn describe(&self, value: &dyn Fn(f64) -> String) -> String {
         match self {
-            FitFailure::NoSignChange { lo, hi } => write!(
-                f,
-                "no value between {lo:e} and {hi:e} (canonical units) gives the observed level"
+            FitFailure::NoSignChange { lo, hi } => format!(
+                "no value between {} and {} gives the observed level",
+                value(*lo),
+                value(*hi)
             ),
             FitFailure::Failed { at, why } => {
-                write!(f, "the steady state could not be found at {at:e}: {why}")
+                format!(
+                    "the steady state could not be found at {}: {why}",
+                    value(*at)
+                )
             }
         }
     }

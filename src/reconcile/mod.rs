@@ -65,6 +65,8 @@ pub struct Options {
     pub fit: Option<String>,
     /// Start replicates from the file's initial state instead of the rounded steady state.
     pub from_initial: bool,
+    /// Most states of the exact stationary law solved beside the ensemble (0: none).
+    pub exact_states: usize,
     pub progress: bool,
 }
 
@@ -82,6 +84,7 @@ impl Default for Options {
             observations: Vec::new(),
             fit: None,
             from_initial: false,
+            exact_states: distribution::EMBEDDED_MAX_STATES,
             progress: false,
         }
     }
@@ -96,14 +99,15 @@ impl Options {
         if let Some(p) = self.precision {
             if !(p > 0.0 && p < 1.0) {
                 return Err(Error::usage(format!(
-                    "--precision must lie strictly between 0 and 1, got {p}"
+                    "--precision must lie strictly between 0 and 1, got {}",
+                    crate::numbers::round_trip(p)
                 )));
             }
         }
         if !(self.tolerance > 0.0 && self.tolerance.is_finite()) {
             return Err(Error::usage(format!(
                 "--tolerance must be a positive relative difference such as 0.05, got {}",
-                self.tolerance
+                crate::numbers::round_trip(self.tolerance)
             )));
         }
         if self.fit.is_some() && self.observations.is_empty() {
@@ -325,6 +329,13 @@ fn sensitivity_map<S: serde::Serializer>(
 #[derive(Clone, Debug, Serialize, JsonSchema)]
 pub struct FitReport {
     pub param: String,
+    /// The unit the file wrote the param in (`/min` for `60 /min`); null where it wrote a
+    /// bare number, whose unit is the canonical one (molecules, litres, seconds).
+    pub unit: Option<String>,
+    /// The file's value, the fitted value and its 95 % interval in that unit.
+    pub original_in_unit: f64,
+    pub value_in_unit: Option<f64>,
+    pub ci95_in_unit: Option<[f64; 2]>,
     /// The file's value, canonical units.
     pub original: f64,
     /// The fitted value in canonical units, or `None` with `why`.
@@ -435,10 +446,7 @@ pub fn reconcile(net: &Network, opts: &Options) -> Result<Reconciliation> {
     let (exact, exact_note) = if net.motifs.is_empty() {
         (None, None)
     } else {
-        match distribution::stationary_beside(net, opts.threads) {
-            Ok(e) => (Some(e), None),
-            Err(e) => (None, Some(e.to_string())),
-        }
+        crate::noise::exact_beside(net, opts.exact_states, opts.threads)
     };
     let motifs: Vec<MotifReport> = (0..net.motifs.len())
         .map(|m| {
@@ -494,13 +502,14 @@ fn validate_plan(plan: &Plan) -> Result<()> {
     if !(plan.t_end.is_finite() && plan.t_end > 0.0) {
         return Err(Error::usage(format!(
             "the end time must be a finite time above 0 (it came out as {} s: no finite relaxation time; give --t-end)",
-            plan.t_end
+            crate::numbers::plain(plan.t_end)
         )));
     }
     if !(plan.burn_in >= 0.0 && plan.burn_in < plan.t_end) {
         return Err(Error::usage(format!(
             "--burn-in must satisfy 0 <= burn-in < t-end ({} s), got {} s",
-            plan.t_end, plan.burn_in
+            crate::numbers::plain(plan.t_end),
+            crate::numbers::plain(plan.burn_in)
         )));
     }
     Ok(())
@@ -883,9 +892,17 @@ fn fit_param(
         }
         _ => None,
     };
+    let (unit, factor) = match net.source.written_unit(name) {
+        Some((u, f)) => (Some(u), f),
+        None => (None, 1.0),
+    };
+    let in_unit = |x: f64| match &unit {
+        Some(u) => format!("{} {u}", crate::numbers::plain(x / factor)),
+        None => crate::numbers::plain(x),
+    };
     let (value, why) = match found {
         Ok(v) => (Some(v), None),
-        Err(f) => (None, Some(f.to_string())),
+        Err(f) => (None, Some(f.describe(&in_unit))),
     };
     let confirmation = match value {
         Some(v) => {
@@ -905,6 +922,10 @@ fn fit_param(
     };
     Ok(FitReport {
         param: name.to_string(),
+        unit,
+        original_in_unit: original / factor,
+        value_in_unit: value.map(|v| v / factor),
+        ci95_in_unit: ci95.map(|c| [c[0] / factor, c[1] / factor]),
         original,
         value,
         ci95,

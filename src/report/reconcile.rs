@@ -23,7 +23,15 @@ fn flux(f: &Flux) -> String {
 /// `agrees (+1.2 %)`, with a `*` when the difference is statistically significant.
 fn judged(j: &Judgement) -> String {
     let d = if j.relative_difference.is_finite() {
-        format!(" ({:+.1} %)", 100.0 * j.relative_difference)
+        format!(
+            " ({}{} %)",
+            if j.relative_difference >= 0.0 {
+                "+"
+            } else {
+                ""
+            },
+            num(100.0 * j.relative_difference)
+        )
     } else {
         String::new()
     };
@@ -33,7 +41,8 @@ fn judged(j: &Judgement) -> String {
 
 /// A cause in words, with its expected size.
 fn cause_text(c: &Cause, m: &MotifReport) -> String {
-    let size = format!("{:+.2} %", 100.0 * c.expected_relative_error);
+    let e = 100.0 * c.expected_relative_error;
+    let size = format!("{}{} %", if e >= 0.0 { "+" } else { "" }, num(e));
     match c.cause {
         CauseKind::LigandDepletion => format!(
             "ligand depletion: the Langmuir form counts all ligand as free, valid when \

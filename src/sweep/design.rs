@@ -216,8 +216,8 @@ impl Design {
                     let y = if e == d { x } else { first[e] };
                     o = o.set(&w.name, w.override_for(y));
                     words.push(match w.unit_text() {
-                        Some(u) => format!("{} = {y} {u}", w.name),
-                        None => format!("{} = {y}", w.name),
+                        Some(u) => format!("{} = {} {u}", w.name, crate::numbers::round_trip(y)),
+                        None => format!("{} = {}", w.name, crate::numbers::round_trip(y)),
                     });
                 }
                 out.push((words.join(", "), o));

@@ -191,8 +191,8 @@ impl Vary {
                         self.name,
                         self.spec,
                         self.scale.as_str(),
-                        self.from,
-                        self.to
+                        crate::numbers::round_trip(self.from),
+                        crate::numbers::round_trip(self.to)
                     ))
                 })?;
                 (0..n)

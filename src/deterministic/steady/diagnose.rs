@@ -282,6 +282,28 @@ pub(super) fn candidate_note(net: &Network, candidate: Option<&Steady>) -> Strin
     )
 }
 
+/// The steps that change species `i` in the direction of `sign` (+1: make it, −1: remove it),
+/// each as `` step `label` (file:line:column) `` so the user finds the one at fault; "no step"
+/// when none does.
+fn steps_moving(net: &Network, i: usize, sign: i64) -> String {
+    let steps: Vec<String> = net
+        .reactions
+        .iter()
+        .filter(|r| r.change.iter().any(|&(k, d)| k == i && d.signum() == sign))
+        .map(|r| {
+            format!(
+                "step `{}` ({}:{}:{})",
+                r.label, net.file, r.span.line, r.span.col
+            )
+        })
+        .collect();
+    if steps.is_empty() {
+        "no step".into()
+    } else {
+        steps.join(", ")
+    }
+}
+
 pub(super) fn no_steady_state_because(
     ctx: &Ctx,
     y0: &[f64],
@@ -295,10 +317,12 @@ pub(super) fn no_steady_state_because(
             let i = ctx.sys.free[slot];
             let name = &net.species[i].name;
             let mut m = format!(
-                "{}: no steady state is reached from the initial state: {name} grows without bound (still rising at {} at t = {} s; what makes it outpaces what removes it).",
+                "{}: no steady state is reached from the initial state: {name} grows without bound (still rising at {} at t = {} s; what makes it, {}, outpaces what removes it, {}).",
                 net.file,
                 rate_text(net, net.species_molar_omega(i), rate),
-                short(t)
+                short(t),
+                steps_moving(net, i, 1),
+                steps_moving(net, i, -1)
             );
             if let Some(note) = negative_root_note(ctx, &[y0]) {
                 m.push_str(&note);
@@ -315,12 +339,14 @@ pub(super) fn no_steady_state_because(
             let name = &net.species[i].name;
             let own = net.species_molar_omega(i);
             format!(
-                "{}: no steady state is reached from the initial state: sustained oscillation; {name} keeps swinging between {} and {} (about {} s per cycle at t = {} s).{}",
+                "{}: no steady state is reached from the initial state: sustained oscillation; {name} keeps swinging between {} and {} (about {} s per cycle at t = {} s; made by {}, removed by {}).{}",
                 net.file,
                 amount(net, own, low),
                 amount(net, own, high),
                 short(period),
                 short(t),
+                steps_moving(net, i, 1),
+                steps_moving(net, i, -1),
                 candidate_note(net, candidate)
             )
         }
@@ -353,10 +379,11 @@ pub(super) fn negative_during_run(ctx: &Ctx, slot: usize, value: f64, t: f64) ->
     let i = ctx.sys.free[slot];
     let name = &net.species[i].name;
     Error::Usage(format!(
-        "{}: no steady state is reached from the initial state: {name} becomes negative ({} at t = {} s); a rate law keeps removing it when none is left (write the law so that it vanishes with {name}, e.g. with sat({name}, K)).",
+        "{}: no steady state is reached from the initial state: {name} becomes negative ({} at t = {} s); a rate law keeps removing it when none is left ({}; write the law so that it vanishes with {name}, e.g. with sat({name}, K)).",
         net.file,
         amount(net, net.species_molar_omega(i), value),
-        short(t)
+        short(t),
+        steps_moving(net, i, -1)
     ))
 }
 

@@ -460,16 +460,61 @@ fn presentation_packages_are_ignored_with_a_warning() {
 
 #[test]
 fn what_the_network_cannot_hold_yet_is_refused_with_the_reason() {
+    // An assignment rule on a species that a reaction lists (a boundary species may be both).
     let rule = format!(
-        r#"<listOfRules><assignmentRule variable="A">{MATH}<cn>1</cn></math></assignmentRule></listOfRules>"#
+        r#"<listOfRules><assignmentRule variable="A">{MATH}<cn>1</cn></math></assignmentRule></listOfRules>
+           <listOfReactions><reaction id="use" reversible="false">
+           <listOfReactants><speciesReference species="A" stoichiometry="1" constant="true"/></listOfReactants>
+           <kineticLaw>{MATH}<cn>1</cn></math></kineticLaw></reaction></listOfReactions>"#
     );
-    let doc = l3(&species("A", 0.0), "", &rule);
+    let doc = l3(
+        &species("A", 0.0).replace(
+            r#"boundaryCondition="false""#,
+            r#"boundaryCondition="true""#,
+        ),
+        "",
+        &rule,
+    );
     let (code, msg) = check_file(doc.as_bytes());
     assert_eq!(code, Some(2));
     assert!(
-        msg.contains("<assignmentRule> `A`: not supported yet: an assignment rule on species `A`"),
+        msg.contains("<assignmentRule> `A`: not supported yet: an assignment rule on species `A`, which a reaction lists"),
         "{msg}"
     );
+}
+
+#[test]
+fn an_assignment_rule_on_a_species_is_computed_where_it_is_read() {
+    // A → ∅ at k·A (k = 1, A(0) = 10); B = 2·A by an assignment rule (B is no state); ∅ → C at
+    // rate B. A(t) = 10·e^(−t), so C(t) = ∫ 20·e^(−s) ds = 20·(1 − e^(−t)) [C].
+    let rest = format!(
+        r#"<listOfRules><assignmentRule variable="B">{MATH}<apply><times/><cn>2</cn><ci>A</ci></apply></math></assignmentRule></listOfRules>
+           <listOfReactions><reaction id="decay" reversible="false">
+           <listOfReactants><speciesReference species="A" stoichiometry="1" constant="true"/></listOfReactants>
+           <kineticLaw>{MATH}<apply><times/><ci>k</ci><ci>A</ci></apply></math></kineticLaw></reaction>
+           <reaction id="make" reversible="false">
+           <listOfProducts><speciesReference species="C" stoichiometry="1" constant="true"/></listOfProducts>
+           <kineticLaw>{MATH}<ci>B</ci></math></kineticLaw></reaction></listOfReactions>"#
+    );
+    let doc = l3(
+        &(species("A", 10.0) + &species("B", 0.0) + &species("C", 0.0)),
+        &param("k", 1.0),
+        &rest,
+    );
+    let (code, out, msg) = run_file(
+        doc.as_bytes(),
+        &[
+            "simulate", "--t-end", "2", "--grid", "3", "--method", "ode", "--json",
+        ],
+    );
+    assert_eq!(code, Some(0), "{msg}");
+    let v: serde_json::Value = serde_json::from_str(&out).unwrap();
+    assert!(v["grid"]["B"].is_null(), "B is computed, not a state: {v}");
+    let c = v["grid"]["C"]["mean"].as_array().unwrap();
+    for (k, t) in [0.0f64, 1.0, 2.0].into_iter().enumerate() {
+        let want = 20.0 * (1.0 - (-t).exp());
+        assert!((c[k].as_f64().unwrap() - want).abs() < 1e-6 * 20.0, "{c:?}");
+    }
 }
 
 #[test]

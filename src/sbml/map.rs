@@ -38,9 +38,13 @@
 //!   ([`AmountUnit::stochastic_refusal`]).
 //!
 //! Events become the network's own events (map/events.rs); assignment rules on parameters and
-//! rate rules on parameters and free species map as map/rules.rs says. What the network cannot
-//! hold yet is refused with [`ErrorKind::NotYet`]: other rules,
-//! non-integer stoichiometries, conversion factors, MathML operators beyond
+//! on species no reaction lists, and rate rules on parameters and free species, map as
+//! map/rules.rs says. A conversion factor (the species' own, else the model's; SBML Level 3
+//! core §4.6.7 [M]) multiplies the species' stoichiometry in every reaction, so the species
+//! changes by factor × stoichiometry per reaction event; a reaction with a scaled reactant keeps
+//! its law as a law (its rate is unchanged, only the change is scaled). What the network cannot
+//! hold yet is refused with [`ErrorKind::NotYet`]: other rules, non-integer stoichiometries
+//! (a stoichiometry times its conversion factor included), MathML operators beyond
 //! `+ − × ÷ ^ exp ln min max sin cos`, comparisons, `and`, `or` and piecewise with an
 //! `otherwise` in laws.
 
@@ -242,7 +246,6 @@ fn ast_at(
     doc: &Document,
     own_units: Option<String>,
 ) -> Result<Mapped, SbmlError> {
-    supported(doc)?;
     let assigned = rules::check(&doc.model)?;
     let values = initial_values(&doc.model)?;
     let doc = &rules::substituted(doc, &assigned);
@@ -273,6 +276,10 @@ fn ast_at(
         )));
     }
     for (i, s) in m.species.iter().enumerate() {
+        // A species set by an assignment rule is computed where it is read (map/rules.rs).
+        if assigned.contains(&s.id) {
+            continue;
+        }
         let Some(amount) = values.species[i] else {
             return Err(invalid(
                 "species",
@@ -474,30 +481,6 @@ fn amount_unit(doc: &Document, scale: Scale, refusal: Option<String>) -> AmountU
     }
 }
 
-/// Refuses what the current network cannot hold.
-fn supported(doc: &Document) -> Result<(), SbmlError> {
-    let m = &doc.model;
-    if let Some(cf) = &m.conversion_factor {
-        return Err(not_yet(
-            "model",
-            m.id.as_deref(),
-            m.loc,
-            format!("the conversion factor `{cf}`"),
-        ));
-    }
-    for s in &m.species {
-        if let Some(cf) = &s.conversion_factor {
-            return Err(not_yet(
-                "species",
-                Some(&s.id),
-                s.loc,
-                format!("the conversion factor `{cf}`"),
-            ));
-        }
-    }
-    Ok(())
-}
-
 /// What a species' substance unit counts.
 enum Substance {
     Items,
@@ -602,6 +585,10 @@ fn scale(doc: &Document, values: &InitialValues) -> Result<(Scale, Option<String
     }
 }
 
+/// A species (by index) on one side of a reaction, with its whole change and its reference's
+/// position.
+type SideTerm = (usize, u32, Loc);
+
 struct Context<'m> {
     m: &'m Model,
     level: u32,
@@ -651,16 +638,53 @@ impl Context<'_> {
         }
     }
 
-    /// One side of a reaction: (species, whole stoichiometry) in file order.
+    /// The conversion factor of species `i` (its own, else the model's; SBML Level 3 core
+    /// §4.6.7 and §4.13.6 [M]): the species changes by the factor times the stoichiometry at
+    /// each reaction. `None` where there is none.
+    fn conversion_factor(&self, i: usize, loc: Loc) -> Result<Option<f64>, SbmlError> {
+        let s = &self.m.species[i];
+        let Some(cf) = s
+            .conversion_factor
+            .as_deref()
+            .or(self.m.conversion_factor.as_deref())
+        else {
+            return Ok(None);
+        };
+        let refuse = |why: String| Err(not_yet("speciesReference", Some(&s.id), loc, why));
+        let Some(Symbol::Parameter(p)) = self.symbols.get(cf) else {
+            unreachable!("the validator checked conversion factors")
+        };
+        if self.varied(cf) {
+            return refuse(format!(
+                "the conversion factor `{cf}` of `{}` changes during the run",
+                s.id
+            ));
+        }
+        match self.values.parameters[*p] {
+            Some(f) if f.is_finite() => Ok(Some(f)),
+            Some(f) => refuse(format!("the conversion factor `{cf}` is {f}, not finite")),
+            None => Err(invalid(
+                "parameter",
+                Some(cf),
+                self.m.parameters[*p].loc,
+                format!("the conversion factor `{cf}` of `{}` has no value", s.id),
+            )),
+        }
+    }
+
+    /// One side of a reaction: (species, whole change, loc) in file order, and whether a
+    /// conversion factor other than 1 scaled a stoichiometry. The change is the stoichiometry
+    /// times the species' conversion factor; it must be a whole number.
     fn side(
         &self,
         j: usize,
         r: &Reaction,
         products: bool,
-    ) -> Result<Vec<(usize, u32, Loc)>, SbmlError> {
+    ) -> Result<(Vec<SideTerm>, bool), SbmlError> {
         let offset = if products { r.reactants.len() } else { 0 };
         let refs = if products { &r.products } else { &r.reactants };
-        let mut out: Vec<(usize, u32, Loc)> = Vec::new();
+        let mut out: Vec<SideTerm> = Vec::new();
+        let mut converted = false;
         for (k, s) in refs.iter().enumerate() {
             let varied = s.id.as_deref().is_some_and(|id| self.varied(id));
             if s.stoichiometry_math.is_some() || varied {
@@ -679,6 +703,27 @@ impl Context<'_> {
                     format!("the stoichiometry of `{}` is not set", s.species),
                 ));
             };
+            let i = self.species_index(&s.species);
+            let clamped = self.m.species[i].boundary_condition || self.m.species[i].constant;
+            let n = match self.conversion_factor(i, s.loc)? {
+                Some(f) if f != 1.0 && !clamped => {
+                    converted = true;
+                    let c = n * f;
+                    if !(c >= 0.0 && c.fract() == 0.0 && c <= u32::MAX as f64) {
+                        return Err(not_yet(
+                            "speciesReference",
+                            Some(&r.id),
+                            s.loc,
+                            format!(
+                                "the stoichiometry {n} of `{}` times its conversion factor {f} is {c}, not a whole number of at least 0",
+                                s.species
+                            ),
+                        ));
+                    }
+                    c
+                }
+                _ => n,
+            };
             if !(n >= 0.0 && n.fract() == 0.0 && n <= u32::MAX as f64) {
                 return Err(not_yet(
                     "speciesReference",
@@ -690,13 +735,12 @@ impl Context<'_> {
             if n == 0.0 {
                 continue;
             }
-            let i = self.species_index(&s.species);
             match out.iter_mut().find(|e| e.0 == i) {
                 Some(e) => e.1 += n as u32,
                 None => out.push((i, n as u32, s.loc)),
             }
         }
-        Ok(out)
+        Ok((out, converted))
     }
 
     fn locals<'r>(&self, r: &'r Reaction) -> Result<Locals<'r>, SbmlError> {
@@ -735,8 +779,8 @@ impl Context<'_> {
                 )
             })?;
         let locals = self.locals(r)?;
-        let reactants = self.side(j, r, false)?;
-        let products = self.side(j, r, true)?;
+        let (reactants, converted) = self.side(j, r, false)?;
+        let (products, _) = self.side(j, r, true)?;
         let term = |&(i, n, loc): &(usize, u32, Loc)| Term {
             coefficient: n,
             species: name(&self.m.species[i].id, loc),
@@ -764,8 +808,12 @@ impl Context<'_> {
                 }
             },
         };
+        // A reactant whose change a conversion factor scales is consumed by more (or fewer)
+        // than its stoichiometry: the law is the reaction's rate as written, never a
+        // combinatorial form of the scaled coefficient.
+        let from_reading = from_reading.filter(|_| !converted);
         let standard = || {
-            (!r.keeps_law)
+            (!r.keeps_law && !converted)
                 .then(|| self.mass_action(mono.as_ref(), &coeffs, law.loc))
                 .flatten()
         };

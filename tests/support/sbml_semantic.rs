@@ -116,7 +116,21 @@ pub fn run(root: &Path, c: &Case, file: &Path) -> Result<Outcome, String> {
                 && r.math.is_some()
         });
         let series: Vec<f64> = if ruled {
-            // An assignment rule's parameter holds no state: its formula on the trajectory.
+            // An assignment rule's parameter or species holds no state: its formula on the
+            // trajectory. A species' formula gives its symbol; the case may compare the other
+            // reading (amount = concentration × size).
+            let scale = match m.species.iter().position(|s| &s.id == var) {
+                Some(j) => {
+                    let size = size_of(&m.species[j].compartment).unwrap_or(f64::NAN);
+                    let symbol_amount = sbml::initial::symbol_is_amount(m, j);
+                    match (symbol_amount, settings.concentration.contains(var)) {
+                        (true, true) => 1.0 / size,
+                        (false, false) if settings.amount.contains(var) => size,
+                        _ => 1.0,
+                    }
+                }
+                None => 1.0,
+            };
             (0..times.len())
                 .map(|k| {
                     let value = |id: &str| symbol_value(&net, &doc, &values, &tr, k, id);
@@ -124,7 +138,7 @@ pub fn run(root: &Path, c: &Case, file: &Path) -> Result<Outcome, String> {
                         .into_iter()
                         .find(|(v, _)| v == var)
                         .and_then(|(_, x)| x)
-                        .unwrap_or(f64::NAN)
+                        .map_or(f64::NAN, |x| x * scale)
                 })
                 .collect()
         } else if let Some(i) = net.species_index(var) {

@@ -31,8 +31,8 @@ fn element(k: &RuleKind) -> &'static str {
     }
 }
 
-/// Checks the rules of `m` against the forms above; returns the ids of the parameters that
-/// assignment rules set.
+/// Checks the rules of `m` against the forms above; returns the ids of the parameters and
+/// species that assignment rules set.
 pub(super) fn check(m: &Model) -> Result<Vec<String>, SbmlError> {
     let symbols = m.symbols();
     let mut assigned = Vec::new();
@@ -60,26 +60,21 @@ pub(super) fn check(m: &Model) -> Result<Vec<String>, SbmlError> {
         }
         match (&r.kind, symbols.get(v)) {
             (RuleKind::Assignment, Some(Symbol::Parameter(_))) => assigned.push(v.to_string()),
-            (RuleKind::Assignment, Some(Symbol::Species(_))) => {
+            (RuleKind::Assignment, Some(Symbol::Species(_))) if in_reaction(m, v) => {
                 return refuse(format!(
-                    "an assignment rule on species `{v}` (assignment rules are supported on parameters)"
+                    "an assignment rule on species `{v}`, which a reaction lists as a reactant or product (assignment rules are supported on parameters and on species no reaction lists)"
                 ))
             }
+            (RuleKind::Assignment, Some(Symbol::Species(_))) => assigned.push(v.to_string()),
             (RuleKind::Assignment, _) => {
                 return refuse(format!(
-                    "an assignment rule on `{v}`, which is not a parameter (assignment rules are supported on parameters)"
+                    "an assignment rule on `{v}`, which is not a parameter or a species (assignment rules are supported on parameters and on species no reaction lists)"
                 ))
             }
             (RuleKind::Rate, Some(Symbol::Parameter(_))) => {}
             (RuleKind::Rate, Some(Symbol::Species(i))) => {
                 let s = &m.species[*i];
-                let in_reaction = m.reactions.iter().any(|r| {
-                    r.reactants
-                        .iter()
-                        .chain(&r.products)
-                        .any(|x| x.species == s.id)
-                });
-                if s.boundary_condition || in_reaction {
+                if s.boundary_condition || in_reaction(m, &s.id) {
                     return refuse(format!(
                         "a rate rule on species `{v}`, which is a boundary species or changed by a reaction (rate rules are supported on parameters and on species no reaction changes)"
                     ));
@@ -94,6 +89,16 @@ pub(super) fn check(m: &Model) -> Result<Vec<String>, SbmlError> {
         }
     }
     Ok(assigned)
+}
+
+/// Whether a reaction of `m` lists species `id` as a reactant or a product.
+fn in_reaction(m: &Model, id: &str) -> bool {
+    m.reactions.iter().any(|r| {
+        r.reactants
+            .iter()
+            .chain(&r.products)
+            .any(|x| x.species == id)
+    })
 }
 
 /// Whether the model has rate rules (read in its own units, deterministic only).
@@ -209,7 +214,8 @@ fn replace(m: &mut Math, rules: &[(String, Math)], shadowed: &[String]) -> bool 
     }
 }
 
-/// The value of every assignment-rule parameter of `doc` at time `t`, where `value(id)` gives
+/// The value of every assignment-rule parameter and species (its symbol: concentration or
+/// amount) of `doc` at time `t`, where `value(id)` gives
 /// every other symbol's value as SBML reads it (a species' concentration or amount, a
 /// parameter, a compartment's size): the rules' formulas evaluated in dependency order.
 pub fn rule_values(

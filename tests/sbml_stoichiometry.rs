@@ -221,3 +221,118 @@ fn a_conversion_factor_that_an_event_changes_is_refused() {
         "{msg}"
     );
 }
+
+/// The same reaction `A → n B` (law k·A, k = 1, A(0) = 10) in Level 2 Version 4 with B's
+/// stoichiometry given by `stoichiometry_math` (MathML), in item units.
+fn l2_with_stoichiometry_math(stoichiometry_math: &str) -> String {
+    format!(
+        r#"<?xml version="1.0" encoding="UTF-8"?>
+<sbml xmlns="http://www.sbml.org/sbml/level2/version4" level="2" version="4">
+  <model id="m">
+    <listOfUnitDefinitions>
+      <unitDefinition id="substance"><listOfUnits><unit kind="item"/></listOfUnits></unitDefinition>
+    </listOfUnitDefinitions>
+    <listOfCompartments><compartment id="c" size="1"/></listOfCompartments>
+    <listOfSpecies>
+      <species id="A" compartment="c" initialAmount="10" hasOnlySubstanceUnits="true"/>
+      <species id="B" compartment="c" initialAmount="0" hasOnlySubstanceUnits="true"/>
+    </listOfSpecies>
+    <listOfParameters><parameter id="k" value="1"/><parameter id="two" value="2"/></listOfParameters>
+    <listOfReactions>
+      <reaction id="split" reversible="false">
+        <listOfReactants><speciesReference species="A"/></listOfReactants>
+        <listOfProducts><speciesReference species="B">
+          <stoichiometryMath>{MATH}{stoichiometry_math}</math></stoichiometryMath>
+        </speciesReference></listOfProducts>
+        <kineticLaw>{MATH}{TIMES_A}</math></kineticLaw>
+      </reaction>
+    </listOfReactions>
+  </model>
+</sbml>
+"#
+    )
+}
+
+#[test]
+fn a_constant_stoichiometry_math_is_read_as_its_value() {
+    // B's stoichiometry two·1.5 = 3: dA/dt = −A, dB/dt = 3A, B(t) = 30·(1 − e^(−t)) [C].
+    let doc = l2_with_stoichiometry_math("<apply><times/><ci>two</ci><cn>1.5</cn></apply>");
+    let v = simulate(&doc, &["--t-end", "2", "--grid", "3", "--method", "ode"]);
+    let b = column(&v, "B", "mean");
+    for (k, t) in [0.0f64, 1.0, 2.0].into_iter().enumerate() {
+        let want = 30.0 * (1.0 - (-t).exp());
+        assert!((b[k] - want).abs() < 1e-6 * 30.0, "B at {t}: {b:?}");
+    }
+}
+
+#[test]
+fn a_stoichiometry_math_that_reads_a_species_is_refused_by_name() {
+    let doc = l2_with_stoichiometry_math("<ci>A</ci>");
+    let (code, _, msg) = run_file(doc.as_bytes(), &["check"]);
+    assert_eq!(code, Some(2), "{msg}");
+    assert!(
+        msg.contains("the stoichiometryMath of `B` in reaction `split` reads `A`"),
+        "{msg}"
+    );
+    assert!(msg.contains(".xml:17:"), "{msg}");
+}
+
+#[test]
+fn a_stoichiometry_read_in_a_law_is_its_constant_value() {
+    // A → 3 B with the product's stoichiometry `nb` = 3 read in the law k·nb·A (k = 1):
+    // dA/dt = −3A, dB/dt = 9A, so A(t) = 10·e^(−3t) and B(t) = 30·(1 − e^(−3t)) [C].
+    let law = "<apply><times/><ci>k</ci><ci>nb</ci><ci>A</ci></apply>";
+    let doc = l3(
+        "",
+        &(species("A", 10.0, "") + &species("B", 0.0, "")),
+        &param("k", 1.0),
+        &format!(
+            "<listOfReactions>{}</listOfReactions>",
+            reaction(
+                "split",
+                &[("A", "")],
+                &[("B", r#"id="nb" stoichiometry="3""#)],
+                law
+            )
+        ),
+    );
+    let v = simulate(&doc, &["--t-end", "1", "--grid", "2", "--method", "ode"]);
+    let (a, b) = (column(&v, "A", "mean"), column(&v, "B", "mean"));
+    let e = (-3.0f64).exp();
+    assert!((a[1] - 10.0 * e).abs() < 1e-6 * 10.0, "{a:?}");
+    assert!((b[1] - 30.0 * (1.0 - e)).abs() < 1e-6 * 30.0, "{b:?}");
+}
+
+#[test]
+fn a_stoichiometry_that_an_event_changes_is_refused_by_its_id() {
+    let event = format!(
+        r#"<listOfEvents><event id="more" useValuesFromTriggerTime="true">
+             <trigger initialValue="true" persistent="true">{MATH}<apply><lt/><ci>A</ci><cn>5</cn></apply></math></trigger>
+             <listOfEventAssignments><eventAssignment variable="nb">{MATH}<cn>4</cn></math></eventAssignment></listOfEventAssignments>
+           </event></listOfEvents>"#
+    );
+    let doc = l3(
+        "",
+        &(species("A", 10.0, "") + &species("B", 0.0, "")),
+        &param("k", 1.0),
+        &format!(
+            "<listOfReactions>{}</listOfReactions>{event}",
+            reaction(
+                "split",
+                &[("A", "")],
+                &[("B", r#"id="nb" stoichiometry="3""#)],
+                TIMES_A
+            )
+            .replace(
+                r#"constant="true"/></listOfProducts>"#,
+                r#"constant="false"/></listOfProducts>"#
+            )
+        ),
+    );
+    let (code, _, msg) = run_file(doc.as_bytes(), &["check"]);
+    assert_eq!(code, Some(2), "{msg}");
+    assert!(
+        msg.contains("<speciesReference> `nb`: not supported yet: the stoichiometry `nb` of `B` in reaction `split`, which a rule or an event changes"),
+        "{msg}"
+    );
+}

@@ -686,16 +686,33 @@ impl Context<'_> {
         let mut out: Vec<SideTerm> = Vec::new();
         let mut converted = false;
         for (k, s) in refs.iter().enumerate() {
-            let varied = s.id.as_deref().is_some_and(|id| self.varied(id));
-            if s.stoichiometry_math.is_some() || varied {
+            let named = s.id.as_deref().unwrap_or(&r.id);
+            if let Some(id) = s.id.as_deref().filter(|id| self.varied(id)) {
                 return Err(not_yet(
                     "speciesReference",
-                    Some(&r.id),
+                    Some(named),
                     s.loc,
-                    "a stoichiometry that changes during the run",
+                    format!(
+                        "the stoichiometry `{id}` of `{}` in reaction `{}`, which a rule or an event changes during the run (stoichiometries are supported where they stay constant after the initial assignments)",
+                        s.species, r.id
+                    ),
                 ));
             }
-            let Some(n) = self.values.stoichiometries[j][offset + k] else {
+            let from_math = match &s.stoichiometry_math {
+                None => None,
+                Some(x) => Some(self.constant_stoichiometry(x).map_err(|why| {
+                    not_yet(
+                        "stoichiometryMath",
+                        Some(named),
+                        x.loc,
+                        format!(
+                            "the stoichiometryMath of `{}` in reaction `{}` reads {why}, so it may change during the run (stoichiometries are supported where they stay constant)",
+                            s.species, r.id
+                        ),
+                    )
+                })?),
+            };
+            let Some(n) = from_math.or(self.values.stoichiometries[j][offset + k]) else {
                 return Err(invalid(
                     "speciesReference",
                     Some(&r.id),
@@ -741,6 +758,57 @@ impl Context<'_> {
             }
         }
         Ok((out, converted))
+    }
+
+    /// The value of a Level 2 `stoichiometryMath` that stays constant: one reading only
+    /// numbers, constants, and parameters, compartments and stoichiometries that no rule or
+    /// event changes, evaluated on the initial values. Otherwise what it reads that may change.
+    fn constant_stoichiometry(&self, x: &Math) -> Result<f64, String> {
+        let mut changing = None;
+        x.visit(&mut |e| match &e.kind {
+            MathKind::Time => {
+                changing.get_or_insert_with(|| "the time".to_string());
+            }
+            MathKind::Ident(id) => {
+                let fixed = match self.symbols.get(id.as_str()) {
+                    Some(Symbol::Parameter(_) | Symbol::Compartment(_)) => !self.varied(id),
+                    Some(Symbol::SpeciesReference(..)) => !self.varied(id),
+                    _ => false,
+                };
+                if !fixed {
+                    changing.get_or_insert_with(|| format!("`{id}`"));
+                }
+            }
+            _ => {}
+        });
+        if let Some(what) = changing {
+            return Err(what);
+        }
+        let value = |id: &str| match self.symbols.get(id)? {
+            Symbol::Parameter(p) => self.values.parameters[*p],
+            Symbol::Compartment(c) => self.values.compartments[*c],
+            Symbol::SpeciesReference(r, j) => self.values.stoichiometries[*r][*j],
+            _ => None,
+        };
+        super::eval::eval(x, &value, 0.0)
+            .map_err(|e| format!("a value it cannot evaluate ({})", e.message))
+    }
+
+    /// The value of a stoichiometry that a formula reads, where no rule or event changes it.
+    fn stoichiometry_value(&self, id: &str) -> Option<f64> {
+        match self.symbols.get(id)? {
+            Symbol::SpeciesReference(r, j) if !self.varied(id) => {
+                let s = {
+                    let rx = &self.m.reactions[*r];
+                    rx.reactants.iter().chain(&rx.products).nth(*j)?
+                };
+                match &s.stoichiometry_math {
+                    Some(x) => self.constant_stoichiometry(x).ok(),
+                    None => self.values.stoichiometries[*r][*j],
+                }
+            }
+            _ => None,
+        }
     }
 
     fn locals<'r>(&self, r: &'r Reaction) -> Result<Locals<'r>, SbmlError> {
@@ -862,6 +930,9 @@ impl Context<'_> {
                     Symbol::Parameter(p) if self.varied(&self.m.parameters[*p].id) => None,
                     Symbol::Parameter(p) => Some(Factor::Parameter(*p)),
                     Symbol::Species(i) => Some(Factor::Species(*i)),
+                    Symbol::SpeciesReference(..) => {
+                        self.stoichiometry_value(id).map(Factor::Number)
+                    }
                     _ => None,
                 }
             }
@@ -1230,9 +1301,17 @@ impl Context<'_> {
                             Scale::Volume { .. } => x,
                         }
                     }
+                    Some(Symbol::SpeciesReference(..)) => match self.stoichiometry_value(id) {
+                        Some(v) => num(v),
+                        None => {
+                            return unsupported(format!(
+                                "the stoichiometry `{id}`, which a rule or an event changes, in a formula"
+                            ))
+                        }
+                    },
                     _ => {
                         return unsupported(format!(
-                            "`{id}` (a reaction or species reference) in a kinetic law"
+                            "`{id}` (a reaction's rate) in a formula"
                         ))
                     }
                 }

@@ -164,6 +164,9 @@ pub fn run(root: &Path, c: &Case, file: &Path) -> Result<Outcome, String> {
             vec![values.compartments[k].unwrap_or(f64::NAN); times.len()]
         } else if let Some(k) = m.parameters.iter().position(|x| &x.id == var) {
             vec![values.parameters[k].unwrap_or(f64::NAN); times.len()]
+        } else if let Some(x) = symbol_value(&net, &doc, &values, &tr, 0, var) {
+            // A constant stoichiometry.
+            vec![x; times.len()]
         } else {
             return Err(format!("variable `{var}` is not in the network"));
         };
@@ -260,6 +263,16 @@ fn symbol_value(
     if let Some(c) = m.compartments.iter().position(|c| c.id == id) {
         return values.compartments[c];
     }
-    let p = m.parameters.iter().position(|p| p.id == id)?;
-    values.parameters[p]
+    if let Some(p) = m.parameters.iter().position(|p| p.id == id) {
+        return values.parameters[p];
+    }
+    // A stoichiometry (constant in every model the network runs).
+    m.reactions.iter().enumerate().find_map(|(r, rx)| {
+        let j = rx
+            .reactants
+            .iter()
+            .chain(&rx.products)
+            .position(|s| s.id.as_deref() == Some(id))?;
+        values.stoichiometries[r][j]
+    })
 }

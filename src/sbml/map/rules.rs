@@ -42,20 +42,24 @@ pub(super) fn check(m: &Model) -> Result<Vec<String>, SbmlError> {
             continue;
         };
         let refuse = |why: String| Err(not_yet(element(&r.kind), Some(v), r.loc, why));
+        // A stoichiometry that no rule or event changes is a constant (read as its value); one
+        // that changes, or a reaction's rate, is not held by the network.
         let mut reads = None;
         math.visit(&mut |x| {
             if let MathKind::Ident(id) = &x.kind {
-                if matches!(
-                    symbols.get(id.as_str()),
-                    Some(Symbol::Reaction(_) | Symbol::SpeciesReference(..))
-                ) {
+                let changing = match symbols.get(id.as_str()) {
+                    Some(Symbol::Reaction(_)) => true,
+                    Some(Symbol::SpeciesReference(..)) => changed(m, id),
+                    _ => false,
+                };
+                if changing {
                     reads.get_or_insert(id.clone());
                 }
             }
         });
         if let Some(id) = reads {
             return refuse(format!(
-                "a rule that reads `{id}` (a reaction's rate or a stoichiometry)"
+                "a rule that reads `{id}` (a reaction's rate, or a stoichiometry that changes during the run)"
             ));
         }
         match (&r.kind, symbols.get(v)) {
@@ -89,6 +93,14 @@ pub(super) fn check(m: &Model) -> Result<Vec<String>, SbmlError> {
         }
     }
     Ok(assigned)
+}
+
+/// Whether a rule or an event of `m` sets `id`.
+fn changed(m: &Model, id: &str) -> bool {
+    m.rules.iter().any(|r| r.variable.as_deref() == Some(id))
+        || m.events
+            .iter()
+            .any(|e| e.assignments.iter().any(|a| a.variable == id))
 }
 
 /// Whether a reaction of `m` lists species `id` as a reactant or a product.

@@ -540,6 +540,27 @@ fn rules_on_parameters_hold_at_every_instant() {
     assert!(msg.contains("the rate rule on `p`"), "{msg}");
 }
 
+#[test]
+fn a_rate_rule_changes_a_boundary_species_no_reaction_lists() {
+    // S is a boundary species with dS/dt = 2 from S = 1 (S = 1 + 2t); 0 → A at rate S, so
+    // A(t) = t + t², A(1) = 2 and A(2) = 6 [C].
+    let rules = format!(
+        r#"<listOfRules><rateRule variable="S">{MATH}<cn>2</cn></math></rateRule></listOfRules>
+           <listOfReactions><reaction id="make" reversible="false">
+           <listOfProducts><speciesReference species="A" stoichiometry="1" constant="true"/></listOfProducts>
+           <kineticLaw>{MATH}<ci>S</ci></math></kineticLaw></reaction></listOfReactions>"#
+    );
+    let s = species("S", 1.0).replace(
+        r#"boundaryCondition="false""#,
+        r#"boundaryCondition="true""#,
+    );
+    let doc = l3(&(species("A", 0.0) + &s), "", &rules);
+    let a = a_by_ode(&doc);
+    for (k, want) in [(1, 2.0), (2, 6.0)] {
+        assert!((a[k] - want).abs() < 1e-6 * want, "{a:?}");
+    }
+}
+
 // --- mole-based models: the volume scale ---------------------------------------------------
 
 /// A Level 3 model in mole and litre with one compartment `cell` of `size` litres; `rest` holds

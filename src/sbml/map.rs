@@ -320,7 +320,9 @@ fn ast_at(
             name: name(&s.id, s.loc),
             compartment: None,
             amount,
-            clamped: s.boundary_condition || s.constant,
+            // A species changed by its rate rule is no reaction's (map/rules.rs), so only the
+            // rule's own step changes it.
+            clamped: (s.boundary_condition || s.constant) && !rate_ruled.contains(&s.id),
         });
     }
     let mut param_dims = vec![Dim::NONE; m.parameters.len()];

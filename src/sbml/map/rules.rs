@@ -7,14 +7,20 @@
 //!   and ODE step, in every method. A kinetic law with a local parameter of the same id keeps
 //!   its own. The parameter is not declared in the network (it holds no state of its own);
 //!   [`rule_values`] gives its value along a trajectory.
-//! - A **rate rule** on a global parameter or a species that no reaction changes (`dx/dt = f`,
-//!   §4.11.4 [M]) becomes a state of the network changed by a zero-order law step `∅ → x` at
+//! - An **assignment rule on a species** that no reaction lists as a reactant or product is
+//!   the same substitution: the species is computed, not a state, and is not declared in the
+//!   network. Its formula gives the species' symbol as SBML reads it (its concentration where
+//!   `hasOnlySubstanceUnits` is false, else its amount), which is what every formula reading
+//!   the species reads, so the substitution is exact.
+//! - A **rate rule** on a global parameter or a species that no reaction lists, a boundary
+//!   species included (`dx/dt = f`, §4.11.4 [M]), becomes a state of the network changed by a zero-order law step `∅ → x` at
 //!   rate f (× the compartment's size where the species' symbol is its concentration). That is
 //!   the rule exactly in the deterministic method; a stochastic run would make f a propensity of
 //!   unit jumps, so the model is read in its own units and stochastic methods refuse it.
 //!
-//! Refused, with the reason: assignment rules on species and compartments, rate rules on
-//! compartments and on species that reactions change or that are boundary species.
+//! Refused, with the reason: assignment rules on compartments and on species that a reaction
+//! lists; rate rules on compartments and on species that a reaction lists; rules that read a
+//! reaction's rate or a stoichiometry that a rule or an event changes.
 
 use super::not_yet;
 use crate::network::parser::{BinOp, Expr, Rate, Step, Term};
@@ -77,10 +83,10 @@ pub(super) fn check(m: &Model) -> Result<Vec<String>, SbmlError> {
             }
             (RuleKind::Rate, Some(Symbol::Parameter(_))) => {}
             (RuleKind::Rate, Some(Symbol::Species(i))) => {
-                let s = &m.species[*i];
-                if s.boundary_condition || in_reaction(m, &s.id) {
+                // A boundary species that no reaction lists is changed by its rule alone.
+                if in_reaction(m, &m.species[*i].id) {
                     return refuse(format!(
-                        "a rate rule on species `{v}`, which is a boundary species or changed by a reaction (rate rules are supported on parameters and on species no reaction changes)"
+                        "a rate rule on species `{v}`, which a reaction lists as a reactant or product (rate rules are supported on parameters and on species no reaction lists)"
                     ));
                 }
             }

@@ -541,6 +541,36 @@ fn rules_on_parameters_hold_at_every_instant() {
 }
 
 #[test]
+fn a_reaction_id_in_a_formula_is_its_rate() {
+    // decay: A → ∅ at k·A (k = 1, A(0) = 10); make: ∅ → B at the rate of decay, read through
+    // an assignment rule q = decay. B(t) = 10·(1 − e^(−t)) [C].
+    let rest = format!(
+        r#"<listOfRules><assignmentRule variable="q">{MATH}<ci>decay</ci></math></assignmentRule></listOfRules>
+           <listOfReactions><reaction id="decay" reversible="false">
+           <listOfReactants><speciesReference species="A" stoichiometry="1" constant="true"/></listOfReactants>
+           <kineticLaw>{MATH}<apply><times/><ci>k</ci><ci>A</ci></apply></math></kineticLaw></reaction>
+           <reaction id="make" reversible="false">
+           <listOfProducts><speciesReference species="B" stoichiometry="1" constant="true"/></listOfProducts>
+           <kineticLaw>{MATH}<ci>q</ci></math></kineticLaw></reaction></listOfReactions>"#
+    );
+    let params = param("k", 1.0) + r#"<parameter id="q" constant="false"/>"#;
+    let doc = l3(&(species("A", 10.0) + &species("B", 0.0)), &params, &rest);
+    let (code, out, msg) = run_file(
+        doc.as_bytes(),
+        &[
+            "simulate", "--t-end", "2", "--grid", "3", "--method", "ode", "--json",
+        ],
+    );
+    assert_eq!(code, Some(0), "{msg}");
+    let v: serde_json::Value = serde_json::from_str(&out).unwrap();
+    let b = v["grid"]["B"]["mean"].as_array().unwrap();
+    for (k, t) in [0.0f64, 1.0, 2.0].into_iter().enumerate() {
+        let want = 10.0 * (1.0 - (-t).exp());
+        assert!((b[k].as_f64().unwrap() - want).abs() < 1e-6 * 10.0, "{b:?}");
+    }
+}
+
+#[test]
 fn a_rate_rule_changes_a_boundary_species_no_reaction_lists() {
     // S is a boundary species with dS/dt = 2 from S = 1 (S = 1 + 2t); 0 → A at rate S, so
     // A(t) = t + t², A(1) = 2 and A(2) = 6 [C].

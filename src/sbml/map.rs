@@ -1311,6 +1311,34 @@ impl Context<'_> {
                             ))
                         }
                     },
+                    // A reaction's id is its rate (SBML Level 3 core §4.11.7 [M]): its kinetic
+                    // law, with the law's own local parameters.
+                    Some(Symbol::Reaction(r)) => {
+                        let rx = &self.m.reactions[*r];
+                        let law = rx.kinetic_law.as_ref().and_then(|k| k.math.as_ref());
+                        let mut nested = false;
+                        if let Some(law) = law {
+                            law.visit(&mut |x| {
+                                if let MathKind::Ident(y) = &x.kind {
+                                    nested |= matches!(
+                                        self.symbols.get(y.as_str()),
+                                        Some(Symbol::Reaction(_))
+                                    ) && !locals_of(rx).contains(&y.as_str());
+                                }
+                            });
+                        }
+                        match law {
+                            Some(law) if !nested => {
+                                let locals = self.locals(rx)?;
+                                self.expr(law, &locals, owner)?
+                            }
+                            _ => {
+                                return unsupported(format!(
+                                    "`{id}` (a reaction's rate) in a formula, where its kinetic law is missing or reads a reaction's rate"
+                                ))
+                            }
+                        }
+                    }
                     _ => {
                         return unsupported(format!(
                             "`{id}` (a reaction's rate) in a formula"
@@ -1416,6 +1444,15 @@ impl Context<'_> {
             }
         })
     }
+}
+
+/// The ids of a reaction's local parameters.
+fn locals_of(r: &Reaction) -> Vec<&str> {
+    r.kinetic_law
+        .iter()
+        .flat_map(|k| &k.local_parameters)
+        .map(|p| p.id.as_str())
+        .collect()
 }
 
 fn element_of(m: &Math) -> &'static str {

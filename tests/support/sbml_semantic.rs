@@ -266,6 +266,15 @@ fn symbol_value(
     if let Some(p) = m.parameters.iter().position(|p| p.id == id) {
         return values.parameters[p];
     }
+    // A reaction's rate: its kinetic law, with its local parameters.
+    if let Some(rx) = m.reactions.iter().find(|r| r.id == id) {
+        let law = rx.kinetic_law.as_ref()?;
+        let lookup = |x: &str| match law.local_parameters.iter().find(|p| p.id == x) {
+            Some(p) => p.value,
+            None => symbol_value(net, doc, values, tr, k, x),
+        };
+        return sbml::eval::eval(law.math.as_ref()?, &lookup, tr.times[k]).ok();
+    }
     // A stoichiometry (constant in every model the network runs).
     m.reactions.iter().enumerate().find_map(|(r, rx)| {
         let j = rx

@@ -20,7 +20,8 @@
 //!
 //! Refused, with the reason: assignment rules on compartments and on species that a reaction
 //! lists; rate rules on compartments and on species that a reaction lists; rules that read a
-//! reaction's rate or a stoichiometry that a rule or an event changes.
+//! stoichiometry that a rule or an event changes. A rule that reads a reaction's id reads its
+//! kinetic law (map.rs).
 
 use super::not_yet;
 use crate::network::parser::{BinOp, Expr, Rate, Step, Term};
@@ -48,13 +49,13 @@ pub(super) fn check(m: &Model) -> Result<Vec<String>, SbmlError> {
             continue;
         };
         let refuse = |why: String| Err(not_yet(element(&r.kind), Some(v), r.loc, why));
-        // A stoichiometry that no rule or event changes is a constant (read as its value); one
-        // that changes, or a reaction's rate, is not held by the network.
+        // A stoichiometry that no rule or event changes is a constant (read as its value), a
+        // reaction's id its kinetic law; a stoichiometry that changes is not held by the
+        // network.
         let mut reads = None;
         math.visit(&mut |x| {
             if let MathKind::Ident(id) = &x.kind {
                 let changing = match symbols.get(id.as_str()) {
-                    Some(Symbol::Reaction(_)) => true,
                     Some(Symbol::SpeciesReference(..)) => changed(m, id),
                     _ => false,
                 };
@@ -65,7 +66,7 @@ pub(super) fn check(m: &Model) -> Result<Vec<String>, SbmlError> {
         });
         if let Some(id) = reads {
             return refuse(format!(
-                "a rule that reads `{id}` (a reaction's rate, or a stoichiometry that changes during the run)"
+                "a rule that reads `{id}`, a stoichiometry that changes during the run"
             ));
         }
         match (&r.kind, symbols.get(v)) {

@@ -571,6 +571,55 @@ fn a_reaction_id_in_a_formula_is_its_rate() {
 }
 
 #[test]
+fn abs_hyperbolic_functions_and_logic_in_a_law() {
+    // A → ∅ at |−k|·A (k = 1, A(0) = 10): A(1) = 10/e. ∅ → B at cosh(1) + sinh(1) + tanh(0)
+    // + xor(true, false) + not(0) + eq(2, 2) + neq(2, 2) = e + 3: B(1) = e + 3 [C].
+    let x = |op: &str, args: &str| format!("<apply><{op}/>{args}</apply>");
+    let rate = x(
+        "plus",
+        &[
+            x("cosh", "<cn>1</cn>"),
+            x("sinh", "<cn>1</cn>"),
+            x("tanh", "<cn>0</cn>"),
+            x("xor", "<true/><false/>"),
+            x("not", "<cn>0</cn>"),
+            x("eq", "<cn>2</cn><cn>2</cn>"),
+            x("neq", "<cn>2</cn><cn>2</cn>"),
+        ]
+        .concat(),
+    );
+    let decay = x(
+        "times",
+        &(x("abs", &x("minus", "<ci>k</ci>")) + "<ci>A</ci>"),
+    );
+    let rest = format!(
+        r#"<listOfReactions><reaction id="decay" reversible="false">
+           <listOfReactants><speciesReference species="A" stoichiometry="1" constant="true"/></listOfReactants>
+           <kineticLaw>{MATH}{decay}</math></kineticLaw></reaction>
+           <reaction id="make" reversible="false">
+           <listOfProducts><speciesReference species="B" stoichiometry="1" constant="true"/></listOfProducts>
+           <kineticLaw>{MATH}{rate}</math></kineticLaw></reaction></listOfReactions>"#
+    );
+    let doc = l3(
+        &(species("A", 10.0) + &species("B", 0.0)),
+        &param("k", 1.0),
+        &rest,
+    );
+    let (code, out, msg) = run_file(
+        doc.as_bytes(),
+        &[
+            "simulate", "--t-end", "1", "--grid", "2", "--method", "ode", "--json",
+        ],
+    );
+    assert_eq!(code, Some(0), "{msg}");
+    let v: serde_json::Value = serde_json::from_str(&out).unwrap();
+    let at_1 = |s: &str| v["grid"][s]["mean"][1].as_f64().unwrap();
+    let e = std::f64::consts::E;
+    assert!((at_1("A") - 10.0 / e).abs() < 1e-6, "{}", at_1("A"));
+    assert!((at_1("B") - (e + 3.0)).abs() < 1e-6, "{}", at_1("B"));
+}
+
+#[test]
 fn a_rate_rule_changes_a_boundary_species_no_reaction_lists() {
     // S is a boundary species with dS/dt = 2 from S = 1 (S = 1 + 2t); 0 → A at rate S, so
     // A(t) = t + t², A(1) = 2 and A(2) = 6 [C].

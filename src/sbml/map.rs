@@ -45,6 +45,7 @@
 //! its law as a law (its rate is unchanged, only the change is scaled). What the network cannot
 //! hold yet is refused with [`ErrorKind::NotYet`]: other rules, non-integer stoichiometries
 //! (a stoichiometry times its conversion factor included), MathML operators beyond
+//! `abs cosh sinh tanh eq neq not xor` (written exactly in the evaluator's own) and
 //! `+ − × ÷ ^ exp ln min max sin cos`, comparisons, `and`, `or` and piecewise with an
 //! `otherwise` in laws.
 
@@ -1398,6 +1399,72 @@ impl Context<'_> {
                             }
                             _ => bin(code, x, y),
                         }
+                    }
+                    // Operators the law evaluator lacks, written exactly in the ones it has:
+                    // |x| = max(x, −x); cosh, sinh and tanh by their exponential definitions;
+                    // x = y as x ≥ y and x ≤ y; x ≠ y as x < y or x > y; not x as x = 0; and
+                    // a xor b, each 0 or 1, as 0.5 < a + b < 1.5.
+                    Op::Abs if a.len() == 1 => {
+                        let x = a.into_iter().next().unwrap();
+                        call("max", vec![x.clone(), Expr::Neg(Box::new(x), s)])
+                    }
+                    Op::Cosh | Op::Sinh | Op::Tanh if a.len() == 1 => {
+                        let x = a.into_iter().next().unwrap();
+                        let up = call("exp", vec![x.clone()]);
+                        let down = call("exp", vec![Expr::Neg(Box::new(x), s)]);
+                        match op {
+                            Op::Cosh => bin(BinOp::Div, bin(BinOp::Add, up, down), num(2.0)),
+                            Op::Sinh => bin(BinOp::Div, bin(BinOp::Sub, up, down), num(2.0)),
+                            _ => bin(
+                                BinOp::Div,
+                                bin(BinOp::Sub, up.clone(), down.clone()),
+                                bin(BinOp::Add, up, down),
+                            ),
+                        }
+                    }
+                    Op::Eq | Op::Neq if a.len() == 2 => {
+                        let mut it = a.into_iter();
+                        let (x, y) = (it.next().unwrap(), it.next().unwrap());
+                        if *op == Op::Eq {
+                            bin(
+                                BinOp::And,
+                                bin(BinOp::Ge, x.clone(), y.clone()),
+                                bin(BinOp::Le, x, y),
+                            )
+                        } else {
+                            bin(
+                                BinOp::Or,
+                                bin(BinOp::Lt, x.clone(), y.clone()),
+                                bin(BinOp::Gt, x, y),
+                            )
+                        }
+                    }
+                    Op::Not if a.len() == 1 => {
+                        let x = a.into_iter().next().unwrap();
+                        bin(
+                            BinOp::And,
+                            bin(BinOp::Ge, x.clone(), num(0.0)),
+                            bin(BinOp::Le, x, num(0.0)),
+                        )
+                    }
+                    Op::Xor if a.len() >= 2 => {
+                        let truth = |e: Expr| {
+                            bin(
+                                BinOp::Or,
+                                bin(BinOp::Lt, e.clone(), num(0.0)),
+                                bin(BinOp::Gt, e, num(0.0)),
+                            )
+                        };
+                        let mut it = a.into_iter();
+                        let first = truth(it.next().unwrap());
+                        it.fold(first, |acc, e| {
+                            let sum = bin(BinOp::Add, acc, truth(e));
+                            bin(
+                                BinOp::And,
+                                bin(BinOp::Gt, sum.clone(), num(0.5)),
+                                bin(BinOp::Lt, sum, num(1.5)),
+                            )
+                        })
                     }
                     Op::And | Op::Or if a.len() >= 2 => {
                         fold(if *op == Op::And { BinOp::And } else { BinOp::Or }, 1.0, a)

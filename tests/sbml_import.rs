@@ -460,16 +460,61 @@ fn presentation_packages_are_ignored_with_a_warning() {
 
 #[test]
 fn what_the_network_cannot_hold_yet_is_refused_with_the_reason() {
+    // An assignment rule on a species that a reaction lists (a boundary species may be both).
     let rule = format!(
-        r#"<listOfRules><assignmentRule variable="A">{MATH}<cn>1</cn></math></assignmentRule></listOfRules>"#
+        r#"<listOfRules><assignmentRule variable="A">{MATH}<cn>1</cn></math></assignmentRule></listOfRules>
+           <listOfReactions><reaction id="use" reversible="false">
+           <listOfReactants><speciesReference species="A" stoichiometry="1" constant="true"/></listOfReactants>
+           <kineticLaw>{MATH}<cn>1</cn></math></kineticLaw></reaction></listOfReactions>"#
     );
-    let doc = l3(&species("A", 0.0), "", &rule);
+    let doc = l3(
+        &species("A", 0.0).replace(
+            r#"boundaryCondition="false""#,
+            r#"boundaryCondition="true""#,
+        ),
+        "",
+        &rule,
+    );
     let (code, msg) = check_file(doc.as_bytes());
     assert_eq!(code, Some(2));
     assert!(
-        msg.contains("<assignmentRule> `A`: not supported yet: an assignment rule on species `A`"),
+        msg.contains("<assignmentRule> `A`: not supported yet: an assignment rule on species `A`, which a reaction lists"),
         "{msg}"
     );
+}
+
+#[test]
+fn an_assignment_rule_on_a_species_is_computed_where_it_is_read() {
+    // A → ∅ at k·A (k = 1, A(0) = 10); B = 2·A by an assignment rule (B is no state); ∅ → C at
+    // rate B. A(t) = 10·e^(−t), so C(t) = ∫ 20·e^(−s) ds = 20·(1 − e^(−t)) [C].
+    let rest = format!(
+        r#"<listOfRules><assignmentRule variable="B">{MATH}<apply><times/><cn>2</cn><ci>A</ci></apply></math></assignmentRule></listOfRules>
+           <listOfReactions><reaction id="decay" reversible="false">
+           <listOfReactants><speciesReference species="A" stoichiometry="1" constant="true"/></listOfReactants>
+           <kineticLaw>{MATH}<apply><times/><ci>k</ci><ci>A</ci></apply></math></kineticLaw></reaction>
+           <reaction id="make" reversible="false">
+           <listOfProducts><speciesReference species="C" stoichiometry="1" constant="true"/></listOfProducts>
+           <kineticLaw>{MATH}<ci>B</ci></math></kineticLaw></reaction></listOfReactions>"#
+    );
+    let doc = l3(
+        &(species("A", 10.0) + &species("B", 0.0) + &species("C", 0.0)),
+        &param("k", 1.0),
+        &rest,
+    );
+    let (code, out, msg) = run_file(
+        doc.as_bytes(),
+        &[
+            "simulate", "--t-end", "2", "--grid", "3", "--method", "ode", "--json",
+        ],
+    );
+    assert_eq!(code, Some(0), "{msg}");
+    let v: serde_json::Value = serde_json::from_str(&out).unwrap();
+    assert!(v["grid"]["B"].is_null(), "B is computed, not a state: {v}");
+    let c = v["grid"]["C"]["mean"].as_array().unwrap();
+    for (k, t) in [0.0f64, 1.0, 2.0].into_iter().enumerate() {
+        let want = 20.0 * (1.0 - (-t).exp());
+        assert!((c[k].as_f64().unwrap() - want).abs() < 1e-6 * 20.0, "{c:?}");
+    }
 }
 
 #[test]
@@ -493,6 +538,106 @@ fn rules_on_parameters_hold_at_every_instant() {
     let (code, _, msg) = run_file(doc.as_bytes(), &["simulate", "--t-end", "2"]);
     assert_eq!(code, Some(2), "{msg}");
     assert!(msg.contains("the rate rule on `p`"), "{msg}");
+}
+
+#[test]
+fn a_reaction_id_in_a_formula_is_its_rate() {
+    // decay: A → ∅ at k·A (k = 1, A(0) = 10); make: ∅ → B at the rate of decay, read through
+    // an assignment rule q = decay. B(t) = 10·(1 − e^(−t)) [C].
+    let rest = format!(
+        r#"<listOfRules><assignmentRule variable="q">{MATH}<ci>decay</ci></math></assignmentRule></listOfRules>
+           <listOfReactions><reaction id="decay" reversible="false">
+           <listOfReactants><speciesReference species="A" stoichiometry="1" constant="true"/></listOfReactants>
+           <kineticLaw>{MATH}<apply><times/><ci>k</ci><ci>A</ci></apply></math></kineticLaw></reaction>
+           <reaction id="make" reversible="false">
+           <listOfProducts><speciesReference species="B" stoichiometry="1" constant="true"/></listOfProducts>
+           <kineticLaw>{MATH}<ci>q</ci></math></kineticLaw></reaction></listOfReactions>"#
+    );
+    let params = param("k", 1.0) + r#"<parameter id="q" constant="false"/>"#;
+    let doc = l3(&(species("A", 10.0) + &species("B", 0.0)), &params, &rest);
+    let (code, out, msg) = run_file(
+        doc.as_bytes(),
+        &[
+            "simulate", "--t-end", "2", "--grid", "3", "--method", "ode", "--json",
+        ],
+    );
+    assert_eq!(code, Some(0), "{msg}");
+    let v: serde_json::Value = serde_json::from_str(&out).unwrap();
+    let b = v["grid"]["B"]["mean"].as_array().unwrap();
+    for (k, t) in [0.0f64, 1.0, 2.0].into_iter().enumerate() {
+        let want = 10.0 * (1.0 - (-t).exp());
+        assert!((b[k].as_f64().unwrap() - want).abs() < 1e-6 * 10.0, "{b:?}");
+    }
+}
+
+#[test]
+fn abs_hyperbolic_functions_and_logic_in_a_law() {
+    // A → ∅ at |−k|·A (k = 1, A(0) = 10): A(1) = 10/e. ∅ → B at cosh(1) + sinh(1) + tanh(0)
+    // + xor(true, false) + not(0) + eq(2, 2) + neq(2, 2) = e + 3: B(1) = e + 3 [C].
+    let x = |op: &str, args: &str| format!("<apply><{op}/>{args}</apply>");
+    let rate = x(
+        "plus",
+        &[
+            x("cosh", "<cn>1</cn>"),
+            x("sinh", "<cn>1</cn>"),
+            x("tanh", "<cn>0</cn>"),
+            x("xor", "<true/><false/>"),
+            x("not", "<cn>0</cn>"),
+            x("eq", "<cn>2</cn><cn>2</cn>"),
+            x("neq", "<cn>2</cn><cn>2</cn>"),
+        ]
+        .concat(),
+    );
+    let decay = x(
+        "times",
+        &(x("abs", &x("minus", "<ci>k</ci>")) + "<ci>A</ci>"),
+    );
+    let rest = format!(
+        r#"<listOfReactions><reaction id="decay" reversible="false">
+           <listOfReactants><speciesReference species="A" stoichiometry="1" constant="true"/></listOfReactants>
+           <kineticLaw>{MATH}{decay}</math></kineticLaw></reaction>
+           <reaction id="make" reversible="false">
+           <listOfProducts><speciesReference species="B" stoichiometry="1" constant="true"/></listOfProducts>
+           <kineticLaw>{MATH}{rate}</math></kineticLaw></reaction></listOfReactions>"#
+    );
+    let doc = l3(
+        &(species("A", 10.0) + &species("B", 0.0)),
+        &param("k", 1.0),
+        &rest,
+    );
+    let (code, out, msg) = run_file(
+        doc.as_bytes(),
+        &[
+            "simulate", "--t-end", "1", "--grid", "2", "--method", "ode", "--json",
+        ],
+    );
+    assert_eq!(code, Some(0), "{msg}");
+    let v: serde_json::Value = serde_json::from_str(&out).unwrap();
+    let at_1 = |s: &str| v["grid"][s]["mean"][1].as_f64().unwrap();
+    let e = std::f64::consts::E;
+    assert!((at_1("A") - 10.0 / e).abs() < 1e-6, "{}", at_1("A"));
+    assert!((at_1("B") - (e + 3.0)).abs() < 1e-6, "{}", at_1("B"));
+}
+
+#[test]
+fn a_rate_rule_changes_a_boundary_species_no_reaction_lists() {
+    // S is a boundary species with dS/dt = 2 from S = 1 (S = 1 + 2t); 0 → A at rate S, so
+    // A(t) = t + t², A(1) = 2 and A(2) = 6 [C].
+    let rules = format!(
+        r#"<listOfRules><rateRule variable="S">{MATH}<cn>2</cn></math></rateRule></listOfRules>
+           <listOfReactions><reaction id="make" reversible="false">
+           <listOfProducts><speciesReference species="A" stoichiometry="1" constant="true"/></listOfProducts>
+           <kineticLaw>{MATH}<ci>S</ci></math></kineticLaw></reaction></listOfReactions>"#
+    );
+    let s = species("S", 1.0).replace(
+        r#"boundaryCondition="false""#,
+        r#"boundaryCondition="true""#,
+    );
+    let doc = l3(&(species("A", 0.0) + &s), "", &rules);
+    let a = a_by_ode(&doc);
+    for (k, want) in [(1, 2.0), (2, 6.0)] {
+        assert!((a[k] - want).abs() < 1e-6 * want, "{a:?}");
+    }
 }
 
 // --- mole-based models: the volume scale ---------------------------------------------------

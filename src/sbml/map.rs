@@ -38,9 +38,14 @@
 //!   ([`AmountUnit::stochastic_refusal`]).
 //!
 //! Events become the network's own events (map/events.rs); assignment rules on parameters and
-//! rate rules on parameters and free species map as map/rules.rs says. What the network cannot
-//! hold yet is refused with [`ErrorKind::NotYet`]: other rules,
-//! non-integer stoichiometries, conversion factors, MathML operators beyond
+//! on species no reaction lists, and rate rules on parameters and free species, map as
+//! map/rules.rs says. A conversion factor (the species' own, else the model's; SBML Level 3
+//! core §4.6.7 [M]) multiplies the species' stoichiometry in every reaction, so the species
+//! changes by factor × stoichiometry per reaction event; a reaction with a scaled reactant keeps
+//! its law as a law (its rate is unchanged, only the change is scaled). What the network cannot
+//! hold yet is refused with [`ErrorKind::NotYet`]: other rules, non-integer stoichiometries
+//! (a stoichiometry times its conversion factor included), MathML operators beyond
+//! `abs cosh sinh tanh eq neq not xor` (written exactly in the evaluator's own) and
 //! `+ − × ÷ ^ exp ln min max sin cos`, comparisons, `and`, `or` and piecewise with an
 //! `otherwise` in laws.
 
@@ -242,7 +247,6 @@ fn ast_at(
     doc: &Document,
     own_units: Option<String>,
 ) -> Result<Mapped, SbmlError> {
-    supported(doc)?;
     let assigned = rules::check(&doc.model)?;
     let values = initial_values(&doc.model)?;
     let doc = &rules::substituted(doc, &assigned);
@@ -273,6 +277,10 @@ fn ast_at(
         )));
     }
     for (i, s) in m.species.iter().enumerate() {
+        // A species set by an assignment rule is computed where it is read (map/rules.rs).
+        if assigned.contains(&s.id) {
+            continue;
+        }
         let Some(amount) = values.species[i] else {
             return Err(invalid(
                 "species",
@@ -313,7 +321,9 @@ fn ast_at(
             name: name(&s.id, s.loc),
             compartment: None,
             amount,
-            clamped: s.boundary_condition || s.constant,
+            // A species changed by its rate rule is no reaction's (map/rules.rs), so only the
+            // rule's own step changes it.
+            clamped: (s.boundary_condition || s.constant) && !rate_ruled.contains(&s.id),
         });
     }
     let mut param_dims = vec![Dim::NONE; m.parameters.len()];
@@ -474,30 +484,6 @@ fn amount_unit(doc: &Document, scale: Scale, refusal: Option<String>) -> AmountU
     }
 }
 
-/// Refuses what the current network cannot hold.
-fn supported(doc: &Document) -> Result<(), SbmlError> {
-    let m = &doc.model;
-    if let Some(cf) = &m.conversion_factor {
-        return Err(not_yet(
-            "model",
-            m.id.as_deref(),
-            m.loc,
-            format!("the conversion factor `{cf}`"),
-        ));
-    }
-    for s in &m.species {
-        if let Some(cf) = &s.conversion_factor {
-            return Err(not_yet(
-                "species",
-                Some(&s.id),
-                s.loc,
-                format!("the conversion factor `{cf}`"),
-            ));
-        }
-    }
-    Ok(())
-}
-
 /// What a species' substance unit counts.
 enum Substance {
     Items,
@@ -602,6 +588,10 @@ fn scale(doc: &Document, values: &InitialValues) -> Result<(Scale, Option<String
     }
 }
 
+/// A species (by index) on one side of a reaction, with its whole change and its reference's
+/// position.
+type SideTerm = (usize, u32, Loc);
+
 struct Context<'m> {
     m: &'m Model,
     level: u32,
@@ -651,33 +641,108 @@ impl Context<'_> {
         }
     }
 
-    /// One side of a reaction: (species, whole stoichiometry) in file order.
+    /// The conversion factor of species `i` (its own, else the model's; SBML Level 3 core
+    /// §4.6.7 and §4.13.6 [M]): the species changes by the factor times the stoichiometry at
+    /// each reaction. `None` where there is none.
+    fn conversion_factor(&self, i: usize, loc: Loc) -> Result<Option<f64>, SbmlError> {
+        let s = &self.m.species[i];
+        let Some(cf) = s
+            .conversion_factor
+            .as_deref()
+            .or(self.m.conversion_factor.as_deref())
+        else {
+            return Ok(None);
+        };
+        let refuse = |why: String| Err(not_yet("speciesReference", Some(&s.id), loc, why));
+        let Some(Symbol::Parameter(p)) = self.symbols.get(cf) else {
+            unreachable!("the validator checked conversion factors")
+        };
+        if self.varied(cf) {
+            return refuse(format!(
+                "the conversion factor `{cf}` of `{}` changes during the run",
+                s.id
+            ));
+        }
+        match self.values.parameters[*p] {
+            Some(f) if f.is_finite() => Ok(Some(f)),
+            Some(f) => refuse(format!("the conversion factor `{cf}` is {f}, not finite")),
+            None => Err(invalid(
+                "parameter",
+                Some(cf),
+                self.m.parameters[*p].loc,
+                format!("the conversion factor `{cf}` of `{}` has no value", s.id),
+            )),
+        }
+    }
+
+    /// One side of a reaction: (species, whole change, loc) in file order, and whether a
+    /// conversion factor other than 1 scaled a stoichiometry. The change is the stoichiometry
+    /// times the species' conversion factor; it must be a whole number.
     fn side(
         &self,
         j: usize,
         r: &Reaction,
         products: bool,
-    ) -> Result<Vec<(usize, u32, Loc)>, SbmlError> {
+    ) -> Result<(Vec<SideTerm>, bool), SbmlError> {
         let offset = if products { r.reactants.len() } else { 0 };
         let refs = if products { &r.products } else { &r.reactants };
-        let mut out: Vec<(usize, u32, Loc)> = Vec::new();
+        let mut out: Vec<SideTerm> = Vec::new();
+        let mut converted = false;
         for (k, s) in refs.iter().enumerate() {
-            let varied = s.id.as_deref().is_some_and(|id| self.varied(id));
-            if s.stoichiometry_math.is_some() || varied {
+            let named = s.id.as_deref().unwrap_or(&r.id);
+            if let Some(id) = s.id.as_deref().filter(|id| self.varied(id)) {
                 return Err(not_yet(
                     "speciesReference",
-                    Some(&r.id),
+                    Some(named),
                     s.loc,
-                    "a stoichiometry that changes during the run",
+                    format!(
+                        "the stoichiometry `{id}` of `{}` in reaction `{}`, which a rule or an event changes during the run (stoichiometries are supported where they stay constant after the initial assignments)",
+                        s.species, r.id
+                    ),
                 ));
             }
-            let Some(n) = self.values.stoichiometries[j][offset + k] else {
+            let from_math = match &s.stoichiometry_math {
+                None => None,
+                Some(x) => Some(self.constant_stoichiometry(x).map_err(|why| {
+                    not_yet(
+                        "stoichiometryMath",
+                        Some(named),
+                        x.loc,
+                        format!(
+                            "the stoichiometryMath of `{}` in reaction `{}` reads {why}, so it may change during the run (stoichiometries are supported where they stay constant)",
+                            s.species, r.id
+                        ),
+                    )
+                })?),
+            };
+            let Some(n) = from_math.or(self.values.stoichiometries[j][offset + k]) else {
                 return Err(invalid(
                     "speciesReference",
                     Some(&r.id),
                     s.loc,
                     format!("the stoichiometry of `{}` is not set", s.species),
                 ));
+            };
+            let i = self.species_index(&s.species);
+            let clamped = self.m.species[i].boundary_condition || self.m.species[i].constant;
+            let n = match self.conversion_factor(i, s.loc)? {
+                Some(f) if f != 1.0 && !clamped => {
+                    converted = true;
+                    let c = n * f;
+                    if !(c >= 0.0 && c.fract() == 0.0 && c <= u32::MAX as f64) {
+                        return Err(not_yet(
+                            "speciesReference",
+                            Some(&r.id),
+                            s.loc,
+                            format!(
+                                "the stoichiometry {n} of `{}` times its conversion factor {f} is {c}, not a whole number of at least 0",
+                                s.species
+                            ),
+                        ));
+                    }
+                    c
+                }
+                _ => n,
             };
             if !(n >= 0.0 && n.fract() == 0.0 && n <= u32::MAX as f64) {
                 return Err(not_yet(
@@ -690,13 +755,63 @@ impl Context<'_> {
             if n == 0.0 {
                 continue;
             }
-            let i = self.species_index(&s.species);
             match out.iter_mut().find(|e| e.0 == i) {
                 Some(e) => e.1 += n as u32,
                 None => out.push((i, n as u32, s.loc)),
             }
         }
-        Ok(out)
+        Ok((out, converted))
+    }
+
+    /// The value of a Level 2 `stoichiometryMath` that stays constant: one reading only
+    /// numbers, constants, and parameters, compartments and stoichiometries that no rule or
+    /// event changes, evaluated on the initial values. Otherwise what it reads that may change.
+    fn constant_stoichiometry(&self, x: &Math) -> Result<f64, String> {
+        let mut changing = None;
+        x.visit(&mut |e| match &e.kind {
+            MathKind::Time => {
+                changing.get_or_insert_with(|| "the time".to_string());
+            }
+            MathKind::Ident(id) => {
+                let fixed = match self.symbols.get(id.as_str()) {
+                    Some(Symbol::Parameter(_) | Symbol::Compartment(_)) => !self.varied(id),
+                    Some(Symbol::SpeciesReference(..)) => !self.varied(id),
+                    _ => false,
+                };
+                if !fixed {
+                    changing.get_or_insert_with(|| format!("`{id}`"));
+                }
+            }
+            _ => {}
+        });
+        if let Some(what) = changing {
+            return Err(what);
+        }
+        let value = |id: &str| match self.symbols.get(id)? {
+            Symbol::Parameter(p) => self.values.parameters[*p],
+            Symbol::Compartment(c) => self.values.compartments[*c],
+            Symbol::SpeciesReference(r, j) => self.values.stoichiometries[*r][*j],
+            _ => None,
+        };
+        super::eval::eval(x, &value, 0.0)
+            .map_err(|e| format!("a value it cannot evaluate ({})", e.message))
+    }
+
+    /// The value of a stoichiometry that a formula reads, where no rule or event changes it.
+    fn stoichiometry_value(&self, id: &str) -> Option<f64> {
+        match self.symbols.get(id)? {
+            Symbol::SpeciesReference(r, j) if !self.varied(id) => {
+                let s = {
+                    let rx = &self.m.reactions[*r];
+                    rx.reactants.iter().chain(&rx.products).nth(*j)?
+                };
+                match &s.stoichiometry_math {
+                    Some(x) => self.constant_stoichiometry(x).ok(),
+                    None => self.values.stoichiometries[*r][*j],
+                }
+            }
+            _ => None,
+        }
     }
 
     fn locals<'r>(&self, r: &'r Reaction) -> Result<Locals<'r>, SbmlError> {
@@ -735,8 +850,8 @@ impl Context<'_> {
                 )
             })?;
         let locals = self.locals(r)?;
-        let reactants = self.side(j, r, false)?;
-        let products = self.side(j, r, true)?;
+        let (reactants, converted) = self.side(j, r, false)?;
+        let (products, _) = self.side(j, r, true)?;
         let term = |&(i, n, loc): &(usize, u32, Loc)| Term {
             coefficient: n,
             species: name(&self.m.species[i].id, loc),
@@ -764,8 +879,12 @@ impl Context<'_> {
                 }
             },
         };
+        // A reactant whose change a conversion factor scales is consumed by more (or fewer)
+        // than its stoichiometry: the law is the reaction's rate as written, never a
+        // combinatorial form of the scaled coefficient.
+        let from_reading = from_reading.filter(|_| !converted);
         let standard = || {
-            (!r.keeps_law)
+            (!r.keeps_law && !converted)
                 .then(|| self.mass_action(mono.as_ref(), &coeffs, law.loc))
                 .flatten()
         };
@@ -814,6 +933,9 @@ impl Context<'_> {
                     Symbol::Parameter(p) if self.varied(&self.m.parameters[*p].id) => None,
                     Symbol::Parameter(p) => Some(Factor::Parameter(*p)),
                     Symbol::Species(i) => Some(Factor::Species(*i)),
+                    Symbol::SpeciesReference(..) => {
+                        self.stoichiometry_value(id).map(Factor::Number)
+                    }
                     _ => None,
                 }
             }
@@ -1182,9 +1304,45 @@ impl Context<'_> {
                             Scale::Volume { .. } => x,
                         }
                     }
+                    Some(Symbol::SpeciesReference(..)) => match self.stoichiometry_value(id) {
+                        Some(v) => num(v),
+                        None => {
+                            return unsupported(format!(
+                                "the stoichiometry `{id}`, which a rule or an event changes, in a formula"
+                            ))
+                        }
+                    },
+                    // A reaction's id is its rate (SBML Level 3 core §4.11.7 [M]): its kinetic
+                    // law, with the law's own local parameters.
+                    Some(Symbol::Reaction(r)) => {
+                        let rx = &self.m.reactions[*r];
+                        let law = rx.kinetic_law.as_ref().and_then(|k| k.math.as_ref());
+                        let mut nested = false;
+                        if let Some(law) = law {
+                            law.visit(&mut |x| {
+                                if let MathKind::Ident(y) = &x.kind {
+                                    nested |= matches!(
+                                        self.symbols.get(y.as_str()),
+                                        Some(Symbol::Reaction(_))
+                                    ) && !locals_of(rx).contains(&y.as_str());
+                                }
+                            });
+                        }
+                        match law {
+                            Some(law) if !nested => {
+                                let locals = self.locals(rx)?;
+                                self.expr(law, &locals, owner)?
+                            }
+                            _ => {
+                                return unsupported(format!(
+                                    "`{id}` (a reaction's rate) in a formula, where its kinetic law is missing or reads a reaction's rate"
+                                ))
+                            }
+                        }
+                    }
                     _ => {
                         return unsupported(format!(
-                            "`{id}` (a reaction or species reference) in a kinetic law"
+                            "`{id}` (a reaction's rate) in a formula"
                         ))
                     }
                 }
@@ -1242,6 +1400,72 @@ impl Context<'_> {
                             _ => bin(code, x, y),
                         }
                     }
+                    // Operators the law evaluator lacks, written exactly in the ones it has:
+                    // |x| = max(x, −x); cosh, sinh and tanh by their exponential definitions;
+                    // x = y as x ≥ y and x ≤ y; x ≠ y as x < y or x > y; not x as x = 0; and
+                    // a xor b, each 0 or 1, as 0.5 < a + b < 1.5.
+                    Op::Abs if a.len() == 1 => {
+                        let x = a.into_iter().next().unwrap();
+                        call("max", vec![x.clone(), Expr::Neg(Box::new(x), s)])
+                    }
+                    Op::Cosh | Op::Sinh | Op::Tanh if a.len() == 1 => {
+                        let x = a.into_iter().next().unwrap();
+                        let up = call("exp", vec![x.clone()]);
+                        let down = call("exp", vec![Expr::Neg(Box::new(x), s)]);
+                        match op {
+                            Op::Cosh => bin(BinOp::Div, bin(BinOp::Add, up, down), num(2.0)),
+                            Op::Sinh => bin(BinOp::Div, bin(BinOp::Sub, up, down), num(2.0)),
+                            _ => bin(
+                                BinOp::Div,
+                                bin(BinOp::Sub, up.clone(), down.clone()),
+                                bin(BinOp::Add, up, down),
+                            ),
+                        }
+                    }
+                    Op::Eq | Op::Neq if a.len() == 2 => {
+                        let mut it = a.into_iter();
+                        let (x, y) = (it.next().unwrap(), it.next().unwrap());
+                        if *op == Op::Eq {
+                            bin(
+                                BinOp::And,
+                                bin(BinOp::Ge, x.clone(), y.clone()),
+                                bin(BinOp::Le, x, y),
+                            )
+                        } else {
+                            bin(
+                                BinOp::Or,
+                                bin(BinOp::Lt, x.clone(), y.clone()),
+                                bin(BinOp::Gt, x, y),
+                            )
+                        }
+                    }
+                    Op::Not if a.len() == 1 => {
+                        let x = a.into_iter().next().unwrap();
+                        bin(
+                            BinOp::And,
+                            bin(BinOp::Ge, x.clone(), num(0.0)),
+                            bin(BinOp::Le, x, num(0.0)),
+                        )
+                    }
+                    Op::Xor if a.len() >= 2 => {
+                        let truth = |e: Expr| {
+                            bin(
+                                BinOp::Or,
+                                bin(BinOp::Lt, e.clone(), num(0.0)),
+                                bin(BinOp::Gt, e, num(0.0)),
+                            )
+                        };
+                        let mut it = a.into_iter();
+                        let first = truth(it.next().unwrap());
+                        it.fold(first, |acc, e| {
+                            let sum = bin(BinOp::Add, acc, truth(e));
+                            bin(
+                                BinOp::And,
+                                bin(BinOp::Gt, sum.clone(), num(0.5)),
+                                bin(BinOp::Lt, sum, num(1.5)),
+                            )
+                        })
+                    }
                     Op::And | Op::Or if a.len() >= 2 => {
                         fold(if *op == Op::And { BinOp::And } else { BinOp::Or }, 1.0, a)
                     }
@@ -1287,6 +1511,15 @@ impl Context<'_> {
             }
         })
     }
+}
+
+/// The ids of a reaction's local parameters.
+fn locals_of(r: &Reaction) -> Vec<&str> {
+    r.kinetic_law
+        .iter()
+        .flat_map(|k| &k.local_parameters)
+        .map(|p| p.id.as_str())
+        .collect()
 }
 
 fn element_of(m: &Math) -> &'static str {

@@ -116,7 +116,21 @@ pub fn run(root: &Path, c: &Case, file: &Path) -> Result<Outcome, String> {
                 && r.math.is_some()
         });
         let series: Vec<f64> = if ruled {
-            // An assignment rule's parameter holds no state: its formula on the trajectory.
+            // An assignment rule's parameter or species holds no state: its formula on the
+            // trajectory. A species' formula gives its symbol; the case may compare the other
+            // reading (amount = concentration × size).
+            let scale = match m.species.iter().position(|s| &s.id == var) {
+                Some(j) => {
+                    let size = size_of(&m.species[j].compartment).unwrap_or(f64::NAN);
+                    let symbol_amount = sbml::initial::symbol_is_amount(m, j);
+                    match (symbol_amount, settings.concentration.contains(var)) {
+                        (true, true) => 1.0 / size,
+                        (false, false) if settings.amount.contains(var) => size,
+                        _ => 1.0,
+                    }
+                }
+                None => 1.0,
+            };
             (0..times.len())
                 .map(|k| {
                     let value = |id: &str| symbol_value(&net, &doc, &values, &tr, k, id);
@@ -124,7 +138,7 @@ pub fn run(root: &Path, c: &Case, file: &Path) -> Result<Outcome, String> {
                         .into_iter()
                         .find(|(v, _)| v == var)
                         .and_then(|(_, x)| x)
-                        .unwrap_or(f64::NAN)
+                        .map_or(f64::NAN, |x| x * scale)
                 })
                 .collect()
         } else if let Some(i) = net.species_index(var) {
@@ -150,6 +164,9 @@ pub fn run(root: &Path, c: &Case, file: &Path) -> Result<Outcome, String> {
             vec![values.compartments[k].unwrap_or(f64::NAN); times.len()]
         } else if let Some(k) = m.parameters.iter().position(|x| &x.id == var) {
             vec![values.parameters[k].unwrap_or(f64::NAN); times.len()]
+        } else if let Some(x) = symbol_value(&net, &doc, &values, &tr, 0, var) {
+            // A constant stoichiometry.
+            vec![x; times.len()]
         } else {
             return Err(format!("variable `{var}` is not in the network"));
         };
@@ -246,6 +263,25 @@ fn symbol_value(
     if let Some(c) = m.compartments.iter().position(|c| c.id == id) {
         return values.compartments[c];
     }
-    let p = m.parameters.iter().position(|p| p.id == id)?;
-    values.parameters[p]
+    if let Some(p) = m.parameters.iter().position(|p| p.id == id) {
+        return values.parameters[p];
+    }
+    // A reaction's rate: its kinetic law, with its local parameters.
+    if let Some(rx) = m.reactions.iter().find(|r| r.id == id) {
+        let law = rx.kinetic_law.as_ref()?;
+        let lookup = |x: &str| match law.local_parameters.iter().find(|p| p.id == x) {
+            Some(p) => p.value,
+            None => symbol_value(net, doc, values, tr, k, x),
+        };
+        return sbml::eval::eval(law.math.as_ref()?, &lookup, tr.times[k]).ok();
+    }
+    // A stoichiometry (constant in every model the network runs).
+    m.reactions.iter().enumerate().find_map(|(r, rx)| {
+        let j = rx
+            .reactants
+            .iter()
+            .chain(&rx.products)
+            .position(|s| s.id.as_deref() == Some(id))?;
+        values.stoichiometries[r][j]
+    })
 }

@@ -7,14 +7,21 @@
 //!   and ODE step, in every method. A kinetic law with a local parameter of the same id keeps
 //!   its own. The parameter is not declared in the network (it holds no state of its own);
 //!   [`rule_values`] gives its value along a trajectory.
-//! - A **rate rule** on a global parameter or a species that no reaction changes (`dx/dt = f`,
-//!   §4.11.4 [M]) becomes a state of the network changed by a zero-order law step `∅ → x` at
+//! - An **assignment rule on a species** that no reaction lists as a reactant or product is
+//!   the same substitution: the species is computed, not a state, and is not declared in the
+//!   network. Its formula gives the species' symbol as SBML reads it (its concentration where
+//!   `hasOnlySubstanceUnits` is false, else its amount), which is what every formula reading
+//!   the species reads, so the substitution is exact.
+//! - A **rate rule** on a global parameter or a species that no reaction lists, a boundary
+//!   species included (`dx/dt = f`, §4.11.4 [M]), becomes a state of the network changed by a zero-order law step `∅ → x` at
 //!   rate f (× the compartment's size where the species' symbol is its concentration). That is
 //!   the rule exactly in the deterministic method; a stochastic run would make f a propensity of
 //!   unit jumps, so the model is read in its own units and stochastic methods refuse it.
 //!
-//! Refused, with the reason: assignment rules on species and compartments, rate rules on
-//! compartments and on species that reactions change or that are boundary species.
+//! Refused, with the reason: assignment rules on compartments and on species that a reaction
+//! lists; rate rules on compartments and on species that a reaction lists; rules that read a
+//! stoichiometry that a rule or an event changes. A rule that reads a reaction's id reads its
+//! kinetic law (map.rs).
 
 use super::not_yet;
 use crate::network::parser::{BinOp, Expr, Rate, Step, Term};
@@ -31,8 +38,8 @@ fn element(k: &RuleKind) -> &'static str {
     }
 }
 
-/// Checks the rules of `m` against the forms above; returns the ids of the parameters that
-/// assignment rules set.
+/// Checks the rules of `m` against the forms above; returns the ids of the parameters and
+/// species that assignment rules set.
 pub(super) fn check(m: &Model) -> Result<Vec<String>, SbmlError> {
     let symbols = m.symbols();
     let mut assigned = Vec::new();
@@ -42,46 +49,45 @@ pub(super) fn check(m: &Model) -> Result<Vec<String>, SbmlError> {
             continue;
         };
         let refuse = |why: String| Err(not_yet(element(&r.kind), Some(v), r.loc, why));
+        // A stoichiometry that no rule or event changes is a constant (read as its value), a
+        // reaction's id its kinetic law; a stoichiometry that changes is not held by the
+        // network.
         let mut reads = None;
         math.visit(&mut |x| {
             if let MathKind::Ident(id) = &x.kind {
-                if matches!(
-                    symbols.get(id.as_str()),
-                    Some(Symbol::Reaction(_) | Symbol::SpeciesReference(..))
-                ) {
+                let changing = match symbols.get(id.as_str()) {
+                    Some(Symbol::SpeciesReference(..)) => changed(m, id),
+                    _ => false,
+                };
+                if changing {
                     reads.get_or_insert(id.clone());
                 }
             }
         });
         if let Some(id) = reads {
             return refuse(format!(
-                "a rule that reads `{id}` (a reaction's rate or a stoichiometry)"
+                "a rule that reads `{id}`, a stoichiometry that changes during the run"
             ));
         }
         match (&r.kind, symbols.get(v)) {
             (RuleKind::Assignment, Some(Symbol::Parameter(_))) => assigned.push(v.to_string()),
-            (RuleKind::Assignment, Some(Symbol::Species(_))) => {
+            (RuleKind::Assignment, Some(Symbol::Species(_))) if in_reaction(m, v) => {
                 return refuse(format!(
-                    "an assignment rule on species `{v}` (assignment rules are supported on parameters)"
+                    "an assignment rule on species `{v}`, which a reaction lists as a reactant or product (assignment rules are supported on parameters and on species no reaction lists)"
                 ))
             }
+            (RuleKind::Assignment, Some(Symbol::Species(_))) => assigned.push(v.to_string()),
             (RuleKind::Assignment, _) => {
                 return refuse(format!(
-                    "an assignment rule on `{v}`, which is not a parameter (assignment rules are supported on parameters)"
+                    "an assignment rule on `{v}`, which is not a parameter or a species (assignment rules are supported on parameters and on species no reaction lists)"
                 ))
             }
             (RuleKind::Rate, Some(Symbol::Parameter(_))) => {}
             (RuleKind::Rate, Some(Symbol::Species(i))) => {
-                let s = &m.species[*i];
-                let in_reaction = m.reactions.iter().any(|r| {
-                    r.reactants
-                        .iter()
-                        .chain(&r.products)
-                        .any(|x| x.species == s.id)
-                });
-                if s.boundary_condition || in_reaction {
+                // A boundary species that no reaction lists is changed by its rule alone.
+                if in_reaction(m, &m.species[*i].id) {
                     return refuse(format!(
-                        "a rate rule on species `{v}`, which is a boundary species or changed by a reaction (rate rules are supported on parameters and on species no reaction changes)"
+                        "a rate rule on species `{v}`, which a reaction lists as a reactant or product (rate rules are supported on parameters and on species no reaction lists)"
                     ));
                 }
             }
@@ -94,6 +100,24 @@ pub(super) fn check(m: &Model) -> Result<Vec<String>, SbmlError> {
         }
     }
     Ok(assigned)
+}
+
+/// Whether a rule or an event of `m` sets `id`.
+fn changed(m: &Model, id: &str) -> bool {
+    m.rules.iter().any(|r| r.variable.as_deref() == Some(id))
+        || m.events
+            .iter()
+            .any(|e| e.assignments.iter().any(|a| a.variable == id))
+}
+
+/// Whether a reaction of `m` lists species `id` as a reactant or a product.
+fn in_reaction(m: &Model, id: &str) -> bool {
+    m.reactions.iter().any(|r| {
+        r.reactants
+            .iter()
+            .chain(&r.products)
+            .any(|x| x.species == id)
+    })
 }
 
 /// Whether the model has rate rules (read in its own units, deterministic only).
@@ -209,7 +233,8 @@ fn replace(m: &mut Math, rules: &[(String, Math)], shadowed: &[String]) -> bool 
     }
 }
 
-/// The value of every assignment-rule parameter of `doc` at time `t`, where `value(id)` gives
+/// The value of every assignment-rule parameter and species (its symbol: concentration or
+/// amount) of `doc` at time `t`, where `value(id)` gives
 /// every other symbol's value as SBML reads it (a species' concentration or amount, a
 /// parameter, a compartment's size): the rules' formulas evaluated in dependency order.
 pub fn rule_values(

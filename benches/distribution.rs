@@ -9,12 +9,14 @@
 //!   in two dimensions, one sparse LU solve.
 //!
 //! The projection's size, the products and the peak resident memory (VmHWM) are printed to
-//! stderr beside criterion's times.
+//! stderr beside criterion's times, with the wall and CPU time of one untimed run before each
+//! group (the CPU time, from /proc/self/stat, is the steadier figure when other work shares
+//! the cores). A filter that matches no benchmark, e.g. `--bench none`, prints only those.
 
 use copyloop::distribution::{self, Options};
 use copyloop::network::{load_source, Overrides};
 use criterion::{criterion_group, criterion_main, Criterion};
-use std::time::Duration;
+use std::time::{Duration, Instant};
 
 const CASCADE: &str = "species A = 0\nspecies B = 0\nspecies C = 0\nspecies D = 0\n\
     step make 0 -> A @ law 8 * inhib(D, 10)\nstep ab A -> B @ 0.5\nstep bc B -> C @ 0.5\n\
@@ -34,6 +36,31 @@ fn peak_memory() -> String {
         .unwrap_or_default()
 }
 
+/// CPU seconds (user + system) of this process so far, from /proc/self/stat (clock ticks of
+/// 1/100 s, the kernel's usual USER_HZ).
+fn cpu_seconds() -> f64 {
+    std::fs::read_to_string("/proc/self/stat")
+        .ok()
+        .and_then(|s| {
+            let after = s.rsplit_once(')')?.1;
+            let f: Vec<&str> = after.split_whitespace().collect();
+            Some((f.get(11)?.parse::<f64>().ok()? + f.get(12)?.parse::<f64>().ok()?) / 100.0)
+        })
+        .unwrap_or(f64::NAN)
+}
+
+/// Runs `f` once, with its wall and CPU seconds as text.
+fn timed<T>(f: impl FnOnce() -> T) -> (T, String) {
+    let (wall, cpu) = (Instant::now(), cpu_seconds());
+    let r = f();
+    let text = format!(
+        "one run {:.2} s wall, {:.2} s CPU",
+        wall.elapsed().as_secs_f64(),
+        cpu_seconds() - cpu
+    );
+    (r, text)
+}
+
 fn bench(c: &mut Criterion) {
     let cascade = load_source("cascade.crn", CASCADE.as_bytes(), &Overrides::default()).unwrap();
     let times: Vec<f64> = (0..51).map(|i| i as f64 * 0.2).collect();
@@ -47,9 +74,9 @@ fn bench(c: &mut Criterion) {
             tolerance: 0.5,
             ..Options::default()
         };
-        let r = distribution::transient(&cascade, &times, &opts).unwrap();
+        let (r, run) = timed(|| distribution::transient(&cascade, &times, &opts).unwrap());
         eprintln!(
-            "transient: {} states, {} non-zeros, generator {} MB, q = {:.1}/s, {} products, bound {:.2e}; {}",
+            "transient, {threads} thread(s): {run}; {} states, {} non-zeros, generator {} MB, q = {:.1}/s, {} products, bound {:.2e}; {}",
             r.states,
             r.projection.nonzeros,
             r.projection.generator_bytes / 1_000_000,
@@ -72,9 +99,9 @@ fn bench(c: &mut Criterion) {
         tolerance: 0.5,
         ..Options::default()
     };
-    let s = distribution::stationary(&binding, &opts).unwrap();
+    let (s, run) = timed(|| distribution::stationary(&binding, &opts).unwrap());
     eprintln!(
-        "stationary: {} states, residual {:.1e}, boundary {:.1e}; {}",
+        "stationary: {run}; {} states, residual {:.1e}, boundary {:.1e}; {}",
         s.states,
         s.residual,
         s.truncation_error,

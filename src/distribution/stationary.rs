@@ -184,7 +184,7 @@ fn rate_between(g: &Generator, s: usize, t: usize) -> f64 {
     let row = &g.col[start..end];
     let first = row.partition_point(|&c| (c as usize) < s);
     let last = row.partition_point(|&c| (c as usize) <= s);
-    g.rate[start + first..start + last].iter().sum()
+    g.rate.sum(start + first..start + last)
 }
 
 /// The local state where the climb of the module doc ends, from the class's first state.
@@ -260,7 +260,7 @@ fn solve_fixed(
                 continue;
             }
             let kj = kj as usize;
-            let a = g.rate[e];
+            let a = g.rate.get(e);
             diag[kj] -= a;
             if ki == r {
                 continue;
@@ -301,7 +301,7 @@ fn residual(g: &Generator, members: &[usize], local: &[u32], pi: &[f64]) -> f64 
             if local[s] == u32::MAX {
                 continue;
             }
-            let flow = g.rate[e] * pi[s];
+            let flow = g.rate.get(e) * pi[s];
             out[ki] += flow;
             out[local[s] as usize] -= flow;
         }
@@ -311,6 +311,7 @@ fn residual(g: &Generator, members: &[usize], local: &[u32], pi: &[f64]) -> f64 
 
 #[cfg(test)]
 mod tests {
+    use super::super::generator::Rates;
     use super::*;
 
     /// A three-state chain 0 ⇄ 1 ⇄ 2 with rates up (1, 2) and down (3, 4), rows by destination.
@@ -335,7 +336,7 @@ mod tests {
             row_ptr,
             reaction: vec![0; col.len()],
             col,
-            rate,
+            rate: Rates::new(rate),
             diag,
         }
     }
@@ -363,7 +364,7 @@ mod tests {
             row_ptr,
             reaction: vec![0; col.len()],
             col,
-            rate,
+            rate: Rates::new(rate),
             diag,
         }
     }

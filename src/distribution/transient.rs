@@ -53,7 +53,7 @@
 //! Poisson weights are computed outward from the mode in ratios (Fox & Glynn 1988, Commun.
 //! ACM 31:440 [M]), so no weight overflows or underflows before it matters, whatever qΔ.
 
-use super::generator::Generator;
+use super::generator::{Generator, Rates};
 use super::summary::Columns;
 use rayon::prelude::*;
 
@@ -229,7 +229,7 @@ impl<'a> Series<'a> {
             s.iter_mut().for_each(|v| *v = 0.0);
             b.iter_mut().for_each(|v| *v = [0.0; 3]);
             for e in g.row_ptr[r]..g.row_ptr[r + 1] {
-                let (a, c) = (g.rate[e], g.col[e] as usize * w);
+                let (a, c) = (g.rate.get(e), g.col[e] as usize * w);
                 for (sv, xv) in s.iter_mut().zip(&x[c..c + w]) {
                     *sv += a * xv;
                 }
@@ -269,8 +269,6 @@ impl<'a> Series<'a> {
     /// same pass.
     fn product(&self, inv_q: f64, x: &[f64], y: &mut [f64]) -> Observed {
         let g = self.gen;
-        let n = g.states;
-        let cols = self.cols;
         if !self.counted.is_empty() {
             let w = width(self.counted.len());
             return if self.parallel && y.len() > CHUNK * w {
@@ -294,13 +292,40 @@ impl<'a> Series<'a> {
                 o
             };
         }
+        match &g.rate {
+            Rates::Plain(rate) => self.plain(inv_q, x, y, |lo, hi| {
+                let mut s = 0.0;
+                for (&a, &c) in rate[lo..hi].iter().zip(&g.col[lo..hi]) {
+                    s += a * x[c as usize];
+                }
+                s
+            }),
+            Rates::Coded { code, table } => self.plain(inv_q, x, y, |lo, hi| {
+                let mut s = 0.0;
+                for (&k, &c) in code[lo..hi].iter().zip(&g.col[lo..hi]) {
+                    s += table[k as usize] * x[c as usize];
+                }
+                s
+            }),
+        }
+    }
+
+    /// y = (I + A/q)·x without counted species, observed in the same pass; `dot(lo, hi)` is
+    /// Σ_{e ∈ lo..hi} rate_e·x_{col_e}.
+    fn plain(
+        &self,
+        inv_q: f64,
+        x: &[f64],
+        y: &mut [f64],
+        dot: impl Fn(usize, usize) -> f64 + Sync,
+    ) -> Observed {
+        let g = self.gen;
+        let n = g.states;
+        let cols = self.cols;
         let body = |start: usize, y: &mut [f64], o: &mut Observed| {
             for (k, yi) in y.iter_mut().enumerate() {
                 let r = start + k;
-                let mut s = 0.0;
-                for e in g.row_ptr[r]..g.row_ptr[r + 1] {
-                    s += g.rate[e] * x[g.col[e] as usize];
-                }
+                let s = dot(g.row_ptr[r], g.row_ptr[r + 1]);
                 if r < n {
                     let v = (1.0 + g.diag[r] * inv_q) * x[r] + s * inv_q;
                     *yi = v;

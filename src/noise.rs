@@ -11,7 +11,7 @@
 //! carries every source of error, correlation along a trajectory included.
 //!
 //! The linear noise approximation solves J·Σ + Σ·Jᵀ + D = 0 at the deterministic steady state
-//! (van Kampen 1976 [M]; Elf & Ehrenberg 2003 [verified]); it is exact for networks of zero-
+//! (van Kampen 1976 \[M\]; Elf & Ehrenberg 2003 \[verified\]); it is exact for networks of zero-
 //! and first-order steps, and its CV falls as 1/√N with copy number N.
 //!
 //! The figures are stationary only if the burn-in let the start-up fade and the window covers

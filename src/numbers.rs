@@ -11,7 +11,7 @@
 //!   is not a whole number`), never the 309 digits Rust's `{}` gives 1e-308.
 //!
 //! - [`csv`]: the value rounded to fifteen significant digits (the most an f64 always keeps,
-//!   IEEE 754-2019 §3.6 [M]) in the shortest text that reads back as it, for files that
+//!   IEEE 754-2019 §3.6 \[M\]) in the shortest text that reads back as it, for files that
 //!   programs load: 24921.999999999996 reads 24922, 0.1 + 0.2 reads 0.3.
 //!
 //! `short` and `plain` switch to exponent notation outside [1e-3, 1e6) (`short`) or [1e-4, 1e9) (`plain`),

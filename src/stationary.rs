@@ -5,7 +5,7 @@
 //! conservation law kept exactly, so that only the fluctuations have to build up. The slowest
 //! relaxation time τ = 1/min|Re λ| over the eigenvalues λ of the reduced Jacobian at the steady
 //! state sets the clock: fluctuations relax like e^(−t/τ) (linear noise approximation; van Kampen
-//! 1976 [M]), so a burn-in of [`BURN_IN_TAUS`]·τ leaves e^(−5) ≈ 0.7 % of any start-up offset,
+//! 1976 \[M\]), so a burn-in of [`BURN_IN_TAUS`]·τ leaves e^(−5) ≈ 0.7 % of any start-up offset,
 //! and a window of [`WINDOW_TAUS`]·τ holds about that many independent stretches per replicate.
 
 use crate::deterministic::Steady;

@@ -19,7 +19,7 @@ use statrs::distribution::{ContinuousCDF, Normal, StudentsT};
 
 /// Running count, mean and sum of squared deviations of a stream of numbers.
 ///
-/// Update (Welford 1962, Technometrics 4(3):419-420 [M]): with δ = x − x̄ₙ₋₁,
+/// Update (Welford 1962, Technometrics 4(3):419-420 \[M\]): with δ = x − x̄ₙ₋₁,
 /// x̄ₙ = x̄ₙ₋₁ + δ/n and M2ₙ = M2ₙ₋₁ + δ·(x − x̄ₙ). Unlike Σx² − n·x̄², this does not
 /// lose precision when the mean is large compared with the spread.
 ///
@@ -49,7 +49,7 @@ impl Welford {
     /// Combines another accumulator into this one, as if all its observations had been pushed.
     ///
     /// Pairwise formula (Chan, Golub & LeVeque 1979, "Updating formulae and a pairwise
-    /// algorithm for computing sample variances", Stanford STAN-CS-79-773 [M]): with
+    /// algorithm for computing sample variances", Stanford STAN-CS-79-773 \[M\]): with
     /// n = n_a + n_b and δ = x̄_b − x̄_a,
     /// x̄ = x̄_a + δ·n_b/n and M2 = M2_a + M2_b + δ²·n_a·n_b/n.
     pub fn merge(&mut self, other: &Welford) {
@@ -127,8 +127,8 @@ impl FromIterator<f64> for Welford {
 /// Running means, variances and covariance of a stream of pairs (x, y).
 ///
 /// The bivariate form of [`Welford`]: with δx = x − x̄ₙ₋₁, the co-moment updates as
-/// Cₙ = Cₙ₋₁ + δx·(y − ȳₙ) (Welford 1962 [M]), and two accumulators merge with
-/// C = C_a + C_b + δx·δy·n_a·n_b/n (Chan, Golub & LeVeque 1979 [M]). Sample covariance
+/// Cₙ = Cₙ₋₁ + δx·(y − ȳₙ) (Welford 1962 \[M\]), and two accumulators merge with
+/// C = C_a + C_b + δx·δy·n_a·n_b/n (Chan, Golub & LeVeque 1979 \[M\]). Sample covariance
 /// C/(n − 1).
 #[derive(Clone, Debug, Default, PartialEq, Serialize, Deserialize, JsonSchema)]
 pub struct Bivariate {
@@ -203,7 +203,7 @@ pub fn total_variance(b: &Bivariate) -> f64 {
 ///
 /// SE² = gᵀ·Σ·g / n with g = (∂f/∂x̄, ∂f/∂ȳ) at the means and Σ the sample covariance matrix
 /// of (x, y) (the delta method: e.g. Casella & Berger 2002, Statistical Inference, §5.5.4
-/// [M]); the interval is f ± t_{0.975, n−1}·SE.
+/// \[M\]); the interval is f ± t_{0.975, n−1}·SE.
 #[derive(Clone, Copy, Debug, PartialEq)]
 pub struct DeltaEstimate {
     pub value: f64,
@@ -251,7 +251,7 @@ const T_EXPANSION_FROM: f64 = 1e4;
 /// t = z + g₁/ν + g₂/ν² + g₃/ν³ + g₄/ν⁴ with g₁ = (z³ + z)/4, g₂ = (5z⁵ + 16z³ + 3z)/96,
 /// g₃ = (3z⁷ + 19z⁵ + 17z³ − 15z)/384,
 /// g₄ = (79z⁹ + 776z⁷ + 1482z⁵ − 1920z³ − 945z)/92160
-/// (Abramowitz & Stegun 1964, Handbook of Mathematical Functions, 26.7.5 [M]); ν = ∞ gives z.
+/// (Abramowitz & Stegun 1964, Handbook of Mathematical Functions, 26.7.5 \[M\]); ν = ∞ gives z.
 /// Checked against standard t tables in the tests.
 /// Returns NaN when p is outside (0, 1) or dof is not a positive number.
 pub fn t_quantile(p: f64, dof: f64) -> f64 {
@@ -268,7 +268,7 @@ pub fn t_quantile(p: f64, dof: f64) -> f64 {
     }
 }
 
-/// Cornish–Fisher expansion of the t quantile (A&S 26.7.5 [M]); see [`t_quantile`].
+/// Cornish–Fisher expansion of the t quantile (A&S 26.7.5 \[M\]); see [`t_quantile`].
 fn t_quantile_expansion(p: f64, dof: f64) -> f64 {
     let z = match Normal::new(0.0, 1.0) {
         Ok(normal) => normal.inverse_cdf(p),
@@ -284,7 +284,7 @@ fn t_quantile_expansion(p: f64, dof: f64) -> f64 {
 }
 
 /// Two-sided 95 % confidence interval for a mean from n observations with sample SD `sd`:
-/// x̄ ± t_{0.975, n−1} · sd/√n (Student 1908 [M]; any statistics handbook).
+/// x̄ ± t_{0.975, n−1} · sd/√n (Student 1908 \[M\]; any statistics handbook).
 ///
 /// Returns `[NaN, NaN]` for n < 2 (no spread estimate); a zero SD gives a zero-width interval.
 pub fn ci95(mean: f64, sd: f64, n: u64) -> [f64; 2] {

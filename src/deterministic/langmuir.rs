@@ -1,7 +1,7 @@
 //! Langmuir-form and total-QSSA predictions for carrier motifs.
 //!
 //! A carrier X binds a ligand L into C (k_on), C falls apart (k_off) or releases X after the
-//! output step (k_cat). Quasi-steady state of C gives (Briggs & Haldane 1925 [M]; docs/references.md
+//! output step (k_cat). Quasi-steady state of C gives (Briggs & Haldane 1925 \[M\]; docs/references.md
 //! §6 [verified formula]):
 //!
 //! ```text
@@ -9,8 +9,8 @@
 //! ```
 //!
 //! with L the free ligand. Where the ligand is not clamped and its total L_T = L + C is what is
-//! known, the total quasi-steady-state approximation (Borghans, de Boer & Segel 1996 [M];
-//! Tzafriri 2003 [M]) takes the smaller root of C² − (X_T + K + L_T)·C + X_T·L_T = 0,
+//! known, the total quasi-steady-state approximation (Borghans, de Boer & Segel 1996 \[M\];
+//! Tzafriri 2003 \[M\]) takes the smaller root of C² − (X_T + K + L_T)·C + X_T·L_T = 0,
 //!
 //! ```text
 //! C = ((X_T + K + L_T) − √((X_T + K + L_T)² − 4·X_T·L_T))/2

@@ -1,7 +1,7 @@
 //! The linear noise approximation at a steady state.
 //!
-//! In molecule numbers (Ω absorbed; van Kampen 1976 [M]; Elf & Ehrenberg 2003, Genome Res.
-//! 13:2475, [verified]) the stationary covariance Σ of the fluctuations solves the Lyapunov
+//! In molecule numbers (Ω absorbed; van Kampen 1976 \[M\]; Elf & Ehrenberg 2003, Genome Res.
+//! 13:2475, \[verified\]) the stationary covariance Σ of the fluctuations solves the Lyapunov
 //! equation
 //!
 //! ```text

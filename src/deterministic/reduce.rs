@@ -9,7 +9,7 @@
 //! ```
 //!
 //! L₀ is the link matrix (Reder 1988, "Metabolic control theory: a structural approach",
-//! J. Theor. Biol. 135:175-201 [M]; Elf & Ehrenberg 2003 use the same reduction for the linear
+//! J. Theor. Biol. 135:175-201 \[M\]; Elf & Ehrenberg 2003 use the same reduction for the linear
 //! noise approximation). The reduced Jacobian J_r = J_II-rows · L₀ (r × r) carries every
 //! eigenvalue of J except the n_c zeros the laws force.
 

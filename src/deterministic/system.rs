@@ -5,7 +5,7 @@
 //! several compartments, amounts per compartment in one common unit: each reaction's flux is
 //! its rate in its own compartment times Ω_c/Ω, so molecules are conserved by transport), S
 //! their rows of the stoichiometry matrix, and v_j the deterministic rate of reaction j
-//! ([`Network::rate`]: k·Π[Xᵢ]^νᵢ for mass action, the law's value for `law` steps).
+//! ([`Network::rate`]: k·Π\[Xᵢ\]^νᵢ for mass action, the law's value for `law` steps).
 //! Clamped species are held at their initial value and have no row: they enter the rates as
 //! constants. Varying params enter with the values the system holds ([`System::params`]); the
 //! plain methods evaluate at t = 0, the `_at` ones at a given time.

@@ -1,7 +1,7 @@
 //! The exact distribution beside an ensemble: histograms of replicate states at chosen times,
 //! and the discrete stochastic test suite's statistics of an ensemble grid against the exact
 //! means and standard deviations (Evans, Gillespie & Wilkinson 2008, Bioinformatics
-//! 24(2):285 [verified]):
+//! 24(2):285 \[verified\]):
 //!
 //! ```text
 //! Z_t = √n·(x̄_t − μ_t)/σ_t                       (≈ N(0, 1) for a correct simulator)

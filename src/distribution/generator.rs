@@ -4,7 +4,7 @@
 //! (every way out of s, into the projection or out of it). Rows are destinations, so a product
 //! A·v reads each row's sources and writes one entry: rows split into independent chunks for
 //! threads (transient.rs). Rows `states..states + sinks` are the absorbing sinks (Munsky & Khammash 2006,
-//! J. Chem. Phys. 124:044104 [M]): their entries are the rates that leave the projection across
+//! J. Chem. Phys. 124:044104 \[M\]): their entries are the rates that leave the projection across
 //! each bound, and their diagonal is zero. A transition of a state to itself (kept only where
 //! its firings are counted) is an entry on row s and part of A_ss, so A is unchanged by it.
 //!
@@ -143,7 +143,7 @@ impl Generator {
         self.col.len()
     }
 
-    /// The uniformization rate q = max_s |A_ss| (Jensen 1953; Grassmann 1977 [M]).
+    /// The uniformization rate q = max_s |A_ss| (Jensen 1953; Grassmann 1977 \[M\]).
     pub fn max_exit_rate(&self) -> f64 {
         self.diag.iter().fold(0.0f64, |m, &d| m.max(-d))
     }

@@ -1,6 +1,6 @@
 //! Exact distributions at low copy number: the chemical master equation solved by finite state
 //! projection (Munsky & Khammash 2006, "The finite state projection algorithm for the solution
-//! of the chemical master equation", J. Chem. Phys. 124:044104 [M]).
+//! of the chemical master equation", J. Chem. Phys. 124:044104 \[M\]).
 //!
 //! The master equation dP/dt = A·P is solved on a finite set J of states. The projected
 //! solution is never above the true one, state by state, and the probability that has left J
@@ -68,7 +68,7 @@ pub const DEFAULT_TOLERANCE: f64 = 1e-6;
 /// reactions, four probability vectors, coordinates, index table, count columns).
 const BYTES_PER_STATE: u64 = 320;
 
-/// The default state limit: a quarter of the memory available now, at [`BYTES_PER_STATE`] per
+/// The default state limit: a quarter of the memory available now, at `BYTES_PER_STATE` per
 /// state, between 10⁵ and 10⁷.
 pub fn default_max_states() -> usize {
     let available = std::fs::read_to_string("/proc/meminfo")

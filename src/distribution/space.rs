@@ -11,7 +11,7 @@
 //!
 //! The box bounds each independent coordinate above (counts are never negative). A transition
 //! that would cross bound k leads to the absorbing sink k instead (one sink per coordinate, as
-//! in Munsky & Khammash 2006, J. Chem. Phys. 124:044104 [M]), so the probability that leaves
+//! in Munsky & Khammash 2006, J. Chem. Phys. 124:044104 \[M\]), so the probability that leaves
 //! the projection is measured, and where it leaves says which bound to raise. A coordinate that
 //! a semi-positive conservation law caps (l ≥ 0, l_k > 0: x_k ≤ l·x₀/l_k) is never bounded
 //! below its cap, and so never leaks.

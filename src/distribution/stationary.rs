@@ -6,7 +6,7 @@
 //! a finite set. A finite chain always has at least one closed communicating class, and its
 //! stationary laws are the mixtures of one law per closed class; the states outside every
 //! closed class are transient and carry no stationary probability (Norris 1997, Markov Chains,
-//! §3.5 [M]). So:
+//! §3.5 \[M\]). So:
 //!
 //! - one closed class: the stationary law is unique; it is solved on that class;
 //! - more than one: the long-run law depends on where the chain starts, and the solver says
@@ -17,12 +17,12 @@
 //!   the state limit with that explanation.
 //!
 //! Classes are found by Tarjan's strongly connected components (Tarjan 1972, SIAM J. Comput.
-//! 1:146 [M]) in iterative form. On the class C (n states) the balance equations A·π = 0 are
+//! 1:146 \[M\]) in iterative form. On the class C (n states) the balance equations A·π = 0 are
 //! made non-singular by fixing π_r = 1 at a reference state r and dropping row r: a proper
 //! principal block of an irreducible generator is a non-singular M-matrix (Berman & Plemmons
-//! 1994, Nonnegative Matrices in the Mathematical Sciences, ch. 6 [M]). The block is
+//! 1994, Nonnegative Matrices in the Mathematical Sciences, ch. 6 \[M\]). The block is
 //! factorised by faer's sparse LU with partial pivoting and a column approximate minimum
-//! degree ordering (Davis et al. 2004, ACM TOMS 30:353 [M]), which keeps the fill of the two-
+//! degree ordering (Davis et al. 2004, ACM TOMS 30:353 \[M\]), which keeps the fill of the two-
 //! and three-dimensional lattices of a CME small; π is then normalised. The reference must be
 //! a probable state: fixing an improbable one makes the block nearly singular (its smallest
 //! pivot is about π_min/π_r times the rates, lost to cancellation) and the solution grows by
@@ -33,7 +33,7 @@
 //!
 //! The first reference climbs the balance of each pair of opposite transitions: where s → t has
 //! rate a and t → s rate b, local balance π_t·b ≈ π_s·a (exact for a reversible chain, Kelly
-//! 1979, Reversibility and Stochastic Networks, §1.5 [M]) says π rises towards t when a > b.
+//! 1979, Reversibility and Stochastic Networks, §1.5 \[M\]) says π rises towards t when a > b.
 //! From the initial state the walk takes the pair with the largest a/b > 1 until none is left
 //! (at most n steps). A chain far from reversible may end the walk anywhere; the moves above
 //! still correct it, at the cost of a second factorisation.

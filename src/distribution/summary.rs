@@ -3,7 +3,7 @@
 //!
 //! Marginals are sums of state probabilities as computed (not renormalised), so each entry is
 //! within the truncation error of the true probability and never above it (Munsky & Khammash
-//! 2006, J. Chem. Phys. 124:044104 [M]). Moments are those of the law conditioned on the
+//! 2006, J. Chem. Phys. 124:044104 \[M\]). Moments are those of the law conditioned on the
 //! projection, m_k/M with M = Σ_k m_k: mean = Σ k·m_k/M, variance = Σ (k − mean)²·m_k/M (two
 //! passes, so no cancellation), Fano factor = variance/mean (undefined, NaN, at mean 0).
 

@@ -1,5 +1,5 @@
 //! The transient solver: uniformization (Jensen 1953; Grassmann 1977, Comput. Oper. Res. 4:47
-//! [M]; the method Sidje & Vo 2015, Math. Biosci. 269:10 [M] compare against Krylov methods for
+//! \[M\]; the method Sidje & Vo 2015, Math. Biosci. 269:10 \[M\] compare against Krylov methods for
 //! the finite state projection).
 //!
 //! With q ≥ max_s |A_ss| the matrix P = I + A/q is substochastic and non-negative, and
@@ -12,7 +12,7 @@
 //! w_N·ρ/(1 − ρ) ≤ budget, ρ = qΔ/(N + 1), a bound on the Poisson tail Σ_{k>N} w_k because
 //! the ratio w_{k+1}/w_k = qΔ/(k + 1) falls with k. Every term is non-negative, so the cut sum
 //! is a lower bound of the exact projected solution, which is itself a lower bound of the true
-//! distribution (Munsky & Khammash 2006, J. Chem. Phys. 124:044104 [M]). Hence the probability
+//! distribution (Munsky & Khammash 2006, J. Chem. Phys. 124:044104 \[M\]). Hence the probability
 //! missing from the states, 1 − Σ_s p_s, bounds in ℓ¹ the whole error of the computed
 //! distribution — projection and series cut together — and every probability it reports is
 //! within that amount of the truth, below it.
@@ -46,12 +46,12 @@
 //! probability, and the series cut at N leaves at most ν_max·Σ_{k>N} k·w_k in the mean and
 //! ν_max²·Σ_{k>N} k²·w_k in the second moment; where species are counted the series runs on
 //! until the latter is below the same budget as the probability's tail. Then
-//! E[P] = P(0) + Σ_x m₁(x)/M and Var P = Σ_x m₂(x)/M − (Σ_x m₁(x)/M)², with M the
+//! E\[P\] = P(0) + Σ_x m₁(x)/M and Var P = Σ_x m₂(x)/M − (Σ_x m₁(x)/M)², with M the
 //! probability on the states (the law conditioned on the projection, as for every other
 //! species). The marginal law of P is not computed (it would need P as a coordinate).
 //!
 //! Poisson weights are computed outward from the mode in ratios (Fox & Glynn 1988, Commun.
-//! ACM 31:440 [M]), so no weight overflows or underflows before it matters, whatever qΔ.
+//! ACM 31:440 \[M\]), so no weight overflows or underflows before it matters, whatever qΔ.
 
 use super::generator::{Generator, Rates};
 use super::summary::Columns;

@@ -26,10 +26,10 @@ pub const LAW: u8 = u8::MAX;
 
 /// A propensity in flat form (molecules per second).
 ///
-/// Mass action, a = c·Π C(xᵢ, νᵢ) (Gillespie 1976, J. Comput. Phys. 22:403 [verified]; the
-/// forms c·x, c·x₁x₂, c·x(x−1)/2, c·x(x−1)(x−2)/6 [M], docs/references.md §1), is written as
+/// Mass action, a = c·Π C(xᵢ, νᵢ) (Gillespie 1976, J. Comput. Phys. 22:403 \[verified\]; the
+/// forms c·x, c·x₁x₂, c·x(x−1)/2, c·x(x−1)(x−2)/6 \[M\], docs/references.md §1), is written as
 ///
-/// a = c′·(x[i₀] − o₀)·(x[i₁] − o₁)·(x[i₂] − o₂)   (the first `factors` of them),
+/// a = c′·(x\[i₀\] − o₀)·(x\[i₁\] − o₁)·(x\[i₂\] − o₂)   (the first `factors` of them),
 ///
 /// with c′ = c/Π νᵢ! and one factor x − k (k = 0 … ν−1) per reactant molecule: A + B gives
 /// x_A·x_B, 2A gives x_A(x_A − 1), 3A gives x_A(x_A − 1)(x_A − 2). Unused factors point at the
@@ -108,7 +108,7 @@ impl<T: Copy> Rows<T> {
 pub const WALK_PER_ENTRY: usize = 16;
 
 /// Which propensities an event recomputes (the dependency graph of Gibson & Bruck 2000, J.
-/// Phys. Chem. A 104:1876 [verified]).
+/// Phys. Chem. A 104:1876 \[verified\]).
 #[derive(Clone, Debug, PartialEq)]
 pub enum Updates {
     /// Row j: the reactions whose propensity may change when j fires, each once.
@@ -126,7 +126,7 @@ pub enum Updates {
 
 impl Updates {
     /// The rows an event of reaction `j` walks, and the keys of those rows in it: (the table
-    /// by reaction, [j]) or (readers, the species j changes).
+    /// by reaction, \[j\]) or (readers, the species j changes).
     ///
     /// # Safety
     ///
@@ -502,7 +502,7 @@ impl CompiledKernel {
 }
 
 /// One propensity update of an event, read before the event's changes are applied:
-/// a[d] = c′·Π (x[iₖ] − oₖ) over the first [`SmallTables::order`] factors, where x is the
+/// a\[d\] = c′·Π (x\[iₖ\] − oₖ) over the first [`SmallTables::order`] factors, where x is the
 /// state before the event and oₖ is the factor's offset less the event's change of species iₖ,
 /// so the product is that of the state after it. Reading the state before the event keeps the
 /// update from waiting on the store of the change.
@@ -537,7 +537,7 @@ pub struct SmallTables {
 pub const DENSE_CHANNELS: usize = 3;
 
 /// A network of at most [`DENSE_CHANNELS`] mass-action reactions, in a form where every event
-/// recomputes all four propensities of the block (the last ones idle): a[k] = c_k·Π_f
+/// recomputes all four propensities of the block (the last ones idle): a\[k\] = c_k·Π_f
 /// (x[i_{k,f}] − o_{j,k,f}) after event j. The species a propensity reads depend on its
 /// channel k only, not on the event, so the processor loads them before it knows which
 /// channel fires; only the offsets (the rate's own, less the event's change, as in

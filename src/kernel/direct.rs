@@ -1,7 +1,7 @@
 //! The Gillespie direct method: one exact trajectory of the chemical master equation.
 //!
 //! Each step (Gillespie 1977, J. Phys. Chem. 81:2340, and 1976, J. Comput. Phys. 22:403
-//! [verified], docs/references.md §1): with a₀ = Σⱼ aⱼ(x), the waiting time is τ ~ Exp(a₀) and the
+//! \[verified\], docs/references.md §1): with a₀ = Σⱼ aⱼ(x), the waiting time is τ ~ Exp(a₀) and the
 //! channel is the smallest μ with Σ_{j≤μ} aⱼ > u·a₀, u uniform on [0, 1); the joint density of
 //! (τ, μ) is a_μ·e^(−a₀τ). After channel μ fires only the propensities in the dependency graph
 //! row of μ are recomputed (the graph comes from the compiler).
@@ -12,8 +12,8 @@
 //! selected channel is data, not a branch the processor must guess (with three channels this
 //! runs about 30 % faster than an early-exit scan, whose exit branch is mispredicted on a large
 //! share of events). An event's rows there have one fixed width and carry their rates inline
-//! ([`SmallTables`](super::compiled::SmallTables)); up to three mass-action reactions, the dense
-//! form keeps the propensities in registers ([`DenseTables`](super::compiled::DenseTables)).
+//! ([`SmallTables`]); up to three mass-action reactions, the dense
+//! form keeps the propensities in registers ([`DenseTables`]).
 //! From [`SMALL_BELOW`](super::compiled::SMALL_BELOW) channels on, selection goes through the
 //! sum tree of [`crate::kernel::select`], which recomputes every sum on a changed path from its
 //! children, so it never drifts either; from [`REJECTION_FROM`] channels on, through
@@ -996,7 +996,7 @@ fn leg<C: Channels, R: Rng + Clone, O: Observer, Tr: Triggers>(
 
 /// The direct method for a network whose propensities vary smoothly with time (a `law`
 /// with sin, cos or time in its arithmetic), by thinning (Lewis & Shedler 1979, Naval Res.
-/// Logist. Q. 26:403 [M]): over a window [t, t + h] with the state fixed, B bounds the total
+/// Logist. Q. 26:403 \[M\]): over a window [t, t + h] with the state fixed, B bounds the total
 /// propensity a₀(t′) for every t′ in the window (the constant channels plus, for each
 /// time-varying one, the upper end of its interval evaluation over [t, t + h], widened by
 /// 1e-9 for rounding); candidates arrive at rate B, and a candidate at t′ is an event with
@@ -1174,7 +1174,7 @@ mod tests {
 
     /// Fires random channels of positive propensity through the small-network view and, after
     /// each, compares every kept propensity with a fresh evaluation of its rate law
-    /// (docs/references.md §1, the combinatorial forms [M]); the kept values come from offsets
+    /// (docs/references.md §1, the combinatorial forms \[M\]); the kept values come from offsets
     /// shifted by the event's change, so they must agree exactly. Networks of at most three
     /// reactions are checked in their dense form too.
     fn kept_equal_fresh<const ORDER: usize, const W: usize>(src: &str) {

@@ -1,6 +1,6 @@
 //! Step-size selection for explicit tau-leaping (Cao, Gillespie & Petzold 2006, J. Chem. Phys.
-//! 124:044109 [verified]) and the critical-reaction rule (Cao, Gillespie & Petzold 2005,
-//! J. Chem. Phys. 123:054104 [verified]).
+//! 124:044109 \[verified\]) and the critical-reaction rule (Cao, Gillespie & Petzold 2005,
+//! J. Chem. Phys. 123:054104 \[verified\]).
 //!
 //! These are the pure parts of a leap, separate from the random ones so they can be checked
 //! against hand computations:

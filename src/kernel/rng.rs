@@ -3,11 +3,11 @@
 //! # The stream (stable; results depend on it)
 //!
 //! Generator: Xoshiro256++ (Blackman & Vigna 2021, "Scrambled linear pseudorandom number
-//! generators", ACM Trans. Math. Softw. 47(4):36 [M]) from `rand_xoshiro`.
+//! generators", ACM Trans. Math. Softw. 47(4):36 \[M\]) from `rand_xoshiro`.
 //!
 //! Replicate `r` of master seed `s` starts from the 256-bit state
 //! `[m(s), m(r ⊕ K₁), m(s ⊕ K₂), m(r ⊕ K₃)]`, where `m` is the SplitMix64 output function
-//! (Steele, Lea & Flood 2014, "Fast splittable pseudorandom number generators", OOPSLA [M]) and
+//! (Steele, Lea & Flood 2014, "Fast splittable pseudorandom number generators", OOPSLA \[M\]) and
 //! K₁, K₂, K₃ are fixed odd constants. `m` is a bijection of u64, so the first two words alone
 //! determine (s, r): no two (seed, replicate) pairs share a starting state, and the state is never
 //! all zero. A replicate's numbers depend on (s, r) alone, never on threads, scheduling or shards.
@@ -26,7 +26,7 @@ const K1: u64 = 0x9E37_79B9_7F4A_7C15;
 const K2: u64 = 0xD1B5_4A32_D192_ED03;
 const K3: u64 = 0x8CB9_2BA7_2F3D_8DD7;
 
-/// SplitMix64 output function: a bijective 64-bit mixer (Steele, Lea & Flood 2014 [M]).
+/// SplitMix64 output function: a bijective 64-bit mixer (Steele, Lea & Flood 2014 \[M\]).
 pub fn splitmix64(x: u64) -> u64 {
     let mut z = x.wrapping_add(0x9E37_79B9_7F4A_7C15);
     z = (z ^ (z >> 30)).wrapping_mul(0xBF58_476D_1CE4_E5B9);
@@ -36,7 +36,7 @@ pub fn splitmix64(x: u64) -> u64 {
 
 /// The master seed of point `i` of a sweep with master seed `seed`: the i-th output of the
 /// SplitMix64 stream started at `seed`, splitmix64(seed + i·γ) with γ = ⌊2⁶⁴/φ⌋ (Steele, Lea
-/// & Flood 2014 [M]), so a point's numbers depend on (seed, i) alone. Its replicates are then
+/// & Flood 2014 \[M\]), so a point's numbers depend on (seed, i) alone. Its replicates are then
 /// seeded from (point seed, r) by [`replicate_rng`].
 pub fn point_seed(seed: u64, i: u64) -> u64 {
     splitmix64(seed.wrapping_add(i.wrapping_mul(0x9E37_79B9_7F4A_7C15)))

@@ -1,6 +1,6 @@
 //! Channel selection for the Gillespie direct method: given propensities a₁ … a_M with total
 //! a₀ and a target u·a₀ (u uniform on [0, 1)), pick the smallest j with Σ_{i≤j} aᵢ > u·a₀
-//! (Gillespie 1977, J. Phys. Chem. 81:2340-2361, step 3 of the direct method [M]).
+//! (Gillespie 1977, J. Phys. Chem. 81:2340-2361, step 3 of the direct method \[M\]).
 //!
 //! Two implementations of that rule, and one of the same law:
 //!
@@ -10,7 +10,7 @@
 //! - [`SumTree`]: a binary tree of partial sums over a flat array, O(log M) per update and per
 //!   selection, for large networks (common practice; the same idea as a Fenwick tree).
 //! - [`Rejection`]: composition–rejection (Slepoy, Thompson & Plimpton 2008, J. Chem. Phys.
-//!   128:205101 [M]), for very large networks: channels grouped by the binary exponent of
+//!   128:205101 \[M\]), for very large networks: channels grouped by the binary exponent of
 //!   their propensity, a group chosen with u·a₀ by a scan over the few non-empty groups, and
 //!   a channel in it by rejection. Its cost per update and per selection does not grow with
 //!   M. It picks channel j with probability a_j/a₀, as the rule does, but not the same j for
@@ -188,7 +188,7 @@ impl SumTree {
 const GROUPS: usize = 2048;
 
 /// Composition–rejection selection over M channels (Slepoy, Thompson & Plimpton 2008, J.
-/// Chem. Phys. 128:205101 [M]).
+/// Chem. Phys. 128:205101 \[M\]).
 ///
 /// Group g holds the channels whose propensity has exponent field g, i.e. lies in
 /// [2^(g−1023), 2^(g−1022)) (group 0: the subnormal numbers below 2^−1022). Then
@@ -403,7 +403,7 @@ fn unit(g: usize) -> f64 {
 }
 
 /// A uniform integer in [0, n), n ≥ 1, exactly (Lemire 2019, ACM Trans. Model. Comput. Simul.
-/// 29(1):3, multiply-and-shift with the rare rejection that removes its bias [M]).
+/// 29(1):3, multiply-and-shift with the rare rejection that removes its bias \[M\]).
 #[inline(always)]
 fn below<R: rand::Rng + ?Sized>(rng: &mut R, n: u64) -> u64 {
     let mut m = u128::from(rng.next_u64()) * u128::from(n);

@@ -1,6 +1,6 @@
 //! Explicit Poisson tau-leaping with the step selection of Cao, Gillespie & Petzold (2006,
-//! J. Chem. Phys. 124:044109 [verified]) and the critical-reaction rule of Cao, Gillespie &
-//! Petzold (2005, J. Chem. Phys. 123:054104 [verified]); docs/references.md §3 steps 1–6:
+//! J. Chem. Phys. 124:044109 \[verified\]) and the critical-reaction rule of Cao, Gillespie &
+//! Petzold (2005, J. Chem. Phys. 123:054104 \[verified\]); docs/references.md §3 steps 1–6:
 //!
 //! 1. reactions that could exhaust a reactant within n_c = 10 firings are critical;
 //! 2. τ' bounds by ε the relative change of every species a propensity reads (every reactant

@@ -9,7 +9,7 @@
 //! [`Timeline::changed`] after every change of the state (cheap: it only compares the
 //! triggers' values with their memory) and [`Timeline::settle`] when it says so.
 //!
-//! Event semantics (SBML Level 3 Version 2 core §4.12, §3.4.8 [M]; the `.crn` `when` is the
+//! Event semantics (SBML Level 3 Version 2 core §4.12, §3.4.8 \[M\]; the `.crn` `when` is the
 //! special case without delay or priority):
 //! - a trigger fires on a transition from false to true; before t = 0 it holds its
 //!   `initial_value`; conditions are evaluated just after a breakpoint (time t⁺), so a

@@ -4,7 +4,7 @@
 //! wait in memory).
 //!
 //! The method (Marsaglia & Tsang 2000, "The ziggurat method for generating random
-//! variables", J. Stat. Softw. 5(8) [M]): the density f(x) = e^(−x) is covered by 256 layers of
+//! variables", J. Stat. Softw. 5(8) \[M\]): the density f(x) = e^(−x) is covered by 256 layers of
 //! equal area v: a base strip [0, x₀) × [0, f(r)) holding the tail beyond r, and rectangles
 //! [0, xᵢ) × [f(xᵢ), f(xᵢ₊₁)) for i = 1 … 255, with x₁ = r, xᵢ₊₁ = −ln(f(xᵢ) + v/xᵢ) and x₂₅₆ = 0.
 //! A draw picks a layer i and a point x = u·xᵢ with u uniform on [0, 1):
@@ -16,8 +16,8 @@
 //!   and otherwise the whole draw starts again.
 //!
 //! r = 7.69711747013104972 and v = 0.0039496598225815571993 are the published constants for
-//! 256 layers (Marsaglia & Tsang 2000, Table 1 [M]; r and v re-solved to 17 digits in
-//! tests/reference/tables.py [C]); the tables are computed from them once.
+//! 256 layers (Marsaglia & Tsang 2000, Table 1 \[M\]; r and v re-solved to 17 digits in
+//! tests/reference/tables.py \[C\]); the tables are computed from them once.
 //! One draw takes one 64-bit number: its low 8 bits choose the layer, its top 52 bits give u.
 
 use rand::Rng;
@@ -28,7 +28,7 @@ pub const R: f64 = 7.697_117_470_131_05;
 /// Area of each layer.
 pub const V: f64 = 0.003_949_659_822_581_557;
 
-/// The layer tables: `x[i]` and `f[i]` = e^(−x[i]) for i = 0 … 256.
+/// The layer tables: `x\[i\]` and `f\[i\]` = e^(−x\[i\]) for i = 0 … 256.
 #[derive(Debug)]
 pub struct ExpZiggurat {
     x: [f64; 257],

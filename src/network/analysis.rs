@@ -138,7 +138,7 @@ pub fn stoichiometry(net: &Network) -> Stoichiometry {
     }
 }
 
-/// The dependency graph of Gibson & Bruck (2000, J. Phys. Chem. A 104:1876 [verified]): reaction
+/// The dependency graph of Gibson & Bruck (2000, J. Phys. Chem. A 104:1876 \[verified\]): reaction
 /// k depends on reaction j when k's propensity reads a species that j changes.
 ///
 /// It is kept as its two halves, per species: the reactions that read it, and per reaction the

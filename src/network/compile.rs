@@ -14,7 +14,7 @@
 //!   first-order step whose product sits in another compartment is transport (c = k), and
 //!   `clearance CL` gives k = CL/V of the reactant's compartment. Reactants in two
 //!   compartments are an error.
-//! - Doses, infusions and `when` events are compiled in [`super::inputs`].
+//! - Doses, infusions and `when` events are compiled in `super::inputs`.
 
 use super::expr::{self, Checks, Resolved};
 use super::parser::{self, Ast, Item, Literal, Operand, Rate, Step, Term};

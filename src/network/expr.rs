@@ -331,7 +331,7 @@ impl Scalar for Dual {
 }
 
 /// A closed interval [lo, hi] of reals: the enclosure arithmetic of Moore (1966, *Interval
-/// Analysis*, Prentice-Hall [M]). Every operation returns an interval containing every value
+/// Analysis*, Prentice-Hall \[M\]). Every operation returns an interval containing every value
 /// the operation takes on its argument intervals (rounding aside, which the caller covers by
 /// widening its final bound), so evaluating a program on intervals bounds its range.
 #[derive(Clone, Copy, Debug, PartialEq)]
@@ -1722,7 +1722,7 @@ mod tests {
         assert_eq!(l.eval::<f64>(|_| 4.0, &[2.0], 0.0), 8.0);
     }
 
-    /// Interval evaluation encloses every value on the box (Moore 1966 [M]): checked against
+    /// Interval evaluation encloses every value on the box (Moore 1966 \[M\]): checked against
     /// dense sampling of the same program.
     #[test]
     fn intervals_enclose_sampled_values() {

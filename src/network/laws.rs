@@ -6,7 +6,7 @@
 //!
 //! 1. the minimal-support semi-positive laws (l ≥ 0), found by Fourier–Motzkin elimination
 //!    over the reaction columns (the P-invariant construction of Schuster & Höfer 1991, J.
-//!    Chem. Soc. Faraday Trans. 87:2561 [M]), sorted by support size, then by the sum of their
+//!    Chem. Soc. Faraday Trans. 87:2561 \[M\]), sorted by support size, then by the sum of their
 //!    coefficients, then by the order the elimination produced them, so that Michaelis–Menten
 //!    gives E + C and S + C + P;
 //! 2. then the basis of the null space read off the reduced row echelon form of Sᵀ (species in
@@ -25,13 +25,13 @@
 //!   (a minimal-support law lies inside one component), and so is every independence test.
 //! - The dimension of a component's null space comes from sparse fraction-free elimination of
 //!   its equations Σᵢ S_ij·lᵢ = 0 (one per reaction), pivoting on short equations and rarely
-//!   used species so that fill-in stays small (Markowitz 1957, Manage. Sci. 3:255 [M]). Only
+//!   used species so that fill-in stays small (Markowitz 1957, Manage. Sci. 3:255 \[M\]). Only
 //!   components with a non-zero null space go further.
 //! - A basis found by back-substitution is brought to the echelon basis of step 2 exactly: the
 //!   non-pivot species of the echelon form of Sᵀ are the complement of its first independent
 //!   columns, i.e. the basis columns of the null space chosen greedily from the last species
 //!   (the complement of a greedy basis is a greedy basis of the dual matroid, taken in the
-//!   reverse order: Oxley 2011, Matroid Theory, 2nd ed., ch. 2 [M]; the test suite checks the
+//!   reverse order: Oxley 2011, Matroid Theory, 2nd ed., ch. 2 \[M\]; the test suite checks the
 //!   result against a direct echelon computation), so the reduced echelon form of any basis
 //!   with the species taken from last to first gives the same vectors.
 //! - Fourier–Motzkin runs per component, on rows kept sparse. A component whose tableau grows

@@ -2,7 +2,7 @@
 //!
 //! A step with reactant coefficients νᵢ fires in Π C(xᵢ, νᵢ) distinct ways, so its propensity
 //! is a = c·Π C(xᵢ, νᵢ) = c·Π (xᵢ)_νᵢ / νᵢ!, with the falling factorial
-//! (x)_ν = x(x−1)…(x−ν+1) (Gillespie 1977 [M]), and the stochastic constant is
+//! (x)_ν = x(x−1)…(x−ν+1) (Gillespie 1977 \[M\]), and the stochastic constant is
 //! c = k·Π νᵢ! / Ω^(m−1) (see [`super::units::stochastic_constant`]).
 
 /// ν! as f64 (exact for every coefficient the compiler accepts, ν ≤ 3).

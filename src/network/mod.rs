@@ -180,7 +180,7 @@ pub struct Follows {
 /// How a reaction's rate depends on the state.
 #[derive(Clone, Debug)]
 pub enum Kinetics {
-    /// Mass action: deterministic rate v = k·Π[Xᵢ]^νᵢ in the reaction's compartment (k in
+    /// Mass action: deterministic rate v = k·Π\[Xᵢ\]^νᵢ in the reaction's compartment (k in
     /// mol/L and seconds, or molecules and seconds without a volume); propensity
     /// a = c·Π C(xᵢ, νᵢ) with c = k·Π(νᵢ!)/Ω_c^(m−1). `k` and `c` are the initial values when
     /// the constant `follows` a varying param.
@@ -334,7 +334,7 @@ impl Network {
     /// over [`Scalar`], so evaluating it on [`Dual`] numbers gives an exact column of the
     /// Jacobian (or ∂/∂t).
     ///
-    /// Mass action: w/Ω = k·r^(1−m)·Π yᵢ^νᵢ with r = Ω_c/Ω (the rate k·Π[Xᵢ]^νᵢ in the
+    /// Mass action: w/Ω = k·r^(1−m)·Π yᵢ^νᵢ with r = Ω_c/Ω (the rate k·Π\[Xᵢ\]^νᵢ in the
     /// reaction's compartment, times its Ω_c, over Ω). Law: law(n = y·Ω)·scale/Ω.
     pub fn rate<T: Scalar>(&self, j: usize, y: impl Fn(usize) -> T, params: &[f64], time: T) -> T {
         let r = &self.reactions[j];

@@ -156,7 +156,7 @@ pub struct When {
 }
 
 /// An imported SBML event's fields beyond a `when` line's (SBML Level 3 Version 2 core §4.12
-/// [M]); the compiler copies them into [`super::Event`].
+/// \[M\]); the compiler copies them into [`super::Event`].
 #[derive(Clone, Debug, PartialEq)]
 pub struct EventForm {
     /// The event's name in reports and messages.

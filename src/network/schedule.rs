@@ -4,7 +4,7 @@
 //! - A [`Dose`] adds a fixed amount to a species at the times of a [`TimeSeq`] (a bolus, the
 //!   pharmacologist's instantaneous input); an infusion is not here: it is a zero-order
 //!   reaction whose law is switched on over a window of time.
-//! - An [`Event`] has SBML's general form (SBML Level 3 Version 2 core, §4.12 [M]): a trigger
+//! - An [`Event`] has SBML's general form (SBML Level 3 Version 2 core, §4.12 \[M\]): a trigger
 //!   that fires on its transition from false to true, an optional delay, an optional priority,
 //!   persistence, the trigger's value before t = 0, and assignments applied together, their
 //!   values taken at trigger time or at execution. A `.crn` `when` line is the special case

@@ -5,7 +5,7 @@
 //! base dimensions, so that a rate constant's dimension can be checked against its reaction order.
 //!
 //! Rate convention (Gillespie 1977; Higham 2008, SIAM Rev. 50:347): a reaction with reactant
-//! coefficients νᵢ and order m = Σνᵢ has deterministic rate v = k·Π[Xᵢ]^νᵢ (events per volume per
+//! coefficients νᵢ and order m = Σνᵢ has deterministic rate v = k·Π\[Xᵢ\]^νᵢ (events per volume per
 //! time); its stochastic constant is c = k·Π(νᵢ!)/Ω^(m−1), with Ω = N_A·V, and its propensity is
 //! a = c·Π C(xᵢ, νᵢ).
 

@@ -3,7 +3,7 @@
 //!
 //! The search runs in log space (params are positive and span decades): first a bracket is
 //! found by stepping outward from the current value by factors of `step`, then Brent's method
-//! (Brent 1973, "Algorithms for Minimization without Derivatives", ch. 4 [M]) narrows it:
+//! (Brent 1973, "Algorithms for Minimization without Derivatives", ch. 4 \[M\]) narrows it:
 //! inverse quadratic interpolation or secant steps, falling back to bisection whenever they
 //! would leave the bracket or converge too slowly.
 

@@ -5,11 +5,11 @@
 //! exact ensemble is compared with three predictions:
 //!
 //! - the Langmuir form k_out·X_T·L_T/(K + L_T), with K = (k_off + Σk_cat)/k_on (Briggs &
-//!   Haldane 1925 [M]) and L_T the ligand available to the motif (its clamped level, or the
+//!   Haldane 1925 \[M\]) and L_T the ligand available to the motif (its clamped level, or the
 //!   ensemble's stationary mean of free plus bound ligand): the standard quasi-steady-state
-//!   (sQSSA) law, valid when X_T ≪ L_T + K (Segel & Slemrod 1989 [M]);
+//!   (sQSSA) law, valid when X_T ≪ L_T + K (Segel & Slemrod 1989 \[M\]);
 //! - the total-QSSA form k_out·C(X_T, L_T) with C the smaller root of
-//!   C² − (X_T + K + L_T)·C + X_T·L_T = 0 (Borghans, de Boer & Segel 1996; Tzafriri 2003 [M]),
+//!   C² − (X_T + K + L_T)·C + X_T·L_T = 0 (Borghans, de Boer & Segel 1996; Tzafriri 2003 \[M\]),
 //!   where the ligand is not clamped;
 //! - the flux at the deterministic steady state of the full network.
 //!

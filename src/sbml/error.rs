@@ -2,7 +2,7 @@
 //!
 //! Every error names the XML element, the SBML id when the element has one, and the line and
 //! column of its start tag. [`SbmlError::diagnostic`] turns one into the crate's
-//! [`Diagnostic`](crate::error::Diagnostic), so an SBML file is reported like any other input
+//! [`Diagnostic`], so an SBML file is reported like any other input
 //! (exit status 2).
 
 use crate::error::{Diagnostic, Span};

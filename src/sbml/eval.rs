@@ -8,7 +8,7 @@
 //! arccosh(1/x), arccsch x = arcsinh(1/x), arccoth x = arctanh(1/x) (A&S 4.4.8–4.4.10,
 //! 4.6.15–4.6.17); `root(n, x)` = x^(1/n), the real root for odd whole n and negative x;
 //! `log(b, x)` = ln x / ln b; `factorial(n)` = Γ(n + 1); `quotient(a, b)` = the integer part of
-//! a/b and `rem(a, b)` = a − b·quotient(a, b) (MathML 2.0, §4.4.3.1, [M]). `piecewise` takes
+//! a/b and `rem(a, b)` = a − b·quotient(a, b) (MathML 2.0, §4.4.3.1, \[M\]). `piecewise` takes
 //! the first piece whose condition holds; with none and no `otherwise` its value is undefined,
 //! an error here.
 

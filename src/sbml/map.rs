@@ -40,7 +40,7 @@
 //! Events become the network's own events (map/events.rs); assignment rules on parameters and
 //! on species no reaction lists, and rate rules on parameters and free species, map as
 //! map/rules.rs says. A conversion factor (the species' own, else the model's; SBML Level 3
-//! core §4.6.7 [M]) multiplies the species' stoichiometry in every reaction, so the species
+//! core §4.6.7 \[M\]) multiplies the species' stoichiometry in every reaction, so the species
 //! changes by factor × stoichiometry per reaction event; a reaction with a scaled reactant keeps
 //! its law as a law (its rate is unchanged, only the change is scaled). What the network cannot
 //! hold yet is refused with [`ErrorKind::NotYet`]: other rules, non-integer stoichiometries
@@ -642,7 +642,7 @@ impl Context<'_> {
     }
 
     /// The conversion factor of species `i` (its own, else the model's; SBML Level 3 core
-    /// §4.6.7 and §4.13.6 [M]): the species changes by the factor times the stoichiometry at
+    /// §4.6.7 and §4.13.6 \[M\]): the species changes by the factor times the stoichiometry at
     /// each reaction. `None` where there is none.
     fn conversion_factor(&self, i: usize, loc: Loc) -> Result<Option<f64>, SbmlError> {
         let s = &self.m.species[i];

@@ -196,7 +196,7 @@ pub const COPYLOOP_NS: &str = "urn:copyloop:sbml:1";
 /// `<copyloop:massAction constant="…" reading="…"/>` in the reaction's annotation.
 ///
 /// The kinetic law states the deterministic rate by the standard (for `2 A → …`,
-/// compartment·k·[A]²); this states how copyloop runs the reaction stochastically: mass action,
+/// compartment·k·\[A\]²); this states how copyloop runs the reaction stochastically: mass action,
 /// propensity c·Π C(xᵢ, νᵢ), with `constant` its rate constant read as `kind` says. The importer
 /// uses it only where the law is that constant's deterministic law.
 #[derive(Clone, Debug, PartialEq, Serialize)]

@@ -2,14 +2,14 @@
 //!
 //! - Grid: the product of the dimensions' values, numbered like nested loops with the first
 //!   `--vary` outermost and the last one fastest.
-//! - Latin hypercube (McKay, Beckman & Conover 1979, Technometrics 21:239 [M]): with P points,
+//! - Latin hypercube (McKay, Beckman & Conover 1979, Technometrics 21:239 \[M\]): with P points,
 //!   every dimension's range is cut into P equal strata (equal in ln for a log range), and each
 //!   stratum of each dimension holds exactly one point. Point i sits in stratum π_d(i) of
 //!   dimension d, at a uniform position inside it; the permutations π_d and the positions are
 //!   drawn from the sweep seed alone. A list dimension of P values is used once per value.
 //!
 //! Point i's seed is the (i+1)-th output of SplitMix64 started at the sweep seed (Steele, Lea &
-//! Flood 2014, "Fast splittable pseudorandom number generators", OOPSLA [M]): it depends on
+//! Flood 2014, "Fast splittable pseudorandom number generators", OOPSLA \[M\]): it depends on
 //! (seed, i) alone, never on sharding, threads or the order in which points finish.
 
 use super::spec::{Scale, Vary};
@@ -256,7 +256,7 @@ fn unit_interval(rng: &mut impl Rng) -> f64 {
 }
 
 /// A uniform integer in [0, n) by Lemire's multiply-and-reject method (Lemire 2019, "Fast random
-/// integer generation in an interval", ACM TOMACS 29(1):3 [M]).
+/// integer generation in an interval", ACM TOMACS 29(1):3 \[M\]).
 fn below(rng: &mut impl Rng, n: u64) -> u64 {
     let threshold = n.wrapping_neg() % n;
     loop {
@@ -268,7 +268,7 @@ fn below(rng: &mut impl Rng, n: u64) -> u64 {
 }
 
 /// A uniform random permutation of 0..n by the Fisher–Yates shuffle (Knuth, TAOCP vol. 2,
-/// Algorithm 3.4.2P [M]).
+/// Algorithm 3.4.2P \[M\]).
 fn permutation(rng: &mut impl Rng, n: usize) -> Vec<usize> {
     let mut p: Vec<usize> = (0..n).collect();
     for i in (1..n).rev() {

@@ -26,7 +26,7 @@ use std::sync::{Mutex, MutexGuard};
 pub const FORMAT: u32 = 1;
 
 /// FNV-1a, 64 bits: h ← (h ⊕ byte)·0x100000001b3 from 0xcbf29ce484222325 (Fowler, Noll & Vo;
-/// IETF draft-eastlake-fnv [M]). A fingerprint against accidents, not against forgery.
+/// IETF draft-eastlake-fnv \[M\]). A fingerprint against accidents, not against forgery.
 pub fn fnv1a(bytes: &[u8]) -> u64 {
     let mut h: u64 = 0xcbf2_9ce4_8422_2325;
     for &b in bytes {

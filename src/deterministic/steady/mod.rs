@@ -2,7 +2,7 @@
 //!
 //! Newton's method on F(x) = 0, where F stacks the rate equations of the independent species
 //! and the conservation laws Λ·x − T (T from the initial state) in place of the dependent rows
-//! (Reder 1988 [M]; common practice in metabolic control analysis), with the linear system
+//! (Reder 1988 \[M\]; common practice in metabolic control analysis), with the linear system
 //! solved by nalgebra LU (SVD least squares if it is singular), an Armijo backtracking line
 //! search on the weighted residual, and steps shortened so that no concentration crosses zero.
 //!
@@ -177,7 +177,7 @@ pub struct Steady {
 #[derive(Clone, Copy, Debug, PartialEq)]
 pub struct Accumulation {
     pub species: usize,
-    /// d[X]/dt in X's own compartment (concentration per second; molecules per second
+    /// d\[X\]/dt in X's own compartment (concentration per second; molecules per second
     /// without a volume).
     pub rate: f64,
     /// dx/dt in molecules per second.

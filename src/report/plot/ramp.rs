@@ -1,7 +1,7 @@
 //! Colours: the sequential ramp of heat maps and the categorical palette of series.
 
 /// The heat maps' ramp: viridis (van der Walt & Smith 2015, matplotlib's perceptually uniform
-/// sequential map [C]: tests/reference/viridis_stops.py samples it) at 9 evenly spaced stops,
+/// sequential map \[C\]: tests/reference/viridis_stops.py samples it) at 9 evenly spaced stops,
 /// dark blue-violet to yellow. Its lightness rises steadily, so a larger value always reads
 /// lighter, also in grey print and for the common colour-vision deficiencies.
 pub const RAMP: [[u8; 3]; 9] = [
@@ -35,7 +35,7 @@ pub fn hex(c: [u8; 3]) -> String {
     format!("#{:02x}{:02x}{:02x}", c[0], c[1], c[2])
 }
 
-/// Series colours: the palette of Okabe & Ito (2008, "Color universal design") [M], which
+/// Series colours: the palette of Okabe & Ito (2008, "Color universal design") \[M\], which
 /// stays distinguishable for the common colour-vision deficiencies; its yellow is left out
 /// (too pale on white). Series beyond seven repeat colours; the chart then varies the marker.
 pub const PALETTE: [&str; 7] = [
@@ -52,7 +52,7 @@ mod tests {
     use super::*;
 
     /// CIE 1976 L* of an sRGB colour: the sRGB transfer function (IEC 61966-2-1), relative
-    /// luminance Y = 0.2126 R + 0.7152 G + 0.0722 B, L* = 116 f(Y) − 16 (CIE 15:2004) [M].
+    /// luminance Y = 0.2126 R + 0.7152 G + 0.0722 B, L* = 116 f(Y) − 16 (CIE 15:2004) \[M\].
     fn lightness(c: [u8; 3]) -> f64 {
         let lin = |v: u8| {
             let v = v as f64 / 255.0;

@@ -4,7 +4,7 @@
 
 /// `s` made safe as SVG character data or as a quoted attribute value: `& < > " '` become
 /// entities, and characters XML 1.0 does not allow (controls other than tab, line feed and
-/// carriage return, U+FFFE, U+FFFF) become U+FFFD (XML 1.0 §2.2, "Char" [verified]).
+/// carriage return, U+FFFE, U+FFFF) become U+FFFD (XML 1.0 §2.2, "Char" \[verified\]).
 pub fn esc(s: &str) -> String {
     let mut out = String::with_capacity(s.len());
     for c in s.chars() {

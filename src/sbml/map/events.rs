@@ -1,7 +1,7 @@
 //! SBML events → the network's own events (the compiler's `when` item with SBML's further
 //! fields, [`EventForm`]).
 //!
-//! Every field of an SBML Level 3 Version 2 event (§4.12 [M]) has its exact counterpart in the
+//! Every field of an SBML Level 3 Version 2 event (§4.12 \[M\]) has its exact counterpart in the
 //! network's event: the trigger (fires on its transition from false to true), `persistent`,
 //! `initialValue`, the delay (evaluated at trigger time, in the model's time unit),
 //! `useValuesFromTriggerTime` and the priority (executions at one instant in decreasing
@@ -22,7 +22,7 @@ use crate::sbml::units;
 impl Context<'_> {
     /// The `when` item of event `e` (the `k`-th of the model, for its label when it has no
     /// id); `None` for an event without a trigger formula, which never fires (SBML Level 3
-    /// Version 2 core §4.12.2 [M]).
+    /// Version 2 core §4.12.2 \[M\]).
     pub(super) fn event(&self, k: usize, e: &Event) -> Result<Option<When>, SbmlError> {
         let label = e.id.clone().unwrap_or_else(|| format!("event_{}", k + 1));
         let owner = label.as_str();
@@ -74,7 +74,7 @@ impl Context<'_> {
     }
 
     /// Refuses two events with the same priority formula: SBML runs such events, when they
-    /// execute at one instant, in random order (§4.12.7 [M]); the network runs them in
+    /// execute at one instant, in random order (§4.12.7 \[M\]); the network runs them in
     /// declaration order.
     pub(super) fn equal_priorities(&self) -> Result<(), SbmlError> {
         let events = &self.m.events;

@@ -1,7 +1,7 @@
 //! SBML assignment and rate rules, in the forms that map exactly onto the network.
 //!
 //! - An **assignment rule** on a global parameter (`p = f` at every instant, SBML Level 3
-//!   Version 2 core §4.11.3 [M]) is written into every formula that reads `p` (kinetic laws,
+//!   Version 2 core §4.11.3 \[M\]) is written into every formula that reads `p` (kinetic laws,
 //!   triggers, delays, priorities, event assignments, other rules): wherever the network reads
 //!   `p` it evaluates `f` on the current state, so the rule holds at every reaction event, event
 //!   and ODE step, in every method. A kinetic law with a local parameter of the same id keeps
@@ -13,7 +13,7 @@
 //!   `hasOnlySubstanceUnits` is false, else its amount), which is what every formula reading
 //!   the species reads, so the substitution is exact.
 //! - A **rate rule** on a global parameter or a species that no reaction lists, a boundary
-//!   species included (`dx/dt = f`, §4.11.4 [M]), becomes a state of the network changed by a zero-order law step `∅ → x` at
+//!   species included (`dx/dt = f`, §4.11.4 \[M\]), becomes a state of the network changed by a zero-order law step `∅ → x` at
 //!   rate f (× the compartment's size where the species' symbol is its concentration). That is
 //!   the rule exactly in the deterministic method; a stochastic run would make f a propensity of
 //!   unit jumps, so the model is read in its own units and stochastic methods refuse it.

@@ -30,9 +30,27 @@ impl Span {
     }
 }
 
+/// How much a diagnostic matters: an error stops the command, a warning is printed and the
+/// command goes on.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+pub enum Severity {
+    Error,
+    Warning,
+}
+
+impl fmt::Display for Severity {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        f.write_str(match self {
+            Severity::Error => "error",
+            Severity::Warning => "warning",
+        })
+    }
+}
+
 /// One message about a place in a file.
 #[derive(Clone, Debug, PartialEq)]
 pub struct Diagnostic {
+    pub severity: Severity,
     pub file: String,
     pub span: Span,
     pub message: String,
@@ -62,6 +80,7 @@ impl Diagnostic {
     pub fn on_line(file: &str, line: &str, span: Span, message: impl Into<String>) -> Diagnostic {
         let (snippet, snippet_col) = excerpt(line, span.col as usize);
         Diagnostic {
+            severity: Severity::Error,
             file: file.to_string(),
             span,
             message: message.into(),
@@ -71,6 +90,13 @@ impl Diagnostic {
         }
     }
 
+    /// The same message as a warning.
+    pub fn warning(mut self) -> Diagnostic {
+        self.severity = Severity::Warning;
+        self
+    }
+
+    /// Adds what the user can do about it.
     pub fn with_help(mut self, help: impl Into<String>) -> Diagnostic {
         self.help = Some(help.into());
         self
@@ -105,8 +131,8 @@ impl fmt::Display for Diagnostic {
     fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
         writeln!(
             f,
-            "error: {}:{}:{}: {}",
-            self.file, self.span.line, self.span.col, self.message
+            "{}: {}:{}:{}: {}",
+            self.severity, self.file, self.span.line, self.span.col, self.message
         )?;
         if !self.snippet.is_empty() || self.span.line > 0 {
             let num = self.span.line.to_string();

@@ -153,3 +153,31 @@ fn an_overflowing_k_is_warned_and_named() {
     assert!(!err.contains("--t-end"), "{err}");
     std::fs::remove_dir_all(&dir).ok();
 }
+
+// A warning is a diagnostic of its own severity: printed as `warning:` with its place, never
+// as an error, and the command succeeds (common practice of compilers' diagnostics).
+#[test]
+fn warnings_print_as_warnings_and_the_command_succeeds() {
+    let src = "volume 1 pL\nparam spare = 3 /s\nspecies A = 10 molecules\nstep s A -> 0 @ 1 /s\n";
+    let net = copyloop::network::load_source(
+        "spare.crn",
+        src.as_bytes(),
+        &copyloop::network::Overrides::default(),
+    )
+    .unwrap();
+    assert_eq!(net.warnings.len(), 1, "{:?}", net.warnings);
+    assert_eq!(net.warnings[0].severity, copyloop::error::Severity::Warning);
+    let dir = std::env::temp_dir().join(format!("copyloop-warn-{}", std::process::id()));
+    std::fs::create_dir_all(&dir).unwrap();
+    let file = dir.join("spare.crn");
+    std::fs::write(&file, src).unwrap();
+    let out = support::cli::run(&["check", file.to_str().unwrap()]);
+    let err = String::from_utf8_lossy(&out.stderr);
+    assert_eq!(out.status.code(), Some(0), "{err}");
+    assert!(
+        err.contains("warning: ") && err.contains("spare.crn:2:7: param `spare` is never used"),
+        "{err}"
+    );
+    assert!(!err.contains("error"), "{err}");
+    std::fs::remove_dir_all(&dir).ok();
+}

@@ -106,7 +106,7 @@ pub(crate) fn print_json(value: &serde_json::Value) -> Result<()> {
 /// Prints a network's compile warnings on stderr.
 pub(crate) fn print_warnings(net: &crate::Network) {
     for w in &net.warnings {
-        let text = w.to_string().replacen("error:", "warning:", 1);
+        let text = w.to_string();
         eprintln!("{text}\n");
     }
 }

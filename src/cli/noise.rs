@@ -98,7 +98,7 @@ fn rounding_warnings(net: &crate::Network, volumes: &[f64]) -> Result<()> {
             ..Overrides::default()
         })?;
         for w in at.warnings.iter().filter(|w| !net.warnings.contains(w)) {
-            let text = w.to_string().replacen("error:", "warning:", 1);
+            let text = w.to_string();
             eprintln!("at volume {} L: {text}\n", crate::numbers::plain(v));
         }
     }

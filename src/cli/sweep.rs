@@ -268,7 +268,7 @@ fn probe_warnings(job: &Job, first: &crate::Network) {
             continue;
         };
         for w in net.warnings.iter().filter(|w| !first.warnings.contains(w)) {
-            let text = w.to_string().replacen("error:", "warning:", 1);
+            let text = w.to_string();
             eprintln!("at the sweep point {words}: {text}\n");
         }
     }

@@ -608,7 +608,8 @@ pub fn usage_warnings(net: &mut Network, ast: &Ast) {
             ),
         ));
     }
-    net.warnings.extend(warnings);
+    net.warnings
+        .extend(warnings.into_iter().map(crate::error::Diagnostic::warning));
 }
 
 #[cfg(test)]

@@ -151,7 +151,7 @@ pub fn compile(
         dependents: Default::default(),
         conservation_laws: Vec::new(),
         motifs: Vec::new(),
-        warnings,
+        warnings: warnings.into_iter().map(Diagnostic::warning).collect(),
         source: std::sync::Arc::clone(ast),
         overrides: overrides.clone(),
     };

@@ -142,8 +142,12 @@ pub fn network(
         }
     }
     net.amount = mapped.unit.clone();
-    net.warnings
-        .extend(mapped.warnings.iter().map(|w| w.diagnostic(file, text)));
+    net.warnings.extend(
+        mapped
+            .warnings
+            .iter()
+            .map(|w| w.diagnostic(file, text).warning()),
+    );
     Ok(net)
 }
 

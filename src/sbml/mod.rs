@@ -93,7 +93,11 @@ pub fn load_source(file: &str, bytes: &[u8], overrides: &Overrides) -> Result<Ne
     };
     let imported = import(bytes).map_err(diagnostics)?;
     let mut net = map::network(file, &text, &imported.document, overrides)?;
-    net.warnings
-        .extend(imported.warnings.iter().map(|w| w.diagnostic(file, &text)));
+    net.warnings.extend(
+        imported
+            .warnings
+            .iter()
+            .map(|w| w.diagnostic(file, &text).warning()),
+    );
     Ok(net)
 }

@@ -154,7 +154,7 @@ pub enum FspError {
     #[error("the chain has {count} closed classes: its long-run law depends on the start")]
     ClosedClasses { count: usize },
     /// A rate law gave a negative or non-finite propensity, or a firing would make a count negative.
-    #[error("reaction {reaction} has propensity {value} at {state}")]
+    #[error("reaction {reaction} has propensity {} at {state}", crate::numbers::round_trip(*.value))]
     BadPropensity {
         reaction: String,
         state: String,

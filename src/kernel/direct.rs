@@ -43,6 +43,7 @@ use super::ziggurat::{exp_ziggurat, Miss};
 use crate::error::{Error, Result};
 use crate::network::expr::just_after;
 use crate::network::{TimeUse, MAX_COUNT};
+use crate::numbers::round_trip;
 use rand::Rng;
 
 /// The propensity array of a small network is a multiple of this long, so that a₀ and the
@@ -891,8 +892,9 @@ fn run_loop<C: Channels, R: Rng + Clone, O: Observer, Tr: Triggers>(
                 checked(k, j, k.propensity_at(j, x, params, t), t)?;
             }
             return Err(Error::Internal(format!(
-                "the total propensity became {} at t = {t} s",
-                ch.total()
+                "the total propensity became {} at t = {} s",
+                round_trip(ch.total()),
+                round_trip(t)
             )));
         }
     };
@@ -1064,8 +1066,9 @@ fn run_thinned<R: Rng + Clone, O: Observer>(
         if !bound.is_finite() {
             if hi - t < 1e-12 * t_end.max(1.0) {
                 return Err(Error::usage(format!(
-                    "the time-varying propensities have no finite bound near t = {t} s \
-                     (a law that grows without limit, or divides by zero)"
+                    "the time-varying propensities have no finite bound near t = {} s \
+                     (a law that grows without limit, or divides by zero)",
+                    round_trip(t)
                 )));
             }
             horizon = (hi - t) / 8.0;

@@ -25,6 +25,7 @@
 use crate::error::{Error, Result};
 use crate::network::expr::{just_after, Edge};
 use crate::network::{Dose, Event, Network, Target};
+use crate::numbers::round_trip;
 
 /// Event executions allowed at one instant before the run is stopped as a runaway cascade.
 pub const MAX_CASCADE: usize = 10_000;
@@ -269,7 +270,11 @@ impl<'i> Timeline<'i> {
                 if !(delay >= 0.0 && delay.is_finite()) {
                     return Err(self.error_at(
                         ev.span.line,
-                        &format!("the delay of event `{}` is {delay} s", ev.label),
+                        &format!(
+                            "the delay of event `{}` is {} s",
+                            ev.label,
+                            round_trip(delay)
+                        ),
                         t,
                     ));
                 }
@@ -322,9 +327,10 @@ impl<'i> Timeline<'i> {
             changed.params |= c.params;
         }
         Err(Error::usage(format!(
-            "{}: events keep triggering one another at t = {t} s ({MAX_CASCADE} executions at \
+            "{}: events keep triggering one another at t = {} s ({MAX_CASCADE} executions at \
              one instant); check that an event does not make its own condition true again",
-            self.inputs.file
+            self.inputs.file,
+            round_trip(t)
         )))
     }
 
@@ -352,7 +358,7 @@ impl<'i> Timeline<'i> {
             if !v.is_finite() {
                 return Err(self.error_at(
                     a.span.line,
-                    &format!("event `{}` computes the value {v}", ev.label),
+                    &format!("event `{}` computes the value {}", ev.label, round_trip(v)),
                     t,
                 ));
             }
@@ -408,7 +414,11 @@ impl<'i> Timeline<'i> {
     }
 
     fn error_at(&self, line: u32, msg: &str, t: f64) -> Error {
-        Error::usage(format!("{}:{line}: {msg} at t = {t} s", self.inputs.file))
+        Error::usage(format!(
+            "{}:{line}: {msg} at t = {} s",
+            self.inputs.file,
+            round_trip(t)
+        ))
     }
 }
 

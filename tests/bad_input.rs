@@ -1,6 +1,8 @@
 //! The bad-input catalogue: every malformed network gives exit status 2, names
 //! file:line:column, says what is wrong, and never panics.
 
+mod support;
+
 use std::path::PathBuf;
 use std::process::Command;
 
@@ -323,16 +325,6 @@ fn a_byte_order_mark_is_accepted() {
     assert_eq!(with.species, without.species);
 }
 
-/// The longest run of ASCII digits in `text`.
-fn longest_digits(text: &str) -> usize {
-    let (mut best, mut run) = (0, 0);
-    for b in text.bytes() {
-        run = if b.is_ascii_digit() { run + 1 } else { 0 };
-        best = best.max(run);
-    }
-    best
-}
-
 /// Messages show huge and tiny numbers in exponent form, as the file or command line wrote
 /// them: Rust's `{}` would print 1e-308 with 308 zeros. An f64 has at most 17 significant
 /// digits in shortest round-trip form (IEEE 754-2019 §5.12.2 [M]), so no message needs a run
@@ -370,7 +362,10 @@ fn messages_show_extreme_numbers_in_exponent_form() {
             .output()
             .unwrap();
         let stderr = String::from_utf8_lossy(&out.stderr);
-        if out.status.code() != Some(2) || !stderr.contains(says) || longest_digits(&stderr) > 22 {
+        if out.status.code() != Some(2)
+            || !stderr.contains(says)
+            || support::longest_digits(&stderr) > 22
+        {
             failures.push(format!(
                 "{name}: status {:?}, wanted `{says}`, got:\n{stderr}",
                 out.status.code()

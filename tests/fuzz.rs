@@ -145,21 +145,11 @@ fn mutate(text: &str, rng: &mut Xoshiro256PlusPlus) -> String {
     t.concat()
 }
 
-/// The longest run of ASCII digits in `text`.
-fn longest_digits(text: &str) -> usize {
-    let (mut best, mut run) = (0, 0);
-    for b in text.bytes() {
-        run = if b.is_ascii_digit() { run + 1 } else { 0 };
-        best = best.max(run);
-    }
-    best
-}
-
 /// Digits a message may print in a row: an f64 in shortest round-trip form has at most 17
 /// significant digits, and a plain form up to 1e21 at most 22 (common practice); longer runs
 /// only where the mutant itself has them (a message may quote the file).
 fn digits_allowed(mutant: &str) -> usize {
-    longest_digits(mutant).max(22)
+    support::longest_digits(mutant).max(22)
 }
 
 // Every mutant compiles or is refused with exit status 2 and a location, and the accepted ones
@@ -185,7 +175,7 @@ fn mutants_never_panic_the_compiler() {
                         let table = copyloop::report::check::table(&net);
                         let warnings: String =
                             net.warnings.iter().map(|w| w.message.clone()).collect();
-                        Ok(longest_digits(&table).max(longest_digits(&warnings)))
+                        Ok(support::longest_digits(&table).max(support::longest_digits(&warnings)))
                     }
                     Err(e) => {
                         let messages: String = match &e {
@@ -197,7 +187,7 @@ fn mutants_never_panic_the_compiler() {
                                 .collect(),
                             other => other.to_string(),
                         };
-                        Err((e.exit_code(), longest_digits(&messages)))
+                        Err((e.exit_code(), support::longest_digits(&messages)))
                     }
                 }
             });

@@ -6,7 +6,7 @@ mod support;
 
 use copyloop::sbml::{self, initial::initial_values, Construct, ErrorKind};
 use std::io::Write;
-use support::cli;
+use support::cli::{self, run_file};
 
 /// An SBML Level 3 Version 2 model in item units with one unit compartment `c`; `species`,
 /// `params` and `rest` are spliced in as the lists' contents and the remaining lists.
@@ -728,21 +728,6 @@ fn a_mole_based_model_gets_its_compartment_as_the_volume() {
     let a = net.propensities()[1].eval(&[6, 3]);
     let want = omega * 0.5 * 4e-9 * (6.0 / omega) / (4e-9 + 6.0 / omega);
     assert!((a - want).abs() < 1e-12 * want, "{a} vs {want}");
-}
-
-/// Writes `text` to a temporary `.xml` file and runs `copyloop` with `args` after its path.
-fn run_file(text: &[u8], args: &[&str]) -> (Option<i32>, String, String) {
-    let mut f = tempfile::Builder::new().suffix(".xml").tempfile().unwrap();
-    f.write_all(text).unwrap();
-    let path = f.path().to_str().unwrap().to_string();
-    let mut all = vec![args[0], path.as_str()];
-    all.extend(&args[1..]);
-    let out = cli::run(&all);
-    (
-        out.status.code(),
-        String::from_utf8_lossy(&out.stdout).into_owned(),
-        String::from_utf8_lossy(&out.stderr).into_owned(),
-    )
 }
 
 #[test]

@@ -5,8 +5,7 @@
 
 mod support;
 
-use std::io::Write;
-use support::cli;
+use support::cli::run_file;
 
 const MATH: &str = r#"<math xmlns="http://www.w3.org/1998/Math/MathML">"#;
 
@@ -67,21 +66,6 @@ fn reaction(id: &str, reactants: &[(&str, &str)], products: &[(&str, &str)], law
     format!(
         r#"<reaction id="{id}" reversible="false">{reactants}{products}
            <kineticLaw>{MATH}{law}</math></kineticLaw></reaction>"#
-    )
-}
-
-/// Writes `text` to a temporary `.xml` file and runs `copyloop` with `args` after its path.
-fn run_file(text: &[u8], args: &[&str]) -> (Option<i32>, String, String) {
-    let mut f = tempfile::Builder::new().suffix(".xml").tempfile().unwrap();
-    f.write_all(text).unwrap();
-    let path = f.path().to_str().unwrap().to_string();
-    let mut all = vec![args[0], path.as_str()];
-    all.extend(&args[1..]);
-    let out = cli::run(&all);
-    (
-        out.status.code(),
-        String::from_utf8_lossy(&out.stdout).into_owned(),
-        String::from_utf8_lossy(&out.stderr).into_owned(),
     )
 }
 

@@ -21,3 +21,20 @@ pub fn json(args: &[&str]) -> serde_json::Value {
     );
     serde_json::from_slice(&out.stdout).expect("one JSON document")
 }
+
+/// Writes `text` to a temporary `.xml` file and runs copyloop with `args` after its path
+/// (`args[0]` is the command); returns the exit status, stdout and stderr.
+pub fn run_file(text: &[u8], args: &[&str]) -> (Option<i32>, String, String) {
+    use std::io::Write;
+    let mut f = tempfile::Builder::new().suffix(".xml").tempfile().unwrap();
+    f.write_all(text).unwrap();
+    let path = f.path().to_str().unwrap().to_string();
+    let mut all = vec![args[0], path.as_str()];
+    all.extend(&args[1..]);
+    let out = run(&all);
+    (
+        out.status.code(),
+        String::from_utf8_lossy(&out.stdout).into_owned(),
+        String::from_utf8_lossy(&out.stderr).into_owned(),
+    )
+}

@@ -173,6 +173,9 @@ pub(super) enum Named {
     Compartment(usize),
 }
 
+/// A failure already recorded in the compiler's errors: the caller skips what depended on it.
+struct Reported;
+
 pub(super) struct Compiler<'a> {
     pub(super) ast: &'a Ast,
     overrides: &'a Overrides,
@@ -646,13 +649,13 @@ impl<'a> Compiler<'a> {
             else {
                 continue;
             };
-            let Some(fwd_comp) = self.reaction_compartment(step, &lhs, &rhs, false) else {
+            let Ok(fwd_comp) = self.reaction_compartment(step, &lhs, &rhs, false) else {
                 continue;
             };
             let forward = self.kinetics(step, &lhs, &step.forward, None, fwd_comp);
             let reverse = match &step.reverse {
                 Some(r) => {
-                    let Some(rev_comp) = self.reaction_compartment(step, &rhs, &lhs, true) else {
+                    let Ok(rev_comp) = self.reaction_compartment(step, &rhs, &lhs, true) else {
                         continue;
                     };
                     Some((
@@ -676,16 +679,16 @@ impl<'a> Compiler<'a> {
 
     /// The compartment a reaction's concentrations refer to: its reactants' (which must share
     /// one), or for order 0 its products' (which must share one); `None` without
-    /// compartments. The outer `None` is an error, already reported.
+    /// compartments. `Err` when the sides disagree: the error is already reported.
     fn reaction_compartment(
         &mut self,
         step: &Step,
         reactants: &[(usize, u32)],
         products: &[(usize, u32)],
         reverse: bool,
-    ) -> Option<Option<usize>> {
+    ) -> Result<Option<usize>, Reported> {
         if self.compartments.is_empty() {
-            return Some(None);
+            return Ok(None);
         }
         let comp = |i: usize| self.species[i].compartment;
         let (side, which) = if reactants.is_empty() {
@@ -694,7 +697,7 @@ impl<'a> Compiler<'a> {
             (reactants, "reactants")
         };
         let Some(&(first, _)) = side.first() else {
-            return Some(Some(0));
+            return Ok(Some(0));
         };
         if let Some(&(other, _)) = side.iter().find(|&&(i, _)| comp(i) != comp(first)) {
             let name = |i: usize| {
@@ -727,9 +730,9 @@ impl<'a> Compiler<'a> {
                     "split it into one step per compartment",
                 );
             }
-            return None;
+            return Err(Reported);
         }
-        Some(comp(first))
+        Ok(comp(first))
     }
 
     pub(super) fn reaction(

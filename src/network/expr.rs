@@ -69,13 +69,20 @@ pub enum Op {
     Or,
 }
 
-/// The functions a program may call, with their number of arguments (`None`: two or more).
-fn arity(name: &str) -> Option<Option<usize>> {
+/// How many arguments a function takes.
+#[derive(Clone, Copy)]
+enum Arity {
+    Exactly(usize),
+    TwoOrMore,
+}
+
+/// The functions a law may call, with their number of arguments; `None` for an unknown name.
+fn arity(name: &str) -> Option<Arity> {
     match name {
-        "sat" | "inhib" => Some(Some(2)),
-        "hill" | "pulse" => Some(Some(3)),
-        "exp" | "ln" | "sin" | "cos" => Some(Some(1)),
-        "min" | "max" => Some(None),
+        "sat" | "inhib" => Some(Arity::Exactly(2)),
+        "hill" | "pulse" => Some(Arity::Exactly(3)),
+        "exp" | "ln" | "sin" | "cos" => Some(Arity::Exactly(1)),
+        "min" | "max" => Some(Arity::TwoOrMore),
         _ => None,
     }
 }
@@ -1024,7 +1031,7 @@ impl Ctx<'_> {
             );
         };
         match n {
-            Some(n) if args.len() != n => {
+            Arity::Exactly(n) if args.len() != n => {
                 return err(
                     span,
                     format!(
@@ -1035,7 +1042,7 @@ impl Ctx<'_> {
                     ),
                 )
             }
-            None if args.len() < 2 => {
+            Arity::TwoOrMore if args.len() < 2 => {
                 return err(span, format!("`{}` takes two or more arguments", name.text))
             }
             _ => {}

@@ -1,6 +1,6 @@
 //! The network in the flat form the event loop reads, built once per network.
 //!
-//! - Mass-action propensities become a product of at most three falling factors (a [`Rate`] of
+//! - Mass-action propensities become a product of at most three falling factors (a [`FlatRate`] of
 //!   24 bytes with `u32` indices, its number of factors matched once per evaluation); `law`
 //!   propensities stay in a side table as [`Network::propensities`] compiles them.
 //! - State changes and the dependency graph are rows of flat arrays (an offset array and a value
@@ -9,7 +9,7 @@
 //! - A small network (fewer than [`SMALL_BELOW`] reactions) also gets [`SmallTables`]: rows of
 //!   one fixed width, padded with changes of 0 to the constant slot and with an idle channel
 //!   whose propensity is always 0, found by arithmetic on the channel index, whose propensity
-//!   updates carry their [`Rate`] inline, so that an event reads no offset array and no second
+//!   updates carry their [`FlatRate`] inline, so that an event reads no offset array and no second
 //!   table, and its loops have the same trip count every time. Up to three mass-action
 //!   reactions there is a [`DenseTables`] form as well.
 
@@ -21,7 +21,7 @@ use crate::network::{Kinetics, Network, Propensity, TimeUse, MAX_COUNT};
 /// Networks with fewer reactions than this get padded rows (and linear selection).
 pub const SMALL_BELOW: usize = 32;
 
-/// [`Rate::factors`] of a regulated rate law.
+/// [`FlatRate::factors`] of a regulated rate law.
 pub const LAW: u8 = u8::MAX;
 
 /// A propensity in flat form (molecules per second).
@@ -36,7 +36,7 @@ pub const LAW: u8 = u8::MAX;
 /// slot that holds 1, and a clamped reactant's C(x, ν) is folded into c′ (its count never
 /// changes). With x < ν one factor is 0, so the product is 0 (or −0), exactly as C(x, ν) = 0.
 #[derive(Clone, Copy, Debug, PartialEq)]
-pub struct Rate {
+pub struct FlatRate {
     /// c′ (unused for a law).
     pub c: f64,
     /// Species read by the three factors; for a law, `i[0]` is its entry in the law table.
@@ -47,10 +47,10 @@ pub struct Rate {
     pub factors: u8,
 }
 
-impl Rate {
+impl FlatRate {
     /// The channel that never fires (reads the constant slot `one`, constant 0).
-    fn idle(one: u32) -> Rate {
-        Rate {
+    fn idle(one: u32) -> FlatRate {
+        FlatRate {
             c: 0.0,
             i: [one; 3],
             o: [0; 3],
@@ -92,7 +92,7 @@ impl<T: Copy> Rows<T> {
     /// `j + 1 < start.len()`. `start` is non-decreasing and ends at `values.len()` by
     /// construction.
     #[inline(always)]
-    pub unsafe fn row_unchecked(&self, j: usize) -> &[T] {
+    pub(crate) unsafe fn row_unchecked(&self, j: usize) -> &[T] {
         debug_assert!(j + 1 < self.start.len());
         // SAFETY: see above.
         unsafe {
@@ -132,7 +132,7 @@ impl Updates {
     ///
     /// `j` is below the number of reactions.
     #[inline(always)]
-    pub unsafe fn walk<'a>(&'a self, j: &'a u32) -> (&'a Rows<u32>, &'a [u32]) {
+    pub(crate) unsafe fn walk<'a>(&'a self, j: &'a u32) -> (&'a Rows<u32>, &'a [u32]) {
         match self {
             Updates::ByReaction(rows) => (rows, std::slice::from_ref(j)),
             // SAFETY: the caller's contract; `changed` has one row per reaction.
@@ -151,7 +151,7 @@ pub struct CompiledKernel {
     /// Initial counts.
     pub x0: Vec<i64>,
     /// One rate per reaction, then the idle channel.
-    rates: Vec<Rate>,
+    rates: Vec<FlatRate>,
     laws: Vec<Propensity>,
     /// Net change of each reaction: (species, change) for non-clamped species.
     change: Rows<(u32, i64)>,
@@ -194,7 +194,7 @@ impl CompiledKernel {
                 Kinetics::MassAction { c, .. } if fixed => mass_action(net, r, c, one)?,
                 _ => {
                     laws.push(p);
-                    Rate {
+                    FlatRate {
                         c: 0.0,
                         i: [(laws.len() - 1) as u32, one, one],
                         o: [0; 3],
@@ -203,7 +203,7 @@ impl CompiledKernel {
                 }
             });
         }
-        rates.push(Rate::idle(one));
+        rates.push(FlatRate::idle(one));
         let small = m < SMALL_BELOW;
         let changes: Vec<Vec<(u32, i64)>> = net
             .reactions
@@ -375,17 +375,23 @@ impl CompiledKernel {
     /// # Safety
     ///
     /// `j ≤ reactions()` and `x.len() == species + 1`. Construction guarantees that every index
-    /// stored in a [`Rate`] is at most `species` (the constant slot) and every law index is in
+    /// stored in a [`FlatRate`] is at most `species` (the constant slot) and every law index is in
     /// the law table. `params` holds every param of the network.
     #[inline(always)]
-    pub unsafe fn propensity_unchecked(&self, j: usize, x: &[i64], params: &[f64], t: f64) -> f64 {
+    pub(crate) unsafe fn propensity_unchecked(
+        &self,
+        j: usize,
+        x: &[i64],
+        params: &[f64],
+        t: f64,
+    ) -> f64 {
         debug_assert!(j < self.rates.len() && x.len() == self.species + 1);
         // SAFETY: j ≤ reactions() by the caller's contract; the rate is this kernel's.
         unsafe { self.rate_unchecked(self.rates.get_unchecked(j), x, params, t) }
     }
 
     /// The flat rate of reaction `j` (`j == reactions()` is the idle channel).
-    pub fn rate(&self, j: usize) -> Rate {
+    pub fn rate(&self, j: usize) -> FlatRate {
         self.rates[j]
     }
 
@@ -396,7 +402,13 @@ impl CompiledKernel {
     ///
     /// `r` is a rate of this kernel and `x.len() == species + 1`.
     #[inline(always)]
-    pub unsafe fn rate_unchecked(&self, r: &Rate, x: &[i64], params: &[f64], t: f64) -> f64 {
+    pub(crate) unsafe fn rate_unchecked(
+        &self,
+        r: &FlatRate,
+        x: &[i64],
+        params: &[f64],
+        t: f64,
+    ) -> f64 {
         debug_assert!(x.len() == self.species + 1);
         if r.factors == LAW {
             return self.law_unchecked(r.i[0] as usize, x, params, t);
@@ -446,7 +458,7 @@ impl CompiledKernel {
     ///
     /// `j < reactions()`.
     #[inline(always)]
-    pub unsafe fn change_unchecked(&self, j: usize) -> &[(u32, i64)] {
+    pub(crate) unsafe fn change_unchecked(&self, j: usize) -> &[(u32, i64)] {
         // SAFETY: j < reactions() by the caller's contract; rows are valid by construction.
         unsafe { self.change.row_unchecked(j) }
     }
@@ -559,7 +571,12 @@ pub struct DenseTables {
 
 impl SmallTables {
     /// `rates` ends with the idle channel; `change` has one row per reaction.
-    fn new(rates: &[Rate], change: &Rows<(u32, i64)>, deps: &[Vec<u32>], one: u32) -> Result<Self> {
+    fn new(
+        rates: &[FlatRate],
+        change: &Rows<(u32, i64)>,
+        deps: &[Vec<u32>],
+        one: u32,
+    ) -> Result<Self> {
         let m = deps.len();
         let is_law = |d: u32| rates[d as usize].factors == LAW;
         let mass: Vec<Vec<Update>> = deps
@@ -660,7 +677,7 @@ impl SmallTables {
     ///
     /// `j < reactions()`, and `W` is 0 or [`SmallTables::width`].
     #[inline(always)]
-    pub unsafe fn change_unchecked<const W: usize>(&self, j: usize) -> &[(u32, i64)] {
+    pub(crate) unsafe fn change_unchecked<const W: usize>(&self, j: usize) -> &[(u32, i64)] {
         // SAFETY: as for `row`.
         unsafe { row::<W, _>(&self.change, self.width, j) }
     }
@@ -672,7 +689,7 @@ impl SmallTables {
     ///
     /// As for [`SmallTables::change_unchecked`].
     #[inline(always)]
-    pub unsafe fn updates_unchecked<const W: usize>(&self, j: usize) -> &[Update] {
+    pub(crate) unsafe fn updates_unchecked<const W: usize>(&self, j: usize) -> &[Update] {
         // SAFETY: as for `row`.
         unsafe { row::<W, _>(&self.updates, self.width, j) }
     }
@@ -686,7 +703,7 @@ impl SmallTables {
 
 /// The dense form of a network with at most [`DENSE_CHANNELS`] reactions, all mass action,
 /// none changing more than four species; `rates` ends with the idle channel.
-fn dense(rates: &[Rate], changes: &[&[(u32, i64)]], one: u32) -> Option<DenseTables> {
+fn dense(rates: &[FlatRate], changes: &[&[(u32, i64)]], one: u32) -> Option<DenseTables> {
     let m = changes.len();
     if m > DENSE_CHANNELS || rates[..m].iter().any(|r| r.factors == LAW) {
         return None;
@@ -694,7 +711,7 @@ fn dense(rates: &[Rate], changes: &[&[(u32, i64)]], one: u32) -> Option<DenseTab
     if changes.iter().any(|r| r.len() > 4) {
         return None;
     }
-    let idle = Rate::idle(one);
+    let idle = FlatRate::idle(one);
     let rate = |k: usize| if k < m { rates[k] } else { idle };
     let delta = |j: usize, i: u32| -> i64 {
         changes
@@ -752,7 +769,7 @@ fn factor(x: &[i64], i: u32, o: u8) -> f64 {
 }
 
 /// The flat rate of a mass-action reaction with stochastic constant `c`.
-fn mass_action(net: &Network, r: &crate::network::Reaction, c: f64, one: u32) -> Result<Rate> {
+fn mass_action(net: &Network, r: &crate::network::Reaction, c: f64, one: u32) -> Result<FlatRate> {
     let mut c = c;
     let mut factors = Vec::new();
     for &(i, nu) in &r.reactants {
@@ -781,7 +798,7 @@ fn mass_action(net: &Network, r: &crate::network::Reaction, c: f64, one: u32) ->
         )));
     }
     factors.resize(3, (one, 0));
-    Ok(Rate {
+    Ok(FlatRate {
         c,
         i: [factors[0].0, factors[1].0, factors[2].0],
         o: [factors[0].1, factors[1].1, factors[2].1],

@@ -34,7 +34,7 @@
 //! the observer's [`Observer::finish`] fills what remains of the grid. Nothing is allocated in
 //! the event loop.
 
-use super::compiled::{CompiledKernel, DenseTables, Rate, SmallTables};
+use super::compiled::{CompiledKernel, DenseTables, FlatRate, SmallTables};
 use super::observe::Observer;
 use super::rng::uniform;
 use super::select::{Rejection, SumTree};
@@ -563,7 +563,7 @@ impl Channels for Tree<'_> {
 #[derive(Clone, Copy, Debug, PartialEq)]
 #[repr(C, align(32))]
 struct Kept {
-    rate: Rate,
+    rate: FlatRate,
     a: f64,
 }
 

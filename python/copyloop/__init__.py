@@ -687,6 +687,7 @@ class Network:
         seed: int = 0,
         threads: Optional[int] = None,
         progress: bool = False,
+        exact_states: int = 50_000,
     ) -> Reconciliation:
         """Reconcile every carrier motif (``copyloop reconcile``): the flux of its output step
         in a stationary exact ensemble against the Langmuir-form, total-QSSA and ODE
@@ -697,7 +698,8 @@ class Network:
         (or a dict {"H": "2nM±0.2nM"}); ``fit`` names a param to fit to the first of them;
         ``precision`` adds replicates, up to ``max_replicates``, until every motif's 95 %
         half-width is below that fraction of its mean; ``tolerance`` is the relative difference
-        within which a prediction agrees. The GIL is released during the run; a Ctrl-C stops
+        within which a prediction agrees; ``exact_states`` caps the exact stationary law solved
+        beside the ensemble (0 skips it). The GIL is released during the run; a Ctrl-C stops
         it before the next replicate and raises KeyboardInterrupt."""
         if isinstance(observe, dict):
             observe = [f"{k}={v}" for k, v in observe.items()]
@@ -714,6 +716,7 @@ class Network:
             _check_int("seed", seed, 0),
             None if threads is None else _check_int("threads", threads, 1),
             bool(progress),
+            _check_int("exact_states", exact_states, 0),
         )
         if fit is not None and not isinstance(fit, str):
             raise ValueError(f"fit: expected the name of a param, got {fit!r}")
@@ -728,11 +731,12 @@ class Network:
         seed: int = 0,
         threads: Optional[int] = None,
         progress: bool = False,
+        exact_states: int = 50_000,
     ) -> Noise:
         """Stationary mean, variance, CV and Fano factor of every species from an exact
         ensemble, beside the linear-noise prediction (``copyloop noise``), optionally at
         several ``volumes`` given with units ("0.1pL", "1pL"), amounts kept as concentrations.
-        Times as in :meth:`reconcile`. The GIL is released during the run; a Ctrl-C stops
+        Times and ``exact_states`` as in :meth:`reconcile`. The GIL is released during the run; a Ctrl-C stops
         it before the next replicate and raises KeyboardInterrupt."""
         args = (
             _check_int("replicates", replicates, 1),
@@ -742,6 +746,7 @@ class Network:
             _check_int("seed", seed, 0),
             None if threads is None else _check_int("threads", threads, 1),
             bool(progress),
+            _check_int("exact_states", exact_states, 0),
         )
         return _noise(_native_call(self._native.noise_json, *args))
 

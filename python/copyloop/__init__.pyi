@@ -178,6 +178,7 @@ class Network:
         seed: int = ...,
         threads: Optional[int] = ...,
         progress: bool = ...,
+        exact_states: int = ...,
     ) -> Reconciliation: ...
     def noise(
         self,
@@ -188,6 +189,7 @@ class Network:
         seed: int = ...,
         threads: Optional[int] = ...,
         progress: bool = ...,
+        exact_states: int = ...,
     ) -> Noise: ...
     def distribution(
         self,

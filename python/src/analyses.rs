@@ -59,6 +59,8 @@ pub struct ReconcileArgs {
     pub seed: u64,
     pub threads: Option<usize>,
     pub progress: bool,
+    /// Most states of the exact stationary law solved beside the ensemble (0: none).
+    pub exact_states: usize,
 }
 
 /// The `reconcile --json` document.
@@ -81,6 +83,7 @@ pub fn reconcile(py: Python<'_>, net: &Network, a: ReconcileArgs) -> PyResult<se
         observations,
         fit: a.fit,
         from_initial: a.from_initial,
+        exact_states: a.exact_states,
         progress: a.progress,
     };
     opts.validate().map_err(crate::errors::to_py)?;
@@ -114,6 +117,7 @@ pub fn noise(
     seed: u64,
     threads: Option<usize>,
     progress: bool,
+    exact_states: usize,
 ) -> PyResult<serde_json::Value> {
     let opts = noise::Options {
         replicates,
@@ -125,6 +129,7 @@ pub fn noise(
             .iter()
             .map(|v| volume(v))
             .collect::<PyResult<Vec<_>>>()?,
+        exact_states,
         progress,
     };
     let r = interruptible(py, || noise::noise(net, &opts))?;

@@ -133,7 +133,7 @@ impl NativeNetwork {
 
     /// The `reconcile --json` document.
     #[allow(clippy::too_many_arguments)]
-    #[pyo3(signature = (replicates, t_end, burn_in, observe, fit, precision, max_replicates, tolerance, from_initial, seed, threads, progress))]
+    #[pyo3(signature = (replicates, t_end, burn_in, observe, fit, precision, max_replicates, tolerance, from_initial, seed, threads, progress, exact_states))]
     fn reconcile_json(
         &self,
         py: Python<'_>,
@@ -149,6 +149,7 @@ impl NativeNetwork {
         seed: u64,
         threads: Option<usize>,
         progress: bool,
+        exact_states: usize,
     ) -> PyResult<String> {
         let args = analyses::ReconcileArgs {
             replicates,
@@ -163,13 +164,14 @@ impl NativeNetwork {
             seed,
             threads,
             progress,
+            exact_states,
         };
         pretty(&analyses::reconcile(py, &self.net, args)?)
     }
 
     /// The `noise --json` document.
     #[allow(clippy::too_many_arguments)]
-    #[pyo3(signature = (replicates, t_end, burn_in, volumes, seed, threads, progress))]
+    #[pyo3(signature = (replicates, t_end, burn_in, volumes, seed, threads, progress, exact_states))]
     fn noise_json(
         &self,
         py: Python<'_>,
@@ -180,9 +182,19 @@ impl NativeNetwork {
         seed: u64,
         threads: Option<usize>,
         progress: bool,
+        exact_states: usize,
     ) -> PyResult<String> {
         pretty(&analyses::noise(
-            py, &self.net, replicates, t_end, burn_in, &volumes, seed, threads, progress,
+            py,
+            &self.net,
+            replicates,
+            t_end,
+            burn_in,
+            &volumes,
+            seed,
+            threads,
+            progress,
+            exact_states,
         )?)
     }
 

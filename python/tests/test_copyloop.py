@@ -236,6 +236,23 @@ def test_noise_equals_the_cli():
         assert v.fano.tolist() == [dv["species"][s]["fano"] for s in v.species]
 
 
+def test_exact_states_matches_the_cli_and_zero_skips_the_exact_law():
+    net = copyloop.load(RECEPTOR)
+    for cap in ("0", "50000"):
+        n = net.noise(replicates=4, burn_in=20, t_end=100, seed=2, exact_states=int(cap))
+        out = cli("noise", RECEPTOR, "--replicates", "4", "--burn-in", "20", "--t-end", "100",
+                  "--seed", "2", "--exact-states", cap, "--json")
+        assert out.returncode == 0, out.stderr
+        assert same_document(n.to_json(), out.stdout)
+    skipped = json.loads(net.noise(replicates=4, burn_in=20, t_end=100, exact_states=0).to_json())
+    assert all(s["exact_mean"] is None for s in skipped["volumes"][0]["species"].values())
+    r = net.reconcile(replicates=4, burn_in=20, t_end=100, seed=2, exact_states=0)
+    out = cli("reconcile", RECEPTOR, "--replicates", "4", "--burn-in", "20", "--t-end", "100",
+              "--seed", "2", "--exact-states", "0", "--json")
+    assert out.returncode == 0, out.stderr
+    assert same_document(r.to_json(), out.stdout)
+
+
 def test_noise_to_pandas():
     pd = pytest.importorskip("pandas")
     n = copyloop.load(RECEPTOR).noise(replicates=3, burn_in=20, t_end=100, seed=1)

@@ -11,20 +11,7 @@ use support::cli::{self, run_file};
 /// An SBML Level 3 Version 2 model in item units with one unit compartment `c`; `species`,
 /// `params` and `rest` are spliced in as the lists' contents and the remaining lists.
 fn l3(species: &str, params: &str, rest: &str) -> String {
-    format!(
-        r#"<?xml version="1.0" encoding="UTF-8"?>
-<sbml xmlns="http://www.sbml.org/sbml/level3/version2/core" level="3" version="2">
-  <model id="m" substanceUnits="item">
-    <listOfCompartments>
-      <compartment id="c" spatialDimensions="3" size="1" constant="true"/>
-    </listOfCompartments>
-    <listOfSpecies>{species}</listOfSpecies>
-    <listOfParameters>{params}</listOfParameters>
-    {rest}
-  </model>
-</sbml>
-"#
-    )
+    support::sbml_l3("", species, params, rest)
 }
 
 const MATH: &str = r#"<math xmlns="http://www.w3.org/1998/Math/MathML">"#;

@@ -13,20 +13,7 @@ const MATH: &str = r#"<math xmlns="http://www.w3.org/1998/Math/MathML">"#;
 /// own attributes `model_attrs`, and `species`, `params` and `rest` spliced in as the lists'
 /// contents and the remaining lists.
 fn l3(model_attrs: &str, species: &str, params: &str, rest: &str) -> String {
-    format!(
-        r#"<?xml version="1.0" encoding="UTF-8"?>
-<sbml xmlns="http://www.sbml.org/sbml/level3/version2/core" level="3" version="2">
-  <model id="m" substanceUnits="item" {model_attrs}>
-    <listOfCompartments>
-      <compartment id="c" spatialDimensions="3" size="1" constant="true"/>
-    </listOfCompartments>
-    <listOfSpecies>{species}</listOfSpecies>
-    <listOfParameters>{params}</listOfParameters>
-    {rest}
-  </model>
-</sbml>
-"#
-    )
+    support::sbml_l3(&format!(" {model_attrs}"), species, params, rest)
 }
 
 /// A species in amounts; `extra` holds further attributes (a conversion factor).

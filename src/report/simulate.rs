@@ -53,15 +53,15 @@ fn compartment_name(net: &Network, i: usize) -> Option<&str> {
 /// deterministic time course's.
 #[derive(Serialize, JsonSchema)]
 #[serde(untagged)]
-pub enum SimulateDocument {
-    Ensemble(Box<EnsembleDocument>),
+pub enum SimulateDocument<'a> {
+    Ensemble(Box<EnsembleDocument<'a>>),
     Ode(Box<OdeDocument>),
 }
 
 /// The ensemble's document (docs/json.md): moments over replicates of the final state, the
 /// time averages over the window, the firings, and the grid.
 #[derive(Serialize, JsonSchema)]
-pub struct EnsembleDocument {
+pub struct EnsembleDocument<'a> {
     pub method: String,
     pub amount_unit: String,
     pub replicates: u64,
@@ -87,7 +87,7 @@ pub struct EnsembleDocument {
     /// The comparison with the exact distribution (`--exact`); null where the network does
     /// not fit a finite state projection, with `exact_note` saying why.
     #[serde(skip_serializing_if = "Option::is_none")]
-    pub exact: Option<Exact>,
+    pub exact: Option<Exact<'a>>,
     #[serde(skip_serializing_if = "Option::is_none")]
     pub exact_note: Option<String>,
 }
@@ -95,11 +95,11 @@ pub struct EnsembleDocument {
 /// The comparison with the exact distribution, where `--exact` asked for it.
 #[derive(Serialize, JsonSchema)]
 #[serde(untagged)]
-pub enum Exact {
+pub enum Exact<'a> {
     /// The network does not fit a finite state projection (printed as `null`).
     Unavailable,
     /// Z and Y statistics per species and grid time.
-    Compared(Box<crate::distribution::compare::ExactComparison>),
+    Compared(&'a crate::distribution::compare::ExactComparison),
 }
 
 /// Mean, SD, standard error and 95 % interval over replicates, in molecules, with their
@@ -236,7 +236,7 @@ fn moments(w: &Welford, molar: Option<f64>) -> Moments {
 }
 
 /// The typed document of an ensemble run.
-pub fn document(net: &Network, r: &EnsembleResult) -> EnsembleDocument {
+pub fn document<'a>(net: &Network, r: &EnsembleResult) -> EnsembleDocument<'a> {
     let t = r.window_length();
     let mut final_state = Named::new();
     let mut time_average = Named::new();
@@ -285,13 +285,17 @@ pub fn document(net: &Network, r: &EnsembleResult) -> EnsembleDocument {
             Series {
                 mean: col(&|w| w.mean()),
                 sd: Some(col(&|w| w.sd())),
-                concentration: molar_factor(net, i).map(|f| Concentration {
-                    mean_molar: col(&|w| w.mean() * f),
-                    sd_molar: Some(col(&|w| w.sd() * f)),
-                    concentration_mean: col(&|w| w.mean() * f),
-                    concentration_sd: Some(col(&|w| w.sd() * f)),
-                    concentration_unit: net.amount.concentration_unit.clone(),
-                    compartment: compartment_name(net, i).map(str::to_string),
+                concentration: molar_factor(net, i).map(|f| {
+                    let mean = col(&|w| w.mean() * f);
+                    let sd = col(&|w| w.sd() * f);
+                    Concentration {
+                        mean_molar: mean.clone(),
+                        sd_molar: Some(sd.clone()),
+                        concentration_mean: mean,
+                        concentration_sd: Some(sd),
+                        concentration_unit: net.amount.concentration_unit.clone(),
+                        compartment: compartment_name(net, i).map(str::to_string),
+                    }
                 }),
                 kind: None,
             },
@@ -519,13 +523,16 @@ pub fn ode_document(net: &Network, tr: &Trajectory, t_end: f64, wall_seconds: f6
             Series {
                 mean: col(&|c| amount(net, c)),
                 sd: None,
-                concentration: factor.map(|f| Concentration {
-                    mean_molar: col(&|c| c * f),
-                    sd_molar: None,
-                    concentration_mean: col(&|c| c * f),
-                    concentration_sd: None,
-                    concentration_unit: net.amount.concentration_unit.clone(),
-                    compartment: compartment_name(net, i).map(str::to_string),
+                concentration: factor.map(|f| {
+                    let molar = col(&|c| c * f);
+                    Concentration {
+                        mean_molar: molar.clone(),
+                        sd_molar: None,
+                        concentration_mean: molar,
+                        concentration_sd: None,
+                        concentration_unit: net.amount.concentration_unit.clone(),
+                        compartment: compartment_name(net, i).map(str::to_string),
+                    }
                 }),
                 kind: None,
             },
@@ -814,7 +821,7 @@ pub fn json_with_exact(
 ) -> Value {
     let mut doc = document(net, r);
     match exact {
-        Some(Ok(c)) => doc.exact = Some(Exact::Compared(Box::new(c.clone()))),
+        Some(Ok(c)) => doc.exact = Some(Exact::Compared(c)),
         Some(Err(note)) => {
             doc.exact = Some(Exact::Unavailable);
             doc.exact_note = Some(note.clone());

@@ -19,3 +19,23 @@ pub fn longest_digits(text: &str) -> usize {
     }
     best
 }
+
+/// An SBML Level 3 Version 2 model in item units with one unit compartment `c`: `attrs` is
+/// written as is after the model's `substanceUnits` (with its own leading space), and
+/// `species`, `params` and `rest` are spliced in as the lists' contents and the remaining lists.
+pub fn sbml_l3(attrs: &str, species: &str, params: &str, rest: &str) -> String {
+    format!(
+        r#"<?xml version="1.0" encoding="UTF-8"?>
+<sbml xmlns="http://www.sbml.org/sbml/level3/version2/core" level="3" version="2">
+  <model id="m" substanceUnits="item"{attrs}>
+    <listOfCompartments>
+      <compartment id="c" spatialDimensions="3" size="1" constant="true"/>
+    </listOfCompartments>
+    <listOfSpecies>{species}</listOfSpecies>
+    <listOfParameters>{params}</listOfParameters>
+    {rest}
+  </model>
+</sbml>
+"#
+    )
+}

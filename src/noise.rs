@@ -156,33 +156,7 @@ pub fn exact_beside(
     if max_states == 0 {
         return (None, Some("not computed (--exact-states 0)".into()));
     }
-    let result = if max_states == distribution::EMBEDDED_MAX_STATES {
-        distribution::stationary_beside(net, threads)
-    } else {
-        let dims = distribution::space::Reduction::from_start(
-            net,
-            net.initial_state(),
-            &[],
-            &net.outputs(),
-        )
-        .dim();
-        if dims > distribution::EMBEDDED_MAX_DIMENSIONS {
-            Err(distribution::FspError::TooManyDimensions {
-                dims,
-                max: distribution::EMBEDDED_MAX_DIMENSIONS,
-            })
-        } else {
-            distribution::stationary(
-                net,
-                &distribution::Options {
-                    max_states,
-                    threads,
-                    ..distribution::Options::default()
-                },
-            )
-        }
-    };
-    match result {
+    match distribution::stationary_beside(net, max_states, threads) {
         Ok(e) => (Some(e), None),
         Err(e) => (None, Some(e.to_string())),
     }

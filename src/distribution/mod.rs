@@ -90,9 +90,13 @@ pub const EMBEDDED_MAX_STATES: usize = 50_000;
 pub const EMBEDDED_MAX_DIMENSIONS: usize = 3;
 
 /// The exact stationary law for the columns beside the ensembles of `noise` and `reconcile`:
-/// default tolerance, at most [`EMBEDDED_MAX_STATES`] states in at most
-/// [`EMBEDDED_MAX_DIMENSIONS`] coordinates.
-pub fn stationary_beside(net: &Network, threads: Option<usize>) -> Result<Stationary, FspError> {
+/// default tolerance, at most `max_states` states (their default [`EMBEDDED_MAX_STATES`]) in at
+/// most [`EMBEDDED_MAX_DIMENSIONS`] coordinates.
+pub fn stationary_beside(
+    net: &Network,
+    max_states: usize,
+    threads: Option<usize>,
+) -> Result<Stationary, FspError> {
     let dims = Reduction::from_start(net, net.initial_state(), &[], &net.outputs()).dim();
     if dims > EMBEDDED_MAX_DIMENSIONS {
         return Err(FspError::TooManyDimensions {
@@ -101,7 +105,7 @@ pub fn stationary_beside(net: &Network, threads: Option<usize>) -> Result<Statio
         });
     }
     let opts = Options {
-        max_states: EMBEDDED_MAX_STATES,
+        max_states,
         threads,
         ..Options::default()
     };

@@ -332,3 +332,76 @@ fn a_second_sweep_on_the_same_file_is_refused() {
     let (_, points) = read(&out);
     assert_eq!(points.len(), 2000);
 }
+
+/// A sweep file written by an earlier build (tests/data/sweep_v1/partial.jsonl: the header and
+/// point 0 of a three-point sweep of a frozen copy of the enzyme loop) still resumes. The
+/// fingerprint holds what the task's options mean, not how they were spelled, so the options
+/// here are written differently from the command that made the file (`--t-end=1s` for
+/// `--t-end 1`, `--epsilon`, which the direct method does not read, and another order). A flag
+/// renamed later must keep this test passing; a change that breaks it breaks every user's
+/// unfinished sweep and must be a new sweep file format instead.
+#[test]
+fn a_sweep_file_from_an_earlier_build_resumes_whatever_the_flags_spelling() {
+    let data = Path::new(env!("CARGO_MANIFEST_DIR")).join("tests/data/sweep_v1");
+    let net = data.join("loop.crn");
+    let dir = tempfile::tempdir().unwrap();
+    let part = dir.path().join("partial.jsonl");
+    std::fs::copy(data.join("partial.jsonl"), &part).unwrap();
+    let (old_header, old_points) = read(&part);
+    let args = [
+        "--task",
+        "simulate",
+        "--t-end=1s",
+        "--grid",
+        "3",
+        "--replicates=2",
+        "--method",
+        "direct",
+        "--epsilon",
+        "0.5",
+        "--vary",
+        "kcat=list:1,2,4",
+    ];
+    let run = |out: &Path, resume: bool| {
+        let mut c = Command::new(BIN);
+        c.arg("sweep").arg(&net).args(args).arg("--out").arg(out);
+        if resume {
+            c.arg("--resume");
+        }
+        let st = c.arg("--json").output().unwrap();
+        assert!(
+            st.status.success(),
+            "{}",
+            String::from_utf8_lossy(&st.stderr)
+        );
+        serde_json::from_slice::<Value>(&st.stdout).unwrap()
+    };
+    let summary = run(&part, true);
+    assert_eq!(summary["already_done"], 1);
+    assert_eq!(summary["written"], 2);
+    let (header, points) = read(&part);
+    assert_eq!(header, old_header, "the header is kept as it was");
+    assert_eq!(
+        points[&0], old_points[&0],
+        "the finished point is not redone"
+    );
+
+    let fresh = dir.path().join("fresh.jsonl");
+    run(&fresh, false);
+    let (_, fresh_points) = read(&fresh);
+    // Equal numbers; only the timings differ between runs.
+    let timeless = |v: &Value| {
+        let mut v = v.clone();
+        let r = v["result"].as_object_mut().unwrap();
+        r.remove("wall_seconds");
+        r.remove("events_per_second");
+        v
+    };
+    for p in [1, 2] {
+        assert_eq!(
+            timeless(&points[&p]),
+            timeless(&fresh_points[&p]),
+            "point {p}"
+        );
+    }
+}

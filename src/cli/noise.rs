@@ -76,6 +76,19 @@ fn options(a: &NoiseArgs) -> Result<Options> {
     Ok(opts)
 }
 
+/// What the options mean, for a sweep's fingerprint (the sweep owns the seed, the threads and
+/// the output files): volumes in litres, however they were written.
+pub(crate) fn identity(a: &NoiseArgs) -> Result<serde_json::Value> {
+    let o = options(a)?;
+    Ok(serde_json::json!({
+        "replicates": o.replicates,
+        "t_end": o.t_end,
+        "burn_in": o.burn_in,
+        "volumes": o.volumes,
+        "exact_states": o.exact_states,
+    }))
+}
+
 /// The `--json` document for one sweep point.
 pub(crate) fn document(a: &NoiseArgs, p: &crate::sweep::Point) -> Result<serde_json::Value> {
     let opts = Options {

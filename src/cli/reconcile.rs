@@ -85,6 +85,24 @@ fn options(a: &ReconcileArgs, net: &crate::Network) -> Result<Options> {
     Ok(opts)
 }
 
+/// What the options mean, for a sweep's fingerprint (the sweep owns the seed, the threads and
+/// the output files). Observations are read against each point's network, so they enter as
+/// written, without surrounding blanks.
+pub(crate) fn identity(a: &ReconcileArgs) -> Result<serde_json::Value> {
+    Ok(serde_json::json!({
+        "replicates": a.replicates,
+        "t_end": a.t_end,
+        "burn_in": a.burn_in,
+        "observations": a.observe.iter().map(|o| o.trim()).collect::<Vec<_>>(),
+        "fit": a.fit,
+        "precision": a.precision,
+        "max_replicates": a.max_replicates,
+        "tolerance": a.tolerance,
+        "from_initial": a.from_initial,
+        "exact_states": a.exact_states,
+    }))
+}
+
 /// The `--json` document for one sweep point.
 pub(crate) fn document(a: &ReconcileArgs, p: &crate::sweep::Point) -> Result<serde_json::Value> {
     let opts = Options {

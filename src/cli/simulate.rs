@@ -113,6 +113,26 @@ fn ode(a: &SimulateArgs, net: &crate::Network) -> Result<(crate::deterministic::
 }
 
 /// The `--json` document for one sweep point.
+/// What the options mean, for a sweep's fingerprint (the sweep owns the seed, the threads and
+/// the output files).
+pub(crate) fn identity(a: &SimulateArgs) -> Result<serde_json::Value> {
+    let method = match a.method {
+        MethodArg::Ode => serde_json::json!({"name": "ode"}),
+        MethodArg::Direct => serde_json::json!({"name": "direct"}),
+        MethodArg::Tau => serde_json::json!({"name": "tau", "epsilon": a.epsilon}),
+        MethodArg::Auto => serde_json::json!({"name": "auto", "epsilon": a.epsilon}),
+    };
+    Ok(serde_json::json!({
+        "t_end": a.t_end,
+        "replicates": a.replicates,
+        "method": method,
+        "grid_points": a.grid,
+        "window": a.window,
+        "exact": a.exact,
+    }))
+}
+
+/// The `--json` document for one sweep point.
 pub(crate) fn document(a: &SimulateArgs, p: &crate::sweep::Point) -> Result<serde_json::Value> {
     if a.method == MethodArg::Ode {
         let (tr, wall) = ode(a, p.net)?;

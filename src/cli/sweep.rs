@@ -7,7 +7,7 @@
 use crate::error::{Error, Result};
 use crate::report;
 use crate::sweep::{self, DesignKind, Fault, Job, Point, Shard, Store, Task};
-use clap::{ArgMatches, Args, Command, FromArgMatches, ValueEnum};
+use clap::{Args, Command, FromArgMatches, ValueEnum};
 use serde_json::{Map, Value};
 use std::io::IsTerminal;
 use std::sync::atomic::{AtomicBool, AtomicUsize, Ordering};
@@ -85,34 +85,51 @@ struct InitialArgs {
 /// Builds the task a sweep runs from its name and its command's options (`file` stands in
 /// for the command's FILE).
 ///
-/// Wiring a command in is one line here: `args_task::<XArgs>("x", file, options, document)`,
-/// where `document(&XArgs, &Point) -> Result<Value>` is the function the command itself uses to
-/// build its `--json` document from a compiled network, a seed and a thread count.
+/// Wiring a command in is one arm here: `args_task::<XArgs>("x", file, options, identity,
+/// document)`, where `document(&XArgs, &Point) -> Result<Value>` is the function the command
+/// itself uses to build its `--json` document from a compiled network, a seed and a thread
+/// count, and `identity(&XArgs) -> Result<Value>` gives the options' meaning for the
+/// fingerprint.
 fn task(name: &str, file: &str, options: &[String]) -> Result<Box<dyn Task>> {
+    use super::{check, noise, reconcile, simulate, steady};
     match name {
-        "check" => args_task::<super::check::CheckArgs>("check", file, options, |_, p| {
-            Ok(report::check::json(p.net))
-        }),
-        "initial" => args_task::<InitialArgs>("initial", file, options, |_, p| {
-            Ok(report::sweep::initial(p.net))
-        }),
-        "simulate" => args_task::<super::simulate::SimulateArgs>(
+        "check" => args_task::<check::CheckArgs>(
+            "check",
+            file,
+            options,
+            |_| Ok(Value::Object(Map::new())),
+            |_, p| Ok(report::check::json(p.net)),
+        ),
+        "initial" => args_task::<InitialArgs>(
+            "initial",
+            file,
+            options,
+            |_| Ok(Value::Object(Map::new())),
+            |_, p| Ok(report::sweep::initial(p.net)),
+        ),
+        "simulate" => args_task::<simulate::SimulateArgs>(
             "simulate",
             file,
             options,
-            super::simulate::document,
+            simulate::identity,
+            simulate::document,
         ),
-        "steady" => {
-            args_task::<super::steady::SteadyArgs>("steady", file, options, super::steady::document)
-        }
-        "reconcile" => args_task::<super::reconcile::ReconcileArgs>(
+        "steady" => args_task::<steady::SteadyArgs>(
+            "steady",
+            file,
+            options,
+            |_| Ok(Value::Object(Map::new())),
+            steady::document,
+        ),
+        "reconcile" => args_task::<reconcile::ReconcileArgs>(
             "reconcile",
             file,
             options,
-            super::reconcile::document,
+            reconcile::identity,
+            reconcile::document,
         ),
         "noise" => {
-            args_task::<super::noise::NoiseArgs>("noise", file, options, super::noise::document)
+            args_task::<noise::NoiseArgs>("noise", file, options, noise::identity, noise::document)
         }
         _ => Err(Error::usage(format!(
             "--task {name}: unknown task; tasks are simulate, steady, reconcile, noise, check \
@@ -121,16 +138,18 @@ fn task(name: &str, file: &str, options: &[String]) -> Result<Box<dyn Task>> {
     }
 }
 
-/// Flags of the command itself that a sweep sets for every point, or that write files: they
-/// are the sweep's, and not part of the task's options.
-const SWEEP_OWNED: &[&str] = &["file", "seed", "threads", "json", "out", "svg", "metric"];
-
 /// A task from a command's clap options: parses `options` as that command's flags and runs
 /// `document` at each point.
+///
+/// The fingerprint holds `identity(&args)`: the parsed options as typed values under names of
+/// their own (the library's field names), leaving out the flags the sweep owns. It never holds
+/// a flag's spelling or the text a value was written in, so renaming a flag, or writing 0.05
+/// as 5e-2, leaves old sweep files resumable.
 fn args_task<A>(
     name: &'static str,
     file: &str,
     options: &[String],
+    identity: fn(&A) -> Result<Value>,
     document: fn(&A, &Point) -> Result<Value>,
 ) -> Result<Box<dyn Task>>
 where
@@ -138,39 +157,16 @@ where
 {
     let cmd = A::augment_args(Command::new("copyloop-sweep-task")).no_binary_name(true);
     let argv = std::iter::once(file.to_string()).chain(options.iter().cloned());
-    let m = match cmd.clone().try_get_matches_from(argv) {
+    let m = match cmd.try_get_matches_from(argv) {
         Ok(m) => m,
         Err(e) if e.kind() == clap::error::ErrorKind::DisplayHelp => e.exit(),
         Err(e) => return Err(clap_usage(&format!("--task {name}"), e)),
     };
     let args = A::from_arg_matches(&m).map_err(|e| clap_usage(&format!("--task {name}"), e))?;
-    let identity = options_identity(&cmd, &m);
+    let identity = identity(&args)?;
     Ok(Box::new(sweep::FnTask::new(name, identity, move |p| {
         document(&args, p)
     })))
-}
-
-/// The task's options as parsed (defaults included), by option name, without the flags the
-/// sweep owns: what the fingerprint holds.
-fn options_identity(cmd: &Command, m: &ArgMatches) -> Value {
-    let mut ids: Vec<&str> = cmd
-        .get_arguments()
-        .map(|a| a.get_id().as_str())
-        .filter(|id| !SWEEP_OWNED.contains(id))
-        .collect();
-    ids.sort_unstable();
-    let mut out = Map::new();
-    for id in ids {
-        let values: Vec<Value> = m
-            .get_raw(id)
-            .map(|r| {
-                r.map(|v| Value::from(v.to_string_lossy().into_owned()))
-                    .collect()
-            })
-            .unwrap_or_default();
-        out.insert(id.to_string(), Value::Array(values));
-    }
-    Value::Object(out)
 }
 
 fn clap_usage(context: &str, e: clap::Error) -> Error {
@@ -496,6 +492,40 @@ mod tests {
             strings(&["--out", "f.jsonl", "--resume", "--seed=4", "--vary", "k=list:1"])
         );
         assert_eq!(theirs, strings(&["--t-end", "5", "--replicates=3"]));
+    }
+
+    fn identity(task_name: &str, options: &[&str]) -> Value {
+        task(task_name, "loop.crn", &strings(options))
+            .unwrap()
+            .options()
+    }
+
+    #[test]
+    fn the_fingerprint_holds_what_options_mean_not_how_they_are_written() {
+        assert_eq!(
+            identity("noise", &["--t-end", "1h", "--volumes", "1pL,2pL"]),
+            identity("noise", &["--volumes=1000fL,2000 fL", "--t-end=3600"])
+        );
+        assert_eq!(
+            identity("reconcile", &["--tolerance", "0.05", "--observe", "H=2nM"]),
+            identity("reconcile", &["--observe", " H=2nM ", "--tolerance=5e-2"])
+        );
+        assert_ne!(
+            identity("reconcile", &["--tolerance", "0.05"]),
+            identity("reconcile", &["--tolerance", "0.1"])
+        );
+        assert_eq!(
+            identity("simulate", &["--t-end", "5"]),
+            identity("simulate", &["--t-end", "5", "--epsilon", "0.1"]),
+            "the direct method does not read --epsilon"
+        );
+        assert_ne!(
+            identity("simulate", &["--t-end", "5", "--method", "tau"]),
+            identity(
+                "simulate",
+                &["--t-end", "5", "--method", "tau", "--epsilon", "0.1"]
+            )
+        );
     }
 
     #[test]

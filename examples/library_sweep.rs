@@ -4,9 +4,8 @@
 //! temporary directory. Invented numbers, for illustration only.
 
 use copyloop::ensemble::{self, EnsembleSpec};
-use copyloop::sweep::{self, DesignKind, FnTask, Job, Point, RunOptions, Store};
+use copyloop::sweep::{self, DesignKind, Ending, FnTask, Job, Point, Session};
 use serde_json::{json, Value};
-use std::sync::atomic::AtomicBool;
 
 const NETWORK: &str = "# invented: a hormone X secreted at k and cleared at g per molecule
 species X = 0 molecules
@@ -42,22 +41,15 @@ fn main() -> copyloop::Result<()> {
     });
     let path = std::env::temp_dir().join(format!("library_sweep-{}.jsonl", std::process::id()));
     let path = path.to_str().expect("a UTF-8 temporary path");
-    let store = Store::create(path, &job.header(&task))?;
-    let todo: Vec<u64> = job.members().collect();
-    let outcome = sweep::run(
-        &job.ast,
-        &job.design,
-        &task,
-        &todo,
-        &store,
-        &RunOptions {
-            threads: 2,
-            stop: &AtomicBool::new(false),
-            progress: &|_| {},
-        },
-    )?;
-    drop(store);
-    assert!(outcome.failed.is_empty(), "{:?}", outcome.failed);
+    let session = Session::open(&job, &task, path, false)?;
+    let outcome = session.run(&job, &task, 2, &|_| {})?;
+    assert_eq!(
+        session.ending(&outcome),
+        Ending::Complete,
+        "{:?}",
+        outcome.failed
+    );
+    drop(session);
 
     // X(T) is Poisson with mean (k/g)(1 − e^(−g·T)) from X(0) = 0 (common practice).
     println!("| k (/s) | ensemble mean | ± SE | closed form |");

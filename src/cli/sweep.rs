@@ -6,11 +6,10 @@
 
 use crate::error::{Error, Result};
 use crate::report;
-use crate::sweep::{self, DesignKind, Fault, Job, Point, Shard, Store, Task};
+use crate::sweep::{self, DesignKind, Ending, Interrupt, Job, Point, Session, Shard, Task};
 use clap::{Args, Command, FromArgMatches, ValueEnum};
 use serde_json::{Map, Value};
 use std::io::IsTerminal;
-use std::sync::atomic::{AtomicBool, AtomicUsize, Ordering};
 use std::sync::Arc;
 
 #[derive(Debug, Args)]
@@ -297,40 +296,15 @@ pub fn run(a: SweepArgs) -> Result<()> {
     let first = plan.check()?;
     super::print_warnings(&first);
     probe_warnings(&plan, &first);
-    let header = plan.header(task.as_ref());
-    let (store, done) = if a.resume {
-        Store::resume(out, &header)?
-    } else {
-        (Store::create(out, &header)?, Vec::new())
-    };
-    let store = Arc::new(store);
-    let done: std::collections::HashSet<u64> = done.into_iter().collect();
-    let members: Vec<u64> = plan.members().collect();
-    let todo: Vec<u64> = members
-        .iter()
-        .copied()
-        .filter(|i| !done.contains(i))
-        .collect();
-    let stop = Arc::new(AtomicBool::new(false));
-    watch_signals(&stop, &store);
-    let bar = progress_bar(todo.len() as u64, done.len() as u64);
+    let session = Arc::new(Session::open(&plan, task.as_ref(), out, a.resume)?);
+    watch_signals(&session);
+    let bar = progress_bar(session.todo(), session.already_done());
     let tick = |n: u64| {
         if let Some(b) = &bar {
             b.set_position(n);
         }
     };
-    let outcome = sweep::run(
-        &plan.ast,
-        &plan.design,
-        task.as_ref(),
-        &todo,
-        &store,
-        &sweep::RunOptions {
-            threads,
-            stop: &stop,
-            progress: &tick,
-        },
-    )?;
+    let outcome = session.run(&plan, task.as_ref(), threads, &tick)?;
     if let Some(b) = &bar {
         b.finish_and_clear();
     }
@@ -341,12 +315,12 @@ pub fn run(a: SweepArgs) -> Result<()> {
     }
     let summary = report::sweep::SweepSummary {
         out,
-        fingerprint: &header.fingerprint,
+        fingerprint: session.fingerprint(),
         task: task.name(),
         points_total: plan.design.total(),
         shard: shard.map(|s| s.to_string()),
-        points_here: members.len() as u64,
-        already_done: done.len() as u64,
+        points_here: session.members(),
+        already_done: session.already_done(),
         written: outcome.written,
         failed: &outcome.failed,
         stopped: outcome.stopped,
@@ -357,53 +331,50 @@ pub fn run(a: SweepArgs) -> Result<()> {
     } else {
         super::print_stdout(&report::sweep::sweep_text(&summary))?;
     }
-    if outcome.stopped {
-        eprintln!(
-            "sweep stopped: {} of {} points are in {out}; run the same command with --resume to \
-             finish",
-            done.len() as u64 + outcome.written,
-            members.len()
-        );
-        std::process::exit(130);
+    match session.ending(&outcome) {
+        Ending::Complete => Ok(()),
+        Ending::Stopped { in_file, members } => {
+            eprintln!(
+                "sweep stopped: {in_file} of {members} points are in {out}; run the same command \
+                 with --resume to finish"
+            );
+            std::process::exit(130);
+        }
+        Ending::Failed {
+            failed,
+            members,
+            internal,
+        } => {
+            let first = &outcome.failed[0];
+            let text = format!(
+                "{failed} of {members} points failed (their lines in {out} carry `error`); \
+                 point {}: {}",
+                first.point, first.message
+            );
+            Err(if internal {
+                Error::Internal(text)
+            } else {
+                Error::Usage(text)
+            })
+        }
     }
-    if let Some(first) = outcome.failed.first() {
-        let text = format!(
-            "{} of {} points failed (their lines in {out} carry `error`); point {}: {}",
-            outcome.failed.len(),
-            members.len(),
-            first.point,
-            first.message
-        );
-        let any_internal = outcome.failed.iter().any(|f| f.fault == Fault::Internal);
-        return Err(if any_internal {
-            Error::Internal(text)
-        } else {
-            Error::Usage(text)
-        });
-    }
-    Ok(())
 }
 
 /// Ctrl-C (and SIGTERM, which a batch scheduler sends at a time limit): the first stops the
 /// sweep after the points in flight; a second exits at once, holding the file so no line is
 /// left half written.
-fn watch_signals(stop: &Arc<AtomicBool>, store: &Arc<Store>) {
-    let stop = Arc::clone(stop);
-    let store = Arc::clone(store);
-    let hits = AtomicUsize::new(0);
-    let installed = ctrlc::set_handler(move || {
-        if hits.fetch_add(1, Ordering::SeqCst) == 0 {
-            stop.store(true, Ordering::SeqCst);
-            eprintln!(
-                "\nstopping: the points in flight finish and are written (signal again to \
-                 abandon them)"
-            );
-        } else {
-            let _held = store.lock();
+fn watch_signals(session: &Arc<Session>) {
+    let session = Arc::clone(session);
+    let installed = ctrlc::set_handler(move || match session.interrupt() {
+        Interrupt::Stopping => eprintln!(
+            "\nstopping: the points in flight finish and are written (signal again to abandon \
+             them)"
+        ),
+        Interrupt::Abandon(_held) => {
             eprintln!(
                 "\nabandoned the points in flight; {} holds every finished point, --resume \
                  continues it",
-                store.path()
+                session.path()
             );
             std::process::exit(130);
         }

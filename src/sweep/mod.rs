@@ -3,9 +3,13 @@
 //! ```text
 //! --vary specs ─▶ spec::Vary ─▶ design::Design (grid | Latin hypercube, point seeds)
 //!                                   │
-//!            Job (network text + design + shard) ─▶ run::run ─▶ store::Store (JSON lines)
-//!                                   ▲                    │             │
-//!                              task::Task ◀──────────────┘   shard::merge (shard files → one)
+//!                 Job (network text + design + shard)
+//!                                   │
+//!                                   ▼
+//!    session::Session (opens or resumes the file; the points left; stop; how the run ended)
+//!                                   │
+//!            task::Task ──────▶ run::run ─▶ store::Store (JSON lines) ─▶ shard::merge
+//! ```
 //! ```
 //!
 //! A point is compiled from the file with its values ([`crate::network::Overrides`]) and handed
@@ -16,6 +20,7 @@
 pub mod design;
 pub mod response;
 pub mod run;
+pub mod session;
 pub mod shard;
 pub mod spec;
 pub mod store;
@@ -24,6 +29,7 @@ pub mod task;
 pub use design::{point_seed, Design, DesignKind};
 pub use response::{response, Axis, Response};
 pub use run::{run, FailedPoint, Fault, Outcome, RunOptions};
+pub use session::{Ending, Interrupt, Session};
 pub use shard::{merge, Merged, Shard};
 pub use spec::Vary;
 pub use store::{scan, Header, Store};

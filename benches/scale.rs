@@ -34,11 +34,27 @@ fn bench(c: &mut Criterion) {
         .warm_up_time(Duration::from_millis(500))
         .measurement_time(Duration::from_secs(4));
     for (spread, decades) in [("", 0.0), ("spread_", 12.0)] {
-        for m in SIZES {
+        for m in sizes() {
             one_size(&mut g, m, spread, decades);
         }
     }
     g.finish();
+}
+
+/// The sizes to run: `SCALE_SIZES` (a comma-separated list, for profiling one size under
+/// valgrind without building the others) or all of [`SIZES`].
+fn sizes() -> Vec<usize> {
+    match std::env::var("SCALE_SIZES") {
+        Ok(list) => list
+            .split(',')
+            .map(|m| {
+                m.trim()
+                    .parse()
+                    .expect("SCALE_SIZES: sizes separated by commas")
+            })
+            .collect(),
+        Err(_) => SIZES.to_vec(),
+    }
 }
 
 fn one_size(

@@ -34,7 +34,7 @@
 //! the observer's [`Observer::finish`] fills what remains of the grid. Nothing is allocated in
 //! the event loop.
 
-use super::compiled::{CompiledKernel, DenseTables, FlatRate, SmallTables};
+use super::compiled::{CompiledKernel, DenseTables, FlatRate, SmallTables, Updates};
 use super::observe::Observer;
 use super::rng::uniform;
 use super::select::{Rejection, SumTree};
@@ -118,15 +118,9 @@ impl<'k> Direct<'k> {
         };
         let selector = match selection {
             None => Selector::Small(vec![0.0; (m + 1).next_multiple_of(LANES) + 1]),
-            Some(Selection::Rejection) => Selector::Rejection(Box::new(RejectionState {
-                groups: Rejection::new(m),
-                kept: (0..m)
-                    .map(|j| Kept {
-                        rate: kernel.rate(j),
-                        a: 0.0,
-                    })
-                    .collect(),
-            })),
+            Some(Selection::Rejection) => {
+                Selector::Rejection(Box::new(RejectionState::new(kernel)))
+            }
             Some(_) => Selector::Tree(SumTree::new(&vec![0.0; m])),
         };
         let inputs = kernel.inputs();
@@ -279,8 +273,23 @@ fn dispatch<Tr: Triggers, R: Rng + Clone, O: Observer>(
         }
         Selector::Tree(tree) => run_loop::<_, _, _, Tr>(k, x, Tree { k, tree }, run),
         Selector::Rejection(state) => {
-            let RejectionState { groups, kept } = &mut **state;
-            run_loop::<_, _, _, Tr>(k, x, Groups { k, groups, kept }, run)
+            let RejectionState {
+                groups,
+                kept,
+                events,
+            } = &mut **state;
+            let events = events.as_ref();
+            run_loop::<_, _, _, Tr>(
+                k,
+                x,
+                Groups {
+                    k,
+                    groups,
+                    kept,
+                    events,
+                },
+                run,
+            )
         }
     }
 }
@@ -567,12 +576,99 @@ struct Kept {
     a: f64,
 }
 
-/// The buffers of composition–rejection selection: the groups, and each channel's rate with
-/// its propensity.
+/// The buffers of composition–rejection selection: the groups, each channel's rate with
+/// its propensity, and each reaction's event in one row.
 #[derive(Clone, Debug)]
 struct RejectionState {
     groups: Rejection,
     kept: Vec<Kept>,
+    events: Option<EventRows>,
+}
+
+impl RejectionState {
+    fn new(k: &CompiledKernel) -> RejectionState {
+        RejectionState {
+            groups: Rejection::new(k.reactions()),
+            kept: (0..k.reactions())
+                .map(|j| Kept {
+                    rate: k.rate(j),
+                    a: 0.0,
+                })
+                .collect(),
+            events: EventRows::new(k),
+        }
+    }
+}
+
+/// One entry of an [`EventRows`] row: a species and its change, or a dependent reaction
+/// (`delta` 0), or the row's header (`index` the number of changes).
+#[derive(Clone, Copy, Debug, PartialEq)]
+#[repr(C)]
+struct Entry {
+    index: u32,
+    delta: i32,
+}
+
+/// Everything a firing of reaction j reads besides the propensities, in one contiguous row:
+/// a header with the number of changes, the state changes, then the dependents (each once,
+/// in the order of the dependency row). In a large network the rows of changes and of
+/// dependents lie far apart, and each costs two loads of its offsets; one row costs one
+/// pair and, for the usual handful of entries, one or two cache lines. Built only where the
+/// graph is kept by reaction (by species it would grow beyond the network) and every change
+/// fits an i32.
+#[derive(Clone, Debug, PartialEq)]
+struct EventRows {
+    start: Vec<u32>,
+    entries: Vec<Entry>,
+}
+
+impl EventRows {
+    fn new(k: &CompiledKernel) -> Option<EventRows> {
+        let Updates::ByReaction(deps) = k.updates() else {
+            return None;
+        };
+        let mut start = vec![0u32];
+        let mut entries = Vec::new();
+        for j in 0..k.reactions() {
+            // SAFETY: j < reactions().
+            let change = unsafe { k.change_unchecked(j) };
+            entries.push(Entry {
+                index: u32::try_from(change.len()).ok()?,
+                delta: 0,
+            });
+            for &(i, d) in change {
+                entries.push(Entry {
+                    index: i,
+                    delta: i32::try_from(d).ok()?,
+                });
+            }
+            for &d in deps.row(j) {
+                entries.push(Entry { index: d, delta: 0 });
+            }
+            start.push(u32::try_from(entries.len()).ok()?);
+        }
+        Some(EventRows { start, entries })
+    }
+
+    /// Row j's changes and dependents.
+    ///
+    /// # Safety
+    ///
+    /// j < the number of reactions of the kernel the rows were built from.
+    #[inline(always)]
+    unsafe fn row(&self, j: usize) -> (&[Entry], &[Entry]) {
+        // SAFETY: start has reactions() + 1 non-decreasing offsets ending at entries.len(),
+        // and each row begins with its header, whose count of changes fits the row.
+        unsafe {
+            let s = *self.start.get_unchecked(j) as usize;
+            let e = *self.start.get_unchecked(j + 1) as usize;
+            let n = self.entries.get_unchecked(s).index as usize;
+            (
+                self.entries.get_unchecked(s + 1..s + 1 + n),
+                self.entries.get_unchecked(s + 1 + n..e),
+            )
+        }
+    }
 }
 
 /// A large network: the rows of [`CompiledKernel`] and the composition–rejection groups of
@@ -581,6 +677,7 @@ struct Groups<'a> {
     k: &'a CompiledKernel,
     groups: &'a mut Rejection,
     kept: &'a mut [Kept],
+    events: Option<&'a EventRows>,
 }
 
 impl Channels for Groups<'_> {
@@ -623,11 +720,32 @@ impl Channels for Groups<'_> {
         params: &[f64],
     ) -> bool {
         debug_assert!(j < self.k.reactions() && x.len() == self.k.species + 1);
-        // SAFETY: j < reactions(); change rows name species < x.len() (construction).
-        let over = unsafe { apply(self.k.change_unchecked(j), x, t, obs) };
         let k = self.k;
         let groups = &mut *self.groups;
         let kept = &mut *self.kept;
+        if let Some(events) = self.events {
+            // SAFETY: j < reactions(); the rows are k's (construction), so they name species
+            // < x.len() and reactions < kept.len().
+            let (change, deps) = unsafe { events.row(j) };
+            let mut over = false;
+            for c in change {
+                let v = unsafe { x.get_unchecked_mut(c.index as usize) };
+                let d = i64::from(c.delta);
+                obs.moved(t, c.index as usize, *v, d);
+                *v += d;
+                over |= *v > MAX_COUNT;
+            }
+            for dep in deps {
+                let d = dep.index as usize;
+                let e = unsafe { kept.get_unchecked_mut(d) };
+                let a = unsafe { k.rate_unchecked(&e.rate, x, params, t) };
+                groups.set(d, e.a, a);
+                e.a = a;
+            }
+            return over;
+        }
+        // SAFETY: j < reactions(); change rows name species < x.len() (construction).
+        let over = unsafe { apply(k.change_unchecked(j), x, t, obs) };
         // SAFETY: as for the sum tree; kept.len() == reactions(), and its rates are k's.
         updates(k, j, |d| {
             let e = unsafe { kept.get_unchecked_mut(d) };
@@ -1257,19 +1375,15 @@ mod tests {
                 tree: &mut tree,
             },
         );
-        let mut groups = Rejection::new(k.reactions());
-        let mut kept: Vec<Kept> = (0..k.reactions())
-            .map(|j| Kept {
-                rate: k.rate(j),
-                a: 0.0,
-            })
-            .collect();
+        let mut state = RejectionState::new(&k);
+        assert!(state.events.is_some() == matches!(k.updates(), Updates::ByReaction(_)));
         check_kept(
             &k,
             Groups {
                 k: &k,
-                groups: &mut groups,
-                kept: &mut kept,
+                groups: &mut state.groups,
+                kept: &mut state.kept,
+                events: state.events.as_ref(),
             },
         );
     }

@@ -191,6 +191,31 @@ fn plotted(a: &SimulateArgs, net: &crate::Network) -> Result<Vec<usize>> {
         .collect()
 }
 
+/// The document of an imported SBML model, whose symbols the JSON grid reports by id (none for
+/// a `.crn` file).
+fn sbml_document(file: &str) -> Result<Option<crate::sbml::Document>> {
+    if !crate::sbml::is_sbml_path(file) {
+        return Ok(None);
+    }
+    let bytes = std::fs::read(file).map_err(|e| Error::io(file, e))?;
+    let imported = crate::sbml::import(&bytes).map_err(|errs| {
+        let text = String::from_utf8_lossy(&bytes);
+        Error::Input(errs.iter().map(|e| e.diagnostic(file, &text)).collect())
+    })?;
+    Ok(Some(imported.document))
+}
+
+/// Adds an imported model's symbols (`doc`) to a grid, with its units and what is left out.
+fn add_model(
+    net: &crate::Network,
+    doc: &crate::sbml::Document,
+    grid: &report::simulate::ModelGrid,
+    series: &mut report::schema::Named<report::simulate::Series>,
+) -> Result<(report::simulate::ModelUnits, Option<String>)> {
+    let out = crate::sbml::output::Output::new(doc, net).map_err(Error::usage)?;
+    Ok(report::simulate::model_series(net, &out, grid, series))
+}
+
 /// Writes `text` to `path`.
 fn write(path: &str, text: String) -> Result<()> {
     std::fs::write(path, text).map_err(|e| Error::io(path.to_string(), e))
@@ -201,6 +226,11 @@ pub fn run(a: &SimulateArgs) -> Result<()> {
     spec.validate()?;
     let net = load(&a.file, &Overrides::default())?;
     super::print_warnings(&net);
+    let sbml = if a.json {
+        sbml_document(&a.file)?
+    } else {
+        None
+    };
     let species = plotted(a, &net)?;
     if a.method == MethodArg::Ode {
         let (tr, wall) = ode(a, &net)?;
@@ -212,7 +242,14 @@ pub fn run(a: &SimulateArgs) -> Result<()> {
                 .map_err(|e| Error::io(path.clone(), e))?;
         }
         return if a.json {
-            super::print_json(&report::simulate::ode_json(&net, &tr, a.t_end, wall))
+            let mut d = report::simulate::ode_document(&net, &tr, a.t_end, wall);
+            if let Some(doc) = &sbml {
+                let grid = report::simulate::ModelGrid::ode(&net, &tr);
+                let (units, note) = add_model(&net, doc, &grid, &mut d.grid.series)?;
+                d.model_units = Some(units);
+                d.model_note = note;
+            }
+            super::print_json(&report::schema::to_value(&d))
         } else {
             super::print_stdout(&report::simulate::ode_table(&net, &tr, a.t_end, wall))
         };
@@ -230,11 +267,14 @@ pub fn run(a: &SimulateArgs) -> Result<()> {
         )?;
     }
     if a.json {
-        super::print_json(&report::simulate::json_with_exact(
-            &net,
-            &result,
-            exact.as_ref(),
-        ))
+        let mut d = report::simulate::document_with_exact(&net, &result, exact.as_ref());
+        if let Some(doc) = &sbml {
+            let grid = report::simulate::ModelGrid::ensemble(&net, &result);
+            let (units, note) = add_model(&net, doc, &grid, &mut d.grid.series)?;
+            d.model_units = Some(units);
+            d.model_note = note;
+        }
+        super::print_json(&report::schema::to_value(&d))
     } else {
         let mut text = report::simulate::table(&net, &result);
         if let Some(e) = &exact {

@@ -84,6 +84,13 @@ pub struct EnsembleDocument<'a> {
     pub firings: Named<Firings>,
     pub firings_first_half: Named<MeanSd>,
     pub grid: Grid,
+    /// An imported SBML model's own units (the grid then holds every species, parameter and
+    /// compartment of the model by id).
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub model_units: Option<ModelUnits>,
+    /// What of an imported model the grid leaves out, and why.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub model_note: Option<String>,
     /// The comparison with the exact distribution (`--exact`); null where the network does
     /// not fit a finite state projection, with `exact_note` saying why.
     #[serde(skip_serializing_if = "Option::is_none")]
@@ -150,6 +157,15 @@ pub struct MeanSd {
     pub sd: f64,
 }
 
+/// The units of an imported model, as its unit attributes name them (`unspecified` where it
+/// declares none): the grid's `amount_mean`, params and compartments are in these.
+#[derive(Serialize, JsonSchema, Clone, Debug)]
+pub struct ModelUnits {
+    pub substance: String,
+    pub volume: String,
+    pub time: String,
+}
+
 /// The grid: `time`, then one series per species and per param that changes during the run.
 #[derive(Serialize, JsonSchema)]
 pub struct Grid {
@@ -160,7 +176,7 @@ pub struct Grid {
 
 /// One column of the grid. Species: the mean (and, for an ensemble, the SD) in molecules,
 /// and in concentration where the compartment has a volume. Params: `kind` is `"param"`.
-#[derive(Serialize, JsonSchema)]
+#[derive(Serialize, JsonSchema, Default)]
 pub struct Series {
     pub mean: Vec<f64>,
     #[serde(skip_serializing_if = "Option::is_none")]
@@ -169,6 +185,15 @@ pub struct Series {
     pub concentration: Option<Concentration>,
     #[serde(skip_serializing_if = "Option::is_none")]
     pub kind: Option<SeriesKind>,
+    /// An imported model's species: its amount in the model's own substance unit
+    /// (`model_units`), which `mean` gives in `amount_unit`.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub amount_mean: Option<Vec<f64>>,
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub amount_sd: Option<Vec<f64>>,
+    /// Computed by an SBML assignment rule rather than held as a state.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub assigned: Option<bool>,
 }
 
 /// What a grid series that is not a species holds.
@@ -176,6 +201,8 @@ pub struct Series {
 #[serde(rename_all = "snake_case")]
 pub enum SeriesKind {
     Param,
+    /// An imported model's compartment: its size in the model's volume unit.
+    Compartment,
 }
 
 /// A species series in concentration (mol/L under `_molar`, the file's unit under
@@ -207,6 +234,13 @@ pub struct OdeDocument {
     #[serde(rename = "final")]
     pub final_state: Named<OdeFinal>,
     pub grid: Grid,
+    /// An imported SBML model's own units (the grid then holds every species, parameter and
+    /// compartment of the model by id).
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub model_units: Option<ModelUnits>,
+    /// What of an imported model the grid leaves out, and why.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub model_note: Option<String>,
 }
 
 /// A species' final deterministic value, in the amount unit and in concentration.
@@ -298,6 +332,7 @@ pub fn document<'a>(net: &Network, r: &EnsembleResult) -> EnsembleDocument<'a> {
                     }
                 }),
                 kind: None,
+                ..Series::default()
             },
         );
     }
@@ -312,6 +347,7 @@ pub fn document<'a>(net: &Network, r: &EnsembleResult) -> EnsembleDocument<'a> {
                 sd: Some(col(&|w| w.sd())),
                 concentration: None,
                 kind: Some(SeriesKind::Param),
+                ..Series::default()
             },
         );
     }
@@ -337,6 +373,8 @@ pub fn document<'a>(net: &Network, r: &EnsembleResult) -> EnsembleDocument<'a> {
             time: r.grid_times.clone(),
             series,
         },
+        model_units: None,
+        model_note: None,
         exact: None,
         exact_note: None,
     }
@@ -535,6 +573,7 @@ pub fn ode_document(net: &Network, tr: &Trajectory, t_end: f64, wall_seconds: f6
                     }
                 }),
                 kind: None,
+                ..Series::default()
             },
         );
         final_state.insert(
@@ -554,6 +593,7 @@ pub fn ode_document(net: &Network, tr: &Trajectory, t_end: f64, wall_seconds: f6
                 sd: None,
                 concentration: None,
                 kind: Some(SeriesKind::Param),
+                ..Series::default()
             },
         );
     }
@@ -571,6 +611,8 @@ pub fn ode_document(net: &Network, tr: &Trajectory, t_end: f64, wall_seconds: f6
             time: tr.times.clone(),
             series,
         },
+        model_units: None,
+        model_note: None,
     }
 }
 
@@ -819,6 +861,15 @@ pub fn json_with_exact(
     r: &EnsembleResult,
     exact: Option<&Result<crate::distribution::compare::ExactComparison, String>>,
 ) -> Value {
+    super::schema::to_value(&document_with_exact(net, r, exact))
+}
+
+/// The typed document of [`json_with_exact`].
+pub fn document_with_exact<'a>(
+    net: &Network,
+    r: &EnsembleResult,
+    exact: Option<&'a Result<crate::distribution::compare::ExactComparison, String>>,
+) -> EnsembleDocument<'a> {
     let mut doc = document(net, r);
     match exact {
         Some(Ok(c)) => doc.exact = Some(Exact::Compared(c)),
@@ -828,7 +879,7 @@ pub fn json_with_exact(
         }
         None => {}
     }
-    super::schema::to_value(&doc)
+    doc
 }
 
 /// The comparison with the exact law: per species the largest |Z| and |Y| over the grid and
@@ -862,4 +913,160 @@ pub fn exact_table(
         "a correct simulator gives |Z| < 3 at nearly every point (about 1 in 370 by chance) and |Y| < 5\n",
     );
     out
+}
+
+/// A run's grid as an imported model's symbols read it ([`crate::sbml::output`]): at grid
+/// point `k`, the counts of the network's species (means over replicates), the values of all
+/// its params, and, for an ensemble, the SD of network species `i` and param `p`.
+pub struct ModelGrid<'a> {
+    pub times: &'a [f64],
+    pub counts: Vec<Vec<f64>>,
+    pub params: Vec<Vec<f64>>,
+    /// `(species SD by index, param SD by index)` per grid point; none for the ODE.
+    pub sd: Option<Vec<(Vec<f64>, Vec<f64>)>>,
+    pub replicates: u64,
+}
+
+impl<'a> ModelGrid<'a> {
+    /// The grid of an ensemble: means and SDs over replicates.
+    pub fn ensemble(net: &Network, r: &'a EnsembleResult) -> ModelGrid<'a> {
+        let base: Vec<f64> = net.params.iter().map(|p| p.value.value).collect();
+        let mut counts = Vec::new();
+        let mut params = Vec::new();
+        let mut sd = Vec::new();
+        for (k, row) in r.grid.iter().enumerate() {
+            counts.push(row.iter().map(Welford::mean).collect());
+            let mut p = base.clone();
+            let mut p_sd = vec![0.0; base.len()];
+            for (q, &index) in r.varying_params.iter().enumerate() {
+                p[index] = r.grid_params[k][q].mean();
+                p_sd[index] = r.grid_params[k][q].sd();
+            }
+            params.push(p);
+            sd.push((row.iter().map(Welford::sd).collect(), p_sd));
+        }
+        ModelGrid {
+            times: &r.grid_times,
+            counts,
+            params,
+            sd: Some(sd),
+            replicates: r.spec.replicates,
+        }
+    }
+
+    /// The grid of an ODE trajectory.
+    pub fn ode(net: &Network, tr: &'a Trajectory) -> ModelGrid<'a> {
+        ModelGrid {
+            times: &tr.times,
+            counts: ode_counts(net, tr),
+            params: tr.params.clone(),
+            sd: None,
+            replicates: 1,
+        }
+    }
+}
+
+/// Puts every species (amount and concentration), parameter and compartment of an imported
+/// model into `series` by SBML id, in the model's own units; returns the units and a note
+/// naming what is left out. A rule-computed value is left out of an ensemble of several
+/// replicates: the mean of a nonlinear rule over replicates is not the rule at the mean
+/// state, and the replicates' own values are not kept.
+pub fn model_series(
+    net: &Network,
+    out: &crate::sbml::output::Output,
+    grid: &ModelGrid,
+    series: &mut Named<Series>,
+) -> (ModelUnits, Option<String>) {
+    use crate::sbml::output::{Held, SymbolKind};
+    let rows: Vec<Vec<crate::sbml::output::Value>> = (0..grid.times.len())
+        .map(|k| out.values(&grid.counts[k], &grid.params[k], grid.times[k]))
+        .collect();
+    let mut left_out = Vec::new();
+    let per_count = crate::sbml::map::model_amount_per_count(net);
+    let Some(first) = rows.first() else {
+        let u = out.units();
+        return (
+            ModelUnits {
+                substance: u.substance,
+                volume: u.volume,
+                time: u.time,
+            },
+            None,
+        );
+    };
+    for (n, v) in first.iter().enumerate() {
+        if v.ruled && grid.replicates > 1 {
+            left_out.push(v.id.clone());
+            continue;
+        }
+        let col = |f: &dyn Fn(&crate::sbml::output::Value) -> f64| -> Vec<f64> {
+            rows.iter().map(|row| f(&row[n])).collect()
+        };
+        let sd = grid.sd.as_ref().map(|sd| {
+            sd.iter()
+                .map(|(s, p)| match v.held {
+                    Some(Held::Species { index, scale }) => s[index] * scale,
+                    Some(Held::Param { index, scale }) => p[index] * scale,
+                    None => 0.0,
+                })
+                .collect::<Vec<f64>>()
+        });
+        let entry = match v.kind {
+            SymbolKind::Species => {
+                let amount = col(&|x| x.value);
+                let conc = col(&|x| x.concentration.unwrap_or(f64::NAN));
+                let size = out.species_size(&v.id).unwrap_or(f64::NAN);
+                let conc_sd = sd
+                    .as_ref()
+                    .map(|sd| sd.iter().map(|s| s / size).collect::<Vec<f64>>());
+                let compartment = out.compartment_of(&v.id);
+                let to_unit = 1.0 / (per_count * net.amount.count_per_amount);
+                Series {
+                    mean: amount.iter().map(|a| a * to_unit).collect(),
+                    sd: sd.as_ref().map(|s| s.iter().map(|a| a * to_unit).collect()),
+                    concentration: Some(Concentration {
+                        mean_molar: conc.clone(),
+                        sd_molar: conc_sd.clone(),
+                        concentration_mean: conc,
+                        concentration_sd: conc_sd,
+                        concentration_unit: net.amount.concentration_unit.clone(),
+                        compartment,
+                    }),
+                    kind: None,
+                    amount_mean: Some(amount),
+                    amount_sd: sd,
+                    assigned: v.ruled.then_some(true),
+                }
+            }
+            SymbolKind::Parameter | SymbolKind::Compartment => Series {
+                mean: col(&|x| x.value),
+                sd,
+                concentration: None,
+                kind: Some(if v.kind == SymbolKind::Parameter {
+                    SeriesKind::Param
+                } else {
+                    SeriesKind::Compartment
+                }),
+                assigned: v.ruled.then_some(true),
+                ..Series::default()
+            },
+        };
+        series.insert(v.id.clone(), entry);
+    }
+    let u = out.units();
+    let note = (!left_out.is_empty()).then(|| {
+        format!(
+            "left out of an ensemble of {} replicates: {} (set by assignment rules, whose mean over replicates is not the rule at the mean state; a single replicate or --method ode reports them)",
+            grid.replicates,
+            left_out.join(", ")
+        )
+    });
+    (
+        ModelUnits {
+            substance: u.substance,
+            volume: u.volume,
+            time: u.time,
+        },
+        note,
+    )
 }

@@ -20,6 +20,7 @@ pub mod map;
 pub mod math;
 pub mod model;
 pub mod monomial;
+pub mod output;
 pub mod read;
 pub mod units;
 pub mod validate;

@@ -116,8 +116,49 @@ fn crn_and_both_sbml_levels_give_identical_json() {
             )
         })
         .collect();
-    assert_eq!(sims[0], sims[1]);
-    assert_eq!(sims[0], sims[2]);
+    // The SBML runs add the model's own output (its units, every parameter and compartment
+    // on the grid, each species' amount in the model's substance unit: items here, so equal
+    // to `mean`; and its concentration in the compartment `cell` of size 1, equal again,
+    // which the .crn file, without a volume, has not); without it, the three documents are
+    // the same.
+    let plain: Vec<serde_json::Value> = sims
+        .iter()
+        .map(|v| {
+            let mut v = v.clone();
+            let o = v.as_object_mut().unwrap();
+            o.remove("model_units");
+            let grid = o["grid"].as_object_mut().unwrap();
+            grid.retain(|_, e| e.get("kind").is_none());
+            for e in grid.values_mut().filter_map(|e| e.as_object_mut()) {
+                if let Some(a) = e.remove("amount_mean") {
+                    assert_eq!(a, e["mean"]);
+                }
+                if let Some(a) = e.remove("amount_sd") {
+                    assert_eq!(a, e["sd"]);
+                }
+                if e.remove("compartment").is_some() {
+                    for (key, same) in [
+                        ("mean_molar", "mean"),
+                        ("sd_molar", "sd"),
+                        ("concentration_mean", "mean"),
+                        ("concentration_sd", "sd"),
+                    ] {
+                        let c = e.remove(key).unwrap();
+                        assert_eq!(c, e[same], "{key}");
+                    }
+                    e.remove("concentration_unit");
+                }
+            }
+            v
+        })
+        .collect();
+    assert!(
+        sims[0].get("model_units").is_none(),
+        "the .crn run has no model output"
+    );
+    assert_eq!(plain[0], sims[0]);
+    assert_eq!(plain[0], plain[1]);
+    assert_eq!(plain[0], plain[2]);
 }
 
 // --- level defaults ------------------------------------------------------------------------
@@ -496,7 +537,17 @@ fn an_assignment_rule_on_a_species_is_computed_where_it_is_read() {
     );
     assert_eq!(code, Some(0), "{msg}");
     let v: serde_json::Value = serde_json::from_str(&out).unwrap();
-    assert!(v["grid"]["B"].is_null(), "B is computed, not a state: {v}");
+    assert!(v["final"]["B"].is_null(), "B is computed, not a state: {v}");
+    assert_eq!(v["grid"]["B"]["assigned"], true, "{v}");
+    let a = v["grid"]["A"]["mean"].as_array().unwrap();
+    let b = v["grid"]["B"]["mean"].as_array().unwrap();
+    for (a, b) in a.iter().zip(b) {
+        assert_eq!(
+            b.as_f64().unwrap(),
+            2.0 * a.as_f64().unwrap(),
+            "B = 2·A on the grid"
+        );
+    }
     let c = v["grid"]["C"]["mean"].as_array().unwrap();
     for (k, t) in [0.0f64, 1.0, 2.0].into_iter().enumerate() {
         let want = 20.0 * (1.0 - (-t).exp());

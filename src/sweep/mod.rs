@@ -10,7 +10,6 @@
 //!                                   │
 //!            task::Task ──────▶ run::run ─▶ store::Store (JSON lines) ─▶ shard::merge
 //! ```
-//! ```
 //!
 //! A point is compiled from the file with its values ([`crate::network::Overrides`]) and handed
 //! to a [`Task`], which returns the JSON document its command prints. Point i's seed comes from

@@ -112,7 +112,6 @@ fn ode(a: &SimulateArgs, net: &crate::Network) -> Result<(crate::deterministic::
     Ok((tr, started.elapsed().as_secs_f64()))
 }
 
-/// The `--json` document for one sweep point.
 /// What the options mean, for a sweep's fingerprint (the sweep owns the seed, the threads and
 /// the output files).
 pub(crate) fn identity(a: &SimulateArgs) -> Result<serde_json::Value> {
@@ -191,20 +190,6 @@ fn plotted(a: &SimulateArgs, net: &crate::Network) -> Result<Vec<usize>> {
         .collect()
 }
 
-/// The document of an imported SBML model, whose symbols the JSON grid reports by id (none for
-/// a `.crn` file).
-fn sbml_document(file: &str) -> Result<Option<crate::sbml::Document>> {
-    if !crate::sbml::is_sbml_path(file) {
-        return Ok(None);
-    }
-    let bytes = std::fs::read(file).map_err(|e| Error::io(file, e))?;
-    let imported = crate::sbml::import(&bytes).map_err(|errs| {
-        let text = String::from_utf8_lossy(&bytes);
-        Error::Input(errs.iter().map(|e| e.diagnostic(file, &text)).collect())
-    })?;
-    Ok(Some(imported.document))
-}
-
 /// Adds an imported model's symbols (`doc`) to a grid, with its units and what is left out.
 fn add_model(
     net: &crate::Network,
@@ -224,13 +209,14 @@ fn write(path: &str, text: String) -> Result<()> {
 pub fn run(a: &SimulateArgs) -> Result<()> {
     let spec = a.spec();
     spec.validate()?;
-    let net = load(&a.file, &Overrides::default())?;
-    super::print_warnings(&net);
-    let sbml = if a.json {
-        sbml_document(&a.file)?
+    // An imported model's JSON grid also reports its own symbols by id, from its document.
+    let (net, sbml) = if a.json && crate::sbml::is_sbml_path(&a.file) {
+        let (net, doc) = crate::sbml::load_with_document(&a.file, &Overrides::default())?;
+        (net, Some(doc))
     } else {
-        None
+        (load(&a.file, &Overrides::default())?, None)
     };
+    super::print_warnings(&net);
     let species = plotted(a, &net)?;
     if a.method == MethodArg::Ode {
         let (tr, wall) = ode(a, &net)?;

@@ -81,6 +81,11 @@ struct InitialArgs {
     file: String,
 }
 
+/// The identity of a task without options of its own.
+fn no_options<A>(_: &A) -> Result<Value> {
+    Ok(Value::Object(Map::new()))
+}
+
 /// Builds the task a sweep runs from its name and its command's options (`file` stands in
 /// for the command's FILE).
 ///
@@ -92,20 +97,12 @@ struct InitialArgs {
 fn task(name: &str, file: &str, options: &[String]) -> Result<Box<dyn Task>> {
     use super::{check, noise, reconcile, simulate, steady};
     match name {
-        "check" => args_task::<check::CheckArgs>(
-            "check",
-            file,
-            options,
-            |_| Ok(Value::Object(Map::new())),
-            |_, p| Ok(report::check::json(p.net)),
-        ),
-        "initial" => args_task::<InitialArgs>(
-            "initial",
-            file,
-            options,
-            |_| Ok(Value::Object(Map::new())),
-            |_, p| Ok(report::sweep::initial(p.net)),
-        ),
+        "check" => args_task::<check::CheckArgs>("check", file, options, no_options, |_, p| {
+            Ok(report::check::json(p.net))
+        }),
+        "initial" => args_task::<InitialArgs>("initial", file, options, no_options, |_, p| {
+            Ok(report::sweep::initial(p.net))
+        }),
         "simulate" => args_task::<simulate::SimulateArgs>(
             "simulate",
             file,
@@ -113,13 +110,9 @@ fn task(name: &str, file: &str, options: &[String]) -> Result<Box<dyn Task>> {
             simulate::identity,
             simulate::document,
         ),
-        "steady" => args_task::<steady::SteadyArgs>(
-            "steady",
-            file,
-            options,
-            |_| Ok(Value::Object(Map::new())),
-            steady::document,
-        ),
+        "steady" => {
+            args_task::<steady::SteadyArgs>("steady", file, options, no_options, steady::document)
+        }
         "reconcile" => args_task::<reconcile::ReconcileArgs>(
             "reconcile",
             file,

@@ -82,12 +82,27 @@ pub fn syntax_tree(file: &str, bytes: &[u8]) -> Result<crate::network::parser::A
 
 /// Reads the SBML file at `path` and compiles it to a network.
 pub fn load(path: &str, overrides: &Overrides) -> Result<Network, Error> {
+    load_with_document(path, overrides).map(|(net, _)| net)
+}
+
+/// As [`load`], keeping the imported document beside the network, for output that reports
+/// the model's own symbols by id.
+pub fn load_with_document(path: &str, overrides: &Overrides) -> Result<(Network, Document), Error> {
     let bytes = std::fs::read(path).map_err(|e| Error::io(path, e))?;
-    load_source(path, &bytes, overrides)
+    compile_source(path, &bytes, overrides)
 }
 
 /// Compiles SBML `bytes` (the file called `file`) to a network.
 pub fn load_source(file: &str, bytes: &[u8], overrides: &Overrides) -> Result<Network, Error> {
+    compile_source(file, bytes, overrides).map(|(net, _)| net)
+}
+
+/// The network of SBML `bytes` and the document it was compiled from.
+fn compile_source(
+    file: &str,
+    bytes: &[u8],
+    overrides: &Overrides,
+) -> Result<(Network, Document), Error> {
     let text = String::from_utf8_lossy(bytes);
     let diagnostics = |errs: Vec<SbmlError>| {
         Error::Input(errs.iter().map(|e| e.diagnostic(file, &text)).collect())
@@ -100,5 +115,5 @@ pub fn load_source(file: &str, bytes: &[u8], overrides: &Overrides) -> Result<Ne
             .iter()
             .map(|w| w.diagnostic(file, &text).warning()),
     );
-    Ok(net)
+    Ok((net, imported.document))
 }
